@@ -1,0 +1,106 @@
+// The Electron main process: one sandboxed window serving the built renderer from a private
+// scheme, the IPC handlers registered generically from the contract, and nothing more.
+
+import { app, BrowserWindow, ipcMain, net, protocol, session, type IpcMainInvokeEvent, type WebContents } from 'electron';
+import { hostname } from 'node:os';
+import { join, normalize, sep } from 'node:path';
+import { fileURLToPath, pathToFileURL } from 'node:url';
+import { IPC_CHANNELS, ipcChannelName } from '../../shared/ipc/channels.ts';
+import { dispatch, type CallerContext } from '../services/handlers.ts';
+import { openStation } from '../services/station.ts';
+
+const APP_SCHEME = 'trimbench';
+const APP_ORIGIN = `${APP_SCHEME}://app`;
+const here = fileURLToPath(new URL('.', import.meta.url));
+const rendererDir = join(here, '../renderer');
+// Set by `electron-vite dev` to its dev server; absent in a built app.
+const devServerUrl = process.env['ELECTRON_RENDERER_URL'];
+const appUrlPrefix = devServerUrl ? new URL(devServerUrl).origin : APP_ORIGIN;
+
+protocol.registerSchemesAsPrivileged([
+  { scheme: APP_SCHEME, privileges: { standard: true, secure: true, supportFetchAPI: true } },
+]);
+
+const isAppUrl = (url: string | undefined): boolean => !!url && (url === appUrlPrefix || url.startsWith(`${appUrlPrefix}/`));
+
+function serveRenderer(): void {
+  protocol.handle(APP_SCHEME, (request) => {
+    const url = new URL(request.url);
+    const file = normalize(join(rendererDir, decodeURIComponent(url.pathname === '/' ? '/index.html' : url.pathname)));
+    if (url.host !== 'app' || !file.startsWith(rendererDir + sep)) return new Response('Not found', { status: 404 });
+    return net.fetch(pathToFileURL(file).toString());
+  });
+}
+
+function lockDownSessions(): void {
+  const appSession = session.defaultSession;
+  // Audio capture (and choosing the output device) only for our own page; nothing else, ever.
+  appSession.setPermissionRequestHandler((_contents, permission, callback, details) => {
+    const audioOnly = permission === 'media' && (details as { mediaTypes?: string[] }).mediaTypes?.every((t) => t === 'audio');
+    callback(isAppUrl(details.requestingUrl) && (audioOnly === true || permission === 'speaker-selection'));
+  });
+  appSession.setPermissionCheckHandler((_contents, permission, origin) =>
+    isAppUrl(origin) && (permission === 'media' || permission === 'speaker-selection'),
+  );
+  app.on('web-contents-created', (_event, contents) => {
+    contents.on('will-navigate', (event, url) => {
+      if (!isAppUrl(url)) event.preventDefault();
+    });
+    contents.setWindowOpenHandler(() => ({ action: 'deny' }));
+    contents.on('will-attach-webview', (event) => event.preventDefault());
+  });
+}
+
+function callerContext(sender: WebContents): CallerContext {
+  return {
+    printToPdf: async () => sender.printToPDF({ pageSize: 'A4', printBackground: true }),
+    print: () => new Promise((resolve) => sender.print({ silent: false, printBackground: true }, (success) => resolve(success))),
+  };
+}
+
+function registerIpc(handlers: ReturnType<typeof openStation>['handlers']): void {
+  for (const channel of IPC_CHANNELS) {
+    ipcMain.handle(ipcChannelName(channel), (event: IpcMainInvokeEvent, payload: unknown) => {
+      // Only our own page's top frame may call; an injected frame or foreign page may not.
+      if (event.senderFrame !== event.sender.mainFrame || !isAppUrl(event.senderFrame?.url)) {
+        return { ok: false, error: { name: 'Forbidden', message: 'Request from outside the Trimbench page refused.' } };
+      }
+      return dispatch(handlers, channel, payload, callerContext(event.sender));
+    });
+  }
+}
+
+function createWindow(): BrowserWindow {
+  const window = new BrowserWindow({
+    width: 1400,
+    height: 900,
+    title: 'Trimbench',
+    backgroundColor: '#f4f4f1',
+    webPreferences: {
+      preload: join(here, '../preload/index.cjs'),
+      contextIsolation: true,
+      sandbox: true,
+      nodeIntegration: false,
+      webSecurity: true,
+      spellcheck: false,
+    },
+  });
+  void window.loadURL(devServerUrl ?? `${APP_ORIGIN}/index.html`);
+  return window;
+}
+
+app.whenReady().then(() => {
+  const station = openStation({ dataDir: app.getPath('userData'), stationName: hostname() });
+  app.on('will-quit', () => station.close());
+  serveRenderer();
+  lockDownSessions();
+  registerIpc(station.handlers);
+  createWindow();
+  app.on('activate', () => {
+    if (BrowserWindow.getAllWindows().length === 0) createWindow();
+  });
+});
+
+app.on('window-all-closed', () => {
+  if (process.platform !== 'darwin') app.quit();
+});

@@ -1,0 +1,101 @@
+// The station's SQLite file: WAL journal, foreign keys on, numbered forward-only migrations.
+// A finished run is frozen by triggers, so no code path (or bug) can edit one afterwards.
+
+import Database from 'better-sqlite3';
+import { ExpectedFailure } from './expected-failure.ts';
+
+export type Db = Database.Database;
+
+/** Index i holds the migration to user_version i + 1. Never edit one that has shipped; add another. */
+export const MIGRATIONS: readonly string[] = [
+  `
+  CREATE TABLE procedures (
+    id INTEGER PRIMARY KEY,
+    code TEXT NOT NULL,
+    revision TEXT NOT NULL,
+    definition_json TEXT NOT NULL,
+    UNIQUE (code, revision)
+  );
+  CREATE TABLE units (
+    id INTEGER PRIMARY KEY,
+    serial TEXT NOT NULL UNIQUE,
+    model_code TEXT NOT NULL,
+    created_at TEXT NOT NULL
+  );
+  CREATE TABLE runs (
+    id INTEGER PRIMARY KEY,
+    unit_id INTEGER NOT NULL REFERENCES units(id),
+    procedure_id INTEGER NOT NULL REFERENCES procedures(id),
+    operator TEXT NOT NULL,
+    station TEXT NOT NULL,
+    started_at TEXT NOT NULL,
+    finished_at TEXT,
+    verdict TEXT CHECK (verdict IN ('pass', 'fail')),
+    final_thd_db REAL,
+    limit_thd_db REAL NOT NULL,
+    sheet_pdf_path TEXT
+  );
+  CREATE INDEX runs_by_unit ON runs (unit_id);
+  CREATE TABLE trim_points (
+    id INTEGER PRIMARY KEY,
+    run_id INTEGER NOT NULL REFERENCES runs(id),
+    sequence INTEGER NOT NULL,
+    position REAL NOT NULL,
+    recorded_at TEXT NOT NULL,
+    settled INTEGER NOT NULL CHECK (settled IN (0, 1)),
+    thd_db REAL NOT NULL,
+    reading_json TEXT NOT NULL,
+    UNIQUE (run_id, sequence)
+  );
+  CREATE TRIGGER trim_points_of_finished_run BEFORE INSERT ON trim_points
+    WHEN (SELECT finished_at FROM runs WHERE id = NEW.run_id) IS NOT NULL
+    BEGIN SELECT RAISE(ABORT, 'the run is finished; trim points cannot be added'); END;
+  CREATE TRIGGER trim_points_never_change BEFORE UPDATE ON trim_points
+    BEGIN SELECT RAISE(ABORT, 'recorded trim points are never edited'); END;
+  CREATE TRIGGER trim_points_never_deleted BEFORE DELETE ON trim_points
+    BEGIN SELECT RAISE(ABORT, 'recorded trim points are never deleted'); END;
+  CREATE TRIGGER finished_runs_frozen
+    BEFORE UPDATE OF unit_id, procedure_id, operator, station, started_at, finished_at, verdict, final_thd_db, limit_thd_db ON runs
+    WHEN OLD.finished_at IS NOT NULL
+    BEGIN SELECT RAISE(ABORT, 'a finished run is never edited'); END;
+  CREATE TRIGGER runs_never_deleted BEFORE DELETE ON runs
+    BEGIN SELECT RAISE(ABORT, 'runs are never deleted'); END;
+  `,
+];
+
+/**
+ * Opens (creating if needed) and migrates the database. Before migrating an existing file it
+ * writes a copy beside it; a file from a newer Trimbench is refused rather than guessed at.
+ */
+export function openDatabase(file: string): Db {
+  const db = new Database(file);
+  try {
+    db.pragma('journal_mode = WAL');
+    db.pragma('foreign_keys = ON');
+    // Every write the technician has seen confirmed must survive a power cut.
+    db.pragma('synchronous = FULL');
+    migrate(db, file);
+    return db;
+  } catch (error) {
+    db.close();
+    throw error;
+  }
+}
+
+function migrate(db: Db, file: string): void {
+  const current = db.pragma('user_version', { simple: true }) as number;
+  const latest = MIGRATIONS.length;
+  if (current > latest) {
+    throw new ExpectedFailure(
+      `The database ${file} was written by a newer Trimbench (schema ${current}, this version knows ${latest}). Update Trimbench; the file was not changed.`,
+    );
+  }
+  if (current === latest) return;
+  if (current > 0) db.exec(`VACUUM INTO '${`${file}.before-schema-${current + 1}`.replaceAll("'", "''")}'`);
+  for (let version = current + 1; version <= latest; version++) {
+    db.transaction(() => {
+      db.exec(MIGRATIONS[version - 1]);
+      db.pragma(`user_version = ${version}`);
+    })();
+  }
+}

@@ -1,0 +1,5 @@
+// An expected failure: bad input from a person, a file or a device. Its message is for the
+// technician (what was wrong, what to do) and crosses IPC as is. Anything else thrown is a bug.
+export class ExpectedFailure extends Error {
+  override name = 'ExpectedFailure';
+}

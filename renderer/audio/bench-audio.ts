@@ -1,0 +1,256 @@
+// The page's side of the audio path: opens the input with every browser voice-processing step
+// off (and refuses to measure if the browser kept one on), runs the stimulus worklet on the
+// chosen output, and streams the capture to the analysis worker.
+
+import type { Reading } from '../../shared/measurement/reading.ts';
+import type { GeneratorCommand } from '../worker/messages.ts';
+import generatorWorkletUrl from '../worklets/generator.worklet.ts?worker&url';
+import captureWorkletUrl from '../worklets/capture.worklet.ts?worker&url';
+import type { FromWorker, MeterSettings, ToWorker } from '../worker/messages.ts';
+
+export class AudioProblem extends Error {
+  override name = 'AudioProblem';
+}
+
+export interface AudioDevices {
+  inputs: MediaDeviceInfo[];
+  outputs: MediaDeviceInfo[];
+}
+
+export type CapturePath = 'track-processor' | 'worklet';
+
+export interface BenchAudioOptions {
+  inputDeviceId: string | null;
+  outputDeviceId: string | null;
+  sampleRateHz: number | null;
+  meter: MeterSettings;
+}
+
+export interface BenchAudioEvents {
+  onReading(reading: Reading, spectrumHz: Float32Array, spectrumDbfs: Float32Array): void;
+  onStatus(status: { discontinuities: number; channelCount: number; sampleRateHz: number }): void;
+  /** Device lost or capture failed: the generator is already muted when this is called. */
+  onProblem(message: string): void;
+}
+
+interface TrackProcessorConstructor {
+  new (init: { track: MediaStreamTrack }): { readable: ReadableStream };
+}
+
+const VOICE_PROCESSING = ['echoCancellation', 'noiseSuppression', 'autoGainControl'] as const;
+const VOICE_PROCESSING_NAMES: Record<(typeof VOICE_PROCESSING)[number], string> = {
+  echoCancellation: 'echo cancellation',
+  noiseSuppression: 'noise suppression',
+  autoGainControl: 'automatic gain control',
+};
+
+export async function listDevices(): Promise<AudioDevices> {
+  if (!navigator.mediaDevices?.enumerateDevices) {
+    throw new AudioProblem('This window has no access to audio devices (media devices are unavailable).');
+  }
+  const devices = await navigator.mediaDevices.enumerateDevices();
+  return {
+    inputs: devices.filter((d) => d.kind === 'audioinput'),
+    outputs: devices.filter((d) => d.kind === 'audiooutput'),
+  };
+}
+
+/** Turns getUserMedia's DOMException into what a technician can act on. */
+function describeOpenFailure(error: unknown): AudioProblem {
+  const name = (error as { name?: string })?.name;
+  switch (name) {
+    case 'NotAllowedError':
+    case 'SecurityError':
+      return new AudioProblem(
+        'Permission to use the audio input was refused. Allow microphone access for Trimbench in the system settings, then start capture again.',
+      );
+    case 'NotFoundError':
+    case 'OverconstrainedError':
+      return new AudioProblem('No audio input device found. Connect the audio interface, then choose it under Input.');
+    case 'NotReadableError':
+    case 'AbortError':
+      return new AudioProblem('The audio input could not be opened: another program may be using it, or the device stopped responding.');
+    default:
+      return new AudioProblem(`The audio input could not be opened: ${(error as Error)?.message ?? String(error)}`);
+  }
+}
+
+export class BenchAudio {
+  private stopped = false;
+  private generatorCommand: GeneratorCommand = { frequencyHz: 1000, levelDbfs: -20, on: false };
+
+  readonly capturePath: CapturePath;
+  readonly sampleRateHz: number;
+  private readonly stream: MediaStream;
+  private readonly context: AudioContext;
+  private readonly generator: AudioWorkletNode;
+  private readonly worker: Worker;
+  private readonly events: BenchAudioEvents;
+  private readonly outputDeviceId: string | null;
+
+  private constructor(parts: {
+    capturePath: CapturePath;
+    sampleRateHz: number;
+    stream: MediaStream;
+    context: AudioContext;
+    generator: AudioWorkletNode;
+    worker: Worker;
+    events: BenchAudioEvents;
+    outputDeviceId: string | null;
+  }) {
+    this.capturePath = parts.capturePath;
+    this.sampleRateHz = parts.sampleRateHz;
+    this.stream = parts.stream;
+    this.context = parts.context;
+    this.generator = parts.generator;
+    this.worker = parts.worker;
+    this.events = parts.events;
+    this.outputDeviceId = parts.outputDeviceId;
+  }
+
+  static async start(options: BenchAudioOptions, events: BenchAudioEvents): Promise<BenchAudio> {
+    if (!navigator.mediaDevices?.getUserMedia) throw new AudioProblem('This window has no access to audio input.');
+    let stream: MediaStream;
+    try {
+      stream = await navigator.mediaDevices.getUserMedia({
+        audio: {
+          deviceId: options.inputDeviceId ? { exact: options.inputDeviceId } : undefined,
+          echoCancellation: false,
+          noiseSuppression: false,
+          autoGainControl: false,
+          channelCount: { ideal: 2 },
+          sampleRate: options.sampleRateHz ? { ideal: options.sampleRateHz } : undefined,
+        },
+        video: false,
+      });
+    } catch (error) {
+      throw describeOpenFailure(error);
+    }
+    const track = stream.getAudioTracks()[0];
+    const settings = track.getSettings();
+    const stillOn = VOICE_PROCESSING.filter((key) => settings[key] === true).map((key) => VOICE_PROCESSING_NAMES[key]);
+    if (stillOn.length > 0) {
+      stream.getTracks().forEach((t) => t.stop());
+      throw new AudioProblem(
+        `The browser kept ${stillOn.join(' and ')} on for this input, which alters the signal. Nothing is measured; choose another input or device.`,
+      );
+    }
+
+    // The track's own rate wins: a capture device may ignore the rate asked for.
+    const sampleRateHz = settings.sampleRate ?? options.sampleRateHz ?? 48000;
+    const context = new AudioContext({ sampleRate: sampleRateHz, latencyHint: 'playback' });
+    const worker = new Worker(new URL('../worker/analysis.worker.ts', import.meta.url), { type: 'module', name: 'analysis' });
+    try {
+      const sinkCapable = context as AudioContext & { setSinkId?: (id: string) => Promise<void> };
+      if (options.outputDeviceId && sinkCapable.setSinkId) await sinkCapable.setSinkId(options.outputDeviceId);
+      await context.audioWorklet.addModule(generatorWorkletUrl);
+      const generator = new AudioWorkletNode(context, 'trimbench-sine', { numberOfInputs: 0, outputChannelCount: [2] });
+      generator.connect(context.destination);
+      await context.resume();
+
+      const post = (message: ToWorker, transfer: Transferable[] = []) => worker.postMessage(message, transfer);
+      post({ type: 'configure', settings: options.meter });
+      const TrackProcessor = (globalThis as { MediaStreamTrackProcessor?: TrackProcessorConstructor }).MediaStreamTrackProcessor;
+      let capturePath: CapturePath;
+      if (TrackProcessor) {
+        const { readable } = new TrackProcessor({ track });
+        post({ type: 'track-stream', readable }, [readable as unknown as Transferable]);
+        capturePath = 'track-processor';
+      } else {
+        await context.audioWorklet.addModule(captureWorkletUrl);
+        const tap = new AudioWorkletNode(context, 'trimbench-capture', {
+          numberOfInputs: 1,
+          numberOfOutputs: 1,
+          processorOptions: { channel: options.meter.channel },
+        });
+        const { port1, port2 } = new MessageChannel();
+        tap.port.postMessage({ port: port1 }, [port1]);
+        post({ type: 'worklet-port', port: port2, sampleRateHz }, [port2]);
+        const silent = new GainNode(context, { gain: 0 }); // keeps the tap pulled by the graph
+        context.createMediaStreamSource(stream).connect(tap).connect(silent).connect(context.destination);
+        capturePath = 'worklet';
+      }
+      const audio = new BenchAudio({
+        capturePath,
+        sampleRateHz,
+        stream,
+        context,
+        generator,
+        worker,
+        events,
+        outputDeviceId: options.outputDeviceId,
+      });
+      audio.listen(track);
+      return audio;
+    } catch (error) {
+      worker.terminate();
+      void context.close();
+      stream.getTracks().forEach((t) => t.stop());
+      throw error instanceof AudioProblem ? error : new AudioProblem(`The audio path could not be set up: ${(error as Error).message}`);
+    }
+  }
+
+  private listen(track: MediaStreamTrack): void {
+    this.worker.onmessage = (event: MessageEvent<FromWorker>) => {
+      const message = event.data;
+      if (message.type === 'reading') this.events.onReading(message.reading, message.spectrumHz, message.spectrumDbfs);
+      else if (message.type === 'status') this.events.onStatus(message);
+      else if (message.type === 'capture-ended') this.fail('The capture stream ended: the input device may have been unplugged.');
+      else this.fail(message.message);
+    };
+    this.worker.onerror = (event) => this.fail(`The analysis worker stopped: ${event.message}`);
+    track.addEventListener('ended', () =>
+      this.fail('The input device was disconnected. The generator is stopped; recorded trim points are kept. Reconnect it and start capture again.'),
+    );
+    navigator.mediaDevices.addEventListener('devicechange', this.checkOutputStillThere);
+  }
+
+  private readonly checkOutputStillThere = async () => {
+    if (this.stopped || !this.outputDeviceId) return;
+    const { outputs } = await listDevices();
+    if (!outputs.some((d) => d.deviceId === this.outputDeviceId)) {
+      this.fail('The output device was disconnected. The generator is stopped; recorded trim points are kept.');
+    }
+  };
+
+  private fail(message: string): void {
+    if (this.stopped) return;
+    this.mute();
+    this.stop();
+    this.events.onProblem(message);
+  }
+
+  /** Sets the stimulus; the analysis starts a fresh stretch so no reading spans the change. */
+  setGenerator(command: GeneratorCommand): void {
+    if (this.stopped) return;
+    const changed =
+      command.on !== this.generatorCommand.on ||
+      command.frequencyHz !== this.generatorCommand.frequencyHz ||
+      command.levelDbfs !== this.generatorCommand.levelDbfs;
+    this.generatorCommand = command;
+    this.generator.port.postMessage(command);
+    if (changed) this.worker.postMessage({ type: 'stimulus-changed' } satisfies ToWorker);
+  }
+
+  mute(): void {
+    this.setGenerator({ ...this.generatorCommand, on: false });
+  }
+
+  configureMeter(settings: MeterSettings): void {
+    this.worker.postMessage({ type: 'configure', settings } satisfies ToWorker);
+  }
+
+  stop(): void {
+    if (this.stopped) return;
+    this.generator.port.postMessage({ ...this.generatorCommand, on: false });
+    this.stopped = true;
+    navigator.mediaDevices.removeEventListener('devicechange', this.checkOutputStillThere);
+    this.worker.postMessage({ type: 'stop' } satisfies ToWorker);
+    this.stream.getTracks().forEach((t) => t.stop());
+    // Let the 20 ms ramp-down play out before the context goes.
+    setTimeout(() => {
+      this.worker.terminate();
+      void this.context.close();
+    }, 60);
+  }
+}

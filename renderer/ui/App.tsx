@@ -1,0 +1,257 @@
+import { useCallback, useEffect, useRef, useState } from 'react';
+import type { RunDetail, Station, StoredProcedure } from '../../shared/ipc/contract.ts';
+import type { Reading } from '../../shared/measurement/reading.ts';
+import { call } from '../api.ts';
+import { AudioProblem, BenchAudio, listDevices, type AudioDevices } from '../audio/bench-audio.ts';
+import type { GeneratorCommand } from '../worker/messages.ts';
+import { AudioSetup, type AudioChoice } from './AudioSetup.tsx';
+import { GeneratorControls } from './GeneratorControls.tsx';
+import { LiveReadout } from './LiveReadout.tsx';
+import { SafetyNotice } from './SafetyNotice.tsx';
+import { SpectrumPlot } from './SpectrumPlot.tsx';
+import { TrimPanel } from './TrimPanel.tsx';
+import { UnitEntry } from './UnitEntry.tsx';
+import { UnitSheet } from './UnitSheet.tsx';
+
+const HARMONIC_COUNT = 10;
+
+export function App() {
+  const [station, setStation] = useState<Station | null>(null);
+  const [procedures, setProcedures] = useState<StoredProcedure[]>([]);
+  const [recordsProblem, setRecordsProblem] = useState<string | null>(null);
+
+  const [devices, setDevices] = useState<AudioDevices | null>(null);
+  const [choice, setChoice] = useState<AudioChoice>({ inputDeviceId: '', outputDeviceId: '', sampleRateHz: 48000, channel: 0 });
+  const [audio, setAudio] = useState<BenchAudio | null>(null);
+  const audioRef = useRef<BenchAudio | null>(null);
+  const [audioProblem, setAudioProblem] = useState<string | null>(null);
+  const [discontinuities, setDiscontinuities] = useState(0);
+  const [generator, setGeneratorState] = useState<GeneratorCommand>({ frequencyHz: 1000, levelDbfs: -20, on: false });
+
+  const [reading, setReading] = useState<Reading | null>(null);
+  const [spectrum, setSpectrum] = useState<{ hz: Float32Array; dbfs: Float32Array } | null>(null);
+
+  const [detail, setDetail] = useState<RunDetail | null>(null);
+  const [view, setView] = useState<'bench' | 'sheet'>('bench');
+  const [sheetPdfPath, setSheetPdfPath] = useState<string | null>(null);
+  const [sheetMessage, setSheetMessage] = useState<string | null>(null);
+
+  useEffect(() => {
+    Promise.all([call('describeStation', {}), call('listProcedures', {})])
+      .then(([stationInfo, list]) => {
+        setStation(stationInfo);
+        setProcedures(list);
+      })
+      .catch((error: Error) => setRecordsProblem(error.message));
+    void refreshDevices();
+  }, []);
+
+  async function refreshDevices() {
+    try {
+      setDevices(await listDevices());
+    } catch (error) {
+      setAudioProblem((error as Error).message);
+    }
+  }
+
+  const applyGenerator = useCallback((command: GeneratorCommand) => {
+    setGeneratorState(command);
+    audioRef.current?.setGenerator(command);
+  }, []);
+
+  const mute = useCallback(() => {
+    setGeneratorState((current) => ({ ...current, on: false }));
+    audioRef.current?.mute();
+  }, []);
+
+  // Esc mutes the generator from anywhere, even while typing in a field.
+  useEffect(() => {
+    const onKey = (event: KeyboardEvent) => {
+      if (event.key === 'Escape') mute();
+    };
+    window.addEventListener('keydown', onKey, { capture: true });
+    return () => window.removeEventListener('keydown', onKey, { capture: true });
+  }, [mute]);
+
+  async function startCapture() {
+    setAudioProblem(null);
+    try {
+      const started = await BenchAudio.start(
+        {
+          inputDeviceId: choice.inputDeviceId || null,
+          outputDeviceId: choice.outputDeviceId || null,
+          sampleRateHz: choice.sampleRateHz,
+          meter: {
+            channel: choice.channel,
+            expectedFundamentalHz: generator.on ? generator.frequencyHz : null,
+            harmonicCount: HARMONIC_COUNT,
+          },
+        },
+        {
+          onReading: (next, hz, dbfs) => {
+            setReading(next);
+            setSpectrum({ hz, dbfs });
+          },
+          onStatus: (status) => setDiscontinuities(status.discontinuities),
+          onProblem: (message) => {
+            setAudioProblem(message);
+            setGeneratorState((current) => ({ ...current, on: false }));
+            audioRef.current = null;
+            setAudio(null);
+          },
+        },
+      );
+      audioRef.current = started;
+      setAudio(started);
+      started.setGenerator(generator);
+      void refreshDevices(); // labels appear once permission is granted
+    } catch (error) {
+      setAudioProblem(error instanceof AudioProblem ? error.message : `Capture failed: ${(error as Error).message}`);
+    }
+  }
+
+  function stopCapture() {
+    audioRef.current?.stop();
+    audioRef.current = null;
+    setAudio(null);
+    setReading(null);
+    setGeneratorState((current) => ({ ...current, on: false }));
+  }
+
+  // The meter's frame length follows the stimulus: long frames for low tones.
+  useEffect(() => {
+    audio?.configureMeter({
+      channel: choice.channel,
+      expectedFundamentalHz: generator.on ? generator.frequencyHz : null,
+      harmonicCount: HARMONIC_COUNT,
+    });
+  }, [audio, choice.channel, generator.on, generator.frequencyHz]);
+
+  async function openRun(request: { serial: string; procedureId: number; operator: string }) {
+    const opened = await call('openRun', request);
+    setDetail(opened);
+    const procedure = procedures.find((p) => p.id === opened.run.procedureId)?.definition;
+    if (procedure) {
+      // The stimulus comes from the procedure; it stays off until the technician turns it on.
+      applyGenerator({ frequencyHz: procedure.trim.stimulusHz, levelDbfs: procedure.trim.stimulusLevelDbfs, on: false });
+    }
+  }
+
+  async function recordPoint(position: number, current: Reading) {
+    if (!detail) return;
+    // Shown as recorded only after main has written it to the database.
+    const point = await call('recordTrimPoint', { runId: detail.run.id, position, reading: current });
+    setDetail((d) => (d ? { ...d, trimPoints: [...d.trimPoints, point] } : d));
+  }
+
+  async function finishRun() {
+    if (!detail) return;
+    const finished = await call('finishRun', { runId: detail.run.id });
+    mute();
+    setDetail(finished);
+    setSheetPdfPath(finished.run.sheetPdfPath);
+    setSheetMessage(null);
+    setView('sheet');
+  }
+
+  // The sheet is saved as PDF as soon as it is on screen (the PDF is made from this view).
+  useEffect(() => {
+    if (view !== 'sheet' || !detail || sheetPdfPath) return;
+    let cancelled = false;
+    requestAnimationFrame(() => {
+      call('saveSheetPdf', { runId: detail.run.id })
+        .then((saved) => !cancelled && setSheetPdfPath(saved.path))
+        .catch((error: Error) => !cancelled && setSheetMessage(`The PDF was not saved: ${error.message}`));
+    });
+    return () => {
+      cancelled = true;
+    };
+  }, [view, detail, sheetPdfPath]);
+
+  async function printSheet() {
+    if (!detail) return;
+    try {
+      const { printed } = await call('printSheet', { runId: detail.run.id });
+      setSheetMessage(printed ? null : 'Printing was cancelled.');
+    } catch (error) {
+      setSheetMessage((error as Error).message);
+    }
+  }
+
+  const procedure = detail ? procedures.find((p) => p.id === detail.run.procedureId)?.definition : undefined;
+
+  if (view === 'sheet' && detail) {
+    return (
+      <UnitSheet
+        detail={detail}
+        pdfPath={sheetPdfPath}
+        message={sheetMessage}
+        onPrint={() => void printSheet()}
+        onBack={() => {
+          setView('bench');
+          setDetail(null);
+          setSheetPdfPath(null);
+        }}
+      />
+    );
+  }
+
+  return (
+    <div className="app">
+      <header className="topbar">
+        <h1>Trimbench</h1>
+        <span className="hint">{station ? `Station ${station.stationName}` : ''}</span>
+        <button type="button" className={generator.on ? 'mute live' : 'mute'} onClick={mute} data-testid="mute">
+          {generator.on ? 'Mute generator (Esc)' : 'Generator muted'}
+        </button>
+      </header>
+      <SafetyNotice />
+      {recordsProblem && (
+        <p className="problem banner" role="alert">
+          Records are unavailable: {recordsProblem}
+        </p>
+      )}
+      {audioProblem && (
+        <p className="problem banner" role="alert" data-testid="audio-problem">
+          {audioProblem}
+        </p>
+      )}
+      <main className="columns">
+        <div className="column">
+          <AudioSetup
+            devices={devices}
+            choice={choice}
+            onChange={setChoice}
+            capturing={audio !== null}
+            capturePath={audio?.capturePath ?? null}
+            sampleRateHz={audio?.sampleRateHz ?? null}
+            discontinuities={discontinuities}
+            onStart={() => void startCapture()}
+            onStop={stopCapture}
+            onRefresh={() => void refreshDevices()}
+          />
+          <GeneratorControls command={generator} onChange={applyGenerator} available={audio !== null} />
+        </div>
+        <div className="column wide">
+          <LiveReadout reading={reading} />
+          <SpectrumPlot spectrumHz={spectrum?.hz ?? null} spectrumDbfs={spectrum?.dbfs ?? null} />
+        </div>
+        <div className="column">
+          {detail && procedure ? (
+            <TrimPanel
+              key={detail.run.id}
+              detail={detail}
+              procedure={procedure}
+              reading={reading}
+              onRecord={recordPoint}
+              onFinish={finishRun}
+              onClose={() => setDetail(null)}
+            />
+          ) : (
+            <UnitEntry procedures={procedures} onOpen={openRun} busy={procedures.length === 0} />
+          )}
+        </div>
+      </main>
+    </div>
+  );
+}

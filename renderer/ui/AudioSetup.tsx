@@ -1,0 +1,104 @@
+import type { AudioDevices } from '../audio/bench-audio.ts';
+
+export interface AudioChoice {
+  inputDeviceId: string;
+  outputDeviceId: string;
+  sampleRateHz: number;
+  channel: number;
+}
+
+const SAMPLE_RATES = [44100, 48000, 88200, 96000, 192000];
+
+export function AudioSetup({
+  devices,
+  choice,
+  onChange,
+  capturing,
+  capturePath,
+  sampleRateHz,
+  discontinuities,
+  onStart,
+  onStop,
+  onRefresh,
+}: {
+  devices: AudioDevices | null;
+  choice: AudioChoice;
+  onChange(choice: AudioChoice): void;
+  capturing: boolean;
+  capturePath: string | null;
+  sampleRateHz: number | null;
+  discontinuities: number;
+  onStart(): void;
+  onStop(): void;
+  onRefresh(): void;
+}) {
+  const set = (patch: Partial<AudioChoice>) => onChange({ ...choice, ...patch });
+  return (
+    <section className="panel" aria-label="Audio interface">
+      <h2>Audio interface</h2>
+      <label>
+        Input
+        <select value={choice.inputDeviceId} onChange={(e) => set({ inputDeviceId: e.target.value })} disabled={capturing}>
+          <option value="">System default input</option>
+          {devices?.inputs.map((d, i) => (
+            <option key={d.deviceId || i} value={d.deviceId}>
+              {d.label || `Input ${i + 1}`}
+            </option>
+          ))}
+        </select>
+      </label>
+      <label>
+        Input channel carrying the unit
+        <select value={choice.channel} onChange={(e) => set({ channel: Number(e.target.value) })} disabled={capturing}>
+          {Array.from({ length: 8 }, (_, ch) => (
+            <option key={ch} value={ch}>
+              Channel {ch + 1}
+            </option>
+          ))}
+        </select>
+      </label>
+      <label>
+        Output (generator)
+        <select value={choice.outputDeviceId} onChange={(e) => set({ outputDeviceId: e.target.value })} disabled={capturing}>
+          <option value="">System default output</option>
+          {devices?.outputs.map((d, i) => (
+            <option key={d.deviceId || i} value={d.deviceId}>
+              {d.label || `Output ${i + 1}`}
+            </option>
+          ))}
+        </select>
+      </label>
+      <label>
+        Sample rate
+        <select value={choice.sampleRateHz} onChange={(e) => set({ sampleRateHz: Number(e.target.value) })} disabled={capturing}>
+          {SAMPLE_RATES.map((rate) => (
+            <option key={rate} value={rate}>
+              {rate / 1000} kHz
+            </option>
+          ))}
+        </select>
+      </label>
+      <div className="row">
+        {capturing ? (
+          <button type="button" onClick={onStop}>
+            Stop capture
+          </button>
+        ) : (
+          <button type="button" className="primary" onClick={onStart}>
+            Start capture
+          </button>
+        )}
+        <button type="button" onClick={onRefresh} disabled={capturing}>
+          Refresh devices
+        </button>
+      </div>
+      {capturing && (
+        <p className="hint" data-testid="capture-status">
+          Capturing at {sampleRateHz ? `${sampleRateHz / 1000} kHz` : '—'} via {capturePath === 'track-processor' ? 'track processor' : 'audio worklet'}
+          {' · '}
+          <span data-testid="discontinuities">{discontinuities}</span> capture break{discontinuities === 1 ? '' : 's'} (no reading spans one)
+        </p>
+      )}
+    </section>
+  );
+}

@@ -1,0 +1,49 @@
+// Messages between the page, the analysis worker and the audio worklets.
+
+import type { Reading } from '../../shared/measurement/reading.ts';
+
+export interface MeterSettings {
+  /** Input channel (0-based) that carries the unit's output. */
+  channel: number;
+  expectedFundamentalHz: number | null;
+  harmonicCount: number;
+}
+
+export type ToWorker =
+  | { type: 'configure'; settings: MeterSettings }
+  /** An intended change (stimulus level/frequency/on-off): start a fresh stretch, count nothing. */
+  | { type: 'stimulus-changed' }
+  /** Capture through MediaStreamTrackProcessor: the track's readable stream, transferred. */
+  | { type: 'track-stream'; readable: ReadableStream<AudioDataLike> }
+  /** Capture through the worklet fallback: blocks arrive on this port and are handed back on it. */
+  | { type: 'worklet-port'; port: MessagePort; sampleRateHz: number }
+  | { type: 'stop' };
+
+export type FromWorker =
+  | { type: 'reading'; reading: Reading; spectrumHz: Float32Array; spectrumDbfs: Float32Array }
+  | { type: 'status'; discontinuities: number; channelCount: number; sampleRateHz: number }
+  | { type: 'capture-ended' }
+  | { type: 'error'; message: string };
+
+/** A captured block from the worklet: samples of the chosen channel, handed back after use. */
+export interface WorkletBlock {
+  samples: Float32Array;
+  length: number;
+}
+
+/** The parts of WebCodecs AudioData the worker uses (not in every TypeScript lib yet). */
+export interface AudioDataLike {
+  readonly timestamp: number;
+  readonly numberOfFrames: number;
+  readonly numberOfChannels: number;
+  readonly sampleRate: number;
+  copyTo(destination: Float32Array, options: { planeIndex: number; format: 'f32-planar' }): void;
+  close(): void;
+}
+
+/** What the page tells the generator worklet. */
+export interface GeneratorCommand {
+  frequencyHz: number;
+  levelDbfs: number;
+  on: boolean;
+}

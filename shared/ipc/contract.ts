@@ -1,0 +1,116 @@
+// The one IPC contract: a zod schema per request and response. Main parses every payload with
+// it before touching the database or a file; the renderer's types are inferred from it.
+
+import { z } from 'zod';
+import type { Reading } from '../measurement/reading.ts';
+import { procedureSchema } from '../procedures/procedure.ts';
+import type { IpcChannel } from './channels.ts';
+
+const finite = z.number();
+const rowId = z.number().int().positive();
+
+export const readingSchema = z.object({
+  sequence: z.number().int().nonnegative(),
+  sampleRateHz: finite.positive(),
+  frameSize: z.number().int().positive(),
+  discontinuities: z.number().int().nonnegative(),
+  settled: z.boolean(),
+  settleProgress: finite.min(0).max(1),
+  fundamental: z.object({ frequencyHz: finite.nonnegative(), levelDbfs: finite, phaseDeg: finite }),
+  harmonics: z
+    .array(z.object({ order: z.number().int().min(2), frequencyHz: finite.nonnegative(), levelDbc: finite, phaseDeg: finite }))
+    .max(64),
+  thdPercent: finite.nonnegative(),
+  thdDb: finite,
+  flags: z.array(z.enum(['no-signal', 'clipping'])),
+});
+// The schema must describe exactly what the worker produces.
+readingSchema satisfies z.ZodType<Reading>;
+
+export const stationSchema = z.object({
+  stationName: z.string(),
+  databasePath: z.string(),
+  sheetsFolder: z.string(),
+});
+
+export const storedProcedureSchema = z.object({ id: rowId, definition: procedureSchema });
+
+export const runSchema = z.object({
+  id: rowId,
+  serial: z.string(),
+  procedureId: rowId,
+  procedureCode: z.string(),
+  procedureRevision: z.string(),
+  procedureTitle: z.string(),
+  invented: z.boolean(),
+  modelCode: z.string(),
+  modelName: z.string(),
+  operator: z.string(),
+  station: z.string(),
+  startedAt: z.string(),
+  finishedAt: z.string().nullable(),
+  verdict: z.enum(['pass', 'fail']).nullable(),
+  finalThdDb: finite.nullable(),
+  limitThdDb: finite,
+  sheetPdfPath: z.string().nullable(),
+});
+
+export const trimPointSchema = z.object({
+  id: rowId,
+  sequence: z.number().int().positive(),
+  position: finite,
+  recordedAt: z.string(),
+  settled: z.boolean(),
+  reading: readingSchema,
+});
+
+export const runDetailSchema = z.object({
+  run: runSchema,
+  trimPoints: z.array(trimPointSchema),
+  /** Earlier finished runs of the same serial (retests are new runs). */
+  earlierRuns: z.number().int().nonnegative(),
+});
+
+const runRef = z.object({ runId: rowId }).strict();
+const nothing = z.object({}).strict();
+
+export const contract = {
+  describeStation: { request: nothing, response: stationSchema },
+  listProcedures: { request: nothing, response: z.array(storedProcedureSchema) },
+  openRun: {
+    request: z
+      .object({
+        serial: z.string().min(1).max(64),
+        procedureId: rowId,
+        operator: z.string().trim().min(1, 'Enter the operator name.').max(60),
+      })
+      .strict(),
+    response: runDetailSchema,
+  },
+  recordTrimPoint: {
+    request: z.object({ runId: rowId, position: finite, reading: readingSchema }).strict(),
+    response: trimPointSchema,
+  },
+  finishRun: { request: runRef, response: runDetailSchema },
+  saveSheetPdf: { request: runRef, response: z.object({ path: z.string(), alreadySaved: z.boolean() }) },
+  printSheet: { request: runRef, response: z.object({ printed: z.boolean() }) },
+} satisfies Record<IpcChannel, { request: z.ZodType; response: z.ZodType }>;
+
+export type IpcRequest<C extends IpcChannel> = z.input<(typeof contract)[C]['request']>;
+export type IpcResponse<C extends IpcChannel> = z.output<(typeof contract)[C]['response']>;
+
+/** Errors cross the boundary as plain data, never as thrown objects. */
+export interface IpcError {
+  name: string;
+  message: string;
+}
+export type IpcResult<T> = { ok: true; value: T } | { ok: false; error: IpcError };
+
+/** What the preload (or the test harness) puts on window.trimbench. */
+export type TrimbenchBridge = { [C in IpcChannel]: (request: IpcRequest<C>) => Promise<IpcResult<IpcResponse<C>>> };
+
+export type Station = z.infer<typeof stationSchema>;
+export type StoredProcedure = z.infer<typeof storedProcedureSchema>;
+export type Run = z.infer<typeof runSchema>;
+export type TrimPoint = z.infer<typeof trimPointSchema>;
+export type RunDetail = z.infer<typeof runDetailSchema>;

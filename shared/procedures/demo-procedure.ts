@@ -1,0 +1,35 @@
+// The built-in demo procedure. Everything here is invented for the demo scenario (a made-up
+// maker and product); none of it describes a real product or a real limit.
+
+import { PROCEDURE_SCHEMA_VERSION, type Procedure } from './procedure.ts';
+
+export const DEMO_PROCEDURE: Procedure = {
+  schemaVersion: PROCEDURE_SCHEMA_VERSION,
+  code: 'MG20-LF-TRIM',
+  revision: 'A',
+  title: 'MG-20 low-frequency compensation trim (demo — invented values)',
+  invented: true,
+  model: {
+    code: 'MG-20',
+    name: 'MG-20 transformer line amplifier',
+    maker: 'Marrowgate Audio Works (invented)',
+  },
+  serial: { pattern: '^MG20-[0-9]{4}-[0-9]{4}$', example: 'MG20-2611-0042' },
+  trim: {
+    stimulusHz: 14,
+    stimulusLevelDbfs: -12,
+    positionUnit: 'turns',
+    positionMin: 0,
+    positionMax: 10,
+    positionStep: 0.25,
+    limitThdDb: -60,
+    instructions: [
+      'Mute or disconnect monitor speakers and headphones: an oscillating unit or a full-level 14 Hz tone can damage drivers and hearing.',
+      'The unit is mains powered and its cover is off: follow your workplace electrical-safety rules and local codes; keep one hand away from the chassis.',
+      'Set the compensation trimmer to the safe end (0 turns, least compensation) before power-up.',
+      'Connect the generator output to the unit input and the unit output to the chosen capture channel.',
+      'Turn the generator on, let the reading settle, and record a trim point at each position, moving toward more compensation.',
+      'Stop and back off toward the safe end at once if the gain rises or the reading wanders.',
+    ],
+  },
+};

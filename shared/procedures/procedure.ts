@@ -1,0 +1,38 @@
+// A procedure is a model's ordered steps with limits. It carries a revision, and every run
+// names the revision it used. Stored as JSON with a schema version so old files stay readable.
+
+import { z } from 'zod';
+
+export const PROCEDURE_SCHEMA_VERSION = 1;
+
+export const procedureSchema = z.object({
+  schemaVersion: z.literal(PROCEDURE_SCHEMA_VERSION),
+  code: z.string().min(1).max(40),
+  revision: z.string().min(1).max(10),
+  title: z.string().min(1).max(200),
+  /** Demo procedures hold made-up values and say so wherever they are shown. */
+  invented: z.boolean(),
+  model: z.object({
+    code: z.string().min(1).max(40),
+    name: z.string().min(1).max(200),
+    maker: z.string().min(1).max(200),
+  }),
+  serial: z.object({
+    /** Anchored regular expression the serial must match. */
+    pattern: z.string().min(1).max(200),
+    example: z.string().min(1).max(40),
+  }),
+  trim: z.object({
+    stimulusHz: z.number().positive(),
+    stimulusLevelDbfs: z.number().max(0),
+    positionUnit: z.string().min(1).max(20),
+    positionMin: z.number(),
+    positionMax: z.number(),
+    positionStep: z.number().positive(),
+    /** Pass when THD at the final trim point is at or below this. */
+    limitThdDb: z.number(),
+    instructions: z.array(z.string().min(1)).min(1),
+  }),
+});
+
+export type Procedure = z.infer<typeof procedureSchema>;
