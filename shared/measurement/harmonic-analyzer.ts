@@ -164,17 +164,25 @@ export class HarmonicAnalyzer {
     return best;
   }
 
-  /** Refines the peak location (in bins) by fitting parabolas to |X| at shrinking spacings. */
+  /**
+   * Refines the peak location (in bins): a parabola through the log magnitudes of the three FFT
+   * bins around the peak (good to ~0.01 bin for this window), then parabolas through |X| from the
+   * exact DTFT at shrinking spacings around the estimate.
+   */
   private refinePeak(peakBin: number): number {
-    let center = peakBin;
+    const logMagnitude = (k: number) => 0.5 * Math.log(this.spectrum[2 * k] ** 2 + this.spectrum[2 * k + 1] ** 2 + 1e-300);
+    const a = logMagnitude(peakBin - 1);
+    const b = logMagnitude(peakBin);
+    const c = logMagnitude(peakBin + 1);
+    const binCurvature = a - 2 * b + c;
+    let center = peakBin + (binCurvature < 0 ? Math.max(-0.5, Math.min(0.5, (0.5 * (a - c)) / binCurvature)) : 0);
     for (const step of REFINE_STEPS_BINS) {
       const left = this.magnitudeAt(center - step);
       const middle = this.magnitudeAt(center);
       const right = this.magnitudeAt(center + step);
       const curvature = left - 2 * middle + right;
-      if (curvature >= 0) break; // not a maximum (no tone): keep the FFT peak
-      const shift = (0.5 * (left - right)) / curvature;
-      center += Math.max(-1, Math.min(1, shift)) * step;
+      if (curvature >= 0) break; // not a maximum (no tone): keep the estimate
+      center += Math.max(-0.5, Math.min(0.5, ((0.5 * (left - right)) / curvature) * step));
     }
     return center;
   }

@@ -1,0 +1,40 @@
+// A station over a fresh temporary data folder, and readings shaped like the worker's.
+
+import { mkdtempSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import type { Reading } from '../../shared/measurement/reading.ts';
+import type { CallerContext } from '../../electron/services/handlers.ts';
+import { openStation } from '../../electron/services/station.ts';
+
+export function tempDir(prefix = 'trimbench-test-'): { path: string; remove(): void } {
+  const path = mkdtempSync(join(tmpdir(), prefix));
+  return { path, remove: () => rmSync(path, { recursive: true, force: true }) };
+}
+
+export function openTestStation(dataDir: string) {
+  return openStation({ dataDir, stationName: 'test-bench-1' });
+}
+
+/** A plausible settled reading with the given THD (for records tests; not a measurement). */
+export function readingWithThd(thdDb: number, overrides: Partial<Reading> = {}): Reading {
+  return {
+    sequence: 12,
+    sampleRateHz: 48000,
+    frameSize: 65536,
+    discontinuities: 0,
+    settled: true,
+    settleProgress: 1,
+    fundamental: { frequencyHz: 14, levelDbfs: -12, phaseDeg: 10 },
+    harmonics: [{ order: 3, frequencyHz: 42, levelDbc: thdDb, phaseDeg: 90 }],
+    thdPercent: 100 * 10 ** (thdDb / 20),
+    thdDb,
+    flags: [],
+    ...overrides,
+  };
+}
+
+export const noCaller: CallerContext = {
+  printToPdf: async () => new TextEncoder().encode('%PDF-1.4 test\n'),
+  print: async () => false,
+};

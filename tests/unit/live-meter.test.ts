@@ -1,0 +1,106 @@
+import { describe, expect, it } from 'vitest';
+import { HarmonicAnalyzer } from '../../shared/measurement/harmonic-analyzer.ts';
+import { LiveMeter } from '../../shared/measurement/live-meter.ts';
+import { createHarmonicAnalysis } from '../../shared/measurement/reading.ts';
+import { TimestampContinuity } from '../../shared/capture/timestamp-continuity.ts';
+import { tone } from '../support/signals.ts';
+
+const RATE = 44100;
+const BLOCK = 441; // Chromium's capture bridge moves 10 ms blocks: 441 samples at 44.1 kHz.
+// 997 Hz (AES17's test frequency) is not a whole number of cycles per 10 ms, so a lost block
+// jumps the phase — the case that corrupts a harmonic reading.
+const F0 = 997;
+const H3_DBC = -100;
+
+function stream(seconds: number) {
+  return Float32Array.from(tone(Math.round(seconds * RATE), RATE, F0, 0.5, { partials: [{ order: 3, levelDbc: H3_DBC, phaseDeg: 0 }] }));
+}
+
+/** Feeds `samples` in 10 ms blocks; returns the H3 level of every reading produced. */
+function feed(meter: LiveMeter, samples: Float32Array): number[] {
+  const h3: number[] = [];
+  for (let at = 0; at + BLOCK <= samples.length; at += BLOCK) {
+    if (meter.push(samples.subarray(at, at + BLOCK))) h3.push(meter.reading.harmonics.find((h) => h.order === 3)!.levelDbc);
+  }
+  return h3;
+}
+
+function withBlockLost(samples: Float32Array, atSeconds: number): Float32Array {
+  const cut = Math.round(atSeconds * RATE);
+  const out = new Float32Array(samples.length - BLOCK);
+  out.set(samples.subarray(0, cut), 0);
+  out.set(samples.subarray(cut + BLOCK), cut);
+  return out;
+}
+
+function withZerosInserted(samples: Float32Array, atSeconds: number): Float32Array {
+  const cut = Math.round(atSeconds * RATE);
+  const out = new Float32Array(samples.length + BLOCK);
+  out.set(samples.subarray(0, cut), 0);
+  out.set(samples.subarray(cut), cut + BLOCK);
+  return out;
+}
+
+describe('LiveMeter: never a reading across a capture discontinuity', () => {
+  it('a frame with one lost block inside it really does corrupt H3 (the hazard this guards)', () => {
+    const broken = withBlockLost(stream(1), 0.1);
+    const analyzer = new HarmonicAnalyzer(16384, RATE);
+    const result = analyzer.analyze(broken, createHarmonicAnalysis(), 0);
+    expect(result.harmonics.find((h) => h.order === 3)!.levelDbc).toBeGreaterThan(H3_DBC + 10);
+  });
+
+  it('detects a lost block, counts it once, and keeps every reading clean', () => {
+    const meter = new LiveMeter({ sampleRateHz: RATE, expectedFundamentalHz: F0 });
+    const h3 = feed(meter, withBlockLost(stream(6), 2.5));
+    expect(meter.discontinuities).toBe(1);
+    expect(h3.length).toBeGreaterThan(20);
+    for (const level of h3) expect(Math.abs(level - H3_DBC)).toBeLessThan(1);
+  });
+
+  it('detects an inserted block of zeros and counts it once', () => {
+    const meter = new LiveMeter({ sampleRateHz: RATE, expectedFundamentalHz: F0 });
+    const h3 = feed(meter, withZerosInserted(stream(6), 2.5));
+    expect(meter.discontinuities).toBe(1);
+    for (const level of h3) expect(Math.abs(level - H3_DBC)).toBeLessThan(1);
+  });
+
+  it('counts nothing on a clean stream and posts at least 5 readings per second', () => {
+    const meter = new LiveMeter({ sampleRateHz: RATE, expectedFundamentalHz: F0 });
+    const h3 = feed(meter, stream(4));
+    expect(meter.discontinuities).toBe(0);
+    // The first reading needs one full frame; after that one every hop.
+    const seconds = 4 - meter.frameSize / RATE;
+    expect(h3.length / seconds).toBeGreaterThanOrEqual(5);
+  });
+
+  it('settles on a steady tone and unsettles at a level step', () => {
+    const meter = new LiveMeter({ sampleRateHz: RATE, expectedFundamentalHz: F0 });
+    feed(meter, stream(2));
+    expect(meter.reading.settled).toBe(true);
+    meter.markBreak(false); // an intended stimulus change: not counted
+    const louder = stream(0.5).map((x) => x * 1.5);
+    feed(meter, louder);
+    expect(meter.discontinuities).toBe(0);
+    expect(meter.reading.settled).toBe(false);
+  });
+
+  it('works from a 14 Hz trim tone, whose frames are long', () => {
+    const meter = new LiveMeter({ sampleRateHz: RATE, expectedFundamentalHz: 14 });
+    const samples = Float32Array.from(tone(RATE * 5, RATE, 14, 0.3, { partials: [{ order: 3, levelDbc: -66, phaseDeg: 20 }] }));
+    const h3 = feed(meter, samples);
+    expect(h3.length).toBeGreaterThan(5);
+    expect(Math.abs(h3.at(-1)! + 66)).toBeLessThan(0.2);
+  });
+});
+
+describe('TimestampContinuity', () => {
+  it('passes contiguous 10 ms blocks with jitter and flags a dropped one', () => {
+    const continuity = new TimestampContinuity();
+    const blockUs = (BLOCK / RATE) * 1e6;
+    expect(continuity.isGap(0, BLOCK, RATE)).toBe(false);
+    expect(continuity.isGap(blockUs + 300, BLOCK, RATE)).toBe(false); // 0.3 ms jitter
+    expect(continuity.isGap(2 * blockUs, BLOCK, RATE)).toBe(false);
+    expect(continuity.isGap(4 * blockUs, BLOCK, RATE)).toBe(true); // block 3 missing
+    expect(continuity.isGap(5 * blockUs, BLOCK, RATE)).toBe(false);
+  });
+});
