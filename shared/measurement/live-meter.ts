@@ -81,7 +81,8 @@ export class LiveMeter {
    * (e.g. a timestamp gap); not counted for an intended change such as a stimulus step.
    */
   markBreak(counted: boolean): void {
-    if (counted) this.announcedBreaks++;
+    // A capture stream may restart its clock while it starts up; only breaks once measuring count.
+    if (counted && this.reading.sequence > 0) this.announcedBreaks++;
     this.cleanFrom = this.written;
     this.guard.restart();
     this.settle.reset();

@@ -1,0 +1,148 @@
+// The live path end to end in Debian's Chromium: a WAV written here is the microphone, the
+// real renderer measures it, and the real handlers write to a temporary database.
+
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { execFileSync } from 'node:child_process';
+import { join } from 'node:path';
+import type { Page } from 'playwright-core';
+import { openBench, type Bench } from '../harness/bench-harness.ts';
+import type { Reading } from '../../shared/measurement/reading.ts';
+import { tempDir } from '../support/station.ts';
+import { writeToneWav } from '../support/wav-files.ts';
+
+// The construction of the captured tone: these are the expected values.
+// 997 Hz is AES17's test frequency (no coincidence with common sample rates).
+const TONE = {
+  frequencyHz: 997,
+  levelDbfs: -6,
+  partials: [
+    { order: 2, levelDbc: -50, phaseDeg: 40 },
+    { order: 3, levelDbc: -70, phaseDeg: -20 },
+  ],
+};
+// THD = √(H2² + H3²) relative to the fundamental.
+const EXPECTED_THD_DB = 20 * Math.log10(Math.hypot(10 ** (-50 / 20), 10 ** (-70 / 20)));
+const SERIAL = 'MG20-2611-0042';
+
+let files: ReturnType<typeof tempDir>;
+let bench: Bench;
+
+async function settledReading(page: Page, timeoutMs = 30_000): Promise<Reading> {
+  const output = page.getByTestId('reading-json');
+  await page.waitForFunction(
+    () => JSON.parse(document.querySelector('[data-testid=reading-json]')?.getAttribute('data-reading') ?? '{}').settled === true,
+    undefined,
+    { timeout: timeoutMs },
+  );
+  return JSON.parse((await output.getAttribute('data-reading'))!) as Reading;
+}
+
+async function startCapture(page: Page) {
+  await page.getByRole('button', { name: 'Start capture' }).click();
+  await expect.poll(() => page.getByTestId('capture-status').isVisible()).toBe(true);
+}
+
+async function openUnit(page: Page, serial: string) {
+  await page.getByLabel('Operator').fill('A. Tester');
+  const serialInput = page.getByTestId('serial-input');
+  // A barcode scanner types fast and ends with Enter.
+  await serialInput.pressSequentially(serial, { delay: 2 });
+  await serialInput.press('Enter');
+}
+
+async function recordAt(page: Page, position: string) {
+  const positionInput = page.getByTestId('position-input');
+  await positionInput.fill(position);
+  await settledReading(page);
+  const rows = page.getByTestId('trim-points').locator('tbody tr');
+  const before = await rows.count();
+  await positionInput.press('Enter');
+  await expect.poll(() => rows.count(), { timeout: 10_000 }).toBe(before + 1);
+}
+
+beforeAll(async () => {
+  files = tempDir('trimbench-e2e-');
+  const wav = writeToneWav(join(files.path, 'unit-output.wav'), TONE);
+  bench = await openBench({ captureWav: wav });
+});
+
+afterAll(async () => {
+  await bench?.close();
+  files?.remove();
+});
+
+describe('live readout from a fake capture device', () => {
+  it('reads the fundamental and H2/H3 of the WAV within 0.5 dB', async () => {
+    const page = await bench.openApp();
+    await startCapture(page);
+    const reading = await settledReading(page);
+    expect(reading.fundamental.frequencyHz).toBeCloseTo(TONE.frequencyHz, 1);
+    expect(Math.abs(reading.fundamental.levelDbfs - TONE.levelDbfs)).toBeLessThan(0.5);
+    for (const partial of TONE.partials) {
+      const measured = reading.harmonics.find((h) => h.order === partial.order)!;
+      expect(Math.abs(measured.levelDbc - partial.levelDbc)).toBeLessThan(0.5);
+    }
+    expect(Math.abs(reading.thdDb - EXPECTED_THD_DB)).toBeLessThan(0.5);
+    expect(reading.discontinuities).toBe(0);
+    // The big numbers a technician reads.
+    expect(Number((await page.getByTestId('fundamental-level').textContent())!.replace('−', '-'))).toBeCloseTo(TONE.levelDbfs, 0);
+    expect(Number((await page.getByTestId('thd-db').textContent())!.replace('−', '-'))).toBeCloseTo(EXPECTED_THD_DB, 0);
+  });
+});
+
+describe('records through the bridged handlers', () => {
+  it('keeps three recorded trim points when the page is closed and reopened', async () => {
+    let page = await bench.openApp();
+    await startCapture(page);
+    await openUnit(page, SERIAL);
+    await expect.poll(() => page.getByTestId('run-serial').textContent()).toBe(SERIAL);
+    for (const position of ['0', '1.5', '3']) await recordAt(page, position);
+
+    await page.close();
+    page = await bench.openApp();
+    await openUnit(page, SERIAL);
+    const rows = page.getByTestId('trim-points').locator('tbody tr');
+    await expect.poll(() => rows.count()).toBe(3);
+    expect(await rows.nth(1).locator('td').nth(1).textContent()).toBe('1.50');
+    const stored = bench.station.db.prepare('SELECT position FROM trim_points ORDER BY sequence').all();
+    expect(stored).toEqual([{ position: 0 }, { position: 1.5 }, { position: 3 }]);
+  });
+
+  it('finishes the run into a unit sheet saved as a PDF holding the serial and the verdict', async () => {
+    const page = bench.page;
+    await page.getByTestId('finish-run').click();
+    const pathText = page.getByTestId('sheet-pdf-path');
+    await expect.poll(() => pathText.textContent(), { timeout: 20_000 }).toMatch(/^Saved as /);
+    const pdfPath = (await pathText.textContent())!.replace(/^Saved as /, '');
+    expect(pdfPath.startsWith(join(bench.dataDir, 'sheets'))).toBe(true);
+    const text = execFileSync('pdftotext', ['-layout', pdfPath, '-'], { encoding: 'utf8' });
+    expect(text).toContain(SERIAL);
+    // THD of the captured tone is about −50 dB; the demo limit is −60 dB: the unit fails.
+    expect(EXPECTED_THD_DB).toBeGreaterThan(-60);
+    expect(text).toContain('FAIL');
+    expect(text).toContain('invented');
+  });
+
+  it('says why a malformed serial is refused and opens nothing', async () => {
+    const page = await bench.openApp();
+    await openUnit(page, 'MG20-26110042');
+    await expect.poll(() => page.getByTestId('serial-message').textContent()).toMatch(/not a MG-20 serial number/);
+    await page.getByTestId('serial-input').fill('');
+    await page.getByTestId('serial-input').press('Enter');
+    await expect.poll(() => page.getByTestId('serial-message').textContent()).toBe('Enter or scan a serial number.');
+    expect(await page.getByTestId('run-serial').count()).toBe(0);
+  });
+});
+
+describe('a station with no audio input', () => {
+  it('says that no input device was found', async () => {
+    const bare = await openBench({ captureWav: null });
+    try {
+      const page = await bare.openApp();
+      await page.getByRole('button', { name: 'Start capture' }).click();
+      await expect.poll(() => page.getByTestId('audio-problem').textContent()).toMatch(/No audio input device found/);
+    } finally {
+      await bare.close();
+    }
+  });
+});

@@ -1,0 +1,151 @@
+// The browser bench: the built renderer served on 127.0.0.1, Debian's Chromium driven by
+// playwright-core with a WAV file as its microphone, and the real main-process handlers bridged
+// in from Node over a temporary database. This is how the live path is tested where the
+// Electron binary cannot be had; in Electron the preload puts the same API on window.
+
+import { createServer, type Server } from 'node:http';
+import { readFile } from 'node:fs/promises';
+import { mkdtempSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { extname, join, normalize, resolve, sep } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { chromium, type BrowserContext, type Page } from 'playwright-core';
+import { IPC_CHANNELS } from '../../shared/ipc/channels.ts';
+import { dispatch, type CallerContext } from '../../electron/services/handlers.ts';
+import { openStation } from '../../electron/services/station.ts';
+
+export const RENDERER_DIR = fileURLToPath(new URL('../../out/renderer/', import.meta.url));
+export const CHROMIUM_PATH = process.env['TRIMBENCH_CHROMIUM'] ?? '/usr/bin/chromium';
+
+const MIME: Record<string, string> = {
+  '.html': 'text/html; charset=utf-8',
+  '.js': 'text/javascript; charset=utf-8',
+  '.css': 'text/css; charset=utf-8',
+  '.json': 'application/json',
+  '.svg': 'image/svg+xml',
+  '.png': 'image/png',
+  '.woff2': 'font/woff2',
+};
+
+/** Serves a folder on 127.0.0.1 (never localhost: nothing may resolve past this machine). */
+export async function serveFolder(root: string): Promise<{ origin: string; close(): Promise<void> }> {
+  const base = resolve(root);
+  const server: Server = createServer(async (request, response) => {
+    const pathname = decodeURIComponent(new URL(request.url ?? '/', 'http://127.0.0.1').pathname);
+    const file = normalize(join(base, pathname === '/' ? 'index.html' : pathname));
+    if (!file.startsWith(base + sep)) {
+      response.writeHead(404).end();
+      return;
+    }
+    try {
+      const body = await readFile(file);
+      response.writeHead(200, { 'content-type': MIME[extname(file)] ?? 'application/octet-stream', 'cache-control': 'no-store' });
+      response.end(body);
+    } catch {
+      response.writeHead(404).end();
+    }
+  });
+  await new Promise<void>((done) => server.listen(0, '127.0.0.1', done));
+  const address = server.address();
+  if (!address || typeof address === 'string') throw new Error('test server has no port');
+  return {
+    origin: `http://127.0.0.1:${address.port}`,
+    close: () => new Promise((done) => server.close(() => done())),
+  };
+}
+
+export interface BenchOptions {
+  /** Absolute path of a 32-bit float WAV to use as the microphone; null for a machine with no input device. */
+  captureWav: string | null;
+  /** Data folder for the database and sheets; a fresh temporary one when absent. */
+  dataDir?: string;
+}
+
+export interface Bench {
+  page: Page;
+  context: BrowserContext;
+  station: ReturnType<typeof openStation>;
+  origin: string;
+  dataDir: string;
+  /** Loads (or reloads) the app page. */
+  openApp(): Promise<Page>;
+  close(): Promise<void>;
+}
+
+function chromiumArgs(captureWav: string | null): string[] {
+  const args = [
+    '--no-sandbox',
+    '--disable-gpu',
+    '--disable-background-networking',
+    '--disable-component-update',
+    '--disable-sync',
+    '--no-first-run',
+    '--disable-quic',
+    '--autoplay-policy=no-user-gesture-required',
+    '--use-fake-ui-for-media-stream',
+    // Nothing may be looked up or reached past this machine.
+    '--host-resolver-rules=MAP * ~NOTFOUND, EXCLUDE 127.0.0.1',
+  ];
+  if (captureWav) args.push('--use-fake-device-for-media-stream', `--use-file-for-fake-audio-capture=${captureWav}`);
+  return args;
+}
+
+export async function openBench({ captureWav, dataDir }: BenchOptions): Promise<Bench> {
+  const ownDataDir = !dataDir;
+  const data = dataDir ?? mkdtempSync(join(tmpdir(), 'trimbench-bench-'));
+  const profile = mkdtempSync(join(tmpdir(), 'trimbench-chromium-'));
+  const station = openStation({ dataDir: data, stationName: 'browser-bench' });
+  const server = await serveFolder(RENDERER_DIR);
+  let context: BrowserContext;
+  try {
+    context = await chromium.launchPersistentContext(profile, {
+      executablePath: CHROMIUM_PATH,
+      headless: true,
+      args: chromiumArgs(captureWav),
+      viewport: { width: 1400, height: 900 },
+    });
+  } catch (error) {
+    await server.close();
+    station.close();
+    throw error;
+  }
+  let page = context.pages()[0] ?? (await context.newPage());
+
+  const caller: CallerContext = {
+    // The same sheet view that Electron's printToPDF renders, through Chromium's own PDF path.
+    printToPdf: async () => page.pdf({ format: 'A4', printBackground: true }),
+    print: async () => false, // no printer here: reported to the page as cancelled
+  };
+  await context.exposeBinding('__trimbenchCall', (_source, channel: string, payload: unknown) =>
+    dispatch(station.handlers, channel, payload, caller),
+  );
+  await context.addInitScript((channels: readonly string[]) => {
+    const call = (window as unknown as { __trimbenchCall: (c: string, p: unknown) => Promise<unknown> }).__trimbenchCall;
+    (window as unknown as { trimbench: unknown }).trimbench = Object.fromEntries(
+      channels.map((channel) => [channel, (request: unknown) => call(channel, request)]),
+    );
+  }, IPC_CHANNELS);
+
+  const bench: Bench = {
+    get page() {
+      return page;
+    },
+    context,
+    station,
+    origin: server.origin,
+    dataDir: data,
+    async openApp() {
+      if (page.isClosed()) page = await context.newPage();
+      await page.goto(`${server.origin}/index.html`);
+      return page;
+    },
+    async close() {
+      await context.close().catch(() => undefined);
+      await server.close();
+      station.close();
+      rmSync(profile, { recursive: true, force: true });
+      if (ownDataDir) rmSync(data, { recursive: true, force: true });
+    },
+  };
+  return bench;
+}
