@@ -23,3 +23,31 @@ export function writeToneWav(
   writeFileSync(path, encodeWavFloat32(Array.from({ length: channels }, () => samples), sampleRateHz));
   return path;
 }
+
+/** Encodes mono samples as 24-bit PCM WAV, written byte by byte from the RIFF layout. */
+export function encodePcm24(samples: ArrayLike<number>, sampleRateHz: number): Uint8Array {
+  const dataSize = samples.length * 3;
+  const bytes = new Uint8Array(44 + dataSize);
+  const view = new DataView(bytes.buffer);
+  const ascii = (at: number, text: string) => [...text].forEach((c, i) => view.setUint8(at + i, c.charCodeAt(0)));
+  ascii(0, 'RIFF');
+  view.setUint32(4, 36 + dataSize, true);
+  ascii(8, 'WAVE');
+  ascii(12, 'fmt ');
+  view.setUint32(16, 16, true);
+  view.setUint16(20, 1, true); // PCM
+  view.setUint16(22, 1, true);
+  view.setUint32(24, sampleRateHz, true);
+  view.setUint32(28, sampleRateHz * 3, true);
+  view.setUint16(32, 3, true);
+  view.setUint16(34, 24, true);
+  ascii(36, 'data');
+  view.setUint32(40, dataSize, true);
+  for (let i = 0; i < samples.length; i++) {
+    const code = Math.max(-8388608, Math.min(8388607, Math.round(samples[i] * 8388608)));
+    view.setUint8(44 + 3 * i, code & 0xff);
+    view.setUint8(45 + 3 * i, (code >> 8) & 0xff);
+    view.setUint8(46 + 3 * i, (code >> 16) & 0xff);
+  }
+  return bytes;
+}
