@@ -6,6 +6,8 @@ export default defineConfig({
     // Browser tests start Chromium; on a 2-core machine one file at a time keeps timings honest.
     fileParallelism: false,
     testTimeout: 30_000,
+    reporters: ['default', 'json'],
+    outputFile: { json: 'out/test-results.json' },
     hookTimeout: 60_000,
   },
 });

@@ -1,0 +1,36 @@
+// npm start: makes sure the Electron runtime is present (it is downloaded on first use, not at
+// install), then builds and opens Trimbench. Without a network the download cannot happen:
+// say so in one line instead of a stack trace.
+import { spawn, spawnSync } from 'node:child_process';
+import { existsSync, readFileSync } from 'node:fs';
+import { createRequire } from 'node:module';
+import { dirname, join } from 'node:path';
+
+const require = createRequire(import.meta.url);
+const electronDir = dirname(require.resolve('electron/package.json'));
+
+function electronBinaryPresent() {
+  const pathFile = join(electronDir, 'path.txt');
+  if (!existsSync(pathFile)) return false;
+  return existsSync(join(electronDir, 'dist', readFileSync(pathFile, 'utf8').trim()));
+}
+
+if (!electronBinaryPresent()) {
+  console.log('Fetching the Electron runtime (first start only)…');
+  const install = spawnSync(process.execPath, [join(electronDir, 'install.js')], {
+    stdio: ['ignore', 'ignore', 'pipe'],
+    timeout: 10 * 60 * 1000,
+  });
+  if (install.status !== 0 || !electronBinaryPresent()) {
+    console.error(
+      'Trimbench cannot start: the Electron runtime is not installed and could not be downloaded (is this machine offline?). ' +
+        'Run `npm start` again with internet access; `npm run build` and `npm test` work without it.',
+    );
+    process.exit(1);
+  }
+}
+
+// electron-vite's package exports do not list its bin script; find it beside its package.json.
+const cli = join(dirname(require.resolve('electron-vite/package.json')), 'bin', 'electron-vite.js');
+const preview = spawn(process.execPath, [cli, 'preview'], { stdio: 'inherit' });
+preview.on('exit', (code) => process.exit(code ?? 1));
