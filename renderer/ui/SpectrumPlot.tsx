@@ -6,7 +6,7 @@ const OPTIONS: Omit<uPlot.Options, 'width' | 'height'> & { height: number } = {
   height: 240,
   legend: { show: false },
   cursor: { drag: { x: false, y: false } },
-  scales: { x: { distr: 3 }, y: { range: [-180, 0] } },
+  scales: { x: { time: false, distr: 3 }, y: { range: [-180, 0] } },
   axes: [{ label: 'Hz' }, { label: 'dBFS', size: 60 }],
   series: [{}, { stroke: '#1f5fa8', width: 1, points: { show: false } }],
 };

@@ -29,6 +29,8 @@ export function TrimPanel({
   const [message, setMessage] = useState<string | null>(null);
   const [busy, setBusy] = useState(false);
   const unsettledAskedAt = useRef(0);
+  // The reading last recorded: a second Enter on the same reading must not make a second point.
+  const recordedReading = useRef<Reading | null>(null);
 
   function stepPosition(direction: 1 | -1) {
     const current = Number(positionText);
@@ -44,6 +46,10 @@ export function TrimPanel({
       return setMessage(`Position must be within ${trim.positionMin}–${trim.positionMax} ${trim.positionUnit}.`);
     }
     if (!reading) return setMessage('There is no reading yet: start capture and turn the generator on.');
+    if (busy) return;
+    if (reading === recordedReading.current) {
+      return setMessage('This reading is already recorded. Move the trimmer, or wait for the next reading.');
+    }
     if (!reading.settled && Date.now() - unsettledAskedAt.current > CONFIRM_UNSETTLED_MS) {
       unsettledAskedAt.current = Date.now();
       return setMessage('The reading has not settled. Wait for “settled”, or press Enter again to record it marked as unsettled.');
@@ -52,6 +58,7 @@ export function TrimPanel({
     setBusy(true);
     try {
       await onRecord(position, reading);
+      recordedReading.current = reading;
       setMessage(null);
     } catch (error) {
       setMessage((error as Error).message);

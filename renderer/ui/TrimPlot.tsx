@@ -6,7 +6,17 @@ import { UPlotChart } from './UPlotChart.tsx';
 const OPTIONS: Omit<uPlot.Options, 'width' | 'height'> & { height: number } = {
   height: 220,
   legend: { show: false },
-  scales: { x: { time: false } },
+  scales: {
+    x: { time: false },
+    // At least a 10 dB span, so readings that agree within a few tenths do not look like a curve.
+    y: {
+      range: (_chart, min, max) => {
+        const middle = (min + max) / 2;
+        const half = Math.max(5, (max - min) / 2 + 2);
+        return [middle - half, middle + half];
+      },
+    },
+  },
   axes: [{ label: 'Trimmer position' }, { label: 'THD, dB', size: 60 }],
   series: [{}, { stroke: '#b0461f', width: 1.5, points: { show: true, size: 8, fill: '#b0461f' } }],
 };

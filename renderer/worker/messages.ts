@@ -42,8 +42,4 @@ export interface AudioDataLike {
 }
 
 /** What the page tells the generator worklet. */
-export interface GeneratorCommand {
-  frequencyHz: number;
-  levelDbfs: number;
-  on: boolean;
-}
+export type { StimulusSetting as GeneratorCommand } from '../../shared/dsp/sine-source.ts';
