@@ -8,6 +8,7 @@ import { fileURLToPath, pathToFileURL } from 'node:url';
 import { IPC_CHANNELS, ipcChannelName } from '../../shared/ipc/channels.ts';
 import { dispatch, type CallerContext } from '../services/handlers.ts';
 import { openStation } from '../services/station.ts';
+import { securityPolicy } from './security-policy.ts';
 
 const APP_SCHEME = 'trimbench';
 const APP_ORIGIN = `${APP_SCHEME}://app`;
@@ -15,13 +16,11 @@ const here = fileURLToPath(new URL('.', import.meta.url));
 const rendererDir = join(here, '../renderer');
 // Set by `electron-vite dev` to its dev server; absent in a built app.
 const devServerUrl = process.env['ELECTRON_RENDERER_URL'];
-const appUrlPrefix = devServerUrl ? new URL(devServerUrl).origin : APP_ORIGIN;
+const policy = securityPolicy(devServerUrl ? new URL(devServerUrl).origin : APP_ORIGIN);
 
 protocol.registerSchemesAsPrivileged([
   { scheme: APP_SCHEME, privileges: { standard: true, secure: true, supportFetchAPI: true } },
 ]);
-
-const isAppUrl = (url: string | undefined): boolean => !!url && (url === appUrlPrefix || url.startsWith(`${appUrlPrefix}/`));
 
 function serveRenderer(): void {
   protocol.handle(APP_SCHEME, (request) => {
@@ -34,17 +33,13 @@ function serveRenderer(): void {
 
 function lockDownSessions(): void {
   const appSession = session.defaultSession;
-  // Audio capture (and choosing the output device) only for our own page; nothing else, ever.
-  appSession.setPermissionRequestHandler((_contents, permission, callback, details) => {
-    const audioOnly = permission === 'media' && (details as { mediaTypes?: string[] }).mediaTypes?.every((t) => t === 'audio');
-    callback(isAppUrl(details.requestingUrl) && (audioOnly === true || permission === 'speaker-selection'));
-  });
-  appSession.setPermissionCheckHandler((_contents, permission, origin) =>
-    isAppUrl(origin) && (permission === 'media' || permission === 'speaker-selection'),
+  appSession.setPermissionRequestHandler((_contents, permission, callback, details) =>
+    callback(policy.allowPermissionRequest(permission, details.requestingUrl, (details as { mediaTypes?: string[] }).mediaTypes)),
   );
+  appSession.setPermissionCheckHandler((_contents, permission, origin) => policy.allowPermissionCheck(permission, origin));
   app.on('web-contents-created', (_event, contents) => {
     contents.on('will-navigate', (event, url) => {
-      if (!isAppUrl(url)) event.preventDefault();
+      if (!policy.allowNavigation(url)) event.preventDefault();
     });
     contents.setWindowOpenHandler(() => ({ action: 'deny' }));
     contents.on('will-attach-webview', (event) => event.preventDefault());
@@ -62,7 +57,7 @@ function registerIpc(handlers: ReturnType<typeof openStation>['handlers']): void
   for (const channel of IPC_CHANNELS) {
     ipcMain.handle(ipcChannelName(channel), (event: IpcMainInvokeEvent, payload: unknown) => {
       // Only our own page's top frame may call; an injected frame or foreign page may not.
-      if (event.senderFrame !== event.sender.mainFrame || !isAppUrl(event.senderFrame?.url)) {
+      if (!policy.allowIpcSender(event.senderFrame?.url, event.senderFrame === event.sender.mainFrame)) {
         return { ok: false, error: { name: 'Forbidden', message: 'Request from outside the Trimbench page refused.' } };
       }
       return dispatch(handlers, channel, payload, callerContext(event.sender));
