@@ -59,6 +59,8 @@ export interface BenchOptions {
   captureWav: string | null;
   /** Data folder for the database and sheets; a fresh temporary one when absent. */
   dataDir?: string;
+  /** Answer to the page's request for the microphone (default: granted). */
+  microphone?: 'granted' | 'denied';
 }
 
 export interface Bench {
@@ -67,12 +69,12 @@ export interface Bench {
   station: ReturnType<typeof openStation>;
   origin: string;
   dataDir: string;
-  /** Loads (or reloads) the app page. */
-  openApp(): Promise<Page>;
+  /** Loads (or reloads) the app page; `beforeLoad` may add page scripts first. */
+  openApp(beforeLoad?: (page: Page) => Promise<unknown>): Promise<Page>;
   close(): Promise<void>;
 }
 
-function chromiumArgs(captureWav: string | null): string[] {
+function chromiumArgs(captureWav: string | null, microphone: 'granted' | 'denied'): string[] {
   const args = [
     '--no-sandbox',
     '--disable-gpu',
@@ -82,7 +84,7 @@ function chromiumArgs(captureWav: string | null): string[] {
     '--no-first-run',
     '--disable-quic',
     '--autoplay-policy=no-user-gesture-required',
-    '--use-fake-ui-for-media-stream',
+    microphone === 'granted' ? '--use-fake-ui-for-media-stream' : '--deny-permission-prompts',
     // Nothing may be looked up or reached past this machine.
     '--host-resolver-rules=MAP * ~NOTFOUND, EXCLUDE 127.0.0.1',
   ];
@@ -90,7 +92,7 @@ function chromiumArgs(captureWav: string | null): string[] {
   return args;
 }
 
-export async function openBench({ captureWav, dataDir }: BenchOptions): Promise<Bench> {
+export async function openBench({ captureWav, dataDir, microphone = 'granted' }: BenchOptions): Promise<Bench> {
   const ownDataDir = !dataDir;
   const data = dataDir ?? mkdtempSync(join(tmpdir(), 'trimbench-bench-'));
   const profile = mkdtempSync(join(tmpdir(), 'trimbench-chromium-'));
@@ -101,7 +103,7 @@ export async function openBench({ captureWav, dataDir }: BenchOptions): Promise<
     context = await chromium.launchPersistentContext(profile, {
       executablePath: CHROMIUM_PATH,
       headless: true,
-      args: chromiumArgs(captureWav),
+      args: chromiumArgs(captureWav, microphone),
       viewport: { width: 1400, height: 900 },
     });
   } catch (error) {
@@ -134,8 +136,9 @@ export async function openBench({ captureWav, dataDir }: BenchOptions): Promise<
     station,
     origin: server.origin,
     dataDir: data,
-    async openApp() {
+    async openApp(beforeLoad) {
       if (page.isClosed()) page = await context.newPage();
+      await beforeLoad?.(page);
       await page.goto(`${server.origin}/index.html`);
       return page;
     },
