@@ -49,9 +49,13 @@ export function decodeWav(bytes: Uint8Array): DecodedWav {
         bitsPerSample: view.getUint16(body + 14, true),
       };
     } else if (id === 'data') {
-      // A writer that never came back to fill in the size leaves 0 or 0xFFFFFFFF: take what is there.
       const available = bytes.length - body;
-      data = { at: body, size: size === 0 || size > available ? available : size };
+      // A streaming writer that never came back to fill in the size leaves 0 or 0xFFFFFFFF: take what is there.
+      const unknownSize = size === 0 || size === 0xffffffff;
+      if (!unknownSize && size > available) {
+        throw new WavFormatError(`data chunk is truncated: it declares ${size} bytes but the file holds ${available}`);
+      }
+      data = { at: body, size: unknownSize ? available : size };
       if (format) break;
     }
     at = body + size + (size % 2);
