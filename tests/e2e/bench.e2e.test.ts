@@ -27,11 +27,15 @@ const SERIAL = 'MG20-2611-0042';
 let files: ReturnType<typeof tempDir>;
 let bench: Bench;
 
-async function settledReading(page: Page, timeoutMs = 30_000): Promise<Reading> {
+/** Waits for a settled reading newer than `afterSequence`. */
+async function settledReading(page: Page, afterSequence = 0, timeoutMs = 30_000): Promise<Reading> {
   const output = page.getByTestId('reading-json');
   await page.waitForFunction(
-    () => JSON.parse(document.querySelector('[data-testid=reading-json]')?.getAttribute('data-reading') ?? '{}').settled === true,
-    undefined,
+    (after) => {
+      const reading = JSON.parse(document.querySelector('[data-testid=reading-json]')?.getAttribute('data-reading') ?? '{}');
+      return reading.settled === true && reading.sequence > after;
+    },
+    afterSequence,
     { timeout: timeoutMs },
   );
   return JSON.parse((await output.getAttribute('data-reading'))!) as Reading;
@@ -50,10 +54,12 @@ async function openUnit(page: Page, serial: string) {
   await serialInput.press('Enter');
 }
 
+let lastRecordedSequence = 0;
 async function recordAt(page: Page, position: string) {
   const positionInput = page.getByTestId('position-input');
   await positionInput.fill(position);
-  await settledReading(page);
+  // A point is a new reading: the one just recorded cannot be recorded again.
+  lastRecordedSequence = (await settledReading(page, lastRecordedSequence)).sequence;
   const rows = page.getByTestId('trim-points').locator('tbody tr');
   const before = await rows.count();
   await positionInput.press('Enter');
