@@ -9,6 +9,8 @@ import type { IpcChannel } from './channels.ts';
 const finite = z.number();
 const rowId = z.number().int().positive();
 
+const dbLevel = finite;
+
 export const readingSchema = z.object({
   sequence: z.number().int().nonnegative(),
   sampleRateHz: finite.positive(),
@@ -16,13 +18,29 @@ export const readingSchema = z.object({
   discontinuities: z.number().int().nonnegative(),
   settled: z.boolean(),
   settleProgress: finite.min(0).max(1),
-  fundamental: z.object({ frequencyHz: finite.nonnegative(), levelDbfs: finite, phaseDeg: finite }),
+  subAudioDbfs: dbLevel.nullable(),
+  mode: z.enum(['coherent', 'windowed']),
+  fundamental: z.object({ frequencyHz: finite.nonnegative(), levelDbfs: dbLevel, phaseDeg: finite }),
   harmonics: z
-    .array(z.object({ order: z.number().int().min(2), frequencyHz: finite.nonnegative(), levelDbc: finite, phaseDeg: finite }))
+    .array(z.object({ order: z.number().int().min(2), frequencyHz: finite.nonnegative(), levelDbc: dbLevel, phaseDeg: finite }))
     .max(64),
+  harmonicsAboveNyquist: z.array(z.number().int().min(2)).max(64),
   thdPercent: finite.nonnegative(),
-  thdDb: finite,
-  flags: z.array(z.enum(['no-signal', 'clipping'])),
+  thdDb: dbLevel,
+  thdnPercent: finite.nonnegative(),
+  thdnDb: dbLevel,
+  sinadDb: finite,
+  enob: finite,
+  noiseDbfs: dbLevel,
+  noiseAWeightedDbfs: dbLevel,
+  hum: z
+    .object({
+      frequencyHz: finite.nonnegative(),
+      levelDbfs: dbLevel,
+      components: z.array(z.object({ order: z.number().int().min(1), frequencyHz: finite.nonnegative(), levelDbfs: dbLevel })).max(8),
+    })
+    .nullable(),
+  flags: z.array(z.enum(['no-signal', 'clipping', 'at-floor'])),
 });
 // The schema must describe exactly what the worker produces.
 readingSchema satisfies z.ZodType<Reading>;

@@ -3,9 +3,11 @@
 // discontinuity. Owns every buffer it uses; push() allocates nothing in the steady state.
 
 import { GlitchGuard } from '../capture/glitch-guard.ts';
-import { HarmonicAnalyzer } from './harmonic-analyzer.ts';
+import { DEFAULT_ANALYZER_OPTIONS, FrameAnalyzer } from './frame-analyzer.ts';
 import { createHarmonicAnalysis, type Reading } from './reading.ts';
 import { SettleTracker } from './settle.ts';
+import { SubAudioMeter } from './sub-audio.ts';
+import { averageLockedFrames } from './synchronous-average.ts';
 
 export interface LiveMeterConfig {
   sampleRateHz: number;
@@ -13,17 +15,32 @@ export interface LiveMeterConfig {
   expectedFundamentalHz: number | null;
   harmonicCount: number;
   readingsPerSecond: number;
+  mainsHz: 50 | 60;
+  bandLowHz: number;
+  bandHighHz: number;
+  /**
+   * Generator and capture run on one clock, so the stimulus frequency is exact: frames holding
+   * whole cycles are analysed coherently and averaged in step with the stimulus.
+   */
+  stimulusLocked: boolean;
+  /** Frames averaged in step with a locked stimulus (1 = no averaging). */
+  synchronousAverages: number;
 }
 
 export const DEFAULT_LIVE_METER_CONFIG: Omit<LiveMeterConfig, 'sampleRateHz'> = {
   expectedFundamentalHz: null,
-  harmonicCount: 10,
+  harmonicCount: DEFAULT_ANALYZER_OPTIONS.harmonicCount,
   readingsPerSecond: 6,
+  mainsHz: DEFAULT_ANALYZER_OPTIONS.mainsHz,
+  bandLowHz: DEFAULT_ANALYZER_OPTIONS.bandLowHz,
+  bandHighHz: DEFAULT_ANALYZER_OPTIONS.bandHighHz,
+  stimulusLocked: false,
+  synchronousAverages: 4,
 };
 
-// Cycles of the fundamental per frame: enough for the 4-term Blackman-Harris main lobe
-// (±4 bins) to keep the fundamental clear of H2 and of DC.
-const CYCLES_PER_FRAME = 12;
+// Cycles of the fundamental per frame: the 7-term window's main lobe spans ±7 bins and each
+// tone is fitted on ±3 more, so harmonics 12 bins apart never share fit bins.
+export const CYCLES_PER_FRAME = 12;
 const LOWEST_EXPECTED_HZ = 20;
 const MIN_FRAME = 8192;
 const MAX_FRAME = 131072;
@@ -38,10 +55,14 @@ export function frameSizeFor(sampleRateHz: number, expectedFundamentalHz: number
 export class LiveMeter {
   readonly config: LiveMeterConfig;
   readonly frameSize: number;
-  readonly analyzer: HarmonicAnalyzer;
+  readonly analyzer: FrameAnalyzer;
   readonly reading: Reading;
   private readonly guard: GlitchGuard;
   private readonly settle = new SettleTracker();
+  private readonly subAudio: SubAudioMeter | null;
+  /** Frames averaged in step with the stimulus (1 when it is not locked and coherent). */
+  private readonly averageDepth: number;
+  private readonly knownFundamentalHz: number | null;
   private readonly ring: Float32Array;
   private readonly frame: Float64Array;
   private readonly hopSamples: number;
@@ -52,12 +73,22 @@ export class LiveMeter {
 
   constructor(config: Partial<LiveMeterConfig> & Pick<LiveMeterConfig, 'sampleRateHz'>) {
     this.config = { ...DEFAULT_LIVE_METER_CONFIG, ...config };
-    const { sampleRateHz, expectedFundamentalHz, harmonicCount, readingsPerSecond } = this.config;
+    const { sampleRateHz, expectedFundamentalHz, readingsPerSecond, stimulusLocked } = this.config;
     this.frameSize = frameSizeFor(sampleRateHz, expectedFundamentalHz);
-    this.analyzer = new HarmonicAnalyzer(this.frameSize, sampleRateHz, { harmonicCount });
+    this.analyzer = new FrameAnalyzer(this.frameSize, sampleRateHz, {
+      harmonicCount: this.config.harmonicCount,
+      mainsHz: this.config.mainsHz,
+      bandLowHz: this.config.bandLowHz,
+      bandHighHz: this.config.bandHighHz,
+    });
     this.guard = new GlitchGuard(sampleRateHz);
     if (expectedFundamentalHz) this.guard.setToneHz(expectedFundamentalHz);
-    this.ring = new Float32Array(this.frameSize);
+    this.subAudio = expectedFundamentalHz ? new SubAudioMeter(sampleRateHz, expectedFundamentalHz) : null;
+    this.knownFundamentalHz = stimulusLocked ? expectedFundamentalHz : null;
+    const cycles = expectedFundamentalHz ? (expectedFundamentalHz * this.frameSize) / sampleRateHz : 0.5;
+    const coherent = this.knownFundamentalHz !== null && Math.abs(cycles - Math.round(cycles)) < 1e-6;
+    this.averageDepth = coherent ? Math.max(1, Math.round(this.config.synchronousAverages)) : 1;
+    this.ring = new Float32Array(this.frameSize * this.averageDepth);
     this.frame = new Float64Array(this.frameSize);
     this.hopSamples = Math.round(sampleRateHz / readingsPerSecond);
     this.reading = {
@@ -68,6 +99,7 @@ export class LiveMeter {
       discontinuities: 0,
       settled: false,
       settleProgress: 0,
+      subAudioDbfs: null,
     };
   }
 
@@ -83,37 +115,36 @@ export class LiveMeter {
   markBreak(counted: boolean): void {
     // A capture stream may restart its clock while it starts up; only breaks once measuring count.
     if (counted && this.reading.sequence > 0) this.announcedBreaks++;
-    this.cleanFrom = this.written;
+    this.startClean(this.written);
     this.guard.restart();
-    this.settle.reset();
   }
 
   /** Adds block[0..length); returns true when `reading` holds a new reading. */
   push(block: Float32Array, length = block.length): boolean {
     const breakAt = this.guard.scan(block, length);
-    if (breakAt >= 0) {
-      this.cleanFrom = this.written + breakAt;
-      this.settle.reset();
-    }
+    if (breakAt >= 0) this.startClean(this.written + breakAt);
     const size = this.frameSize;
-    let at = this.written % size;
+    const capacity = this.ring.length;
+    let at = this.written % capacity;
     for (let i = 0; i < length; i++) {
       this.ring[at] = block[i];
-      if (++at === size) at = 0;
+      if (++at === capacity) at = 0;
     }
+    this.subAudio?.push(block, length);
     this.written += length;
 
-    if (this.written - this.cleanFrom < size || this.written < this.nextReadingAt) return false;
+    const clean = this.written - this.cleanFrom;
+    if (clean < size || this.written < this.nextReadingAt) return false;
     this.nextReadingAt = this.written + this.hopSamples;
-
-    // Unroll the ring so the oldest sample comes first.
-    const start = this.written % size;
-    for (let i = 0; i < size; i++) this.frame[i] = this.ring[(start + i) % size];
+    // As many whole frames as are clean, up to the averaging depth, ending at the newest sample.
+    const frames = Math.min(this.averageDepth, Math.floor(clean / size));
+    averageLockedFrames(this.ring, this.written, size, frames, this.frame);
 
     const reading = this.reading;
-    this.analyzer.analyze(this.frame, reading);
+    this.analyzer.analyze(this.frame, reading, this.knownFundamentalHz);
     reading.sequence++;
     reading.discontinuities = this.discontinuities;
+    reading.subAudioDbfs = this.subAudio?.levelDbfs() ?? null;
     if (reading.flags.includes('no-signal')) {
       this.settle.reset();
       reading.settleProgress = 0;
@@ -123,5 +154,10 @@ export class LiveMeter {
     }
     reading.settled = reading.settleProgress >= 1;
     return true;
+  }
+
+  private startClean(from: number): void {
+    this.cleanFrom = from;
+    this.settle.reset();
   }
 }

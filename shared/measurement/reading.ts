@@ -4,7 +4,7 @@
 /** Levels below this are shown and stored as this value, so every number stays finite (JSON has no −∞). */
 export const FLOOR_DB = -300;
 
-export type ReadingFlag = 'no-signal' | 'clipping';
+export type ReadingFlag = 'no-signal' | 'clipping' | 'at-floor';
 
 export interface FundamentalTone {
   frequencyHz: number;
@@ -21,12 +21,41 @@ export interface HarmonicLevel {
   phaseDeg: number;
 }
 
+export interface HumComponent {
+  order: number;
+  frequencyHz: number;
+  levelDbfs: number;
+}
+
+export interface HumLevel {
+  /** The mains fundamental as measured (it drifts a little from 50 or 60 Hz). */
+  frequencyHz: number;
+  levelDbfs: number;
+  /** Mains fundamental and its 2nd and 3rd harmonics; a component hidden under a unit harmonic is left out. */
+  components: HumComponent[];
+}
+
 export interface HarmonicAnalysis {
+  /** coherent: the stimulus frequency is known and fits whole cycles in the frame; windowed: it was estimated. */
+  mode: 'coherent' | 'windowed';
   fundamental: FundamentalTone;
-  /** Orders 2..N that lie below Nyquist; orders above it are left out. */
+  /** Orders 2..N that lie below Nyquist. */
   harmonics: HarmonicLevel[];
+  /** Orders 2..N left out because they reach Nyquist. */
+  harmonicsAboveNyquist: number[];
   thdPercent: number;
   thdDb: number;
+  /** Everything but the fundamental inside the band, relative to the fundamental. */
+  thdnPercent: number;
+  thdnDb: number;
+  sinadDb: number;
+  /** Effective number of bits from SINAD (IEEE 1241): (SINAD − 1.76 dB) / 6.02 dB. */
+  enob: number;
+  /** Noise in the band with fundamental, harmonics and hum taken out, dBFS (AES17). */
+  noiseDbfs: number;
+  noiseAWeightedDbfs: number;
+  /** Mains hum, or null when none stands above the noise. */
+  hum: HumLevel | null;
   flags: ReadingFlag[];
 }
 
@@ -39,14 +68,25 @@ export interface Reading extends HarmonicAnalysis {
   settled: boolean;
   /** 0..1, how close successive readings are to agreeing. */
   settleProgress: number;
+  /** Level in the sub-audio band well below the fundamental (dBFS), null until enough capture. */
+  subAudioDbfs: number | null;
 }
 
 export function createHarmonicAnalysis(): HarmonicAnalysis {
   return {
+    mode: 'windowed',
     fundamental: { frequencyHz: 0, levelDbfs: FLOOR_DB, phaseDeg: 0 },
     harmonics: [],
+    harmonicsAboveNyquist: [],
     thdPercent: 0,
     thdDb: FLOOR_DB,
+    thdnPercent: 0,
+    thdnDb: FLOOR_DB,
+    sinadDb: 0,
+    enob: 0,
+    noiseDbfs: FLOOR_DB,
+    noiseAWeightedDbfs: FLOOR_DB,
+    hum: null,
     flags: [],
   };
 }

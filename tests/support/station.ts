@@ -18,6 +18,7 @@ export function openTestStation(dataDir: string) {
 
 /** A plausible settled reading with the given THD (for records tests; not a measurement). */
 export function readingWithThd(thdDb: number, overrides: Partial<Reading> = {}): Reading {
+  const thdPercent = 100 * 10 ** (thdDb / 20);
   return {
     sequence: 12,
     sampleRateHz: 48000,
@@ -25,10 +26,20 @@ export function readingWithThd(thdDb: number, overrides: Partial<Reading> = {}):
     discontinuities: 0,
     settled: true,
     settleProgress: 1,
+    subAudioDbfs: -110,
+    mode: 'windowed',
     fundamental: { frequencyHz: 14, levelDbfs: -12, phaseDeg: 10 },
     harmonics: [{ order: 3, frequencyHz: 42, levelDbc: thdDb, phaseDeg: 90 }],
-    thdPercent: 100 * 10 ** (thdDb / 20),
+    harmonicsAboveNyquist: [],
+    thdPercent,
     thdDb,
+    thdnPercent: thdPercent * 1.01,
+    thdnDb: thdDb + 0.1,
+    sinadDb: -(thdDb + 0.1),
+    enob: (-(thdDb + 0.1) - 1.76) / 6.02,
+    noiseDbfs: -120,
+    noiseAWeightedDbfs: -122,
+    hum: null,
     flags: [],
     ...overrides,
   };

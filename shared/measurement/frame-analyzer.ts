@@ -1,0 +1,568 @@
+// Analysis of one frame: window, FFT, then every tone (fundamental, harmonics, mains hum) read
+// from a few bins around it by a least-squares fit of the window's exact kernel. Tones whose lobes
+// overlap (a 12 Hz fundamental's H4 at 48 Hz beside 50 Hz hum) are fitted jointly, so one never
+// leaks into the other. Noise and THD+N come from the band's bin powers with the tones' lobes
+// taken out. One analyzer per frame size owns every buffer; analyze() allocates nothing.
+
+import FFT from 'fft.js';
+import { aWeightingGain } from '../dsp/a-weighting.ts';
+import { ComplexSolver } from '../dsp/complex-solve.ts';
+import { BLACKMAN_HARRIS_7, fillWindow, WindowKernel, windowProperties, type CosineSumWindow } from '../dsp/windows.ts';
+import { dbFromRatio, wrapDegrees } from '../levels.ts';
+import { FLOOR_DB, type HarmonicAnalysis, type HarmonicLevel, type HumComponent } from './reading.ts';
+
+export interface AnalyzerOptions {
+  /** Highest harmonic order counted (H2..HN). */
+  harmonicCount: number;
+  mainsHz: 50 | 60;
+  /** THD+N and noise band, Hz (the top is capped at Nyquist). */
+  bandLowHz: number;
+  bandHighHz: number;
+  /** Below this fundamental level the frame is flagged no-signal and distortion is not reported. */
+  noSignalDbfs: number;
+  /** Samples at or above this magnitude count as clipped. */
+  clipThreshold: number;
+  /** The chain's own THD floor, dBc; readings within 3 dB of it are flagged at-floor. */
+  chainFloorDbc: number | null;
+  window: CosineSumWindow;
+}
+
+export const DEFAULT_ANALYZER_OPTIONS: AnalyzerOptions = {
+  harmonicCount: 10,
+  mainsHz: 50,
+  bandLowHz: 20,
+  bandHighHz: 20000,
+  noSignalDbfs: -80,
+  clipThreshold: 0.999,
+  chainFloorDbc: null,
+  window: BLACKMAN_HARRIS_7,
+};
+
+const RAD_TO_DEG = 180 / Math.PI;
+/** Bins each side of a tone used to fit it. */
+const FIT_HALF_WIDTH = 3;
+/** Hum components searched within this distance of the nominal mains frequency, Hz. */
+const MAINS_SEARCH_HZ = 0.5;
+const HUM_ORDERS = 3;
+/** A hum component counts as present this far above the noise in its bandwidth, dB. */
+const HUM_PRESENT_DB = 10;
+const AT_FLOOR_MARGIN_DB = 3;
+const GOLDEN = (Math.sqrt(5) - 1) / 2;
+
+// Component kinds.
+const FUNDAMENTAL = 0;
+const HARMONIC = 1;
+const HUM = 2;
+
+export class FrameAnalyzer {
+  readonly frameSize: number;
+  readonly sampleRateHz: number;
+  readonly binHz: number;
+  readonly options: AnalyzerOptions;
+
+  private readonly window: Float64Array;
+  private readonly windowSum: number;
+  private readonly enbwBins: number;
+  private readonly windowed: Float64Array;
+  /** FFT output, divided by Σw so a tone's fitted amplitude is (A/2)·e^(jφ). */
+  private readonly spectrum: Float64Array;
+  private readonly fft: FFT;
+  private readonly kernel: WindowKernel;
+  private readonly solver: ComplexSolver;
+  private readonly aWeightPower: Float64Array;
+  private readonly excluded: Uint8Array;
+  private readonly harmonicPool: HarmonicLevel[];
+  private readonly humPool: HumComponent[];
+  // Components of the frame being analysed, in frequency order once sorted.
+  private readonly compBins: Float64Array;
+  private readonly compKind: Int8Array;
+  private readonly compOrder: Int32Array;
+  private readonly compRe: Float64Array;
+  private readonly compIm: Float64Array;
+  private readonly compIndex: Int32Array;
+  private compCount = 0;
+  private readonly humResult: { frequencyHz: number; levelDbfs: number; components: HumComponent[] } = {
+    frequencyHz: 0,
+    levelDbfs: FLOOR_DB,
+    components: [],
+  };
+
+  constructor(frameSize: number, sampleRateHz: number, options: Partial<AnalyzerOptions> = {}) {
+    if (!Number.isInteger(Math.log2(frameSize)) || frameSize < 256) {
+      throw new Error(`frame size must be a power of two ≥ 256, got ${frameSize}`);
+    }
+    if (!(sampleRateHz > 0)) throw new Error(`sample rate must be positive, got ${sampleRateHz}`);
+    this.frameSize = frameSize;
+    this.sampleRateHz = sampleRateHz;
+    this.binHz = sampleRateHz / frameSize;
+    this.options = { ...DEFAULT_ANALYZER_OPTIONS, ...options };
+    this.window = fillWindow(this.options.window, new Float64Array(frameSize));
+    const properties = windowProperties(this.window);
+    this.windowSum = properties.coherentGain * frameSize;
+    this.enbwBins = properties.enbwBins;
+    this.windowed = new Float64Array(frameSize);
+    this.spectrum = new Float64Array(2 * frameSize);
+    this.fft = new FFT(frameSize);
+    this.kernel = new WindowKernel(this.options.window, frameSize);
+    this.solver = new ComplexSolver(4);
+    const half = frameSize / 2;
+    this.aWeightPower = Float64Array.from({ length: half + 1 }, (_, k) => aWeightingGain(Math.max(k, 1e-9) * this.binHz) ** 2);
+    this.excluded = new Uint8Array(half + 1);
+    this.harmonicPool = [];
+    for (let order = 2; order <= this.options.harmonicCount; order++) {
+      this.harmonicPool.push({ order, frequencyHz: 0, levelDbc: 0, phaseDeg: 0 });
+    }
+    this.humPool = Array.from({ length: HUM_ORDERS }, (_, i) => ({ order: i + 1, frequencyHz: 0, levelDbfs: 0 }));
+    const maxComponents = 1 + this.options.harmonicCount + HUM_ORDERS;
+    this.compBins = new Float64Array(maxComponents);
+    this.compKind = new Int8Array(maxComponents);
+    this.compOrder = new Int32Array(maxComponents);
+    this.compRe = new Float64Array(maxComponents);
+    this.compIm = new Float64Array(maxComponents);
+    this.compIndex = new Int32Array(maxComponents);
+  }
+
+  /**
+   * Analyses frame[offset .. offset+frameSize) into `out`. The harmonic and hum entries put into
+   * `out` belong to this analyzer and are overwritten by its next analyze() call. With `knownFundamentalHz` (the stimulus
+   * frequency on a shared clock) the fundamental is not searched for; when it also fits a whole
+   * number of cycles in the frame the analysis is coherent.
+   */
+  analyze(frame: ArrayLike<number>, out: HarmonicAnalysis, knownFundamentalHz: number | null = null, offset = 0): HarmonicAnalysis {
+    const n = this.frameSize;
+    if (frame.length - offset < n) throw new Error(`frame holds ${frame.length - offset} samples, need ${n}`);
+    const { clipThreshold } = this.options;
+    let clipped = 0;
+    let flatRun = 0;
+    let longestFlatRun = 0;
+    let previous = NaN;
+    for (let i = 0; i < n; i++) {
+      const x = frame[offset + i];
+      if (x >= clipThreshold || x <= -clipThreshold) clipped++;
+      // Flat tops: a clipped stage before the converter holds one value; count runs away from zero.
+      if (x === previous && Math.abs(x) >= 0.1) {
+        if (++flatRun > longestFlatRun) longestFlatRun = flatRun;
+      } else flatRun = 0;
+      previous = x;
+      this.windowed[i] = x * this.window[i];
+    }
+    this.fft.realTransform(this.spectrum, this.windowed);
+    const scale = 1 / this.windowSum;
+    for (let i = 0; i <= n; i++) this.spectrum[i] *= scale; // bins 0..N/2 (re, im) are all we read
+
+    out.flags.length = 0;
+    const f0 = this.locateFundamental(knownFundamentalHz, out);
+    this.buildComponents(f0);
+    this.fitComponents();
+    this.refineHum();
+
+    const fundamentalAmplitude = 2 * Math.hypot(this.compRe[0], this.compIm[0]);
+    const fundamentalPhase = Math.atan2(this.compIm[0], this.compRe[0]);
+    out.fundamental.frequencyHz = f0 * this.binHz;
+    out.fundamental.levelDbfs = dbFromRatio(fundamentalAmplitude);
+    out.fundamental.phaseDeg = wrapDegrees(fundamentalPhase * RAD_TO_DEG);
+    const hasSignal = out.fundamental.levelDbfs >= this.options.noSignalDbfs;
+    if (!hasSignal) out.flags.push('no-signal');
+
+    this.writeHarmonics(out, fundamentalAmplitude, fundamentalPhase, hasSignal);
+    this.writeNoise(out, f0, fundamentalAmplitude, hasSignal);
+    this.writeHum(out);
+
+    const periodSamples = f0 > 0 ? n / f0 : n;
+    if (clipped > 0 || (hasSignal && longestFlatRun >= Math.max(16, periodSamples / 32))) out.flags.push('clipping');
+    const floor = this.options.chainFloorDbc;
+    if (hasSignal && floor !== null && out.thdDb <= floor + AT_FLOOR_MARGIN_DB) out.flags.push('at-floor');
+    return out;
+  }
+
+  /** Peak level (dBFS of a sine) per column between edgesHz[i] and edgesHz[i+1], for plotting. */
+  reduceSpectrum(edgesHz: ArrayLike<number>, levelsDbfs: Float32Array): void {
+    const lastBin = this.frameSize / 2;
+    for (let i = 0; i + 1 < edgesHz.length && i < levelsDbfs.length; i++) {
+      const from = Math.max(0, Math.floor(edgesHz[i] / this.binHz));
+      const to = Math.min(lastBin, Math.max(from + 1, Math.ceil(edgesHz[i + 1] / this.binHz)));
+      let peakPower = 0;
+      for (let k = from; k < to; k++) {
+        const power = this.spectrum[2 * k] ** 2 + this.spectrum[2 * k + 1] ** 2;
+        if (power > peakPower) peakPower = power;
+      }
+      levelsDbfs[i] = dbFromRatio(2 * Math.sqrt(peakPower));
+    }
+  }
+
+  // ---- fundamental ------------------------------------------------------------------------
+
+  private locateFundamental(knownHz: number | null, out: HarmonicAnalysis): number {
+    const n = this.frameSize;
+    out.mode = 'windowed';
+    if (knownHz !== null && knownHz > 0) {
+      const knownBin = knownHz / this.binHz;
+      if (Math.abs(knownBin - Math.round(knownBin)) < 1e-6 && knownBin >= 1) {
+        out.mode = 'coherent';
+        return Math.round(knownBin);
+      }
+      return this.searchPeak(Math.round(knownBin));
+    }
+    // Lowest bin searched keeps the DC lobe out of the search.
+    const firstBin = this.options.window.mainLobeBins + 2;
+    let peak = firstBin;
+    let peakPower = -1;
+    for (let k = firstBin; k < n / 2 - FIT_HALF_WIDTH - 1; k++) {
+      const power = this.spectrum[2 * k] ** 2 + this.spectrum[2 * k + 1] ** 2;
+      if (power > peakPower) {
+        peakPower = power;
+        peak = k;
+      }
+    }
+    return this.searchPeak(peak);
+  }
+
+  /** Golden-section search of the single-tone fit over ±1 bin of `centerBin`. */
+  private searchPeak(centerBin: number): number {
+    let lo = centerBin - 1;
+    let hi = centerBin + 1;
+    let a = hi - GOLDEN * (hi - lo);
+    let b = lo + GOLDEN * (hi - lo);
+    let fa = this.projectSingle(a, centerBin);
+    let fb = this.projectSingle(b, centerBin);
+    for (let i = 0; i < 48; i++) {
+      if (fa < fb) {
+        lo = a;
+        a = b;
+        fa = fb;
+        b = lo + GOLDEN * (hi - lo);
+        fb = this.projectSingle(b, centerBin);
+      } else {
+        hi = b;
+        b = a;
+        fb = fa;
+        a = hi - GOLDEN * (hi - lo);
+        fa = this.projectSingle(a, centerBin);
+      }
+    }
+    return (lo + hi) / 2;
+  }
+
+  /** Energy of the least-squares fit of one tone at `bin` to the bins around `centerBin`. */
+  private projectSingle(bin: number, centerBin: number): number {
+    let g = 0;
+    let bRe = 0;
+    let bIm = 0;
+    for (let k = centerBin - FIT_HALF_WIDTH; k <= centerBin + FIT_HALF_WIDTH; k++) {
+      if (k < 0 || k > this.frameSize / 2) continue;
+      this.kernel.evaluate(k - bin);
+      const wRe = this.kernel.re;
+      const wIm = this.kernel.im;
+      const xRe = this.spectrum[2 * k];
+      const xIm = this.spectrum[2 * k + 1];
+      g += wRe * wRe + wIm * wIm;
+      bRe += wRe * xRe + wIm * xIm;
+      bIm += wRe * xIm - wIm * xRe;
+    }
+    return (bRe * bRe + bIm * bIm) / g;
+  }
+
+  // ---- components ---------------------------------------------------------------------------
+
+  private buildComponents(f0: number): void {
+    const nyquistLimit = this.frameSize / 2 - FIT_HALF_WIDTH - this.options.window.mainLobeBins;
+    let count = 0;
+    const add = (bin: number, kind: number, order: number) => {
+      this.compBins[count] = bin;
+      this.compKind[count] = kind;
+      this.compOrder[count] = order;
+      this.compRe[count] = 0;
+      this.compIm[count] = 0;
+      count++;
+    };
+    add(f0, FUNDAMENTAL, 1);
+    for (let order = 2; order <= this.options.harmonicCount && order * f0 <= nyquistLimit; order++) add(order * f0, HARMONIC, order);
+    const mainsBin = this.options.mainsHz / this.binHz;
+    const unitTones = count;
+    for (let order = 1; order <= HUM_ORDERS; order++) {
+      const bin = order * mainsBin;
+      if (bin > nyquistLimit || bin < FIT_HALF_WIDTH + 1) continue;
+      // A hum tone within a bin of a unit tone cannot be told apart from it: leave it out.
+      let hidden = false;
+      for (let i = 0; i < unitTones; i++) if (Math.abs(this.compBins[i] - bin) < 1) hidden = true;
+      if (!hidden) add(bin, HUM, order);
+    }
+    this.compCount = count;
+  }
+
+  /** Fits every component, jointly with any whose lobes overlap it. */
+  private fitComponents(): number {
+    const count = this.compCount;
+    // Sort component indices by frequency (insertion sort: at most 14 items).
+    for (let i = 0; i < count; i++) this.compIndex[i] = i;
+    for (let i = 1; i < count; i++) {
+      const item = this.compIndex[i];
+      let j = i - 1;
+      while (j >= 0 && this.compBins[this.compIndex[j]] > this.compBins[item]) {
+        this.compIndex[j + 1] = this.compIndex[j];
+        j--;
+      }
+      this.compIndex[j + 1] = item;
+    }
+    // Lobes overlap the fit bins of a neighbour closer than this.
+    const groupGap = this.options.window.mainLobeBins + FIT_HALF_WIDTH;
+    let energy = 0;
+    let start = 0;
+    while (start < count) {
+      let end = start + 1;
+      while (end < count && this.compBins[this.compIndex[end]] - this.compBins[this.compIndex[end - 1]] < groupGap) end++;
+      energy += this.fitGroup(start, end);
+      start = end;
+    }
+    return energy;
+  }
+
+  /** Joint least-squares fit of sorted components [start, end); returns the fit's energy. */
+  private fitGroup(start: number, end: number): number {
+    const size = end - start;
+    if (size > this.solver.capacity) {
+      let energy = 0;
+      for (let i = start; i < end; i++) energy += this.fitGroup(i, i + 1);
+      return energy;
+    }
+    const s = this.solver.capacity;
+    const { gRe, gIm, bRe, bIm } = this.solver;
+    gRe.fill(0);
+    gIm.fill(0);
+    bRe.fill(0);
+    bIm.fill(0);
+    const firstBin = Math.max(0, Math.round(this.compBins[this.compIndex[start]]) - FIT_HALF_WIDTH);
+    const lastBin = Math.min(this.frameSize / 2, Math.round(this.compBins[this.compIndex[end - 1]]) + FIT_HALF_WIDTH);
+    // Kernel values per component at this bin, kept in the component re/im slots' scratch below.
+    for (let k = firstBin; k <= lastBin; k++) {
+      const xRe = this.spectrum[2 * k];
+      const xIm = this.spectrum[2 * k + 1];
+      for (let i = 0; i < size; i++) {
+        this.kernel.evaluate(k - this.compBins[this.compIndex[start + i]]);
+        KERNEL_RE[i] = this.kernel.re;
+        KERNEL_IM[i] = this.kernel.im;
+      }
+      for (let i = 0; i < size; i++) {
+        // b_i += conj(W_i)·X ; G_il += conj(W_i)·W_l
+        bRe[i] += KERNEL_RE[i] * xRe + KERNEL_IM[i] * xIm;
+        bIm[i] += KERNEL_RE[i] * xIm - KERNEL_IM[i] * xRe;
+        for (let l = 0; l < size; l++) {
+          gRe[i * s + l] += KERNEL_RE[i] * KERNEL_RE[l] + KERNEL_IM[i] * KERNEL_IM[l];
+          gIm[i * s + l] += KERNEL_RE[i] * KERNEL_IM[l] - KERNEL_IM[i] * KERNEL_RE[l];
+        }
+      }
+    }
+    for (let i = 0; i < size; i++) {
+      RHS_RE[i] = bRe[i];
+      RHS_IM[i] = bIm[i];
+    }
+    if (!this.solver.solve(size)) return 0;
+    let energy = 0;
+    for (let i = 0; i < size; i++) {
+      const component = this.compIndex[start + i];
+      this.compRe[component] = bRe[i];
+      this.compIm[component] = bIm[i];
+      // Fit energy = Re(b^H·c).
+      energy += RHS_RE[i] * bRe[i] + RHS_IM[i] * bIm[i];
+    }
+    return energy;
+  }
+
+  /** Mains drifts from nominal: search its frequency where the hum fit explains most. */
+  private refineHum(): void {
+    let firstHum = -1;
+    for (let i = 0; i < this.compCount; i++) if (this.compKind[i] === HUM) {
+      firstHum = i;
+      break;
+    }
+    if (firstHum < 0 || !this.humStandsOut()) return;
+    const nominal = this.options.mainsHz / this.binHz;
+    const span = MAINS_SEARCH_HZ / this.binHz;
+    const energyAt = (mainsBin: number) => {
+      for (let i = firstHum; i < this.compCount; i++) this.compBins[i] = this.compOrder[i] * mainsBin;
+      return this.fitComponents();
+    };
+    let lo = nominal - span;
+    let hi = nominal + span;
+    let a = hi - GOLDEN * (hi - lo);
+    let b = lo + GOLDEN * (hi - lo);
+    let fa = energyAt(a);
+    let fb = energyAt(b);
+    for (let i = 0; i < 30; i++) {
+      if (fa < fb) {
+        lo = a;
+        a = b;
+        fa = fb;
+        b = lo + GOLDEN * (hi - lo);
+        fb = energyAt(b);
+      } else {
+        hi = b;
+        b = a;
+        fb = fa;
+        a = hi - GOLDEN * (hi - lo);
+        fa = energyAt(a);
+      }
+    }
+    energyAt((lo + hi) / 2);
+  }
+
+  private humStandsOut(): boolean {
+    const noisePerBin = this.noisePowerPerBin();
+    for (let i = 0; i < this.compCount; i++) {
+      if (this.compKind[i] !== HUM) continue;
+      const power = 2 * (this.compRe[i] ** 2 + this.compIm[i] ** 2);
+      if (power > noisePerBin * this.enbwBins * 10 ** (HUM_PRESENT_DB / 10)) return true;
+    }
+    return false;
+  }
+
+  // ---- results ------------------------------------------------------------------------------
+
+  private writeHarmonics(out: HarmonicAnalysis, amplitude1: number, phase1: number, hasSignal: boolean): void {
+    let counted = 0;
+    for (let i = 0; i < this.compCount; i++) if (this.compKind[i] === HARMONIC) counted++;
+    if (!hasSignal) counted = 0;
+    if (out.harmonics.length !== counted) {
+      out.harmonics.length = 0;
+      for (let i = 0; i < counted; i++) out.harmonics.push(this.harmonicPool[i]);
+    }
+    out.harmonicsAboveNyquist.length = 0;
+    for (let order = 2 + (hasSignal ? counted : this.harmonicPool.length); order <= this.options.harmonicCount; order++) {
+      out.harmonicsAboveNyquist.push(order);
+    }
+    let harmonicPower = 0;
+    for (let i = 0; i < this.compCount; i++) {
+      if (this.compKind[i] !== HARMONIC || !hasSignal) continue;
+      const h = out.harmonics[this.compOrder[i] - 2];
+      const amplitude = 2 * Math.hypot(this.compRe[i], this.compIm[i]);
+      harmonicPower += amplitude * amplitude;
+      h.frequencyHz = this.compBins[i] * this.binHz;
+      h.levelDbc = dbFromRatio(amplitude / amplitude1);
+      h.phaseDeg = wrapDegrees((Math.atan2(this.compIm[i], this.compRe[i]) - h.order * phase1) * RAD_TO_DEG);
+    }
+    const thd = hasSignal ? Math.sqrt(harmonicPower) / amplitude1 : 0;
+    out.thdPercent = 100 * thd;
+    out.thdDb = dbFromRatio(thd);
+  }
+
+  private writeNoise(out: HarmonicAnalysis, f0: number, amplitude1: number, hasSignal: boolean): void {
+    const half = this.frameSize / 2;
+    const guard = this.options.window.mainLobeBins + 1;
+    const firstBin = Math.max(guard, Math.ceil(this.options.bandLowHz / this.binHz));
+    const lastBin = Math.min(half - 1, Math.floor(Math.min(this.options.bandHighHz, this.sampleRateHz / 2) / this.binHz));
+
+    // Pass 1: everything but the fundamental (THD+N). Pass 2: the tones' lobes out too (noise).
+    this.markExcluded(0, 1, guard);
+    let thdnPower = 0;
+    let thdnBins = 0;
+    for (let k = firstBin; k <= lastBin; k++) {
+      if (this.excluded[k]) continue;
+      thdnPower += this.spectrum[2 * k] ** 2 + this.spectrum[2 * k + 1] ** 2;
+      thdnBins++;
+    }
+    this.markExcluded(1, this.compCount, guard);
+    let noisePower = 0;
+    let weightedPower = 0;
+    let noiseBins = 0;
+    for (let k = firstBin; k <= lastBin; k++) {
+      if (this.excluded[k]) continue;
+      const power = this.spectrum[2 * k] ** 2 + this.spectrum[2 * k + 1] ** 2;
+      noisePower += power;
+      weightedPower += power * this.aWeightPower[k];
+      noiseBins++;
+    }
+    this.clearExcluded(guard);
+
+    // Bin power → mean-square power: 2|X/Σw|² / ENBW; bins hidden under the tones' lobes are
+    // credited with the average of the rest of the band.
+    const bandBins = Math.max(0, lastBin - firstBin + 1);
+    const toPower = 2 / this.enbwBins;
+    const thdnMeanSquare = thdnBins > 0 ? ((thdnPower * toPower) * bandBins) / thdnBins : 0;
+    const noiseMeanSquare = noiseBins > 0 ? ((noisePower * toPower) * bandBins) / noiseBins : 0;
+    const weightedMeanSquare = noiseBins > 0 ? ((weightedPower * toPower) * bandBins) / noiseBins : 0;
+    // 0 dBFS is a full-scale sine, whose mean square is 1/2.
+    out.noiseDbfs = 10 * Math.log10(Math.max(noiseMeanSquare / 0.5, 10 ** (FLOOR_DB / 10)));
+    out.noiseAWeightedDbfs = 10 * Math.log10(Math.max(weightedMeanSquare / 0.5, 10 ** (FLOOR_DB / 10)));
+    if (!hasSignal || f0 <= 0) {
+      out.thdnPercent = 0;
+      out.thdnDb = FLOOR_DB;
+      out.sinadDb = 0;
+      out.enob = 0;
+      return;
+    }
+    const ratio = Math.sqrt(thdnMeanSquare / ((amplitude1 * amplitude1) / 2));
+    out.thdnPercent = 100 * ratio;
+    out.thdnDb = dbFromRatio(ratio);
+    out.sinadDb = -out.thdnDb;
+    out.enob = (out.sinadDb - 1.76) / 6.02;
+  }
+
+  private writeHum(out: HarmonicAnalysis): void {
+    const noisePerBin = this.noisePowerPerBin();
+    const present = noisePerBin * this.enbwBins * 10 ** (HUM_PRESENT_DB / 10);
+    let standsOut = false;
+    let components = 0;
+    let mainsBin = 0;
+    for (let i = 0; i < this.compCount; i++) {
+      if (this.compKind[i] !== HUM) continue;
+      const power = 2 * (this.compRe[i] ** 2 + this.compIm[i] ** 2);
+      if (power > present) standsOut = true;
+      const c = this.humPool[components++];
+      c.order = this.compOrder[i];
+      c.frequencyHz = this.compBins[i] * this.binHz;
+      c.levelDbfs = dbFromRatio(2 * Math.sqrt(power / 2));
+      mainsBin = this.compBins[i] / this.compOrder[i];
+    }
+    if (!standsOut) {
+      out.hum = null;
+      return;
+    }
+    const hum = this.humResult;
+    hum.components.length = 0;
+    hum.frequencyHz = mainsBin * this.binHz;
+    hum.levelDbfs = FLOOR_DB;
+    for (let i = 0; i < components; i++) {
+      hum.components.push(this.humPool[i]);
+      if (this.humPool[i].order === 1) hum.levelDbfs = this.humPool[i].levelDbfs;
+    }
+    out.hum = hum;
+  }
+
+  /** Mean bin power (normalised spectrum) of the band away from every tone: the local noise. */
+  private noisePowerPerBin(): number {
+    const guard = this.options.window.mainLobeBins + 1;
+    const half = this.frameSize / 2;
+    this.markExcluded(0, this.compCount, guard);
+    let power = 0;
+    let bins = 0;
+    for (let k = guard; k < half; k++) {
+      if (this.excluded[k]) continue;
+      power += this.spectrum[2 * k] ** 2 + this.spectrum[2 * k + 1] ** 2;
+      bins++;
+    }
+    this.clearExcluded(guard);
+    return bins > 0 ? power / bins : 0;
+  }
+
+  private markExcluded(from: number, to: number, guard: number): void {
+    const half = this.frameSize / 2;
+    for (let i = from; i < to; i++) {
+      const center = Math.round(this.compBins[i]);
+      for (let k = Math.max(0, center - guard); k <= Math.min(half, center + guard); k++) this.excluded[k] = 1;
+    }
+  }
+
+  private clearExcluded(guard: number): void {
+    const half = this.frameSize / 2;
+    for (let i = 0; i < this.compCount; i++) {
+      const center = Math.round(this.compBins[i]);
+      for (let k = Math.max(0, center - guard); k <= Math.min(half, center + guard); k++) this.excluded[k] = 0;
+    }
+  }
+}
+
+// Per-bin kernel values of a group and the saved right-hand side (module scratch; groups are ≤ 4).
+const KERNEL_RE = new Float64Array(4);
+const KERNEL_IM = new Float64Array(4);
+const RHS_RE = new Float64Array(4);
+const RHS_IM = new Float64Array(4);
