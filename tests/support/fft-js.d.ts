@@ -1,0 +1,3 @@
+declare module 'fft-js' {
+  export function fft(signal: number[]): [number, number][];
+}
