@@ -1,6 +1,6 @@
 // Synthetic test signals whose construction gives the expected values.
 
-export interface Partial {
+export interface TonePartial {
   order: number;
   /** Amplitude relative to the fundamental, dBc. */
   levelDbc: number;
@@ -14,7 +14,7 @@ export function tone(
   sampleRateHz: number,
   frequencyHz: number,
   amplitude: number,
-  { phaseDeg = 0, partials = [] as Partial[], startSample = 0 } = {},
+  { phaseDeg = 0, partials = [] as TonePartial[], startSample = 0 } = {},
 ): Float64Array {
   const out = new Float64Array(length);
   const w = (2 * Math.PI * frequencyHz) / sampleRateHz;

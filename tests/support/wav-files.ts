@@ -3,14 +3,14 @@
 
 import { writeFileSync } from 'node:fs';
 import { encodeWavFloat32 } from '../../shared/audio/wav.ts';
-import { tone, type Partial } from './signals.ts';
+import { tone, type TonePartial } from './signals.ts';
 
 export function writeToneWav(
   path: string,
   { frequencyHz, levelDbfs, partials = [], seconds = 1, sampleRateHz = 44100, channels = 2 }: {
     frequencyHz: number;
     levelDbfs: number;
-    partials?: Partial[];
+    partials?: TonePartial[];
     seconds?: number;
     sampleRateHz?: number;
     channels?: number;

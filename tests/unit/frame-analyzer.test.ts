@@ -6,7 +6,7 @@ import { FrameAnalyzer, type AnalyzerOptions } from '../../shared/measurement/fr
 import { createHarmonicAnalysis } from '../../shared/measurement/reading.ts';
 import { wrapDegrees } from '../../shared/levels.ts';
 import { gaussian, seededRandom } from '../support/random.ts';
-import { dbc, tone, type Partial } from '../support/signals.ts';
+import { dbc, tone, type TonePartial } from '../support/signals.ts';
 
 function analyse(samples: Float64Array, rate: number, options: Partial<AnalyzerOptions> = {}, known: number | null = null) {
   return new FrameAnalyzer(samples.length, rate, options).analyze(samples, createHarmonicAnalysis(), known);
@@ -117,7 +117,7 @@ describe('fundamental and harmonics (expected values from the construction)', ()
 
 describe('THD of classic waveforms against their Fourier series (textbook results, derived)', () => {
   // Band-limited: partials above Nyquist are not synthesised, and THD counts H2..H10.
-  function series(amplitudeOf: (n: number) => number, orders: number[]): Partial[] {
+  function series(amplitudeOf: (n: number) => number, orders: number[]): TonePartial[] {
     return orders.map((n) => ({ order: n, levelDbc: dbc(Math.abs(amplitudeOf(n))), phaseDeg: amplitudeOf(n) < 0 ? 180 : 0 }));
   }
   const expectedThd = (amplitudeOf: (n: number) => number) =>
