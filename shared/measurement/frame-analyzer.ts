@@ -44,8 +44,10 @@ const FIT_HALF_WIDTH = 3;
 /** Hum components searched within this distance of the nominal mains frequency, Hz. */
 const MAINS_SEARCH_HZ = 0.5;
 const HUM_ORDERS = 3;
-/** A hum component counts as present this far above the noise in its bandwidth, dB. */
+/** A hum component counts as present this far above the noise in its bandwidth, dB, */
 const HUM_PRESENT_DB = 10;
+/** and above this absolute level, near the analysis floor, so float rounding never reads as hum. */
+const HUM_FLOOR_DBFS = -150;
 const AT_FLOOR_MARGIN_DB = 3;
 const GOLDEN = (Math.sqrt(5) - 1) / 2;
 
@@ -407,13 +409,18 @@ export class FrameAnalyzer {
   }
 
   private humStandsOut(): boolean {
-    const noisePerBin = this.noisePowerPerBin();
+    const threshold = this.humThreshold();
     for (let i = 0; i < this.compCount; i++) {
-      if (this.compKind[i] !== HUM) continue;
-      const power = 2 * (this.compRe[i] ** 2 + this.compIm[i] ** 2);
-      if (power > noisePerBin * this.enbwBins * 10 ** (HUM_PRESENT_DB / 10)) return true;
+      if (this.compKind[i] === HUM && 2 * (this.compRe[i] ** 2 + this.compIm[i] ** 2) > threshold) return true;
     }
     return false;
+  }
+
+  /** Mean-square power a hum component must exceed to count as present. */
+  private humThreshold(): number {
+    const aboveNoise = this.noisePowerPerBin() * this.enbwBins * 10 ** (HUM_PRESENT_DB / 10);
+    // A sine at L dBFS has mean square 10^(L/10)/2.
+    return Math.max(aboveNoise, 0.5 * 10 ** (HUM_FLOOR_DBFS / 10));
   }
 
   // ---- results ------------------------------------------------------------------------------
@@ -498,8 +505,7 @@ export class FrameAnalyzer {
   }
 
   private writeHum(out: HarmonicAnalysis): void {
-    const noisePerBin = this.noisePowerPerBin();
-    const present = noisePerBin * this.enbwBins * 10 ** (HUM_PRESENT_DB / 10);
+    const present = this.humThreshold();
     let standsOut = false;
     let components = 0;
     let mainsBin = 0;

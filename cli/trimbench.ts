@@ -1,0 +1,181 @@
+// The Trimbench command line: offline analysis of WAV files and test-frequency planning, computed
+// by the same shared/ code as the live app.
+//
+//   npm run -s cli -- analyze FILE.wav [--channel N] [--mains 50|60] [--harmonics N] [--band LO-HI] [--fundamental HZ] [--json]
+//   npm run -s cli -- plan --target HZ --rate HZ [--mains 50|60] [--harmonics N] [--json]
+
+import { readFileSync } from 'node:fs';
+import { parseArgs } from 'node:util';
+import { decodeWav, WavFormatError } from '../shared/audio/wav.ts';
+import { planTestFrequency } from '../shared/measurement/frequency-planner.ts';
+import { analyzeRecord, type RecordAnalysis } from '../shared/measurement/record-analysis.ts';
+
+const USAGE = `usage:
+  trimbench analyze FILE.wav [--channel N] [--mains 50|60] [--harmonics N] [--band LO-HI] [--fundamental HZ] [--json]
+  trimbench plan --target HZ --rate HZ [--mains 50|60] [--harmonics N] [--json]`;
+
+/** A problem with the user's input: printed as one line, exit status 1. */
+class UsageProblem extends Error {}
+
+function numberOption(name: string, text: string | undefined, check: (value: number) => boolean, expected: string): number | undefined {
+  if (text === undefined) return undefined;
+  const value = Number(text);
+  if (text.trim() === '' || !Number.isFinite(value) || !check(value)) throw new UsageProblem(`--${name} must be ${expected}, got “${text}”`);
+  return value;
+}
+
+function mainsOption(text: string | undefined): 50 | 60 {
+  if (text === undefined) return 50;
+  if (text !== '50' && text !== '60') throw new UsageProblem(`--mains must be 50 or 60, got “${text}”`);
+  return Number(text) as 50 | 60;
+}
+
+function bandOption(text: string | undefined): [number, number] | undefined {
+  if (text === undefined) return undefined;
+  const match = /^\s*([0-9.]+)\s*-\s*([0-9.]+)\s*$/.exec(text);
+  const low = match ? Number(match[1]) : NaN;
+  const high = match ? Number(match[2]) : NaN;
+  if (!match || !Number.isFinite(low) || !Number.isFinite(high) || low < 0 || high <= low) {
+    throw new UsageProblem(`--band must be LO-HI in Hz with LO < HI, e.g. 20-20000, got “${text}”`);
+  }
+  return [low, high];
+}
+
+function analyze(args: string[]): string {
+  const { values, positionals } = parseArgs({
+    args,
+    allowPositionals: true,
+    strict: true,
+    options: {
+      channel: { type: 'string' },
+      mains: { type: 'string' },
+      harmonics: { type: 'string' },
+      band: { type: 'string' },
+      fundamental: { type: 'string' },
+      json: { type: 'boolean', default: false },
+    },
+  });
+  if (positionals.length !== 1) throw new UsageProblem(`analyze takes one WAV file\n${USAGE}`);
+  const file = positionals[0];
+  const channel = numberOption('channel', values.channel, (v) => Number.isInteger(v) && v >= 0, 'a whole number ≥ 0') ?? 0;
+  const mainsHz = mainsOption(values.mains);
+  const harmonicCount = numberOption('harmonics', values.harmonics, (v) => Number.isInteger(v) && v >= 2 && v <= 50, 'a whole number from 2 to 50') ?? 10;
+  const band = bandOption(values.band);
+  const fundamentalHz = numberOption('fundamental', values.fundamental, (v) => v > 0, 'a frequency in Hz above 0') ?? null;
+
+  let bytes: Uint8Array;
+  try {
+    bytes = readFileSync(file);
+  } catch (error) {
+    throw new UsageProblem(`${file}: cannot be read (${(error as NodeJS.ErrnoException).code ?? (error as Error).message})`);
+  }
+  let wav;
+  try {
+    wav = decodeWav(bytes);
+  } catch (error) {
+    if (error instanceof WavFormatError) throw new UsageProblem(`${file}: ${error.message}`);
+    throw error;
+  }
+  if (channel >= wav.channels.length) throw new UsageProblem(`${file}: has ${wav.channels.length} channel(s); --channel ${channel} does not exist`);
+  const nyquist = wav.sampleRateHz / 2;
+  if (fundamentalHz !== null && fundamentalHz >= nyquist) throw new UsageProblem(`--fundamental must lie below Nyquist (${nyquist} Hz)`);
+  let result: RecordAnalysis;
+  try {
+    result = analyzeRecord(wav.channels[channel], wav.sampleRateHz, {
+      harmonicCount,
+      mainsHz,
+      bandLowHz: band?.[0],
+      bandHighHz: band ? Math.min(band[1], nyquist) : Math.min(20000, nyquist),
+      fundamentalHz,
+    });
+  } catch (error) {
+    if (error instanceof RangeError) throw new UsageProblem(`${file}: ${error.message}`);
+    throw error;
+  }
+  return values.json ? JSON.stringify(analysisJson(file, channel, result)) : analysisTable(file, channel, result);
+}
+
+function analysisJson(file: string, channel: number, r: RecordAnalysis) {
+  return {
+    file,
+    sampleRateHz: r.sampleRateHz,
+    channel,
+    fundamental: { frequencyHz: r.fundamental.frequencyHz, levelDbfs: r.fundamental.levelDbfs, phaseDeg: r.fundamental.phaseDeg },
+    harmonics: r.harmonics.map(({ order, frequencyHz, levelDbc, phaseDeg }) => ({ order, frequencyHz, levelDbc, phaseDeg })),
+    harmonicsAboveNyquist: r.harmonicsAboveNyquist,
+    thdPercent: r.thdPercent,
+    thdDb: r.thdDb,
+    thdnPercent: r.thdnPercent,
+    thdnDb: r.thdnDb,
+    sinadDb: r.sinadDb,
+    enob: r.enob,
+    noiseDbfs: r.noiseDbfs,
+    noiseAWeightedDbfs: r.noiseAWeightedDbfs,
+    hum: r.hum ? { frequencyHz: r.hum.frequencyHz, levelDbfs: r.hum.levelDbfs, components: r.hum.components } : null,
+    flags: r.flags,
+  };
+}
+
+function analysisTable(file: string, channel: number, r: RecordAnalysis): string {
+  const f = (value: number, decimals: number) => value.toFixed(decimals).padStart(9);
+  const lines = [
+    `${file} — channel ${channel}, ${r.sampleRateHz} Hz, ${r.frames} frame(s) of ${r.frameSize}, ${r.mode}`,
+    `fundamental   ${r.fundamental.frequencyHz.toFixed(4)} Hz   ${r.fundamental.levelDbfs.toFixed(3)} dBFS   phase ${r.fundamental.phaseDeg.toFixed(2)}°`,
+    `THD           ${r.thdPercent.toPrecision(4)} %   ${r.thdDb.toFixed(2)} dB`,
+    `THD+N         ${r.thdnPercent.toPrecision(4)} %   ${r.thdnDb.toFixed(2)} dB   SINAD ${r.sinadDb.toFixed(2)} dB   ENOB ${r.enob.toFixed(2)}`,
+    `noise         ${r.noiseDbfs.toFixed(2)} dBFS   A-weighted ${r.noiseAWeightedDbfs.toFixed(2)} dBFS`,
+    r.hum
+      ? `hum           ${r.hum.frequencyHz.toFixed(3)} Hz ${r.hum.levelDbfs.toFixed(2)} dBFS; ${r.hum.components.map((c) => `×${c.order} ${c.levelDbfs.toFixed(1)}`).join(', ')} dBFS`
+      : 'hum           none above the noise',
+    '',
+    'order   frequency Hz   level dBc   phase °',
+    ...r.harmonics.map((h) => `H${String(h.order).padEnd(5)}${f(h.frequencyHz, 2).padStart(14)}${f(h.levelDbc, 2).padStart(12)}${f(h.phaseDeg, 1).padStart(10)}`),
+  ];
+  if (r.harmonicsAboveNyquist.length) lines.push(`left out (at or above Nyquist): ${r.harmonicsAboveNyquist.map((o) => `H${o}`).join(', ')}`);
+  if (r.flags.length) lines.push(`flags: ${r.flags.join(', ')}`);
+  return lines.join('\n');
+}
+
+function plan(args: string[]): string {
+  const { values, positionals } = parseArgs({
+    args,
+    allowPositionals: true,
+    strict: true,
+    options: {
+      target: { type: 'string' },
+      rate: { type: 'string' },
+      mains: { type: 'string' },
+      harmonics: { type: 'string' },
+      json: { type: 'boolean', default: false },
+    },
+  });
+  if (positionals.length > 0) throw new UsageProblem(`plan takes no file\n${USAGE}`);
+  const targetHz = numberOption('target', values.target, (v) => v > 0, 'a frequency in Hz above 0');
+  const sampleRateHz = numberOption('rate', values.rate, (v) => Number.isInteger(v) && v >= 8000, 'a sample rate in Hz, at least 8000');
+  if (targetHz === undefined || sampleRateHz === undefined) throw new UsageProblem(`plan needs --target and --rate\n${USAGE}`);
+  const harmonicCount = numberOption('harmonics', values.harmonics, (v) => Number.isInteger(v) && v >= 1 && v <= 50, 'a whole number from 1 to 50') ?? 10;
+  let choice;
+  try {
+    choice = planTestFrequency({ targetHz, sampleRateHz, mainsHz: mainsOption(values.mains), harmonicCount });
+  } catch (error) {
+    if (error instanceof RangeError) throw new UsageProblem(error.message);
+    throw error;
+  }
+  return values.json ? JSON.stringify(choice) : `${choice.frequencyHz} Hz\n${choice.reason}`;
+}
+
+function main(argv: string[]): number {
+  const [command, ...rest] = argv;
+  try {
+    if (command === 'analyze') process.stdout.write(`${analyze(rest)}\n`);
+    else if (command === 'plan') process.stdout.write(`${plan(rest)}\n`);
+    else throw new UsageProblem(command ? `unknown command “${command}”\n${USAGE}` : USAGE);
+    return 0;
+  } catch (error) {
+    const expected = error instanceof UsageProblem || (error as { code?: string }).code?.startsWith('ERR_PARSE_ARGS');
+    process.stderr.write(`trimbench ${command ?? ''}: ${expected ? (error as Error).message : `internal error: ${(error as Error).stack}`}\n`.replace(/^trimbench : /, 'trimbench: '));
+    return expected ? 1 : 2;
+  }
+}
+
+process.exitCode = main(process.argv.slice(2));
