@@ -1,0 +1,102 @@
+// The command line as a person or a script runs it: a child process, stdout and stderr kept apart.
+
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { spawnSync } from 'node:child_process';
+import { writeFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { encodeWavFloat32 } from '../../shared/audio/wav.ts';
+import { tempDir } from '../support/station.ts';
+import { encodePcm24 } from '../support/wav-files.ts';
+import { tone } from '../support/signals.ts';
+
+const CLI = fileURLToPath(new URL('../../cli/trimbench.ts', import.meta.url));
+const run = (...args: string[]) => spawnSync(process.execPath, [CLI, ...args], { encoding: 'utf8', timeout: 60_000 });
+let files: ReturnType<typeof tempDir>;
+
+beforeAll(() => {
+  files = tempDir('trimbench-cli-');
+});
+afterAll(() => files.remove());
+
+describe('analyze', () => {
+  it('prints one JSON object whose numbers match the construction of the file', () => {
+    // 997 Hz at −3 dBFS with H2 −66 dBc and H3 −80 dBc, in a stereo 24-bit file on the right channel.
+    const rate = 96000;
+    const right = tone(rate * 2, rate, 997, 10 ** (-3 / 20), {
+      partials: [
+        { order: 2, levelDbc: -66, phaseDeg: 20 },
+        { order: 3, levelDbc: -80, phaseDeg: -40 },
+      ],
+    });
+    const file = join(files.path, 'unit-997.wav');
+    writeFileSync(file, encodeWavFloat32([new Float64Array(right.length), right], rate));
+    const result = run('analyze', file, '--channel', '1', '--json');
+    expect(result.stderr).toBe('');
+    expect(result.status).toBe(0);
+    const lines = result.stdout.trim().split('\n');
+    expect(lines).toHaveLength(1);
+    const json = JSON.parse(lines[0]);
+    for (const key of ['file', 'sampleRateHz', 'channel', 'fundamental', 'harmonics', 'thdPercent', 'thdDb', 'thdnPercent', 'thdnDb', 'sinadDb', 'noiseDbfs', 'noiseAWeightedDbfs', 'hum', 'flags']) {
+      expect(json).toHaveProperty(key);
+    }
+    expect(json.sampleRateHz).toBe(rate);
+    expect(json.channel).toBe(1);
+    expect(json.fundamental.frequencyHz).toBeCloseTo(997, 4);
+    expect(Math.abs(json.fundamental.levelDbfs + 3)).toBeLessThan(0.02);
+    const h = (order: number) => json.harmonics.find((x: { order: number }) => x.order === order);
+    expect(Math.abs(h(2).levelDbc + 66)).toBeLessThan(0.05);
+    expect(Math.abs(h(3).levelDbc + 80)).toBeLessThan(0.05);
+    // THD = √(H2² + H3²) over the fundamental.
+    expect(Math.abs(json.thdDb - 20 * Math.log10(Math.hypot(10 ** (-66 / 20), 10 ** (-80 / 20))))).toBeLessThan(0.05);
+    expect(json.hum).toBeNull();
+    expect(json.flags).toEqual([]);
+  });
+
+  it('reads 24-bit PCM and prints a readable table without --json', () => {
+    const file = join(files.path, 'tone-24.wav');
+    writeFileSync(file, encodePcm24(tone(48000, 48000, 1000, 0.5), 48000));
+    const result = run('analyze', file);
+    expect(result.status).toBe(0);
+    expect(result.stdout).toMatch(/fundamental\s+1000\.0000 Hz\s+-6\.02\d dBFS/);
+    expect(result.stdout).toMatch(/H10/);
+  });
+
+  it.each([
+    ['a missing file', ['missing.wav'], /missing\.wav: cannot be read \(ENOENT\)/],
+    ['a text file', ['notes.wav'], /notes\.wav: not a RIFF\/WAVE file/],
+    ['a truncated file', ['truncated.wav'], /truncated\.wav: data chunk is truncated/],
+    ['a channel that does not exist', ['tone-24.wav', '--channel', '3'], /has 1 channel\(s\); --channel 3 does not exist/],
+    ['a bad band', ['tone-24.wav', '--band', '20k'], /--band must be LO-HI/],
+    ['bad mains', ['tone-24.wav', '--mains', '55'], /--mains must be 50 or 60/],
+    ['an unknown option', ['tone-24.wav', '--window', 'hann'], /Unknown option '--window'/],
+  ])('fails on %s with one line on stderr and nothing on stdout', (_what, args, message) => {
+    writeFileSync(join(files.path, 'notes.wav'), 'these are notes about the unit, not audio samples');
+    const whole = encodePcm24(tone(48000, 48000, 1000, 0.5), 48000);
+    writeFileSync(join(files.path, 'truncated.wav'), whole.subarray(0, 20000));
+    const [name, ...rest] = args;
+    const result = run('analyze', join(files.path, name), ...rest);
+    expect(result.status).toBe(1);
+    expect(result.stdout).toBe('');
+    expect(result.stderr.trim().split('\n')).toHaveLength(1);
+    expect(result.stderr).toMatch(message);
+  });
+});
+
+describe('plan', () => {
+  it('prints the planned frequency and why', () => {
+    const result = run('plan', '--target', '14', '--rate', '48000', '--mains', '50');
+    expect(result.status).toBe(0);
+    const [frequency, reason] = result.stdout.trim().split('\n');
+    expect(Math.abs(Number(frequency.replace(' Hz', '')) - 14)).toBeLessThan(1);
+    expect(reason).toMatch(/whole cycles/);
+    const json = JSON.parse(run('plan', '--target', '14', '--rate', '48000', '--json').stdout);
+    expect(json.frequencyHz).toBeCloseTo((json.cycles * 48000) / json.frameSize, 9);
+  });
+
+  it('needs --target and --rate', () => {
+    const result = run('plan', '--target', '14');
+    expect(result.status).toBe(1);
+    expect(result.stderr).toMatch(/plan needs --target and --rate/);
+  });
+});
