@@ -9,8 +9,10 @@ import { fileURLToPath } from 'node:url';
 import { tone } from '../support/signals.ts';
 import { tempDir } from '../support/station.ts';
 import { encodePcm24 } from '../support/wav-files.ts';
+import { encodeWavFloat32 } from '../../shared/audio/wav.ts';
 
 const CLI = fileURLToPath(new URL('../harness/capture-check.ts', import.meta.url));
+const ANALYZE = fileURLToPath(new URL('../../cli/trimbench.ts', import.meta.url));
 let files: ReturnType<typeof tempDir>;
 
 function captureCheck(...args: string[]) {
@@ -47,6 +49,28 @@ describe('capture-check', () => {
     expect(Math.abs(level(2) + 55)).toBeLessThan(0.5);
     expect(Math.abs(level(3) + 62)).toBeLessThan(0.5);
     expect(result.flags).toEqual([]);
+  });
+
+  it('agrees with the offline analyze command within 0.1 dB on the same file', () => {
+    // 997 Hz at −8 dBFS with H2 −58 dBc and H3 −73 dBc: 997 whole cycles in 1 s at 44.1 kHz, so the
+    // fake device loops it without a seam and plays it at its own rate.
+    const rate = 44100;
+    const samples = tone(rate, rate, 997, 10 ** (-8 / 20), {
+      partials: [
+        { order: 2, levelDbc: -58, phaseDeg: 30 },
+        { order: 3, levelDbc: -73, phaseDeg: 60 },
+      ],
+    });
+    const file = join(files.path, 'agreement.wav');
+    writeFileSync(file, encodeWavFloat32([samples, samples], rate));
+    const live = JSON.parse(captureCheck(file, '--json').stdout);
+    const offline = JSON.parse(spawnSync(process.execPath, [ANALYZE, 'analyze', file, '--json'], { encoding: 'utf8' }).stdout);
+    expect(Math.abs(live.fundamental.levelDbfs - offline.fundamental.levelDbfs)).toBeLessThan(0.1);
+    for (const order of [2, 3]) {
+      const level = (result: { harmonics: { order: number; levelDbc: number }[] }) => result.harmonics.find((h) => h.order === order)!.levelDbc;
+      expect(Math.abs(level(live) - level(offline))).toBeLessThan(0.1);
+    }
+    expect(Math.abs(live.thdDb - offline.thdDb)).toBeLessThan(0.1);
   });
 
   it('fails with one line naming the file when it is not a WAV file', () => {
