@@ -62,11 +62,11 @@ export class FrameAnalyzer {
   readonly binHz: number;
   readonly options: AnalyzerOptions;
 
+  /** The window divided by its sum. */
   private readonly window: Float64Array;
-  private readonly windowSum: number;
   private readonly enbwBins: number;
   private readonly windowed: Float64Array;
-  /** FFT output, divided by Σw so a tone's fitted amplitude is (A/2)·e^(jφ). */
+  /** FFT of the frame times the normalised window: a tone's fitted amplitude is (A/2)·e^(jφ). */
   private readonly spectrum: Float64Array;
   private readonly fft: FFT;
   private readonly kernel: WindowKernel;
@@ -83,6 +83,13 @@ export class FrameAnalyzer {
   private readonly compIm: Float64Array;
   private readonly compIndex: Int32Array;
   private compCount = 0;
+  // Bin powers of the frame being analysed (normalised spectrum), from measureBins().
+  private thdnBinPower = 0;
+  private noiseBinPower = 0;
+  private weightedBinPower = 0;
+  private noisePerBin = 0;
+  private sumPower = 0;
+  private sumWeighted = 0;
   private readonly humResult: { frequencyHz: number; levelDbfs: number; components: HumComponent[] } = {
     frequencyHz: 0,
     levelDbfs: FLOOR_DB,
@@ -98,9 +105,10 @@ export class FrameAnalyzer {
     this.sampleRateHz = sampleRateHz;
     this.binHz = sampleRateHz / frameSize;
     this.options = { ...DEFAULT_ANALYZER_OPTIONS, ...options };
-    this.window = fillWindow(this.options.window, new Float64Array(frameSize));
-    const properties = windowProperties(this.window);
-    this.windowSum = properties.coherentGain * frameSize;
+    const window = fillWindow(this.options.window, new Float64Array(frameSize));
+    const properties = windowProperties(window);
+    const windowSum = properties.coherentGain * frameSize;
+    this.window = window.map((w) => w / windowSum);
     this.enbwBins = properties.enbwBins;
     this.windowed = new Float64Array(frameSize);
     this.spectrum = new Float64Array(2 * frameSize);
@@ -133,29 +141,23 @@ export class FrameAnalyzer {
   analyze(frame: ArrayLike<number>, out: HarmonicAnalysis, knownFundamentalHz: number | null = null, offset = 0): HarmonicAnalysis {
     const n = this.frameSize;
     if (frame.length - offset < n) throw new Error(`frame holds ${frame.length - offset} samples, need ${n}`);
-    const { clipThreshold } = this.options;
-    let clipped = 0;
-    let flatRun = 0;
-    let longestFlatRun = 0;
-    let previous = NaN;
+    const window = this.window;
+    const windowed = this.windowed;
+    let peak = 0;
     for (let i = 0; i < n; i++) {
       const x = frame[offset + i];
-      if (x >= clipThreshold || x <= -clipThreshold) clipped++;
-      // Flat tops: a clipped stage before the converter holds one value; count runs away from zero.
-      if (x === previous && Math.abs(x) >= 0.1) {
-        if (++flatRun > longestFlatRun) longestFlatRun = flatRun;
-      } else flatRun = 0;
-      previous = x;
-      this.windowed[i] = x * this.window[i];
+      windowed[i] = x * window[i];
+      const magnitude = Math.abs(x);
+      peak = magnitude > peak ? magnitude : peak;
     }
-    this.fft.realTransform(this.spectrum, this.windowed);
-    const scale = 1 / this.windowSum;
-    for (let i = 0; i <= n; i++) this.spectrum[i] *= scale; // bins 0..N/2 (re, im) are all we read
+    // The window is pre-divided by its sum, so the spectrum comes out normalised.
+    this.fft.realTransform(this.spectrum, windowed);
 
     out.flags.length = 0;
     const f0 = this.locateFundamental(knownFundamentalHz, out);
     this.buildComponents(f0);
-    this.fitComponents();
+    this.fitComponents(false);
+    this.measureBins(f0);
     this.refineHum();
 
     const fundamentalAmplitude = 2 * Math.hypot(this.compRe[0], this.compIm[0]);
@@ -171,7 +173,10 @@ export class FrameAnalyzer {
     this.writeHum(out);
 
     const periodSamples = f0 > 0 ? n / f0 : n;
-    if (clipped > 0 || (hasSignal && longestFlatRun >= Math.max(16, periodSamples / 32))) out.flags.push('clipping');
+    const flatTopSamples = Math.max(16, periodSamples / 32);
+    if (peak >= this.options.clipThreshold || (hasSignal && longestFlatRun(frame, offset, n, flatTopSamples) >= flatTopSamples)) {
+      out.flags.push('clipping');
+    }
     const floor = this.options.chainFloorDbc;
     if (hasSignal && floor !== null && out.thdDb <= floor + AT_FLOOR_MARGIN_DB) out.flags.push('at-floor');
     return out;
@@ -205,12 +210,26 @@ export class FrameAnalyzer {
       }
       return this.searchPeak(Math.round(knownBin));
     }
-    // Lowest bin searched keeps the DC lobe out of the search.
+    // Lowest bin searched keeps the DC lobe out of the search. A tone's main lobe is many bins
+    // wide, so every second bin finds it; the neighbours then settle the peak bin.
     const firstBin = this.options.window.mainLobeBins + 2;
+    const lastBin = n / 2 - FIT_HALF_WIDTH - 2;
+    const spectrum = this.spectrum;
     let peak = firstBin;
     let peakPower = -1;
-    for (let k = firstBin; k < n / 2 - FIT_HALF_WIDTH - 1; k++) {
-      const power = this.spectrum[2 * k] ** 2 + this.spectrum[2 * k + 1] ** 2;
+    for (let k = firstBin; k <= lastBin; k += 2) {
+      const re = spectrum[2 * k];
+      const im = spectrum[2 * k + 1];
+      const power = re * re + im * im;
+      if (power > peakPower) {
+        peakPower = power;
+        peak = k;
+      }
+    }
+    const strided = peak;
+    for (let k = strided - 1; k <= strided + 1; k += 2) {
+      if (k < firstBin || k > lastBin) continue;
+      const power = spectrum[2 * k] ** 2 + spectrum[2 * k + 1] ** 2;
       if (power > peakPower) {
         peakPower = power;
         peak = k;
@@ -227,7 +246,8 @@ export class FrameAnalyzer {
     let b = lo + GOLDEN * (hi - lo);
     let fa = this.projectSingle(a, centerBin);
     let fb = this.projectSingle(b, centerBin);
-    for (let i = 0; i < 48; i++) {
+    // 32 steps narrow ±1 bin to ~4e-7 bin: far below what moves a level or a phase, even at H10.
+    for (let i = 0; i < 32; i++) {
       if (fa < fb) {
         lo = a;
         a = b;
@@ -292,8 +312,8 @@ export class FrameAnalyzer {
     this.compCount = count;
   }
 
-  /** Fits every component, jointly with any whose lobes overlap it. */
-  private fitComponents(): number {
+  /** Fits every component (or only groups holding hum), jointly with any whose lobes overlap it. */
+  private fitComponents(onlyHum: boolean): number {
     const count = this.compCount;
     // Sort component indices by frequency (insertion sort: at most 14 items).
     for (let i = 0; i < count; i++) this.compIndex[i] = i;
@@ -313,7 +333,9 @@ export class FrameAnalyzer {
     while (start < count) {
       let end = start + 1;
       while (end < count && this.compBins[this.compIndex[end]] - this.compBins[this.compIndex[end - 1]] < groupGap) end++;
-      energy += this.fitGroup(start, end);
+      let holdsHum = false;
+      for (let i = start; i < end; i++) if (this.compKind[this.compIndex[i]] === HUM) holdsHum = true;
+      if (holdsHum || !onlyHum) energy += this.fitGroup(start, end);
       start = end;
     }
     return energy;
@@ -373,39 +395,39 @@ export class FrameAnalyzer {
   /** Mains drifts from nominal: search its frequency where the hum fit explains most. */
   private refineHum(): void {
     let firstHum = -1;
-    for (let i = 0; i < this.compCount; i++) if (this.compKind[i] === HUM) {
-      firstHum = i;
-      break;
-    }
+    for (let i = 0; i < this.compCount && firstHum < 0; i++) if (this.compKind[i] === HUM) firstHum = i;
     if (firstHum < 0 || !this.humStandsOut()) return;
     const nominal = this.options.mainsHz / this.binHz;
     const span = MAINS_SEARCH_HZ / this.binHz;
-    const energyAt = (mainsBin: number) => {
-      for (let i = firstHum; i < this.compCount; i++) this.compBins[i] = this.compOrder[i] * mainsBin;
-      return this.fitComponents();
-    };
     let lo = nominal - span;
     let hi = nominal + span;
     let a = hi - GOLDEN * (hi - lo);
     let b = lo + GOLDEN * (hi - lo);
-    let fa = energyAt(a);
-    let fb = energyAt(b);
-    for (let i = 0; i < 30; i++) {
+    let fa = this.humEnergyAt(a, firstHum);
+    let fb = this.humEnergyAt(b, firstHum);
+    // 14 steps narrow ±0.5 Hz to about 1 mHz, finer than mains holds still.
+    for (let i = 0; i < 14; i++) {
       if (fa < fb) {
         lo = a;
         a = b;
         fa = fb;
         b = lo + GOLDEN * (hi - lo);
-        fb = energyAt(b);
+        fb = this.humEnergyAt(b, firstHum);
       } else {
         hi = b;
         b = a;
         fb = fa;
         a = hi - GOLDEN * (hi - lo);
-        fa = energyAt(a);
+        fa = this.humEnergyAt(a, firstHum);
       }
     }
-    energyAt((lo + hi) / 2);
+    this.humEnergyAt((lo + hi) / 2, firstHum);
+  }
+
+  /** Moves the hum components (stored from `firstHum` on) to multiples of `mainsBin` and refits them. */
+  private humEnergyAt(mainsBin: number, firstHum: number): number {
+    for (let i = firstHum; i < this.compCount; i++) this.compBins[i] = this.compOrder[i] * mainsBin;
+    return this.fitComponents(true);
   }
 
   private humStandsOut(): boolean {
@@ -418,7 +440,7 @@ export class FrameAnalyzer {
 
   /** Mean-square power a hum component must exceed to count as present. */
   private humThreshold(): number {
-    const aboveNoise = this.noisePowerPerBin() * this.enbwBins * 10 ** (HUM_PRESENT_DB / 10);
+    const aboveNoise = this.noisePerBin * this.enbwBins * 10 ** (HUM_PRESENT_DB / 10);
     // A sine at L dBFS has mean square 10^(L/10)/2.
     return Math.max(aboveNoise, 0.5 * 10 ** (HUM_FLOOR_DBFS / 10));
   }
@@ -452,44 +474,106 @@ export class FrameAnalyzer {
     out.thdDb = dbFromRatio(thd);
   }
 
-  private writeNoise(out: HarmonicAnalysis, f0: number, amplitude1: number, hasSignal: boolean): void {
+  /**
+   * Power in the band without the fundamental (THD+N), without any tone (noise, also A-weighted),
+   * and the mean bin power away from every tone over the whole spectrum (the local noise that hum
+   * must stand above). Sums every bin in tight loops, then takes the tones' lobes back out.
+   */
+  private measureBins(f0: number): void {
     const half = this.frameSize / 2;
     const guard = this.options.window.mainLobeBins + 1;
-    const firstBin = Math.max(guard, Math.ceil(this.options.bandLowHz / this.binHz));
-    const lastBin = Math.min(half - 1, Math.floor(Math.min(this.options.bandHighHz, this.sampleRateHz / 2) / this.binHz));
+    const spectrum = this.spectrum;
+    const aWeight = this.aWeightPower;
+    const firstBandBin = Math.max(guard, Math.ceil(this.options.bandLowHz / this.binHz));
+    const lastBandBin = Math.min(half - 1, Math.floor(Math.min(this.options.bandHighHz, this.sampleRateHz / 2) / this.binHz));
 
-    // Pass 1: everything but the fundamental (THD+N). Pass 2: the tones' lobes out too (noise).
-    this.markExcluded(0, 1, guard);
-    let thdnPower = 0;
-    let thdnBins = 0;
-    for (let k = firstBin; k <= lastBin; k++) {
-      if (this.excluded[k]) continue;
-      thdnPower += this.spectrum[2 * k] ** 2 + this.spectrum[2 * k + 1] ** 2;
-      thdnBins++;
-    }
-    this.markExcluded(1, this.compCount, guard);
-    let noisePower = 0;
-    let weightedPower = 0;
-    let noiseBins = 0;
-    for (let k = firstBin; k <= lastBin; k++) {
-      if (this.excluded[k]) continue;
-      const power = this.spectrum[2 * k] ** 2 + this.spectrum[2 * k + 1] ** 2;
-      noisePower += power;
-      weightedPower += power * this.aWeightPower[k];
-      noiseBins++;
-    }
-    this.clearExcluded(guard);
+    // The fundamental's lobe is skipped while summing, not subtracted after: it can be 160 dB
+    // above the noise, and subtracting it would leave only rounding error.
+    const fundamentalCenter = Math.round(f0);
+    const fundamentalFrom = fundamentalCenter - guard;
+    const fundamentalTo = fundamentalCenter + guard;
+    this.sumBins(firstBandBin, Math.min(lastBandBin, fundamentalFrom - 1));
+    let bandPower = this.sumPower;
+    let bandWeighted = this.sumWeighted;
+    this.sumBins(Math.max(firstBandBin, fundamentalTo + 1), lastBandBin);
+    bandPower += this.sumPower;
+    bandWeighted += this.sumWeighted;
+    let allPower = bandPower;
+    this.sumBins(guard, Math.min(firstBandBin - 1, fundamentalFrom - 1));
+    allPower += this.sumPower;
+    this.sumBins(Math.max(guard, fundamentalTo + 1), firstBandBin - 1);
+    allPower += this.sumPower;
+    this.sumBins(Math.max(lastBandBin + 1, guard), Math.min(half - 1, fundamentalFrom - 1));
+    allPower += this.sumPower;
+    this.sumBins(Math.max(lastBandBin + 1, fundamentalTo + 1, guard), half - 1);
+    allPower += this.sumPower;
 
-    // Bin power → mean-square power: 2|X/Σw|² / ENBW; bins hidden under the tones' lobes are
-    // credited with the average of the rest of the band.
-    const bandBins = Math.max(0, lastBin - firstBin + 1);
-    const toPower = 2 / this.enbwBins;
-    const thdnMeanSquare = thdnBins > 0 ? ((thdnPower * toPower) * bandBins) / thdnBins : 0;
-    const noiseMeanSquare = noiseBins > 0 ? ((noisePower * toPower) * bandBins) / noiseBins : 0;
-    const weightedMeanSquare = noiseBins > 0 ? ((weightedPower * toPower) * bandBins) / noiseBins : 0;
-    // 0 dBFS is a full-scale sine, whose mean square is 1/2.
-    out.noiseDbfs = 10 * Math.log10(Math.max(noiseMeanSquare / 0.5, 10 ** (FLOOR_DB / 10)));
-    out.noiseAWeightedDbfs = 10 * Math.log10(Math.max(weightedMeanSquare / 0.5, 10 ** (FLOOR_DB / 10)));
+    // Take the lobes back out, each bin once (the mask stops overlapping lobes counting twice).
+    const excluded = this.excluded;
+    let fundamentalBandPower = 0;
+    let fundamentalBandBins = 0;
+    let toneBandPower = 0;
+    let toneBandWeighted = 0;
+    let toneBandBins = 0;
+    let tonePower = 0;
+    let toneBins = 0;
+    for (let i = 0; i < this.compCount; i++) {
+      const center = i === 0 ? fundamentalCenter : Math.round(this.compBins[i]);
+      for (let k = Math.max(guard, center - guard); k <= Math.min(half - 1, center + guard); k++) {
+        if (excluded[k]) continue;
+        excluded[k] = 1;
+        const inFundamentalLobe = k >= fundamentalFrom && k <= fundamentalTo;
+        // Bins of the fundamental's lobe were never summed: count them, subtract nothing.
+        const power = inFundamentalLobe ? 0 : spectrum[2 * k] * spectrum[2 * k] + spectrum[2 * k + 1] * spectrum[2 * k + 1];
+        tonePower += power;
+        toneBins++;
+        if (k < firstBandBin || k > lastBandBin) continue;
+        toneBandPower += power;
+        toneBandWeighted += power * aWeight[k];
+        toneBandBins++;
+        if (inFundamentalLobe) {
+          fundamentalBandPower += power;
+          fundamentalBandBins++;
+        }
+      }
+    }
+    for (let i = 0; i < this.compCount; i++) {
+      const center = i === 0 ? fundamentalCenter : Math.round(this.compBins[i]);
+      for (let k = Math.max(0, center - guard); k <= Math.min(half, center + guard); k++) excluded[k] = 0;
+    }
+
+    // Bins hidden under the tones' lobes are credited with the average of the rest of the band.
+    const bandBins = Math.max(0, lastBandBin - firstBandBin + 1);
+    const thdnBins = bandBins - fundamentalBandBins;
+    const noiseBins = bandBins - toneBandBins;
+    this.thdnBinPower = thdnBins > 0 ? ((bandPower - fundamentalBandPower) * bandBins) / thdnBins : 0;
+    this.noiseBinPower = noiseBins > 0 ? ((bandPower - toneBandPower) * bandBins) / noiseBins : 0;
+    this.weightedBinPower = noiseBins > 0 ? ((bandWeighted - toneBandWeighted) * bandBins) / noiseBins : 0;
+    const quietBins = half - guard - toneBins;
+    this.noisePerBin = quietBins > 0 ? Math.max(0, allPower - tonePower) / quietBins : 0;
+  }
+
+  /** Sums bin power (and A-weighted power) over bins from..to into sumPower / sumWeighted. */
+  private sumBins(from: number, to: number): void {
+    const spectrum = this.spectrum;
+    const aWeight = this.aWeightPower;
+    let power = 0;
+    let weighted = 0;
+    for (let k = from; k <= to; k++) {
+      const p = spectrum[2 * k] * spectrum[2 * k] + spectrum[2 * k + 1] * spectrum[2 * k + 1];
+      power += p;
+      weighted += p * aWeight[k];
+    }
+    this.sumPower = power;
+    this.sumWeighted = weighted;
+  }
+
+  private writeNoise(out: HarmonicAnalysis, f0: number, amplitude1: number, hasSignal: boolean): void {
+    // Bin power → mean-square power: 2|X/Σw|² / ENBW. 0 dBFS is a full-scale sine, mean square 1/2.
+    const toMeanSquare = 2 / this.enbwBins;
+    const floor = 10 ** (FLOOR_DB / 10);
+    out.noiseDbfs = 10 * Math.log10(Math.max((this.noiseBinPower * toMeanSquare) / 0.5, floor));
+    out.noiseAWeightedDbfs = 10 * Math.log10(Math.max((this.weightedBinPower * toMeanSquare) / 0.5, floor));
     if (!hasSignal || f0 <= 0) {
       out.thdnPercent = 0;
       out.thdnDb = FLOOR_DB;
@@ -497,7 +581,7 @@ export class FrameAnalyzer {
       out.enob = 0;
       return;
     }
-    const ratio = Math.sqrt(thdnMeanSquare / ((amplitude1 * amplitude1) / 2));
+    const ratio = Math.sqrt((this.thdnBinPower * toMeanSquare) / ((amplitude1 * amplitude1) / 2));
     out.thdnPercent = 100 * ratio;
     out.thdnDb = dbFromRatio(ratio);
     out.sinadDb = -out.thdnDb;
@@ -533,38 +617,27 @@ export class FrameAnalyzer {
     }
     out.hum = hum;
   }
+}
 
-  /** Mean bin power (normalised spectrum) of the band away from every tone: the local noise. */
-  private noisePowerPerBin(): number {
-    const guard = this.options.window.mainLobeBins + 1;
-    const half = this.frameSize / 2;
-    this.markExcluded(0, this.compCount, guard);
-    let power = 0;
-    let bins = 0;
-    for (let k = guard; k < half; k++) {
-      if (this.excluded[k]) continue;
-      power += this.spectrum[2 * k] ** 2 + this.spectrum[2 * k + 1] ** 2;
-      bins++;
-    }
-    this.clearExcluded(guard);
-    return bins > 0 ? power / bins : 0;
+/**
+ * Longest run of one repeated value away from zero (|x| ≥ 0.1), or 0 if none reaches `shortest`:
+ * the flat tops a stage clipping before the converter leaves. Looks only at every
+ * ⌊shortest/2⌋-th sample, which lands twice inside any run that long, then measures the run.
+ */
+function longestFlatRun(frame: ArrayLike<number>, offset: number, length: number, shortest: number): number {
+  const stride = Math.max(1, Math.floor(shortest / 2));
+  let longest = 0;
+  for (let i = 0; i + stride < length; i += stride) {
+    const x = frame[offset + i];
+    if (x !== frame[offset + i + stride] || Math.abs(x) < 0.1) continue;
+    let from = i;
+    while (from > 0 && frame[offset + from - 1] === x) from--;
+    let to = i + stride;
+    while (to + 1 < length && frame[offset + to + 1] === x) to++;
+    longest = Math.max(longest, to - from + 1);
+    i = to; // continue past this run
   }
-
-  private markExcluded(from: number, to: number, guard: number): void {
-    const half = this.frameSize / 2;
-    for (let i = from; i < to; i++) {
-      const center = Math.round(this.compBins[i]);
-      for (let k = Math.max(0, center - guard); k <= Math.min(half, center + guard); k++) this.excluded[k] = 1;
-    }
-  }
-
-  private clearExcluded(guard: number): void {
-    const half = this.frameSize / 2;
-    for (let i = 0; i < this.compCount; i++) {
-      const center = Math.round(this.compBins[i]);
-      for (let k = Math.max(0, center - guard); k <= Math.min(half, center + guard); k++) this.excluded[k] = 0;
-    }
-  }
+  return longest;
 }
 
 // Per-bin kernel values of a group and the saved right-hand side (module scratch; groups are ≤ 4).
