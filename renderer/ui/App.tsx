@@ -1,9 +1,10 @@
-import { useCallback, useEffect, useRef, useState } from 'react';
+import { useCallback, useEffect, useMemo, useRef, useState } from 'react';
 import type { RunDetail, Station, StoredProcedure } from '../../shared/ipc/contract.ts';
 import type { Reading } from '../../shared/measurement/reading.ts';
+import { planTestFrequency } from '../../shared/measurement/frequency-planner.ts';
 import { call } from '../api.ts';
 import { AudioProblem, BenchAudio, listDevices, type AudioDevices } from '../audio/bench-audio.ts';
-import type { GeneratorCommand } from '../worker/messages.ts';
+import type { GeneratorCommand, MeterSettings } from '../worker/messages.ts';
 import { AudioSetup, type AudioChoice } from './AudioSetup.tsx';
 import { GeneratorControls } from './GeneratorControls.tsx';
 import { LiveReadout } from './LiveReadout.tsx';
@@ -21,12 +22,31 @@ export function App() {
   const [recordsProblem, setRecordsProblem] = useState<string | null>(null);
 
   const [devices, setDevices] = useState<AudioDevices | null>(null);
-  const [choice, setChoice] = useState<AudioChoice>({ inputDeviceId: '', outputDeviceId: '', sampleRateHz: 48000, channel: 0 });
+  const [choice, setChoice] = useState<AudioChoice>({
+    inputDeviceId: '',
+    outputDeviceId: '',
+    sampleRateHz: 48000,
+    channel: 0,
+    mainsHz: 50,
+    sharedClock: false,
+  });
   const [audio, setAudio] = useState<BenchAudio | null>(null);
   const audioRef = useRef<BenchAudio | null>(null);
   const [audioProblem, setAudioProblem] = useState<string | null>(null);
   const [discontinuities, setDiscontinuities] = useState(0);
   const [generator, setGeneratorState] = useState<GeneratorCommand>({ frequencyHz: 1000, levelDbfs: -20, on: false });
+  const [stimulusNote, setStimulusNote] = useState<string | null>(null);
+
+  const meterSettings = useMemo<MeterSettings>(
+    () => ({
+      channel: choice.channel,
+      expectedFundamentalHz: generator.on ? generator.frequencyHz : null,
+      harmonicCount: HARMONIC_COUNT,
+      mainsHz: choice.mainsHz,
+      stimulusLocked: choice.sharedClock,
+    }),
+    [choice.channel, choice.mainsHz, choice.sharedClock, generator.on, generator.frequencyHz],
+  );
 
   const [reading, setReading] = useState<Reading | null>(null);
   const [spectrum, setSpectrum] = useState<{ hz: Float32Array; dbfs: Float32Array } | null>(null);
@@ -81,11 +101,7 @@ export function App() {
           inputDeviceId: choice.inputDeviceId || null,
           outputDeviceId: choice.outputDeviceId || null,
           sampleRateHz: choice.sampleRateHz,
-          meter: {
-            channel: choice.channel,
-            expectedFundamentalHz: generator.on ? generator.frequencyHz : null,
-            harmonicCount: HARMONIC_COUNT,
-          },
+          meter: meterSettings,
         },
         {
           onReading: (next, hz, dbfs) => {
@@ -118,22 +134,36 @@ export function App() {
     setGeneratorState((current) => ({ ...current, on: false }));
   }
 
-  // The meter's frame length follows the stimulus: long frames for low tones.
+  // The meter follows the stimulus (long frames for low tones) and the station's mains and clocking.
   useEffect(() => {
-    audio?.configureMeter({
-      channel: choice.channel,
-      expectedFundamentalHz: generator.on ? generator.frequencyHz : null,
-      harmonicCount: HARMONIC_COUNT,
-    });
-  }, [audio, choice.channel, generator.on, generator.frequencyHz]);
+    audio?.configureMeter(meterSettings);
+  }, [audio, meterSettings]);
 
   async function openRun(request: { serial: string; procedureId: number; operator: string }) {
     const opened = await call('openRun', request);
     setDetail(opened);
     const procedure = procedures.find((p) => p.id === opened.run.procedureId)?.definition;
     if (procedure) {
-      // The stimulus comes from the procedure; it stays off until the technician turns it on.
-      applyGenerator({ frequencyHz: procedure.trim.stimulusHz, levelDbfs: procedure.trim.stimulusLevelDbfs, on: false });
+      // The stimulus comes from the procedure; it stays off until the technician turns it on. On one
+      // interface clock it is planned to whole cycles per frame, clear of mains.
+      const { stimulusHz, stimulusLevelDbfs } = procedure.trim;
+      let frequencyHz = stimulusHz;
+      setStimulusNote(null);
+      if (choice.sharedClock) {
+        try {
+          const plan = planTestFrequency({
+            targetHz: stimulusHz,
+            sampleRateHz: audioRef.current?.sampleRateHz ?? choice.sampleRateHz,
+            mainsHz: choice.mainsHz,
+            harmonicCount: HARMONIC_COUNT,
+          });
+          frequencyHz = plan.frequencyHz;
+          setStimulusNote(plan.reason);
+        } catch (error) {
+          setStimulusNote(`Stimulus left at ${stimulusHz} Hz: ${(error as Error).message}`);
+        }
+      }
+      applyGenerator({ frequencyHz, levelDbfs: stimulusLevelDbfs, on: false });
     }
   }
 
@@ -230,7 +260,7 @@ export function App() {
             onStop={stopCapture}
             onRefresh={() => void refreshDevices()}
           />
-          <GeneratorControls command={generator} onChange={applyGenerator} available={audio !== null} />
+          <GeneratorControls command={generator} onChange={applyGenerator} available={audio !== null} note={stimulusNote} />
         </div>
         <div className="column wide">
           <LiveReadout reading={reading} />

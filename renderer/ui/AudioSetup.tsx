@@ -5,6 +5,9 @@ export interface AudioChoice {
   outputDeviceId: string;
   sampleRateHz: number;
   channel: number;
+  mainsHz: 50 | 60;
+  /** Generator output and capture input on the same interface, so one clock runs both. */
+  sharedClock: boolean;
 }
 
 const SAMPLE_RATES = [44100, 48000, 88200, 96000, 192000];
@@ -77,6 +80,17 @@ export function AudioSetup({
             </option>
           ))}
         </select>
+      </label>
+      <label>
+        Mains frequency (for hum)
+        <select value={choice.mainsHz} onChange={(e) => set({ mainsHz: Number(e.target.value) as 50 | 60 })}>
+          <option value={50}>50 Hz</option>
+          <option value={60}>60 Hz</option>
+        </select>
+      </label>
+      <label className="check">
+        <input type="checkbox" checked={choice.sharedClock} onChange={(e) => set({ sharedClock: e.target.checked })} />
+        Output and input are on one interface (one clock): analyse in step with the generator
       </label>
       <div className="row">
         {capturing ? (

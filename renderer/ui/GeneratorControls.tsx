@@ -4,10 +4,13 @@ export function GeneratorControls({
   command,
   onChange,
   available,
+  note,
 }: {
   command: GeneratorCommand;
   onChange(command: GeneratorCommand): void;
   available: boolean;
+  /** Why the frequency is what it is, when it was planned. */
+  note: string | null;
 }) {
   return (
     <section className="panel" aria-label="Generator">
@@ -44,6 +47,7 @@ export function GeneratorControls({
       >
         {command.on ? 'Turn off' : 'Turn on'}
       </button>
+      {note && <p className="hint">{note}</p>}
       {!available && <p className="hint">Start capture to use the generator.</p>}
     </section>
   );

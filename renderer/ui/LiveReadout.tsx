@@ -41,11 +41,41 @@ export function LiveReadout({ reading }: { reading: Reading | null }) {
           No signal at the input channel. Check the cabling, the channel choice and that the generator is on.
         </p>
       )}
+      {reading.flags.includes('at-floor') && (
+        <p className="hint" role="status">
+          This reading is within 3 dB of the chain’s own floor: the unit may be better than it reads.
+        </p>
+      )}
       {reading.flags.includes('clipping') && (
         <p className="problem" role="alert">
           The input is clipping. Lower the level into the interface (or the generator level) until this message goes.
         </p>
       )}
+      <dl className="facts readout-facts" data-testid="reading-details">
+        <dt>THD+N (band)</dt>
+        <dd>{noSignal ? '—' : `${fixed(reading.thdnDb, 1)} dB · ${percent(reading.thdnPercent)} · SINAD ${fixed(reading.sinadDb, 1)} dB`}</dd>
+        <dt>Noise</dt>
+        <dd>
+          {fixed(reading.noiseDbfs, 1)} dBFS · A-weighted {fixed(reading.noiseAWeightedDbfs, 1)} dBFS
+        </dd>
+        <dt>Hum</dt>
+        <dd data-testid="hum">
+          {reading.hum
+            ? `${fixed(reading.hum.frequencyHz, 2)} Hz at ${fixed(reading.hum.levelDbfs, 1)} dBFS` +
+              reading.hum.components
+                .filter((c) => c.order > 1)
+                .map((c) => ` · ×${c.order} ${fixed(c.levelDbfs, 1)}`)
+                .join('')
+            : 'none above the noise'}
+        </dd>
+        <dt>Sub-audio</dt>
+        <dd>{reading.subAudioDbfs === null ? '— (needs a stimulus frequency)' : `${fixed(reading.subAudioDbfs, 1)} dBFS`}</dd>
+        <dt>Analysis</dt>
+        <dd>
+          {reading.mode === 'coherent' ? 'coherent, in step with the generator' : 'windowed, fundamental found'} · {reading.frameSize} samples at{' '}
+          {reading.sampleRateHz / 1000} kHz
+        </dd>
+      </dl>
       <table className="harmonics">
         <thead>
           <tr>
@@ -66,6 +96,9 @@ export function LiveReadout({ reading }: { reading: Reading | null }) {
           ))}
         </tbody>
       </table>
+      {reading.harmonicsAboveNyquist.length > 0 && (
+        <p className="hint">Left out (at or above Nyquist): {reading.harmonicsAboveNyquist.map((o) => `H${o}`).join(', ')}</p>
+      )}
       {/* The whole reading, for tools that read the page (capture-check, tests). */}
       <output hidden data-testid="reading-json" data-reading={JSON.stringify(reading)} />
     </section>

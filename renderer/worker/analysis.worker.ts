@@ -10,7 +10,7 @@ declare const self: DedicatedWorkerGlobalScope;
 const SPECTRUM_COLUMNS = 480;
 const SPECTRUM_LOW_HZ = 5;
 
-let settings: MeterSettings = { channel: 0, expectedFundamentalHz: null, harmonicCount: 10 };
+let settings: MeterSettings = { channel: 0, expectedFundamentalHz: null, harmonicCount: 10, mainsHz: 50, stimulusLocked: false };
 let meter: LiveMeter | null = null;
 let block = new Float32Array(4096);
 let spectrumHz = new Float32Array(SPECTRUM_COLUMNS + 1);

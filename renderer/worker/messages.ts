@@ -7,6 +7,9 @@ export interface MeterSettings {
   channel: number;
   expectedFundamentalHz: number | null;
   harmonicCount: number;
+  mainsHz: 50 | 60;
+  /** Generator and input run on one interface clock (see LiveMeterConfig.stimulusLocked). */
+  stimulusLocked: boolean;
 }
 
 export type ToWorker =

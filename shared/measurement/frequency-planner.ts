@@ -61,6 +61,8 @@ export function planTestFrequency(request: PlanRequest): Plan {
   for (let step = 0; step < SEARCH_CYCLES; step++) {
     for (const cycles of step === 0 ? [Math.round(ideal)] : [Math.round(ideal) - step, Math.round(ideal) + step]) {
       if (cycles < CYCLES_PER_FRAME || cycles % 2 === 0 || cycles * binHz >= sampleRateHz / 2) continue;
+      // The live meter picks its frame from the stimulus frequency: it must pick this one.
+      if (request.frameSize === undefined && frameSizeFor(sampleRateHz, cycles * binHz) !== frameSize) continue;
       const clearance = closestMainsBins(cycles);
       if (clearance < clearanceBins) continue;
       const frequencyHz = cycles * binHz;

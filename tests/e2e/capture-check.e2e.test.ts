@@ -73,6 +73,23 @@ describe('capture-check', () => {
     expect(Math.abs(live.thdDb - offline.thdDb)).toBeLessThan(0.1);
   });
 
+  it('--mains tells hum from a harmonic beside it: 60 Hz hum beside a 14 Hz tone’s H4 at 56 Hz', () => {
+    // Construction: 14 Hz at −10 dBFS with H3 at −60 dBc and no H4; 60 Hz hum at −70 dBc. 2 s holds
+    // whole cycles of both, so the loop has no seam.
+    const rate = 44100;
+    const samples = tone(2 * rate, rate, 14, 10 ** (-10 / 20), { partials: [{ order: 3, levelDbc: -60, phaseDeg: 0 }] });
+    const hum = tone(2 * rate, rate, 60, 10 ** ((-10 - 70) / 20));
+    const file = join(files.path, 'hum-60.wav');
+    writeFileSync(file, encodeWavFloat32([samples.map((x, i) => x + hum[i])], rate));
+    const h4 = (result: { harmonics: { order: number; levelDbc: number }[] }) => result.harmonics.find((h) => h.order === 4)!.levelDbc;
+    const right = JSON.parse(captureCheck(file, '--mains', '60', '--json').stdout);
+    expect(h4(right)).toBeLessThan(-100);
+    expect(Math.abs(right.harmonics.find((h: { order: number }) => h.order === 3).levelDbc + 60)).toBeLessThan(0.5);
+    // Told the wrong mains, the hum 3 bins from H4 is not modelled and leaks into it.
+    const wrong = JSON.parse(captureCheck(file, '--mains', '50', '--json').stdout);
+    expect(h4(wrong)).toBeGreaterThan(h4(right) + 20);
+  });
+
   it('fails with one line naming the file when it is not a WAV file', () => {
     const file = join(files.path, 'notes.wav');
     writeFileSync(file, 'these are not samples');

@@ -81,6 +81,7 @@ async function measure(options: Options): Promise<Reading> {
     try {
       const page = await bench.openApp();
       await page.getByLabel('Input channel carrying the unit').selectOption(String(capture.uiChannel));
+      await page.getByLabel('Mains frequency (for hum)').selectOption(String(options.mains));
       await page.getByRole('button', { name: 'Start capture' }).click();
       const deadline = Date.now() + SETTLE_TIMEOUT_MS;
       let last: Reading | null = null;
