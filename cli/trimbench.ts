@@ -1,18 +1,23 @@
-// The Trimbench command line: offline analysis of WAV files and test-frequency planning, computed
+// The Trimbench command line: offline analysis of WAV files, test-frequency planning and trim-curve
+// fitting, computed
 // by the same shared/ code as the live app.
 //
 //   npm run -s cli -- analyze FILE.wav [--channel N] [--mains 50|60] [--harmonics N] [--band LO-HI] [--fundamental HZ] [--json]
 //   npm run -s cli -- plan --target HZ --rate HZ [--mains 50|60] [--harmonics N] [--json]
+//   npm run -s cli -- fit FILE.csv [--margin-db X] [--step X] [--limit-dbc X] [--json]
 
 import { readFileSync } from 'node:fs';
 import { parseArgs } from 'node:util';
 import { decodeWav, WavFormatError } from '../shared/audio/wav.ts';
 import { planTestFrequency } from '../shared/measurement/frequency-planner.ts';
 import { analyzeRecord, type RecordAnalysis } from '../shared/measurement/record-analysis.ts';
+import { adviseTrim, DEFAULT_TRIM_ASSISTANT_OPTIONS } from '../shared/trim/trim-assistant.ts';
+import { parseTrimCsv, TrimCsvError } from '../shared/trim/trim-csv.ts';
 
 const USAGE = `usage:
   trimbench analyze FILE.wav [--channel N] [--mains 50|60] [--harmonics N] [--band LO-HI] [--fundamental HZ] [--json]
-  trimbench plan --target HZ --rate HZ [--mains 50|60] [--harmonics N] [--json]`;
+  trimbench plan --target HZ --rate HZ [--mains 50|60] [--harmonics N] [--json]
+  trimbench fit FILE.csv [--margin-db X] [--step X] [--limit-dbc X] [--json]`;
 
 /** A problem with the user's input: printed as one line, exit status 1. */
 class UsageProblem extends Error {}
@@ -164,11 +169,78 @@ function plan(args: string[]): string {
   return values.json ? JSON.stringify(choice) : `${choice.frequencyHz} Hz\n${choice.reason}`;
 }
 
+function fit(args: string[]): string {
+  const { values, positionals } = parseArgs({
+    args,
+    allowPositionals: true,
+    strict: true,
+    options: {
+      'margin-db': { type: 'string' },
+      step: { type: 'string' },
+      'limit-dbc': { type: 'string' },
+      json: { type: 'boolean', default: false },
+    },
+  });
+  if (positionals.length !== 1) throw new UsageProblem(`fit takes one CSV file\n${USAGE}`);
+  const file = positionals[0];
+  const marginDb = numberOption('margin-db', values['margin-db'], (v) => v > 0 && v <= 20, 'a margin in dB above 0, at most 20');
+  const step = numberOption('step', values.step, (v) => v > 0, 'a trimmer step above 0');
+  const limitDbc = numberOption('limit-dbc', values['limit-dbc'], (v) => v < 0, 'a level in dBc below 0');
+  let text: string;
+  try {
+    text = readFileSync(file, 'utf8');
+  } catch (error) {
+    throw new UsageProblem(`${file}: cannot be read (${(error as NodeJS.ErrnoException).code ?? (error as Error).message})`);
+  }
+  let points;
+  try {
+    points = parseTrimCsv(text);
+  } catch (error) {
+    if (error instanceof TrimCsvError) throw new UsageProblem(`${file}: ${error.message}`);
+    throw error;
+  }
+  if (points.length < 2) {
+    throw new UsageProblem(`${file}: ${points.length === 1 ? 'only one trim point' : 'no trim points'}; the fit needs at least two`);
+  }
+  const positions = points.map((p) => p.position);
+  const advice = adviseTrim(points, {
+    positionMin: Math.min(DEFAULT_TRIM_ASSISTANT_OPTIONS.positionMin, ...positions),
+    positionMax: Math.max(DEFAULT_TRIM_ASSISTANT_OPTIONS.positionMax, ...positions),
+    positionStep: step ?? DEFAULT_TRIM_ASSISTANT_OPTIONS.positionStep,
+    limitDbc: limitDbc ?? DEFAULT_TRIM_ASSISTANT_OPTIONS.limitDbc,
+    marginDb: marginDb ?? DEFAULT_TRIM_ASSISTANT_OPTIONS.marginDb,
+  });
+  if (!advice.fit) throw new UsageProblem(`${file}: ${advice.fitProblem}`);
+  const result = {
+    model: advice.fit.model,
+    nullPosition: advice.fit.nullPosition,
+    nullPositionPlusMinus: advice.fit.nullPositionPlusMinus,
+    nullLevelDbc: advice.fit.nullLevelDbc,
+    bracketed: advice.bracketed,
+    side: advice.side,
+    nextPosition: advice.nextPosition,
+    recommendedPosition: advice.recommendedPosition,
+    warnings: advice.warnings.map((w) => w.id),
+  };
+  if (values.json) return JSON.stringify(result);
+  return [
+    `${file}: ${points.length} trim points — ${advice.fit.reason}`,
+    `null              ${result.nullPosition.toFixed(3)} ± ${result.nullPositionPlusMinus.toFixed(3)}, ${result.nullLevelDbc.toFixed(1)} dBc (${result.bracketed ? 'bracketed' : 'not yet bracketed'})`,
+    `latest point      ${result.side}`,
+    `next position     ${result.nextPosition.toFixed(2)}`,
+    `recommended       ${result.recommendedPosition?.toFixed(3) ?? '—'}${advice.recommendedLevelDbc !== null ? ` (predicted ${advice.recommendedLevelDbc.toFixed(1)} dBc)` : ''}`,
+    ...(advice.recommendationNote ? [`note              ${advice.recommendationNote}`] : []),
+    ...(advice.thermal ? [`thermal margin    ±${advice.thermal.deltaTemperatureC.toFixed(1)} °C untracked (copper α ${advice.thermal.alphaPerC}/°C)`] : []),
+    ...advice.warnings.map((w) => `WARNING ${w.id}: ${w.seen} ${w.advice}`),
+  ].join('\n');
+}
+
 function main(argv: string[]): number {
   const [command, ...rest] = argv;
   try {
     if (command === 'analyze') process.stdout.write(`${analyze(rest)}\n`);
     else if (command === 'plan') process.stdout.write(`${plan(rest)}\n`);
+    else if (command === 'fit') process.stdout.write(`${fit(rest)}\n`);
     else throw new UsageProblem(command ? `unknown command “${command}”\n${USAGE}` : USAGE);
     return 0;
   } catch (error) {

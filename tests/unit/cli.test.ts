@@ -100,3 +100,73 @@ describe('plan', () => {
     expect(result.stderr).toMatch(/plan needs --target and --rate/);
   });
 });
+
+describe('fit', () => {
+  // Trim points built from a known null: a residual perpendicular to the slope, so the null sits
+  // at 5.2 turns with a depth of −72 dBc by construction.
+  function csvFor(positions: number[], withPhase = true): string {
+    const depth = 10 ** (-72 / 20);
+    const slope = 0.002;
+    const rows = positions.map((p) => {
+      const re = -depth * Math.sin(0.7) + slope * (p - 5.2) * Math.cos(0.7);
+      const im = depth * Math.cos(0.7) + slope * (p - 5.2) * Math.sin(0.7);
+      const level = 20 * Math.log10(Math.hypot(re, im));
+      const phase = (Math.atan2(im, re) * 180) / Math.PI;
+      return withPhase ? `${p},${level},${phase},-12,-120` : `${p},${level}`;
+    });
+    return `${withPhase ? 'position,level_dbc,phase_deg,gain_db,lf_dbfs' : 'position,level_dbc'}\n${rows.join('\n')}\n`;
+  }
+
+  it('prints one JSON object with the null, the side, the next and recommended positions', () => {
+    const file = join(files.path, 'trim.csv');
+    writeFileSync(file, csvFor([0, 1, 2.5]));
+    const result = run('fit', file, '--json');
+    expect(result.stderr).toBe('');
+    const json = JSON.parse(result.stdout);
+    expect(Object.keys(json)).toEqual([
+      'model',
+      'nullPosition',
+      'nullPositionPlusMinus',
+      'nullLevelDbc',
+      'bracketed',
+      'side',
+      'nextPosition',
+      'recommendedPosition',
+      'warnings',
+    ]);
+    expect(json.model).toBe('phasor');
+    expect(json.nullPosition).toBeCloseTo(5.2, 4);
+    expect(json.nullLevelDbc).toBeCloseTo(-72, 2);
+    expect(json.bracketed).toBe(false);
+    expect(json.side).toBe('short-of-null');
+    expect(json.recommendedPosition).toBeLessThan(json.nullPosition);
+    expect(json.warnings).toEqual([]);
+  });
+
+  it('uses the magnitude model without phases and honours --margin-db', () => {
+    const file = join(files.path, 'trim-magnitude.csv');
+    writeFileSync(file, csvFor([0, 2, 4, 5, 6], false));
+    const one = JSON.parse(run('fit', file, '--json').stdout);
+    const three = JSON.parse(run('fit', file, '--json', '--margin-db', '3').stdout);
+    expect(one.model).toBe('magnitude');
+    expect(Math.abs(one.nullPosition - 5.2)).toBeLessThan(0.02);
+    expect(one.side).toBe('past-null');
+    expect(one.warnings).toContain('past-null');
+    expect(three.recommendedPosition).toBeLessThan(one.recommendedPosition);
+  });
+
+  it.each([
+    ['a bad number', 'position,level_dbc\n0,-40\n1,abc\n', /line 3: level_dbc “abc” is not a number/],
+    ['a missing column', 'position,phase_deg\n0,10\n1,20\n', /line 1: the header has no “level_dbc” column/],
+    ['a short row', 'position,level_dbc,phase_deg\n0,-40,10\n1,-42\n', /line 3: expected 3 fields, found 2/],
+    ['one point', 'position,level_dbc\n0,-40\n', /only one trim point; the fit needs at least two/],
+    ['two points without phase', 'position,level_dbc\n0,-40\n1,-42\n', /record a third point/],
+  ])('fails on %s with the line number and the problem', (_what, text, message) => {
+    const file = join(files.path, 'broken.csv');
+    writeFileSync(file, text);
+    const result = run('fit', file, '--json');
+    expect(result.status).toBe(1);
+    expect(result.stdout).toBe('');
+    expect(result.stderr).toMatch(message);
+  });
+});
