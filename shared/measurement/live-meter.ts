@@ -25,6 +25,12 @@ export interface LiveMeterConfig {
   stimulusLocked: boolean;
   /** Frames averaged in step with a locked stimulus (1 = no averaging). */
   synchronousAverages: number;
+  /**
+   * Look for dropped or inserted blocks in the samples themselves. Off only for a source that cannot
+   * drop blocks (the in-process demo bench), where a clipping, oscillating unit would otherwise look
+   * like a stream of capture breaks.
+   */
+  sampleGuard: boolean;
 }
 
 export const DEFAULT_LIVE_METER_CONFIG: Omit<LiveMeterConfig, 'sampleRateHz'> = {
@@ -36,6 +42,7 @@ export const DEFAULT_LIVE_METER_CONFIG: Omit<LiveMeterConfig, 'sampleRateHz'> = 
   bandHighHz: DEFAULT_ANALYZER_OPTIONS.bandHighHz,
   stimulusLocked: false,
   synchronousAverages: 4,
+  sampleGuard: true,
 };
 
 // Cycles of the fundamental per frame: the 7-term window's main lobe spans ±7 bins and each
@@ -121,7 +128,7 @@ export class LiveMeter {
 
   /** Adds block[0..length); returns true when `reading` holds a new reading. */
   push(block: Float32Array, length = block.length): boolean {
-    const breakAt = this.guard.scan(block, length);
+    const breakAt = this.config.sampleGuard ? this.guard.scan(block, length) : -1;
     if (breakAt >= 0) this.startClean(this.written + breakAt);
     const size = this.frameSize;
     const capacity = this.ring.length;

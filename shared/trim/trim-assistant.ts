@@ -81,6 +81,10 @@ export interface TrimAdvice {
 export const COPPER_ALPHA_PER_C = 0.00393;
 /** Without a fit, the first move is this many steps: enough for the slope to show. */
 const FIRST_MOVE_STEPS = 4;
+/** Beyond this many steps from a predicted null, the next move closes only part of the way… */
+const APPROACH_STEPS = 2;
+/** …this fraction of it. */
+const APPROACH_FRACTION = 0.8;
 /** No single suggested move goes further than this many steps beyond the furthest point. */
 const MAX_MOVE_STEPS = 16;
 
@@ -150,7 +154,11 @@ export function adviseTrim(points: readonly TrimPointData[], options: Partial<Tr
   // Next: bracket the null by going at most one step past it; once bracketed, measure its bottom.
   const nearest = Math.min(...used.map((p) => Math.abs(p.position - nullPosition)));
   let next: number;
-  if (!bracketed) next = nullPosition + Math.min(positionStep, Math.max(fit.nullPositionPlusMinus, grid));
+  const remaining = nullPosition - latest.position;
+  // Far from a predicted null, close most of the way but stay short: the straight-line model is a
+  // small-range approximation, and a long extrapolation can overshoot into over-compensation.
+  if (!bracketed && remaining > APPROACH_STEPS * positionStep) next = latest.position + APPROACH_FRACTION * remaining;
+  else if (!bracketed) next = nullPosition + Math.min(positionStep, Math.max(fit.nullPositionPlusMinus, grid));
   else if (nearest > positionStep / 4) next = nullPosition;
   else next = nullPosition - recommendedOffset(fit, settings).offset; // done: go to the recommended setting
   next = Math.min(next, nullPosition + positionStep, furthest + MAX_MOVE_STEPS * positionStep);

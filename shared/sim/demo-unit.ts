@@ -1,0 +1,180 @@
+// The demo bench: a simulated transformer-coupled output stage with a virtual compensation
+// trimmer, so the whole trim can be practised (and tested) with no interface. Every parameter is
+// invented for the demo scenario (design §9) and describes no real product.
+//
+// The circuit: a driver with a voltage gain and a little third-harmonic distortion drives the
+// primary through its own source resistance, the primary winding resistance and a coupling
+// capacitor. The primary is the magnetising inductance, whose current rises with the cube of the
+// flux near saturation, in parallel with the reflected load. The compensation trimmer feeds the
+// loop current back positively into the driver: a negative source resistance R_c(p). With the net
+// resistance R = R0 − R_c(p), the magnetising current's third harmonic develops −R·i₃ across the
+// primary, so H3 is proportional to R, sign included, and nulls where R = 0. Past the null R < 0:
+// the loop of magnetising inductance and coupling capacitor has negative damping, sub-audio noise
+// grows, and in the end the stage oscillates slowly between the driver's rails.
+
+import { SineSource, type StimulusSetting } from '../dsp/sine-source.ts';
+
+export interface DemoUnitParameters {
+  /** Driver output volts for a full-scale input. */
+  driveVoltsPerFullScale: number;
+  driverRailVolts: number;
+  /** Driver third-harmonic coefficient on the normalised input: x − d₃·x³. */
+  driverCubic: number;
+  /** Driver output noise, volts RMS over the full band. */
+  driverNoiseVolts: number;
+  windingOhms: number;
+  sourceOhms: number;
+  compensationOhmsPerTurn: number;
+  magnetizingHenries: number;
+  /** Magnetising current = ψ/L + k₃·ψ³ (amps per weber³). */
+  saturationAmpsPerWb3: number;
+  couplingFarads: number;
+  reflectedLoadOhms: number;
+  /** Converter noise at the capture input, as a fraction of full scale RMS. */
+  inputNoiseFullScale: number;
+  /** Mains hum at the output, dBFS, and its frequency. */
+  humDbfs: number;
+  mainsHz: number;
+}
+
+/** Invented values for the invented "MG-20" (design §9). */
+export const DEMO_UNIT_PARAMETERS: DemoUnitParameters = {
+  driveVoltsPerFullScale: 10,
+  driverRailVolts: 14,
+  driverCubic: 2e-3,
+  driverNoiseVolts: 3e-5,
+  windingOhms: 120,
+  sourceOhms: 10,
+  compensationOhmsPerTurn: 26,
+  magnetizingHenries: 5,
+  saturationAmpsPerWb3: 34,
+  couplingFarads: 1000e-6,
+  reflectedLoadOhms: 10000,
+  inputNoiseFullScale: 2e-7,
+  humDbfs: -105,
+  mainsHz: 50,
+};
+
+export class DemoUnit {
+  readonly sampleRateHz: number;
+  readonly parameters: DemoUnitParameters;
+  private readonly stimulus: SineSource;
+  private readonly stimulusBlock = new Float32Array(128);
+  private trimmerTurns = 0;
+  private flux = 0;
+  private capacitorVolts = 0;
+  private humPhase = 0;
+  private random: () => number;
+  private spareGaussian: number | null = null;
+  /** Samples the driver spent at a rail: zero until the stage breaks into oscillation. */
+  railSamples = 0;
+
+  constructor(sampleRateHz: number, parameters: DemoUnitParameters = DEMO_UNIT_PARAMETERS, seed = 1) {
+    this.sampleRateHz = sampleRateHz;
+    this.parameters = parameters;
+    this.stimulus = new SineSource(sampleRateHz);
+    let state = seed >>> 0;
+    // mulberry32: repeatable noise for tests.
+    this.random = () => {
+      state = (state + 0x6d2b79f5) >>> 0;
+      let t = state;
+      t = Math.imul(t ^ (t >>> 15), t | 1);
+      t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
+      return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
+    };
+  }
+
+  /** Where the null lies: net resistance zero (first order; within 0.02 turns of the deepest H3). */
+  get trueNullTurns(): number {
+    const p = this.parameters;
+    return (p.windingOhms + p.sourceOhms) / p.compensationOhmsPerTurn;
+  }
+
+  get netResistanceOhms(): number {
+    const p = this.parameters;
+    return p.windingOhms + p.sourceOhms - p.compensationOhmsPerTurn * this.trimmerTurns;
+  }
+
+  get trimmer(): number {
+    return this.trimmerTurns;
+  }
+
+  setTrimmer(turns: number): void {
+    this.trimmerTurns = turns;
+  }
+
+  setStimulus(setting: StimulusSetting): void {
+    this.stimulus.set(setting);
+  }
+
+  /** Fills out[0..frames) with the captured output (full scale = the drive for a full-scale input). */
+  render(out: Float32Array, frames = out.length): void {
+    for (let done = 0; done < frames; ) {
+      const chunk = Math.min(this.stimulusBlock.length, frames - done);
+      this.stimulus.fill(this.stimulusBlock, chunk);
+      for (let i = 0; i < chunk; i++) out[done + i] = this.step(this.stimulusBlock[i]);
+      done += chunk;
+    }
+  }
+
+  private step(x: number): number {
+    const p = this.parameters;
+    const dt = 1 / this.sampleRateHz;
+    const drive = p.driveVoltsPerFullScale * (x - p.driverCubic * x * x * x) + p.driverNoiseVolts * this.gaussian();
+    // Classic fourth-order Runge-Kutta on (flux, capacitor volts); the drive is held over the step.
+    const psi = this.flux;
+    const vc = this.capacitorVolts;
+    const [k1p, k1c] = this.derivatives(psi, vc, drive);
+    const [k2p, k2c] = this.derivatives(psi + 0.5 * dt * k1p, vc + 0.5 * dt * k1c, drive);
+    const [k3p, k3c] = this.derivatives(psi + 0.5 * dt * k2p, vc + 0.5 * dt * k2c, drive);
+    const [k4p, k4c] = this.derivatives(psi + dt * k3p, vc + dt * k3c, drive);
+    this.atRail = false;
+    this.flux = psi + (dt / 6) * (k1p + 2 * k2p + 2 * k3p + k4p);
+    this.capacitorVolts = vc + (dt / 6) * (k1c + 2 * k2c + 2 * k3c + k4c);
+    const primaryVolts = this.derivatives(this.flux, this.capacitorVolts, drive)[0];
+    if (this.atRail) this.railSamples++;
+
+    this.humPhase += p.mainsHz / this.sampleRateHz;
+    if (this.humPhase >= 1) this.humPhase -= 1;
+    const hum = 10 ** (p.humDbfs / 20) * Math.sin(2 * Math.PI * this.humPhase);
+    return primaryVolts / p.driveVoltsPerFullScale + hum + p.inputNoiseFullScale * this.gaussian();
+  }
+
+  private atRail = false;
+  // Scratch for derivatives(): the primary volts (dψ/dt) and dv_C/dt.
+  private readonly rates: [number, number] = [0, 0];
+
+  /**
+   * The loop: drive + R_c·i = (R_w + R_s)·i + v_C + v_p, with i = i_m(ψ) + v_p/R_L and the
+   * driver's output held within its rails. Returns [dψ/dt, dv_C/dt].
+   */
+  private derivatives(psi: number, vc: number, drive: number): [number, number] {
+    const p = this.parameters;
+    const r0 = p.windingOhms + p.sourceOhms;
+    const rc = p.compensationOhmsPerTurn * this.trimmerTurns;
+    const magnetizing = psi / p.magnetizingHenries + p.saturationAmpsPerWb3 * psi * psi * psi;
+    let primary = (drive - vc - (r0 - rc) * magnetizing) / (1 + (r0 - rc) / p.reflectedLoadOhms);
+    const driverOut = drive + rc * (magnetizing + primary / p.reflectedLoadOhms);
+    if (Math.abs(driverOut) > p.driverRailVolts) {
+      this.atRail = true;
+      // Driver at its rail: the feedback no longer adds; solve the loop with the rail as the source.
+      const rail = Math.sign(driverOut) * p.driverRailVolts;
+      primary = (rail - vc - r0 * magnetizing) / (1 + r0 / p.reflectedLoadOhms);
+    }
+    this.rates[0] = primary;
+    this.rates[1] = (magnetizing + primary / p.reflectedLoadOhms) / p.couplingFarads;
+    return this.rates;
+  }
+
+  private gaussian(): number {
+    if (this.spareGaussian !== null) {
+      const value = this.spareGaussian;
+      this.spareGaussian = null;
+      return value;
+    }
+    const radius = Math.sqrt(-2 * Math.log(1 - this.random()));
+    const angle = 2 * Math.PI * this.random();
+    this.spareGaussian = radius * Math.sin(angle);
+    return radius * Math.cos(angle);
+  }
+}
