@@ -17,7 +17,11 @@ export interface AudioDevices {
   outputs: MediaDeviceInfo[];
 }
 
-export type CapturePath = 'track-processor' | 'worklet';
+export type CapturePath = 'track-processor' | 'worklet' | 'demo';
+
+/** The input choice that selects the simulated unit instead of a device. */
+export const DEMO_INPUT = 'demo-bench';
+const DEMO_SAMPLE_RATE_HZ = 48000;
 
 export interface BenchAudioOptions {
   inputDeviceId: string | null;
@@ -81,34 +85,42 @@ export class BenchAudio {
 
   readonly capturePath: CapturePath;
   readonly sampleRateHz: number;
-  private readonly stream: MediaStream;
-  private readonly context: AudioContext;
-  private readonly generator: AudioWorkletNode;
   private readonly worker: Worker;
   private readonly events: BenchAudioEvents;
-  private readonly outputDeviceId: string | null;
+  /** The real audio path; absent for the demo bench, whose stimulus and unit live in the worker. */
+  private readonly device: {
+    stream: MediaStream;
+    context: AudioContext;
+    generator: AudioWorkletNode;
+    outputDeviceId: string | null;
+  } | null;
 
   private constructor(parts: {
     capturePath: CapturePath;
     sampleRateHz: number;
-    stream: MediaStream;
-    context: AudioContext;
-    generator: AudioWorkletNode;
     worker: Worker;
     events: BenchAudioEvents;
-    outputDeviceId: string | null;
+    device: BenchAudio['device'];
   }) {
     this.capturePath = parts.capturePath;
     this.sampleRateHz = parts.sampleRateHz;
-    this.stream = parts.stream;
-    this.context = parts.context;
-    this.generator = parts.generator;
     this.worker = parts.worker;
     this.events = parts.events;
-    this.outputDeviceId = parts.outputDeviceId;
+    this.device = parts.device;
+  }
+
+  /** Starts the simulated unit (no device, no sound): the whole trim can be practised with it. */
+  static startDemo(meter: MeterSettings, events: BenchAudioEvents): BenchAudio {
+    const worker = new Worker(new URL('../worker/analysis.worker.ts', import.meta.url), { type: 'module', name: 'analysis' });
+    worker.postMessage({ type: 'configure', settings: meter } satisfies ToWorker);
+    worker.postMessage({ type: 'demo-start', sampleRateHz: DEMO_SAMPLE_RATE_HZ } satisfies ToWorker);
+    const audio = new BenchAudio({ capturePath: 'demo', sampleRateHz: DEMO_SAMPLE_RATE_HZ, worker, events, device: null });
+    audio.listen(null);
+    return audio;
   }
 
   static async start(options: BenchAudioOptions, events: BenchAudioEvents): Promise<BenchAudio> {
+    if (options.inputDeviceId === DEMO_INPUT) return BenchAudio.startDemo(options.meter, events);
     if (!navigator.mediaDevices?.getUserMedia) throw new AudioProblem('This window has no access to audio input.');
     let stream: MediaStream;
     try {
@@ -173,12 +185,9 @@ export class BenchAudio {
       const audio = new BenchAudio({
         capturePath,
         sampleRateHz,
-        stream,
-        context,
-        generator,
         worker,
         events,
-        outputDeviceId: options.outputDeviceId,
+        device: { stream, context, generator, outputDeviceId: options.outputDeviceId },
       });
       audio.listen(track);
       return audio;
@@ -190,7 +199,7 @@ export class BenchAudio {
     }
   }
 
-  private listen(track: MediaStreamTrack): void {
+  private listen(track: MediaStreamTrack | null): void {
     this.worker.onmessage = (event: MessageEvent<FromWorker>) => {
       const message = event.data;
       if (message.type === 'reading') this.events.onReading(message.reading, message.spectrumHz, message.spectrumDbfs);
@@ -199,6 +208,7 @@ export class BenchAudio {
       else this.fail(message.message);
     };
     this.worker.onerror = (event) => this.fail(`The analysis worker stopped: ${event.message}`);
+    if (!track) return;
     track.addEventListener('ended', () =>
       this.fail('The input device was disconnected. The generator is stopped; recorded trim points are kept. Reconnect it and start capture again.'),
     );
@@ -206,9 +216,10 @@ export class BenchAudio {
   }
 
   private readonly checkOutputStillThere = async () => {
-    if (this.stopped || !this.outputDeviceId) return;
+    const outputDeviceId = this.device?.outputDeviceId;
+    if (this.stopped || !outputDeviceId) return;
     const { outputs } = await listDevices();
-    if (!outputs.some((d) => d.deviceId === this.outputDeviceId)) {
+    if (!outputs.some((d) => d.deviceId === outputDeviceId)) {
       this.fail('The output device was disconnected. The generator is stopped; recorded trim points are kept.');
     }
   };
@@ -228,8 +239,14 @@ export class BenchAudio {
       command.frequencyHz !== this.generatorCommand.frequencyHz ||
       command.levelDbfs !== this.generatorCommand.levelDbfs;
     this.generatorCommand = command;
-    this.generator.port.postMessage(command);
+    if (this.device) this.device.generator.port.postMessage(command);
+    else this.worker.postMessage({ type: 'demo-stimulus', setting: command } satisfies ToWorker);
     if (changed) this.worker.postMessage({ type: 'stimulus-changed' } satisfies ToWorker);
+  }
+
+  /** Turns the demo bench's virtual trimmer (no effect on a real unit). */
+  setVirtualTrimmer(turns: number): void {
+    if (!this.device && !this.stopped) this.worker.postMessage({ type: 'demo-trimmer', turns } satisfies ToWorker);
   }
 
   mute(): void {
@@ -242,15 +259,15 @@ export class BenchAudio {
 
   stop(): void {
     if (this.stopped) return;
-    this.generator.port.postMessage({ ...this.generatorCommand, on: false });
+    this.device?.generator.port.postMessage({ ...this.generatorCommand, on: false });
     this.stopped = true;
-    navigator.mediaDevices.removeEventListener('devicechange', this.checkOutputStillThere);
+    navigator.mediaDevices?.removeEventListener('devicechange', this.checkOutputStillThere);
     this.worker.postMessage({ type: 'stop' } satisfies ToWorker);
-    this.stream.getTracks().forEach((t) => t.stop());
+    this.device?.stream.getTracks().forEach((t) => t.stop());
     // Let the 20 ms ramp-down play out before the context goes.
     setTimeout(() => {
       this.worker.terminate();
-      void this.context.close();
+      void this.device?.context.close();
     }, 60);
   }
 }

@@ -3,7 +3,7 @@ import type { RunDetail, Station, StoredProcedure } from '../../shared/ipc/contr
 import type { Reading } from '../../shared/measurement/reading.ts';
 import { planTestFrequency } from '../../shared/measurement/frequency-planner.ts';
 import { call } from '../api.ts';
-import { AudioProblem, BenchAudio, listDevices, type AudioDevices } from '../audio/bench-audio.ts';
+import { AudioProblem, BenchAudio, DEMO_INPUT, listDevices, type AudioDevices } from '../audio/bench-audio.ts';
 import type { GeneratorCommand, MeterSettings } from '../worker/messages.ts';
 import { AudioSetup, type AudioChoice } from './AudioSetup.tsx';
 import { GeneratorControls } from './GeneratorControls.tsx';
@@ -36,6 +36,8 @@ export function App() {
   const [discontinuities, setDiscontinuities] = useState(0);
   const [generator, setGeneratorState] = useState<GeneratorCommand>({ frequencyHz: 1000, levelDbfs: -20, on: false });
   const [stimulusNote, setStimulusNote] = useState<string | null>(null);
+  /** The position typed in the trim step; on the demo bench it turns the virtual trimmer. */
+  const [trimmerTurns, setTrimmerTurns] = useState(0);
 
   const meterSettings = useMemo<MeterSettings>(
     () => ({
@@ -68,9 +70,13 @@ export function App() {
 
   async function refreshDevices() {
     try {
-      setDevices(await listDevices());
+      const listed = await listDevices();
+      setDevices(listed);
+      // With no interface set up the demo bench is the input, so the whole trim can be shown.
+      if (listed.inputs.length === 0) setChoice((current) => (current.inputDeviceId === '' ? { ...current, inputDeviceId: DEMO_INPUT } : current));
     } catch (error) {
       setAudioProblem((error as Error).message);
+      setChoice((current) => ({ ...current, inputDeviceId: DEMO_INPUT }));
     }
   }
 
@@ -133,6 +139,10 @@ export function App() {
     setReading(null);
     setGeneratorState((current) => ({ ...current, on: false }));
   }
+
+  useEffect(() => {
+    audio?.setVirtualTrimmer(trimmerTurns);
+  }, [audio, trimmerTurns]);
 
   // The meter follows the stimulus (long frames for low tones) and the station's mains and clocking.
   useEffect(() => {
@@ -274,6 +284,7 @@ export function App() {
               procedure={procedure}
               reading={reading}
               onRecord={recordPoint}
+              onPositionChange={setTrimmerTurns}
               onFinish={finishRun}
               onClose={() => setDetail(null)}
             />

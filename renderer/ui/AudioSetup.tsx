@@ -1,4 +1,4 @@
-import type { AudioDevices } from '../audio/bench-audio.ts';
+import { DEMO_INPUT, type AudioDevices } from '../audio/bench-audio.ts';
 
 export interface AudioChoice {
   inputDeviceId: string;
@@ -36,12 +36,19 @@ export function AudioSetup({
   onRefresh(): void;
 }) {
   const set = (patch: Partial<AudioChoice>) => onChange({ ...choice, ...patch });
+  const demo = choice.inputDeviceId === DEMO_INPUT;
   return (
     <section className="panel" aria-label="Audio interface">
       <h2>Audio interface</h2>
       <label>
         Input
-        <select value={choice.inputDeviceId} onChange={(e) => set({ inputDeviceId: e.target.value })} disabled={capturing}>
+        <select
+          data-testid="input-select"
+          value={choice.inputDeviceId}
+          onChange={(e) => set({ inputDeviceId: e.target.value })}
+          disabled={capturing}
+        >
+          <option value={DEMO_INPUT}>Demo bench — simulated unit (invented values)</option>
           <option value="">System default input</option>
           {devices?.inputs.map((d, i) => (
             <option key={d.deviceId || i} value={d.deviceId}>
@@ -52,7 +59,7 @@ export function AudioSetup({
       </label>
       <label>
         Input channel carrying the unit
-        <select value={choice.channel} onChange={(e) => set({ channel: Number(e.target.value) })} disabled={capturing}>
+        <select value={choice.channel} onChange={(e) => set({ channel: Number(e.target.value) })} disabled={capturing || demo}>
           {Array.from({ length: 8 }, (_, ch) => (
             <option key={ch} value={ch}>
               Channel {ch + 1}
@@ -62,7 +69,7 @@ export function AudioSetup({
       </label>
       <label>
         Output (generator)
-        <select value={choice.outputDeviceId} onChange={(e) => set({ outputDeviceId: e.target.value })} disabled={capturing}>
+        <select value={choice.outputDeviceId} onChange={(e) => set({ outputDeviceId: e.target.value })} disabled={capturing || demo}>
           <option value="">System default output</option>
           {devices?.outputs.map((d, i) => (
             <option key={d.deviceId || i} value={d.deviceId}>
@@ -73,7 +80,7 @@ export function AudioSetup({
       </label>
       <label>
         Sample rate
-        <select value={choice.sampleRateHz} onChange={(e) => set({ sampleRateHz: Number(e.target.value) })} disabled={capturing}>
+        <select value={choice.sampleRateHz} onChange={(e) => set({ sampleRateHz: Number(e.target.value) })} disabled={capturing || demo}>
           {SAMPLE_RATES.map((rate) => (
             <option key={rate} value={rate}>
               {rate / 1000} kHz
@@ -81,6 +88,12 @@ export function AudioSetup({
           ))}
         </select>
       </label>
+      {demo && (
+        <p className="invented">
+          The demo bench simulates a transformer output stage with a virtual trimmer: the position you type in the trim step turns it.
+          Nothing is played through the speakers. Its values are invented for practice.
+        </p>
+      )}
       <label>
         Mains frequency (for hum)
         <select value={choice.mainsHz} onChange={(e) => set({ mainsHz: Number(e.target.value) as 50 | 60 })}>
@@ -108,7 +121,8 @@ export function AudioSetup({
       </div>
       {capturing && (
         <p className="hint" data-testid="capture-status">
-          Capturing at {sampleRateHz ? `${sampleRateHz / 1000} kHz` : '—'} via {capturePath === 'track-processor' ? 'track processor' : 'audio worklet'}
+          Capturing at {sampleRateHz ? `${sampleRateHz / 1000} kHz` : '—'} via{' '}
+          {capturePath === 'track-processor' ? 'track processor' : capturePath === 'demo' ? 'the demo bench' : 'audio worklet'}
           {' · '}
           <span data-testid="discontinuities">{discontinuities}</span> capture break{discontinuities === 1 ? '' : 's'} (no reading spans one)
         </p>

@@ -1,4 +1,4 @@
-import { useRef, useState } from 'react';
+import { useEffect, useRef, useState } from 'react';
 import type { RunDetail, StoredProcedure } from '../../shared/ipc/contract.ts';
 import type { Reading } from '../../shared/measurement/reading.ts';
 import { fixed, percent } from './format.ts';
@@ -12,6 +12,7 @@ export function TrimPanel({
   procedure,
   reading,
   onRecord,
+  onPositionChange,
   onFinish,
   onClose,
 }: {
@@ -19,16 +20,25 @@ export function TrimPanel({
   procedure: StoredProcedure['definition'];
   reading: Reading | null;
   onRecord(position: number, reading: Reading): Promise<void>;
+  /** The typed position changed (the demo bench's virtual trimmer follows it). */
+  onPositionChange(position: number): void;
   onFinish(): Promise<void>;
   onClose(): void;
 }) {
   const { run, trimPoints } = detail;
   const { trim } = procedure;
   const last = trimPoints.at(-1);
-  const [positionText, setPositionText] = useState(String(last ? last.position : trim.positionMin));
+  const [positionText, setPositionTextState] = useState(String(last ? last.position : trim.positionMin));
+  const setPositionText = (text: string) => {
+    setPositionTextState(text);
+    const position = Number(text);
+    if (text.trim() !== '' && Number.isFinite(position)) onPositionChange(position);
+  };
   const [message, setMessage] = useState<string | null>(null);
   const [busy, setBusy] = useState(false);
   const unsettledAskedAt = useRef(0);
+  // The demo bench's virtual trimmer starts where this step starts.
+  useEffect(() => onPositionChange(Number(positionText)), []); // eslint-disable-line react-hooks/exhaustive-deps
   // The reading last recorded: a second Enter on the same reading must not make a second point.
   const recordedReading = useRef<Reading | null>(null);
 

@@ -3,6 +3,7 @@
 
 import { TimestampContinuity } from '../../shared/capture/timestamp-continuity.ts';
 import { LiveMeter } from '../../shared/measurement/live-meter.ts';
+import { DemoUnit } from '../../shared/sim/demo-unit.ts';
 import type { AudioDataLike, FromWorker, MeterSettings, ToWorker, WorkletBlock } from './messages.ts';
 
 declare const self: DedicatedWorkerGlobalScope;
@@ -17,13 +18,16 @@ let spectrumHz = new Float32Array(SPECTRUM_COLUMNS + 1);
 const spectrumDbfs = new Float32Array(SPECTRUM_COLUMNS);
 const continuity = new TimestampContinuity();
 let stopRequested = false;
+let demo: { unit: DemoUnit; timer: ReturnType<typeof setInterval> } | null = null;
 let lastStatusAt = 0;
 
 const post = (message: FromWorker) => self.postMessage(message);
 
 function meterFor(sampleRateHz: number): LiveMeter {
   if (!meter || meter.config.sampleRateHz !== sampleRateHz) {
-    meter = new LiveMeter({ sampleRateHz, ...settings });
+    // The demo unit cannot drop blocks: looking for breaks in its samples would only mistake an
+    // oscillating, clipping stage for capture trouble.
+    meter = new LiveMeter({ sampleRateHz, ...settings, sampleGuard: demo === null });
     // Log-spaced column edges from a few hertz to Nyquist for the spectrum plot.
     const ratio = sampleRateHz / 2 / SPECTRUM_LOW_HZ;
     spectrumHz = Float32Array.from({ length: SPECTRUM_COLUMNS + 1 }, (_, i) => SPECTRUM_LOW_HZ * ratio ** (i / SPECTRUM_COLUMNS));
@@ -83,6 +87,25 @@ function listenToWorklet(port: MessagePort, sampleRateHz: number): void {
   };
 }
 
+/** Runs the simulated unit in real time, in 20 ms slices, as if it were a capture device. */
+function startDemo(sampleRateHz: number): void {
+  const unit = new DemoUnit(sampleRateHz);
+  const slice = new Float32Array(Math.ceil(sampleRateHz * 0.2));
+  let rendered = 0;
+  const startedAt = performance.now();
+  const timer = setInterval(() => {
+    if (stopRequested) return;
+    // Catch up with the clock, at most one slice at a time so a stalled tab does not burst.
+    const due = Math.floor(((performance.now() - startedAt) / 1000) * sampleRateHz) - rendered;
+    const frames = Math.min(slice.length, Math.max(0, due));
+    if (frames === 0) return;
+    unit.render(slice, frames);
+    rendered += due > slice.length ? due : frames; // skip what could not be caught up
+    analyse(slice, frames, sampleRateHz, 1);
+  }, 20);
+  demo = { unit, timer };
+}
+
 self.onmessage = (event: MessageEvent<ToWorker>) => {
   const message = event.data;
   switch (message.type) {
@@ -101,8 +124,19 @@ self.onmessage = (event: MessageEvent<ToWorker>) => {
       stopRequested = false;
       listenToWorklet(message.port, message.sampleRateHz);
       break;
+    case 'demo-start':
+      stopRequested = false;
+      startDemo(message.sampleRateHz);
+      break;
+    case 'demo-stimulus':
+      demo?.unit.setStimulus(message.setting);
+      break;
+    case 'demo-trimmer':
+      demo?.unit.setTrimmer(message.turns);
+      break;
     case 'stop':
       stopRequested = true;
+      if (demo) clearInterval(demo.timer);
       break;
   }
 };

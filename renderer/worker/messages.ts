@@ -1,5 +1,6 @@
 // Messages between the page, the analysis worker and the audio worklets.
 
+import type { StimulusSetting } from '../../shared/dsp/sine-source.ts';
 import type { Reading } from '../../shared/measurement/reading.ts';
 
 export interface MeterSettings {
@@ -20,6 +21,10 @@ export type ToWorker =
   | { type: 'track-stream'; readable: ReadableStream<AudioDataLike> }
   /** Capture through the worklet fallback: blocks arrive on this port and are handed back on it. */
   | { type: 'worklet-port'; port: MessagePort; sampleRateHz: number }
+  /** The demo bench: the simulated unit runs here in real time and is the capture. */
+  | { type: 'demo-start'; sampleRateHz: number }
+  | { type: 'demo-stimulus'; setting: GeneratorCommand }
+  | { type: 'demo-trimmer'; turns: number }
   | { type: 'stop' };
 
 export type FromWorker =
@@ -44,5 +49,5 @@ export interface AudioDataLike {
   close(): void;
 }
 
-/** What the page tells the generator worklet. */
-export type { StimulusSetting as GeneratorCommand } from '../../shared/dsp/sine-source.ts';
+/** What the page tells the generator worklet (or the demo unit). */
+export type GeneratorCommand = StimulusSetting;

@@ -145,6 +145,9 @@ describe('a station with no audio input', () => {
     const bare = await openBench({ captureWav: null });
     try {
       const page = await bare.openApp();
+      // With no interface the demo bench is chosen for the technician; ask for a real input.
+      await expect.poll(() => page.getByTestId('input-select').inputValue()).toBe('demo-bench');
+      await page.getByTestId('input-select').selectOption('');
       await page.getByRole('button', { name: 'Start capture' }).click();
       await expect.poll(() => page.getByTestId('audio-problem').textContent()).toMatch(/No audio input device found/);
     } finally {
