@@ -61,6 +61,46 @@ export const MIGRATIONS: readonly string[] = [
   CREATE TRIGGER runs_never_deleted BEFORE DELETE ON runs
     BEGIN SELECT RAISE(ABORT, 'runs are never deleted'); END;
   `,
+  `
+  ALTER TABLE runs ADD COLUMN verdict_reason TEXT;
+  DROP TRIGGER finished_runs_frozen;
+  CREATE TRIGGER finished_runs_frozen
+    BEFORE UPDATE OF unit_id, procedure_id, operator, station, started_at, finished_at, verdict, verdict_reason, final_thd_db, limit_thd_db ON runs
+    WHEN OLD.finished_at IS NOT NULL
+    BEGIN SELECT RAISE(ABORT, 'a finished run is never edited'); END;
+  CREATE TABLE trim_assessments (
+    id INTEGER PRIMARY KEY,
+    run_id INTEGER NOT NULL REFERENCES runs(id),
+    after_sequence INTEGER NOT NULL,
+    assessed_at TEXT NOT NULL,
+    assessment_json TEXT NOT NULL,
+    UNIQUE (run_id, after_sequence)
+  );
+  CREATE TABLE warm_checks (
+    id INTEGER PRIMARY KEY,
+    run_id INTEGER NOT NULL REFERENCES runs(id),
+    recorded_at TEXT NOT NULL,
+    position REAL NOT NULL,
+    cold_temperature_c REAL NOT NULL,
+    warm_temperature_c REAL NOT NULL,
+    reading_json TEXT NOT NULL,
+    result_json TEXT NOT NULL
+  );
+  CREATE TRIGGER assessments_of_finished_run BEFORE INSERT ON trim_assessments
+    WHEN (SELECT finished_at FROM runs WHERE id = NEW.run_id) IS NOT NULL
+    BEGIN SELECT RAISE(ABORT, 'the run is finished'); END;
+  CREATE TRIGGER warm_checks_of_finished_run BEFORE INSERT ON warm_checks
+    WHEN (SELECT finished_at FROM runs WHERE id = NEW.run_id) IS NOT NULL
+    BEGIN SELECT RAISE(ABORT, 'the run is finished'); END;
+  CREATE TRIGGER assessments_never_change BEFORE UPDATE ON trim_assessments
+    BEGIN SELECT RAISE(ABORT, 'recorded assessments are never edited'); END;
+  CREATE TRIGGER assessments_never_deleted BEFORE DELETE ON trim_assessments
+    BEGIN SELECT RAISE(ABORT, 'recorded assessments are never deleted'); END;
+  CREATE TRIGGER warm_checks_never_change BEFORE UPDATE ON warm_checks
+    BEGIN SELECT RAISE(ABORT, 'recorded warm checks are never edited'); END;
+  CREATE TRIGGER warm_checks_never_deleted BEFORE DELETE ON warm_checks
+    BEGIN SELECT RAISE(ABORT, 'recorded warm checks are never deleted'); END;
+  `,
 ];
 
 /**

@@ -32,6 +32,7 @@ export function createHandlers({ records, sheets, station }: Services): Handlers
     listProcedures: async () => records.listProcedures(),
     openRun: async (request) => records.openRun(request),
     recordTrimPoint: async (request) => records.recordTrimPoint(request),
+    recordWarmCheck: async (request) => records.recordWarmCheck(request),
     finishRun: async ({ runId }) => records.finishRun(runId),
     saveSheetPdf: async ({ runId }, caller) => sheets.savePdf(runId, () => caller.printToPdf()),
     printSheet: async ({ runId }, caller) => {

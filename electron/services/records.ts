@@ -2,10 +2,12 @@
 // payload with the IPC contract first) and checks what only the database knows.
 
 import type { Reading } from '../../shared/measurement/reading.ts';
-import type { Run, RunDetail, StoredProcedure, TrimPoint } from '../../shared/ipc/contract.ts';
+import type { Run, RunDetail, StoredProcedure, TrimPoint, WarmCheck } from '../../shared/ipc/contract.ts';
 import { procedureSchema, type Procedure } from '../../shared/procedures/procedure.ts';
 import { checkSerial } from '../../shared/records/serial.ts';
-import { judgeThd } from '../../shared/records/verdict.ts';
+import { judgeTrim } from '../../shared/records/verdict.ts';
+import { assessTrim, type TrimAssessment } from '../../shared/trim/assessment.ts';
+import { warmRecheck, type LiveSeries } from '../../shared/trim/trim-assistant.ts';
 import type { Db } from './database.ts';
 import { ExpectedFailure } from './expected-failure.ts';
 
@@ -19,6 +21,7 @@ interface RunRow {
   started_at: string;
   finished_at: string | null;
   verdict: 'pass' | 'fail' | null;
+  verdict_reason: string | null;
   final_thd_db: number | null;
   limit_thd_db: number;
   sheet_pdf_path: string | null;
@@ -75,7 +78,16 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
        VALUES (?, ?, ?, ?, ?, ?, ?)`,
     ),
     trimPointById: db.prepare<[number | bigint], TrimPointRow>('SELECT * FROM trim_points WHERE id = ?'),
-    finishRun: db.prepare('UPDATE runs SET finished_at = ?, verdict = ?, final_thd_db = ? WHERE id = ?'),
+    finishRun: db.prepare('UPDATE runs SET finished_at = ?, verdict = ?, verdict_reason = ?, final_thd_db = ? WHERE id = ?'),
+    insertAssessment: db.prepare('INSERT INTO trim_assessments (run_id, after_sequence, assessed_at, assessment_json) VALUES (?, ?, ?, ?)'),
+    assessments: db.prepare<[number], { after_sequence: number; assessment_json: string }>(
+      'SELECT after_sequence, assessment_json FROM trim_assessments WHERE run_id = ? ORDER BY after_sequence',
+    ),
+    insertWarmCheck: db.prepare(
+      `INSERT INTO warm_checks (run_id, recorded_at, position, cold_temperature_c, warm_temperature_c, reading_json, result_json)
+       VALUES (?, ?, ?, ?, ?, ?, ?)`,
+    ),
+    latestWarmCheck: db.prepare<[number], { result_json: string }>('SELECT result_json FROM warm_checks WHERE run_id = ? ORDER BY id DESC LIMIT 1'),
     setSheetPath: db.prepare('UPDATE runs SET sheet_pdf_path = ? WHERE id = ? AND sheet_pdf_path IS NULL'),
   };
 
@@ -106,6 +118,7 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
       startedAt: row.started_at,
       finishedAt: row.finished_at,
       verdict: row.verdict,
+      verdictReason: row.verdict_reason,
       finalThdDb: row.final_thd_db,
       limitThdDb: row.limit_thd_db,
       sheetPdfPath: row.sheet_pdf_path,
@@ -131,9 +144,24 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
 
   function runDetail(runId: number): RunDetail {
     const row = runRow(runId);
+    const assessments = statements.assessments.all(runId).map((a) => ({
+      afterSequence: a.after_sequence,
+      assessment: JSON.parse(a.assessment_json) as TrimAssessment,
+    }));
+    // Each warning as first raised: the record of what the technician was told, and when.
+    const warningsRaised: RunDetail['warningsRaised'] = [];
+    for (const { afterSequence, assessment } of assessments) {
+      for (const warning of assessment.warnings) {
+        if (!warningsRaised.some((w) => w.id === warning.id)) warningsRaised.push({ ...warning, afterSequence });
+      }
+    }
+    const warm = statements.latestWarmCheck.get(runId);
     return {
       run: toRun(row),
       trimPoints: statements.trimPoints.all(runId).map(toTrimPoint),
+      assessment: assessments.at(-1)?.assessment ?? null,
+      warningsRaised,
+      warmCheck: warm ? (JSON.parse(warm.result_json) as WarmCheck) : null,
       earlierRuns: statements.earlierRuns.get(row.unit_id, runId)?.count ?? 0,
     };
   }
@@ -184,7 +212,11 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
 
     getRun: runDetail,
 
-    recordTrimPoint(request: { runId: number; position: number; reading: Reading }): TrimPoint {
+    /** Writes the point and the assistant's assessment after it, in one transaction. */
+    recordTrimPoint(request: { runId: number; position: number; reading: Reading; live: LiveSeries | null }): {
+      point: TrimPoint;
+      assessment: TrimAssessment;
+    } {
       const row = runRow(request.runId);
       if (row.finished_at) throw new ExpectedFailure(`Run ${row.id} is finished; start a retest to record more trim points.`);
       const { trim } = parseProcedure(row.definition_json);
@@ -200,22 +232,72 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
       if (reading.flags.includes('clipping')) {
         throw new ExpectedFailure('The input is clipping: this reading cannot be recorded. Lower the level into the interface.');
       }
-      const id = db.transaction(() => {
+      return db.transaction(() => {
         const sequence = statements.nextSequence.get(row.id)?.next ?? 1;
-        return statements.insertTrimPoint.run(
+        const recordedAt = timestamp();
+        const id = statements.insertTrimPoint.run(
           row.id,
           sequence,
           position,
-          timestamp(),
+          recordedAt,
           reading.settled ? 1 : 0,
           reading.thdDb,
           JSON.stringify(reading),
         ).lastInsertRowid;
+        const point = toTrimPoint(statements.trimPointById.get(id)!);
+        const assessment = assessTrim(statements.trimPoints.all(row.id).map(toTrimPoint), trim, request.live);
+        statements.insertAssessment.run(row.id, sequence, recordedAt, JSON.stringify(assessment));
+        return { point, assessment };
       })();
-      return toTrimPoint(statements.trimPointById.get(id)!);
     },
 
-    /** Judges the run on THD at its last trim point and freezes it. */
+    /**
+     * A warm re-check at the final setting: a second reading later, with both temperatures, compared
+     * with the last trim point to show how well the unit's own thermal tracking held.
+     */
+    recordWarmCheck(request: { runId: number; coldTemperatureC: number; warmTemperatureC: number; reading: Reading }): WarmCheck {
+      const row = runRow(request.runId);
+      if (row.finished_at) throw new ExpectedFailure(`Run ${row.id} is finished; the warm re-check belongs before finishing.`);
+      const { trim } = parseProcedure(row.definition_json);
+      const points = statements.trimPoints.all(row.id).map(toTrimPoint);
+      const last = points.at(-1);
+      if (!last || points.length < 2) throw new ExpectedFailure('Record the trim (at least two points) before the warm re-check.');
+      if (request.reading.flags.includes('no-signal')) throw new ExpectedFailure('No signal at the input: the warm reading cannot be recorded.');
+      const order = trim.harmonicOrder;
+      const harmonic = (reading: Reading) => reading.harmonics.find((h) => h.order === order);
+      const cold = harmonic(last.reading);
+      const warm = harmonic(request.reading);
+      const safeEnd = harmonic(points[0].reading);
+      if (!cold || !warm || !safeEnd) throw new ExpectedFailure(`H${order} is not in the readings (above Nyquist?): no warm re-check possible.`);
+      const check = warmRecheck(
+        { levelDbc: cold.levelDbc, phaseDeg: cold.phaseDeg, temperatureC: request.coldTemperatureC },
+        { levelDbc: warm.levelDbc, phaseDeg: warm.phaseDeg, temperatureC: request.warmTemperatureC },
+        safeEnd.levelDbc,
+      );
+      const result: WarmCheck = {
+        recordedAt: timestamp(),
+        position: last.position,
+        coldTemperatureC: request.coldTemperatureC,
+        warmTemperatureC: request.warmTemperatureC,
+        coldLevelDbc: cold.levelDbc,
+        warmLevelDbc: warm.levelDbc,
+        trackingFraction: check.trackingFraction,
+        measuredDrift: check.measuredDrift,
+        untrackedDrift: check.untrackedDrift,
+      };
+      statements.insertWarmCheck.run(
+        row.id,
+        result.recordedAt,
+        last.position,
+        request.coldTemperatureC,
+        request.warmTemperatureC,
+        JSON.stringify(request.reading),
+        JSON.stringify(result),
+      );
+      return result;
+    },
+
+    /** Judges the run on THD at its last trim point (and not left past the null) and freezes it. */
     finishRun(runId: number): RunDetail {
       const row = runRow(runId);
       if (row.finished_at) return runDetail(runId);
@@ -223,7 +305,8 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
       const last = points.at(-1);
       if (!last) throw new ExpectedFailure('Record at least one trim point before finishing the run.');
       const finalThdDb = toTrimPoint(last).reading.thdDb;
-      statements.finishRun.run(timestamp(), judgeThd(finalThdDb, row.limit_thd_db), finalThdDb, runId);
+      const { verdict, reason } = judgeTrim(finalThdDb, row.limit_thd_db, runDetail(runId).assessment?.side ?? null);
+      statements.finishRun.run(timestamp(), verdict, reason, finalThdDb, runId);
       return runDetail(runId);
     },
 

@@ -1,6 +1,7 @@
 import { useCallback, useEffect, useMemo, useRef, useState } from 'react';
 import type { RunDetail, Station, StoredProcedure } from '../../shared/ipc/contract.ts';
 import type { Reading } from '../../shared/measurement/reading.ts';
+import type { LiveSeries } from '../../shared/trim/trim-assistant.ts';
 import { planTestFrequency } from '../../shared/measurement/frequency-planner.ts';
 import { call } from '../api.ts';
 import { AudioProblem, BenchAudio, DEMO_INPUT, listDevices, type AudioDevices } from '../audio/bench-audio.ts';
@@ -177,11 +178,25 @@ export function App() {
     }
   }
 
-  async function recordPoint(position: number, current: Reading) {
+  async function recordPoint(position: number, current: Reading, live: LiveSeries) {
     if (!detail) return;
-    // Shown as recorded only after main has written it to the database.
-    const point = await call('recordTrimPoint', { runId: detail.run.id, position, reading: current });
-    setDetail((d) => (d ? { ...d, trimPoints: [...d.trimPoints, point] } : d));
+    // Shown as recorded only after main has written it (and its assessment) to the database.
+    const { point, assessment } = await call('recordTrimPoint', { runId: detail.run.id, position, reading: current, live });
+    setDetail((d) => {
+      if (!d) return d;
+      const warningsRaised = [...d.warningsRaised];
+      for (const warning of assessment.warnings) {
+        if (!warningsRaised.some((w) => w.id === warning.id)) warningsRaised.push({ ...warning, afterSequence: point.sequence });
+      }
+      return { ...d, trimPoints: [...d.trimPoints, point], assessment, warningsRaised };
+    });
+  }
+
+  async function recordWarmCheck(request: { coldTemperatureC: number; warmTemperatureC: number; reading: Reading }) {
+    if (!detail) throw new Error('No unit is open.');
+    const warmCheck = await call('recordWarmCheck', { runId: detail.run.id, ...request });
+    setDetail((d) => (d ? { ...d, warmCheck } : d));
+    return warmCheck;
   }
 
   async function finishRun() {
@@ -224,6 +239,7 @@ export function App() {
     return (
       <UnitSheet
         detail={detail}
+        procedure={procedures.find((p) => p.id === detail.run.procedureId)?.definition}
         pdfPath={sheetPdfPath}
         message={sheetMessage}
         onPrint={() => void printSheet()}
@@ -284,6 +300,7 @@ export function App() {
               procedure={procedure}
               reading={reading}
               onRecord={recordPoint}
+              onWarmCheck={recordWarmCheck}
               onPositionChange={setTrimmerTurns}
               onFinish={finishRun}
               onClose={() => setDetail(null)}

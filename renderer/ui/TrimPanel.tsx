@@ -1,17 +1,22 @@
-import { useEffect, useRef, useState } from 'react';
-import type { RunDetail, StoredProcedure } from '../../shared/ipc/contract.ts';
+import { useEffect, useMemo, useRef, useState } from 'react';
+import type { RunDetail, StoredProcedure, WarmCheck } from '../../shared/ipc/contract.ts';
 import type { Reading } from '../../shared/measurement/reading.ts';
+import { assessTrim } from '../../shared/trim/assessment.ts';
+import type { LiveSeries, TrimWarning } from '../../shared/trim/trim-assistant.ts';
 import { fixed, percent } from './format.ts';
 import { TrimPlot } from './TrimPlot.tsx';
 
 // A second Enter within this time records an unsettled reading anyway (and it is marked so).
 const CONFIRM_UNSETTLED_MS = 4000;
+// Live readings kept since the trimmer last moved (about a minute at six readings a second).
+const LIVE_SERIES_LENGTH = 360;
 
 export function TrimPanel({
   detail,
   procedure,
   reading,
   onRecord,
+  onWarmCheck,
   onPositionChange,
   onFinish,
   onClose,
@@ -19,28 +24,56 @@ export function TrimPanel({
   detail: RunDetail;
   procedure: StoredProcedure['definition'];
   reading: Reading | null;
-  onRecord(position: number, reading: Reading): Promise<void>;
+  onRecord(position: number, reading: Reading, live: LiveSeries): Promise<void>;
+  onWarmCheck(request: { coldTemperatureC: number; warmTemperatureC: number; reading: Reading }): Promise<WarmCheck>;
   /** The typed position changed (the demo bench's virtual trimmer follows it). */
   onPositionChange(position: number): void;
   onFinish(): Promise<void>;
   onClose(): void;
 }) {
-  const { run, trimPoints } = detail;
+  const { run, trimPoints, assessment } = detail;
   const { trim } = procedure;
   const last = trimPoints.at(-1);
   const [positionText, setPositionTextState] = useState(String(last ? last.position : trim.positionMin));
-  const setPositionText = (text: string) => {
-    setPositionTextState(text);
-    const position = Number(text);
-    if (text.trim() !== '' && Number.isFinite(position)) onPositionChange(position);
-  };
   const [message, setMessage] = useState<string | null>(null);
   const [busy, setBusy] = useState(false);
   const unsettledAskedAt = useRef(0);
-  // The demo bench's virtual trimmer starts where this step starts.
-  useEffect(() => onPositionChange(Number(positionText)), []); // eslint-disable-line react-hooks/exhaustive-deps
   // The reading last recorded: a second Enter on the same reading must not make a second point.
   const recordedReading = useRef<Reading | null>(null);
+  // Readings since the trimmer last moved: amplitude wander and sub-audio growth show in these.
+  const live = useRef<LiveSeries>({ levelsDbfs: [], lfDbfs: [] });
+  const [liveCount, setLiveCount] = useState(0);
+
+  const setPositionText = (text: string) => {
+    setPositionTextState(text);
+    live.current = { levelsDbfs: [], lfDbfs: [] };
+    const position = Number(text);
+    if (text.trim() !== '' && Number.isFinite(position)) onPositionChange(position);
+  };
+
+  // The demo bench's virtual trimmer starts where this step starts.
+  useEffect(() => onPositionChange(Number(positionText)), []); // eslint-disable-line react-hooks/exhaustive-deps
+
+  useEffect(() => {
+    if (!reading || reading.flags.includes('no-signal')) return;
+    const series = live.current;
+    series.levelsDbfs.push(reading.fundamental.levelDbfs);
+    if (reading.subAudioDbfs !== null) series.lfDbfs.push(reading.subAudioDbfs);
+    if (series.levelsDbfs.length > LIVE_SERIES_LENGTH) series.levelsDbfs.shift();
+    if (series.lfDbfs.length > LIVE_SERIES_LENGTH) series.lfDbfs.shift();
+    setLiveCount((n) => n + 1);
+  }, [reading]);
+
+  // Warnings from the live series, between recorded points (the stored assessment holds the rest).
+  const liveWarnings = useMemo<TrimWarning[]>(() => {
+    if (trimPoints.length === 0 || !reading || reading.flags.includes('no-signal')) return [];
+    const now = [...trimPoints.map((p) => ({ position: p.position, reading: p.reading })), { position: Number(positionText), reading }];
+    return assessTrim(now, trim, { levelsDbfs: live.current.levelsDbfs.slice(-12), lfDbfs: live.current.lfDbfs.slice(-8) }).warnings;
+    // liveCount stands for the live series, which is kept in a ref.
+    // eslint-disable-next-line react-hooks/exhaustive-deps
+  }, [trimPoints, reading, liveCount, positionText, trim]);
+  const warnings = [...(assessment?.warnings ?? [])];
+  for (const warning of liveWarnings) if (!warnings.some((w) => w.id === warning.id)) warnings.push(warning);
 
   function stepPosition(direction: 1 | -1) {
     const current = Number(positionText);
@@ -67,7 +100,7 @@ export function TrimPanel({
     unsettledAskedAt.current = 0;
     setBusy(true);
     try {
-      await onRecord(position, reading);
+      await onRecord(position, reading, { levelsDbfs: live.current.levelsDbfs.slice(-60), lfDbfs: live.current.lfDbfs.slice(-60) });
       recordedReading.current = reading;
       setMessage(null);
     } catch (error) {
@@ -88,6 +121,7 @@ export function TrimPanel({
     }
   }
 
+  const harmonic = `H${trim.harmonicOrder}`;
   return (
     <section className="panel trim" aria-label="Trim step">
       <h2>
@@ -98,13 +132,26 @@ export function TrimPanel({
         {detail.earlierRuns > 0 && ` · retest (${detail.earlierRuns} earlier run${detail.earlierRuns === 1 ? '' : 's'})`}
       </p>
       {run.invented && <p className="invented">Demo procedure: invented values, for practice only.</p>}
-      <ol className="instructions">
-        {trim.instructions.map((text) => (
-          <li key={text}>{text}</li>
-        ))}
-      </ol>
+      {warnings.length > 0 && (
+        <div className="warning-banner" role="alert" data-testid="trim-warnings">
+          {warnings.map((w) => (
+            <p key={w.id} data-warning={w.id}>
+              <strong>{WARNING_TITLES[w.id]}.</strong> {w.seen} <em>{w.advice}</em>
+            </p>
+          ))}
+        </div>
+      )}
+      <details open={trimPoints.length === 0}>
+        <summary>Procedure, safety first</summary>
+        <ol className="instructions">
+          {trim.instructions.map((text) => (
+            <li key={text}>{text}</li>
+          ))}
+        </ol>
+      </details>
       <p className="hint">
-        Stimulus {trim.stimulusHz} Hz at {trim.stimulusLevelDbfs} dBFS · limit THD ≤ {trim.limitThdDb} dB at the final point
+        Stimulus {trim.stimulusHz} Hz at {trim.stimulusLevelDbfs} dBFS · trims {harmonic} · limit THD ≤ {trim.limitThdDb} dB at the final
+        point
       </p>
       <div className="row">
         <label>
@@ -132,11 +179,22 @@ export function TrimPanel({
       <p className="problem" role="alert" hidden={message === null} data-testid="trim-message">
         {message}
       </p>
+      <AssistantSummary detail={detail} harmonic={harmonic} onUse={(position) => setPositionText(fixed(position, 2))} />
+      {trimPoints.length > 0 && (
+        <TrimPlot
+          points={trimPoints}
+          assessment={assessment}
+          harmonicOrder={trim.harmonicOrder}
+          positionMin={trim.positionMin}
+          positionMax={trim.positionMax}
+        />
+      )}
       <table className="points" data-testid="trim-points">
         <thead>
           <tr>
             <th scope="col">#</th>
             <th scope="col">Position</th>
+            <th scope="col">{harmonic}, dBc</th>
             <th scope="col">THD, dB</th>
             <th scope="col">THD</th>
             <th scope="col">Level, dBFS</th>
@@ -148,6 +206,7 @@ export function TrimPanel({
             <tr key={p.id}>
               <td>{p.sequence}</td>
               <td>{fixed(p.position, 2)}</td>
+              <td>{fixed(p.reading.harmonics.find((h) => h.order === trim.harmonicOrder)?.levelDbc, 1)}</td>
               <td>{fixed(p.reading.thdDb, 1)}</td>
               <td>{percent(p.reading.thdPercent)}</td>
               <td>{fixed(p.reading.fundamental.levelDbfs, 2)}</td>
@@ -156,7 +215,7 @@ export function TrimPanel({
           ))}
         </tbody>
       </table>
-      {trimPoints.length > 0 && <TrimPlot points={trimPoints} />}
+      {trimPoints.length >= 2 && <WarmCheckForm reading={reading} existing={detail.warmCheck} onWarmCheck={onWarmCheck} />}
       <div className="row">
         <button type="button" onClick={() => void finish()} disabled={busy || trimPoints.length === 0} data-testid="finish-run">
           Finish run and make the unit sheet
@@ -166,5 +225,111 @@ export function TrimPanel({
         </button>
       </div>
     </section>
+  );
+}
+
+export const WARNING_TITLES: Record<TrimWarning['id'], string> = {
+  'gain-rise': 'Gain rising',
+  'lf-instability': 'Low-frequency instability',
+  'amplitude-wander': 'Level wandering',
+  clipping: 'Clipping',
+  'past-null': 'Past the null',
+};
+
+function AssistantSummary({ detail, harmonic, onUse }: { detail: RunDetail; harmonic: string; onUse(position: number): void }) {
+  const a = detail.assessment;
+  if (!a) return <p className="hint">Record the first point at the safe end; the assistant fits the trim curve from the second.</p>;
+  return (
+    <div className="assistant" data-testid="assistant">
+      {a.nullPosition === null ? (
+        <p className="hint">{a.reason}</p>
+      ) : (
+        <dl className="facts">
+          <dt>Null</dt>
+          <dd data-testid="null-position">
+            {fixed(a.nullPosition, 2)} ± {fixed(a.nullPositionPlusMinus, 2)} · {harmonic} {fixed(a.nullLevelDbc, 1)} dBc ·{' '}
+            {a.bracketed ? 'bracketed' : 'predicted, not yet bracketed'}
+          </dd>
+          <dt>Latest point</dt>
+          <dd>{a.side === 'past-null' ? 'past the null (over-compensated)' : 'short of the null (safe side)'}</dd>
+          <dt>Recommended</dt>
+          <dd data-testid="recommended-position">
+            {a.recommendedPosition === null ? '—' : `${fixed(a.recommendedPosition, 2)} (predicted ${fixed(a.recommendedLevelDbc, 1)} dBc)`}
+            {a.thermalMarginC !== null && ` · holds the limit over ±${fixed(a.thermalMarginC, 0)} °C untracked`}
+          </dd>
+          <dt>Model</dt>
+          <dd className="hint">{a.reason}</dd>
+        </dl>
+      )}
+      {a.recommendationNote && <p className="hint">{a.recommendationNote}</p>}
+      <div className="row">
+        <button type="button" onClick={() => onUse(a.nextPosition)} data-testid="use-next">
+          Try next: {fixed(a.nextPosition, 2)}
+        </button>
+        {a.recommendedPosition !== null && (
+          <button type="button" onClick={() => onUse(a.recommendedPosition!)}>
+            Set recommended: {fixed(a.recommendedPosition, 2)}
+          </button>
+        )}
+      </div>
+    </div>
+  );
+}
+
+function WarmCheckForm({
+  reading,
+  existing,
+  onWarmCheck,
+}: {
+  reading: Reading | null;
+  existing: WarmCheck | null;
+  onWarmCheck(request: { coldTemperatureC: number; warmTemperatureC: number; reading: Reading }): Promise<WarmCheck>;
+}) {
+  const [cold, setCold] = useState('');
+  const [warm, setWarm] = useState('');
+  const [message, setMessage] = useState<string | null>(null);
+  const [result, setResult] = useState<WarmCheck | null>(existing);
+  async function submit() {
+    const coldC = Number(cold);
+    const warmC = Number(warm);
+    if (cold.trim() === '' || warm.trim() === '' || !Number.isFinite(coldC) || !Number.isFinite(warmC)) {
+      return setMessage('Enter both temperatures in °C.');
+    }
+    if (!reading?.settled) return setMessage('Wait for a settled reading at the final setting.');
+    try {
+      setResult(await onWarmCheck({ coldTemperatureC: coldC, warmTemperatureC: warmC, reading }));
+      setMessage(null);
+    } catch (error) {
+      setMessage((error as Error).message);
+    }
+  }
+  return (
+    <details className="warm-check">
+      <summary>Warm re-check (optional, after the unit has warmed up)</summary>
+      <div className="row">
+        <label>
+          Temperature at trim, °C
+          <input inputMode="decimal" value={cold} onChange={(e) => setCold(e.target.value)} />
+        </label>
+        <label>
+          Temperature now, °C
+          <input inputMode="decimal" value={warm} onChange={(e) => setWarm(e.target.value)} />
+        </label>
+        <button type="button" onClick={() => void submit()}>
+          Record warm reading
+        </button>
+      </div>
+      {message && (
+        <p className="problem" role="alert">
+          {message}
+        </p>
+      )}
+      {result && (
+        <p className="hint" data-testid="warm-check-result">
+          {fixed(result.warmTemperatureC - result.coldTemperatureC, 1)} °C warmer: the unit’s own tracking held{' '}
+          {fixed(100 * result.trackingFraction, 0)} % of the drift an untracked winding would show.
+        </p>
+      )}
+    </details>
   );
 }

@@ -1,22 +1,27 @@
-import type { RunDetail } from '../../shared/ipc/contract.ts';
+import type { RunDetail, StoredProcedure } from '../../shared/ipc/contract.ts';
 import { fixed, localDateTime, percent } from './format.ts';
+import { TrimPlot } from './TrimPlot.tsx';
+import { WARNING_TITLES } from './TrimPanel.tsx';
 
 export function UnitSheet({
   detail,
+  procedure,
   pdfPath,
   message,
   onPrint,
   onBack,
 }: {
   detail: RunDetail;
+  procedure: StoredProcedure['definition'] | undefined;
   pdfPath: string | null;
   message: string | null;
   onPrint(): void;
   onBack(): void;
 }) {
-  const { run, trimPoints } = detail;
+  const { run, trimPoints, assessment, warmCheck } = detail;
   const final = trimPoints.at(-1);
   const verdict = run.verdict ?? 'fail';
+  const order = assessment?.harmonicOrder ?? procedure?.trim.harmonicOrder ?? 3;
   return (
     <div className="sheet-view">
       <div className="no-print row sheet-actions">
@@ -74,6 +79,7 @@ export function UnitSheet({
             <tr>
               <th scope="col">#</th>
               <th scope="col">Position</th>
+              <th scope="col">H{order}, dBc</th>
               <th scope="col">THD, dB</th>
               <th scope="col">THD</th>
               <th scope="col">Fundamental, dBFS</th>
@@ -86,6 +92,7 @@ export function UnitSheet({
               <tr key={p.id}>
                 <td>{p.sequence}</td>
                 <td>{fixed(p.position, 2)}</td>
+                <td>{fixed(p.reading.harmonics.find((h) => h.order === order)?.levelDbc, 1)}</td>
                 <td>{fixed(p.reading.thdDb, 1)}</td>
                 <td>{percent(p.reading.thdPercent)}</td>
                 <td>{fixed(p.reading.fundamental.levelDbfs, 2)}</td>
@@ -95,6 +102,57 @@ export function UnitSheet({
             ))}
           </tbody>
         </table>
+        <h2>Trim curve</h2>
+        {procedure && trimPoints.length > 0 && (
+          <TrimPlot
+            points={trimPoints}
+            assessment={assessment}
+            harmonicOrder={order}
+            positionMin={procedure.trim.positionMin}
+            positionMax={procedure.trim.positionMax}
+            height={200}
+          />
+        )}
+        <dl className="facts">
+          <dt>Model</dt>
+          <dd>{assessment?.reason || '—'}</dd>
+          <dt>Null</dt>
+          <dd data-testid="sheet-null">
+            {assessment?.nullPosition != null
+              ? `${fixed(assessment.nullPosition, 2)} ± ${fixed(assessment.nullPositionPlusMinus, 2)} ${procedure?.trim.positionUnit ?? ''}, H${order} ${fixed(assessment.nullLevelDbc, 1)} dBc${assessment.bracketed ? '' : ' (not bracketed)'}`
+              : '—'}
+          </dd>
+          <dt>Recommended</dt>
+          <dd>
+            {assessment?.recommendedPosition != null
+              ? `${fixed(assessment.recommendedPosition, 2)} (predicted H${order} ${fixed(assessment.recommendedLevelDbc, 1)} dBc); final point at ${fixed(final?.position, 2)}, ${assessment.side === 'past-null' ? 'past the null' : 'short of the null'}`
+              : '—'}
+          </dd>
+          <dt>Thermal margin</dt>
+          <dd>
+            {assessment?.thermalMarginC != null
+              ? `the residual stays inside the limit over ±${fixed(assessment.thermalMarginC, 0)} °C if the compensation does not track (copper α = 0.00393/°C)`
+              : '—'}
+          </dd>
+          <dt>Warm re-check</dt>
+          <dd data-testid="sheet-warm-check">
+            {warmCheck
+              ? `${fixed(warmCheck.coldTemperatureC, 1)} → ${fixed(warmCheck.warmTemperatureC, 1)} °C: H${order} ${fixed(warmCheck.coldLevelDbc, 1)} → ${fixed(warmCheck.warmLevelDbc, 1)} dBc; the unit's tracking held ${fixed(100 * warmCheck.trackingFraction, 0)} % of the untracked drift`
+              : 'not done'}
+          </dd>
+        </dl>
+        <h2>Warnings raised</h2>
+        {detail.warningsRaised.length === 0 ? (
+          <p data-testid="sheet-warnings">None.</p>
+        ) : (
+          <ul data-testid="sheet-warnings">
+            {detail.warningsRaised.map((w) => (
+              <li key={w.id}>
+                <strong>{WARNING_TITLES[w.id]}</strong> (after point {w.afterSequence}): {w.seen}
+              </li>
+            ))}
+          </ul>
+        )}
         <h2>Result</h2>
         <dl className="facts">
           <dt>Final reading</dt>
@@ -106,7 +164,10 @@ export function UnitSheet({
           <dt>Limit</dt>
           <dd>THD ≤ {fixed(run.limitThdDb, 1)} dB at the final trim point</dd>
           <dt>Verdict</dt>
-          <dd>{verdict === 'pass' ? 'PASS' : 'FAIL'}</dd>
+          <dd>
+            {verdict === 'pass' ? 'PASS' : 'FAIL'}
+            {run.verdictReason ? ` — ${run.verdictReason}` : ''}
+          </dd>
         </dl>
         <footer className="signature">
           <span>Checked by: ______________________</span>

@@ -6,6 +6,7 @@ export const IPC_CHANNELS = [
   'listProcedures',
   'openRun',
   'recordTrimPoint',
+  'recordWarmCheck',
   'finishRun',
   'saveSheetPdf',
   'printSheet',

@@ -3,6 +3,7 @@
 
 import { z } from 'zod';
 import type { Reading } from '../measurement/reading.ts';
+import type { TrimAssessment } from '../trim/assessment.ts';
 import { procedureSchema } from '../procedures/procedure.ts';
 import type { IpcChannel } from './channels.ts';
 
@@ -68,6 +69,8 @@ export const runSchema = z.object({
   startedAt: z.string(),
   finishedAt: z.string().nullable(),
   verdict: z.enum(['pass', 'fail']).nullable(),
+  /** Why a run failed (the limit missed, or left past the null). */
+  verdictReason: z.string().nullable(),
   finalThdDb: finite.nullable(),
   limitThdDb: finite,
   sheetPdfPath: z.string().nullable(),
@@ -82,9 +85,53 @@ export const trimPointSchema = z.object({
   reading: readingSchema,
 });
 
+const warningSchema = z.object({
+  id: z.enum(['gain-rise', 'lf-instability', 'amplitude-wander', 'clipping', 'past-null']),
+  seen: z.string(),
+  advice: z.string(),
+});
+
+export const trimAssessmentSchema = z.object({
+  harmonicOrder: z.number().int(),
+  model: z.enum(['phasor', 'magnitude']).nullable(),
+  reason: z.string(),
+  nullPosition: finite.nullable(),
+  nullPositionPlusMinus: finite.nullable(),
+  nullLevelDbc: finite.nullable(),
+  bracketed: z.boolean(),
+  side: z.enum(['short-of-null', 'past-null']).nullable(),
+  nextPosition: finite,
+  recommendedPosition: finite.nullable(),
+  recommendedLevelDbc: finite.nullable(),
+  recommendationNote: z.string().nullable(),
+  thermalMarginC: finite.nullable(),
+  excludedPoint: z.number().int().nullable(),
+  warnings: z.array(warningSchema),
+  curve: z.array(z.object({ position: finite, levelDbc: finite })).max(200),
+});
+trimAssessmentSchema satisfies z.ZodType<TrimAssessment>;
+
+export const warmCheckSchema = z.object({
+  recordedAt: z.string(),
+  position: finite,
+  coldTemperatureC: finite,
+  warmTemperatureC: finite,
+  coldLevelDbc: finite,
+  warmLevelDbc: finite,
+  /** 0..1: how much of the drift an untracked winding would show the unit's own tracking removed. */
+  trackingFraction: finite.min(0).max(1),
+  measuredDrift: finite.nonnegative(),
+  untrackedDrift: finite.nonnegative(),
+});
+
 export const runDetailSchema = z.object({
   run: runSchema,
   trimPoints: z.array(trimPointSchema),
+  /** The assistant's assessment after the latest point. */
+  assessment: trimAssessmentSchema.nullable(),
+  /** Every warning raised during the run, with the point after which it was first raised. */
+  warningsRaised: z.array(warningSchema.extend({ afterSequence: z.number().int() })),
+  warmCheck: warmCheckSchema.nullable(),
   /** Earlier finished runs of the same serial (retests are new runs). */
   earlierRuns: z.number().int().nonnegative(),
 });
@@ -106,8 +153,27 @@ export const contract = {
     response: runDetailSchema,
   },
   recordTrimPoint: {
-    request: z.object({ runId: rowId, position: finite, reading: readingSchema }).strict(),
-    response: trimPointSchema,
+    request: z
+      .object({
+        runId: rowId,
+        position: finite,
+        reading: readingSchema,
+        /** Live readings since the trimmer last moved, for the warnings that need a series. */
+        live: z.object({ levelsDbfs: z.array(finite).max(600), lfDbfs: z.array(finite).max(600) }).strict().nullable(),
+      })
+      .strict(),
+    response: z.object({ point: trimPointSchema, assessment: trimAssessmentSchema }),
+  },
+  recordWarmCheck: {
+    request: z
+      .object({
+        runId: rowId,
+        coldTemperatureC: finite.min(-40).max(150),
+        warmTemperatureC: finite.min(-40).max(150),
+        reading: readingSchema,
+      })
+      .strict(),
+    response: warmCheckSchema,
   },
   finishRun: { request: runRef, response: runDetailSchema },
   saveSheetPdf: { request: runRef, response: z.object({ path: z.string(), alreadySaved: z.boolean() }) },
@@ -132,3 +198,4 @@ export type StoredProcedure = z.infer<typeof storedProcedureSchema>;
 export type Run = z.infer<typeof runSchema>;
 export type TrimPoint = z.infer<typeof trimPointSchema>;
 export type RunDetail = z.infer<typeof runDetailSchema>;
+export type WarmCheck = z.infer<typeof warmCheckSchema>;

@@ -31,6 +31,14 @@ export const procedureSchema = z.object({
     positionStep: z.number().positive(),
     /** Pass when THD at the final trim point is at or below this. */
     limitThdDb: z.number(),
+    /** The harmonic the trim works on. */
+    harmonicOrder: z.number().int().min(2).max(10).default(3),
+    /** The recommended setting keeps the predicted level within this many dB of the null. */
+    marginDb: z.number().positive().default(1),
+    /** Warn when the gain at the test frequency is up this much from the safe end. */
+    gainRiseDb: z.number().positive().default(0.5),
+    /** Warn when the sub-audio level is up this much from the safe end. */
+    lfRiseDb: z.number().positive().default(10),
     instructions: z.array(z.string().min(1)).min(1),
   }),
 });

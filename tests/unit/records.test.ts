@@ -27,8 +27,8 @@ describe('records on a real database file', () => {
     let station = openTestStation(dir.path);
     const procedureId = station.records.listProcedures()[0].id;
     const opened = station.records.openRun({ serial: 'MG20-2611-0042', procedureId, operator: 'A. Tester' });
-    station.records.recordTrimPoint({ runId: opened.run.id, position: 0, reading: readingWithThd(-38) });
-    station.records.recordTrimPoint({ runId: opened.run.id, position: 2.5, reading: readingWithThd(-47) });
+    station.records.recordTrimPoint({ runId: opened.run.id, position: 0, reading: readingWithThd(-38), live: null });
+    station.records.recordTrimPoint({ runId: opened.run.id, position: 2.5, reading: readingWithThd(-47), live: null });
     station.close();
 
     station = openTestStation(dir.path);
@@ -47,13 +47,13 @@ describe('records on a real database file', () => {
     const procedureId = station.records.listProcedures()[0].id;
     const { run } = station.records.openRun({ serial: 'MG20-2611-0043', procedureId, operator: 'A. Tester' });
     expect(() => station.records.finishRun(run.id)).toThrow(/at least one trim point/);
-    station.records.recordTrimPoint({ runId: run.id, position: 0, reading: readingWithThd(-40) });
-    station.records.recordTrimPoint({ runId: run.id, position: 4, reading: readingWithThd(-66) });
+    station.records.recordTrimPoint({ runId: run.id, position: 0, reading: readingWithThd(-40), live: null });
+    station.records.recordTrimPoint({ runId: run.id, position: 4, reading: readingWithThd(-66), live: null });
     const finished = station.records.finishRun(run.id);
     // Demo limit is THD ≤ −60 dB at the final point; −66 dB passes.
     expect(finished.run.verdict).toBe('pass');
     expect(finished.run.finalThdDb).toBe(-66);
-    expect(() => station.records.recordTrimPoint({ runId: run.id, position: 5, reading: readingWithThd(-70) })).toThrow(/finished/);
+    expect(() => station.records.recordTrimPoint({ runId: run.id, position: 5, reading: readingWithThd(-70), live: null })).toThrow(/finished/);
     // The database itself refuses edits to a finished run, whatever the code does.
     expect(() => station.db.prepare("UPDATE runs SET verdict = 'fail' WHERE id = ?").run(run.id)).toThrow(/never edited/);
     expect(() => station.db.prepare('DELETE FROM trim_points').run()).toThrow(/never deleted/);
@@ -69,7 +69,7 @@ describe('records on a real database file', () => {
     const station = openTestStation(dir.path);
     const procedureId = station.records.listProcedures()[0].id;
     const { run } = station.records.openRun({ serial: 'MG20-2611-0044', procedureId, operator: 'A. Tester' });
-    station.records.recordTrimPoint({ runId: run.id, position: 3, reading: readingWithThd(-55) });
+    station.records.recordTrimPoint({ runId: run.id, position: 3, reading: readingWithThd(-55), live: null });
     expect(station.records.finishRun(run.id).run.verdict).toBe('fail');
     station.close();
   });
@@ -79,12 +79,12 @@ describe('records on a real database file', () => {
     const procedureId = station.records.listProcedures()[0].id;
     const { run } = station.records.openRun({ serial: 'MG20-2611-0045', procedureId, operator: 'A. Tester' });
     expect(() =>
-      station.records.recordTrimPoint({ runId: run.id, position: 1, reading: readingWithThd(-300, { flags: ['no-signal'] }) }),
+      station.records.recordTrimPoint({ runId: run.id, position: 1, reading: readingWithThd(-300, { flags: ['no-signal'] }), live: null }),
     ).toThrow(/No signal/);
     expect(() =>
-      station.records.recordTrimPoint({ runId: run.id, position: 1, reading: readingWithThd(-20, { flags: ['clipping'] }) }),
+      station.records.recordTrimPoint({ runId: run.id, position: 1, reading: readingWithThd(-20, { flags: ['clipping'] }), live: null }),
     ).toThrow(/clipping/);
-    expect(() => station.records.recordTrimPoint({ runId: run.id, position: 11, reading: readingWithThd(-40) })).toThrow(
+    expect(() => station.records.recordTrimPoint({ runId: run.id, position: 11, reading: readingWithThd(-40), live: null })).toThrow(
       /outside 0–10 turns/,
     );
     expect(station.records.getRun(run.id).trimPoints).toEqual([]);
@@ -95,7 +95,7 @@ describe('records on a real database file', () => {
     const station = openTestStation(dir.path);
     const procedureId = station.records.listProcedures()[0].id;
     const { run } = station.records.openRun({ serial: 'MG20-2611-0046', procedureId, operator: 'A. Tester' });
-    station.records.recordTrimPoint({ runId: run.id, position: 3, reading: readingWithThd(-62) });
+    station.records.recordTrimPoint({ runId: run.id, position: 3, reading: readingWithThd(-62), live: null });
     await expect(station.sheets.savePdf(run.id, noCaller.printToPdf)).rejects.toThrow(/Finish the run/);
     station.records.finishRun(run.id);
     const saved = await station.sheets.savePdf(run.id, noCaller.printToPdf);
@@ -104,6 +104,55 @@ describe('records on a real database file', () => {
     expect(readFileSync(saved.path, 'latin1').startsWith('%PDF')).toBe(true);
     expect((await station.sheets.savePdf(run.id, noCaller.printToPdf)).alreadySaved).toBe(true);
     expect(station.records.getRun(run.id).run.sheetPdfPath).toBe(saved.path);
+    station.close();
+  });
+
+  it('stores the assistant\'s assessment after every point, and the warnings raised, with the run', () => {
+    const station = openTestStation(dir.path);
+    const procedureId = station.records.listProcedures()[0].id;
+    const { run } = station.records.openRun({ serial: 'MG20-2611-0050', procedureId, operator: 'A. Tester' });
+    // H3 along one phase: 0.01 at 0 turns, 0.005 at 2.5 turns, so the straight line crosses zero at 5.
+    const at = (position: number, levelDbc: number, phaseDeg: number, lfDbfs = -120) =>
+      station.records.recordTrimPoint({
+        runId: run.id,
+        position,
+        reading: readingWithThd(levelDbc, { harmonics: [{ order: 3, frequencyHz: 42, levelDbc, phaseDeg }], subAudioDbfs: lfDbfs }),
+        live: null,
+      });
+    const first = at(0, -40, 30);
+    expect(first.assessment.model).toBeNull();
+    const second = at(2.5, 20 * Math.log10(0.005), 30);
+    expect(second.assessment.model).toBe('phasor');
+    expect(second.assessment.nullPosition).toBeCloseTo(5, 6);
+    // Past the null the phase has turned by 180°; the sub-audio level has risen 12 dB.
+    at(5.25, 20 * Math.log10(0.0005), -150, -108);
+    const detail = station.records.getRun(run.id);
+    expect(detail.assessment!.side).toBe('past-null');
+    expect(detail.warningsRaised.map((w) => [w.id, w.afterSequence])).toEqual([
+      ['lf-instability', 3],
+      ['past-null', 3],
+    ]);
+    const count = station.db.prepare('SELECT COUNT(*) AS n FROM trim_assessments WHERE run_id = ?').get(run.id) as { n: number };
+    expect(count.n).toBe(3);
+    // Left past the null, the unit fails even though its THD is inside the limit.
+    const finished = station.records.finishRun(run.id);
+    expect(finished.run.verdict).toBe('fail');
+    expect(finished.run.verdictReason).toMatch(/past the null/);
+    station.close();
+  });
+
+  it('records a warm re-check against the last trim point', () => {
+    const station = openTestStation(dir.path);
+    const procedureId = station.records.listProcedures()[0].id;
+    const { run } = station.records.openRun({ serial: 'MG20-2611-0051', procedureId, operator: 'A. Tester' });
+    const reading = (levelDbc: number) => readingWithThd(levelDbc, { harmonics: [{ order: 3, frequencyHz: 42, levelDbc, phaseDeg: 10 }] });
+    station.records.recordTrimPoint({ runId: run.id, position: 0, reading: reading(-40), live: null });
+    station.records.recordTrimPoint({ runId: run.id, position: 4.8, reading: reading(-70), live: null });
+    // Copper α = 0.00393/°C (IEC 60028): 20 °C untracked moves H3 by α·20·0.01 = 7.9e-4.
+    const check = station.records.recordWarmCheck({ runId: run.id, coldTemperatureC: 22, warmTemperatureC: 42, reading: reading(-70) });
+    expect(check.untrackedDrift).toBeCloseTo(0.00393 * 20 * 0.01, 8);
+    expect(check.trackingFraction).toBe(1); // no change at all: the unit tracked fully
+    expect(station.records.getRun(run.id).warmCheck).toEqual(check);
     station.close();
   });
 

@@ -1,0 +1,97 @@
+// The trim assessment as plain data: what the assistant concluded after a trim point, stored with
+// the run, shown live and printed on the unit sheet. Built from readings by the same code in main
+// (the record) and in the page (the live banner), so both say the same thing.
+
+import type { Reading } from '../measurement/reading.ts';
+import type { Procedure } from '../procedures/procedure.ts';
+import { adviseTrim, type LiveSeries, type TrimPointData, type TrimWarning } from './trim-assistant.ts';
+
+export interface TrimCurvePoint {
+  position: number;
+  levelDbc: number;
+}
+
+export interface TrimAssessment {
+  /** The harmonic the trim works on (3 = H3). */
+  harmonicOrder: number;
+  model: 'phasor' | 'magnitude' | null;
+  /** Why that model, or why there is no fit yet. */
+  reason: string;
+  nullPosition: number | null;
+  nullPositionPlusMinus: number | null;
+  nullLevelDbc: number | null;
+  bracketed: boolean;
+  side: 'short-of-null' | 'past-null' | null;
+  nextPosition: number;
+  recommendedPosition: number | null;
+  recommendedLevelDbc: number | null;
+  recommendationNote: string | null;
+  /** ± °C over which the residual at the recommended setting stays inside the limit, untracked. */
+  thermalMarginC: number | null;
+  excludedPoint: number | null;
+  warnings: TrimWarning[];
+  /** The fitted model sampled across the trimmer's range, for plots and the sheet. */
+  curve: TrimCurvePoint[];
+}
+
+const CURVE_SAMPLES = 81;
+
+/** A trim point as the assistant sees it: the chosen harmonic, the gain, the sub-audio level. */
+export function trimPointData(position: number, reading: Reading, harmonicOrder: number): TrimPointData {
+  const harmonic = reading.harmonics.find((h) => h.order === harmonicOrder);
+  return {
+    position,
+    levelDbc: harmonic?.levelDbc ?? reading.thdDb,
+    phaseDeg: harmonic ? harmonic.phaseDeg : null,
+    gainDb: reading.fundamental.levelDbfs,
+    lfDbfs: reading.subAudioDbfs,
+    clipping: reading.flags.includes('clipping'),
+  };
+}
+
+export function assessTrim(
+  points: readonly { position: number; reading: Reading }[],
+  trim: Procedure['trim'],
+  live: LiveSeries | null = null,
+): TrimAssessment {
+  const data = points.map((p) => trimPointData(p.position, p.reading, trim.harmonicOrder));
+  const advice = adviseTrim(
+    data,
+    {
+      positionMin: trim.positionMin,
+      positionMax: trim.positionMax,
+      positionStep: trim.positionStep,
+      limitDbc: trim.limitThdDb,
+      marginDb: trim.marginDb,
+      gainRiseDb: trim.gainRiseDb,
+      lfRiseDb: trim.lfRiseDb,
+    },
+    live,
+  );
+  const fit = advice.fit;
+  const curve: TrimCurvePoint[] = [];
+  if (fit) {
+    for (let i = 0; i < CURVE_SAMPLES; i++) {
+      const position = trim.positionMin + ((trim.positionMax - trim.positionMin) * i) / (CURVE_SAMPLES - 1);
+      curve.push({ position, levelDbc: fit.predictDbc(position) });
+    }
+  }
+  return {
+    harmonicOrder: trim.harmonicOrder,
+    model: fit?.model ?? null,
+    reason: fit?.reason ?? advice.fitProblem ?? '',
+    nullPosition: fit?.nullPosition ?? null,
+    nullPositionPlusMinus: fit?.nullPositionPlusMinus ?? null,
+    nullLevelDbc: fit?.nullLevelDbc ?? null,
+    bracketed: advice.bracketed,
+    side: advice.side,
+    nextPosition: advice.nextPosition,
+    recommendedPosition: advice.recommendedPosition,
+    recommendedLevelDbc: advice.recommendedLevelDbc,
+    recommendationNote: advice.recommendationNote,
+    thermalMarginC: advice.thermal?.deltaTemperatureC ?? null,
+    excludedPoint: fit?.excludedPoint ?? null,
+    warnings: advice.warnings,
+    curve,
+  };
+}
