@@ -6,7 +6,8 @@ const OPTIONS: Omit<uPlot.Options, 'width' | 'height'> & { height: number } = {
   height: 240,
   legend: { show: false },
   cursor: { drag: { x: false, y: false } },
-  scales: { x: { time: false, distr: 3 }, y: { range: [-180, 0] } },
+  // x follows the data (5 Hz to Nyquist) rather than rounding out to a decade past it.
+  scales: { x: { time: false, distr: 3, range: (_u, min, max) => [min, max] }, y: { range: [-180, 0] } },
   axes: [{ label: 'Hz' }, { label: 'dBFS', size: 60 }],
   series: [{}, { stroke: '#1f5fa8', width: 1, points: { show: false } }],
 };

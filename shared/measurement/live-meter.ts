@@ -157,7 +157,7 @@ export class LiveMeter {
       reading.settleProgress = 0;
     } else {
       this.guard.setToneHz(reading.fundamental.frequencyHz);
-      reading.settleProgress = this.settle.add(reading.fundamental.levelDbfs, reading.thdDb);
+      reading.settleProgress = this.settle.add(reading.fundamental.levelDbfs, reading.thdDb, reading.subAudioDbfs);
     }
     reading.settled = reading.settleProgress >= 1;
     return true;

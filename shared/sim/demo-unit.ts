@@ -4,13 +4,14 @@
 //
 // The circuit: a driver with a voltage gain and a little third-harmonic distortion drives the
 // primary through its own source resistance, the primary winding resistance and a coupling
-// capacitor. The primary is the magnetising inductance, whose current rises with the cube of the
+// capacitor (with a damping resistor across it). The primary is the magnetising inductance, whose current rises with the cube of the
 // flux near saturation, in parallel with the reflected load. The compensation trimmer feeds the
 // loop current back positively into the driver: a negative source resistance R_c(p). With the net
 // resistance R = R0 − R_c(p), the magnetising current's third harmonic develops −R·i₃ across the
-// primary, so H3 is proportional to R, sign included, and nulls where R = 0. Past the null R < 0:
-// the loop of magnetising inductance and coupling capacitor has negative damping, sub-audio noise
-// grows, and in the end the stage oscillates slowly between the driver's rails.
+// primary, so H3 is proportional to R, sign included, and nulls where R = 0. Past the null R < 0
+// eats into the damping of the sub-audio resonance of magnetising inductance and coupling
+// capacitor: sub-audio noise rises, and once R is more negative than the damping network can
+// absorb, the stage oscillates slowly between the driver's rails.
 
 import { SineSource, type StimulusSetting } from '../dsp/sine-source.ts';
 
@@ -29,6 +30,8 @@ export interface DemoUnitParameters {
   /** Magnetising current = ψ/L + k₃·ψ³ (amps per weber³). */
   saturationAmpsPerWb3: number;
   couplingFarads: number;
+  /** Resistor across the coupling capacitor: damps the sub-audio resonance, barely touches H3. */
+  couplingDampingOhms: number;
   reflectedLoadOhms: number;
   /** Converter noise at the capture input, as a fraction of full scale RMS. */
   inputNoiseFullScale: number;
@@ -49,6 +52,7 @@ export const DEMO_UNIT_PARAMETERS: DemoUnitParameters = {
   magnetizingHenries: 5,
   saturationAmpsPerWb3: 34,
   couplingFarads: 1000e-6,
+  couplingDampingOhms: 300,
   reflectedLoadOhms: 10000,
   inputNoiseFullScale: 2e-7,
   humDbfs: -105,
@@ -61,6 +65,7 @@ export class DemoUnit {
   private readonly stimulus: SineSource;
   private readonly stimulusBlock = new Float32Array(128);
   private trimmerTurns = 0;
+  private trimmerTarget = 0;
   private flux = 0;
   private capacitorVolts = 0;
   private humPhase = 0;
@@ -99,8 +104,12 @@ export class DemoUnit {
     return this.trimmerTurns;
   }
 
+  /** How fast the virtual trimmer turns, turns per second (invented: a brisk hand on a trim tool). */
+  static readonly TURNS_PER_SECOND = 2;
+
+  /** Turns the virtual trimmer; like a screwdriver it gets there at a finite rate, not in one jump. */
   setTrimmer(turns: number): void {
-    this.trimmerTurns = turns;
+    this.trimmerTarget = turns;
   }
 
   setStimulus(setting: StimulusSetting): void {
@@ -120,6 +129,11 @@ export class DemoUnit {
   private step(x: number): number {
     const p = this.parameters;
     const dt = 1 / this.sampleRateHz;
+    if (this.trimmerTurns !== this.trimmerTarget) {
+      const stepTurns = DemoUnit.TURNS_PER_SECOND * dt;
+      const remaining = this.trimmerTarget - this.trimmerTurns;
+      this.trimmerTurns = Math.abs(remaining) <= stepTurns ? this.trimmerTarget : this.trimmerTurns + Math.sign(remaining) * stepTurns;
+    }
     const drive = p.driveVoltsPerFullScale * (x - p.driverCubic * x * x * x) + p.driverNoiseVolts * this.gaussian();
     // Classic fourth-order Runge-Kutta on (flux, capacitor volts); the drive is held over the step.
     const psi = this.flux;
@@ -162,7 +176,7 @@ export class DemoUnit {
       primary = (rail - vc - r0 * magnetizing) / (1 + r0 / p.reflectedLoadOhms);
     }
     this.rates[0] = primary;
-    this.rates[1] = (magnetizing + primary / p.reflectedLoadOhms) / p.couplingFarads;
+    this.rates[1] = (magnetizing + primary / p.reflectedLoadOhms - vc / p.couplingDampingOhms) / p.couplingFarads;
     return this.rates;
   }
 

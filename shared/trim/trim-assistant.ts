@@ -85,6 +85,10 @@ const FIRST_MOVE_STEPS = 4;
 const APPROACH_STEPS = 2;
 /** …this fraction of it. */
 const APPROACH_FRACTION = 0.8;
+/** Live readings arrive about this often (the live meter's rate). */
+const LIVE_READINGS_PER_SECOND = 6;
+/** Growth only counts once the sub-audio level stands this far above the safe end's. */
+const LF_GROWTH_ABOVE_BASELINE_DB = 6;
 /** No single suggested move goes further than this many steps beyond the furthest point. */
 const MAX_MOVE_STEPS = 16;
 
@@ -253,20 +257,23 @@ function collectWarnings(points: readonly TrimPointData[], settings: TrimAssista
       advice: 'Net resistance is heading negative: back the trimmer off toward the safe end.',
     });
   }
-  const lfSeries = [...points.map((p) => p.lfDbfs), ...(live?.lfDbfs ?? [])].filter((v): v is number => v !== null);
   const firstLf = points.find((p) => p.lfDbfs !== null)?.lfDbfs ?? null;
-  const latestLf = lfSeries.at(-1) ?? null;
-  const growing = isGrowing(lfSeries.slice(-4));
+  const pointLf = points.map((p) => p.lfDbfs).filter((v): v is number => v !== null);
+  const latestLf = live?.lfDbfs.at(-1) ?? pointLf.at(-1) ?? null;
+  // Growth counts in the live series (readings since the trimmer last moved), sampled about a
+  // second apart so one transient passing through the slow sub-audio window is not taken for it.
+  const growing = firstLf !== null && latestLf !== null && latestLf - firstLf > LF_GROWTH_ABOVE_BASELINE_DB && isGrowing(everyNth(live?.lfDbfs ?? [], LIVE_READINGS_PER_SECOND).slice(-4));
   if (firstLf !== null && latestLf !== null && (latestLf - firstLf > settings.lfRiseDb || growing)) {
     warnings.push({
       id: 'lf-instability',
       seen: growing
-        ? `Sub-audio level is growing from reading to reading (now ${fixed(latestLf, 1)} dBFS).`
+        ? `Sub-audio level is growing from reading to reading (now ${fixed(latestLf, 1)} dBFS, ${fixed(latestLf - firstLf, 1)} dB above the safe end).`
         : `Sub-audio level is ${fixed(latestLf - firstLf, 1)} dB above the safe end's (${fixed(latestLf, 1)} dBFS).`,
       advice: 'Low-frequency instability is starting: turn the trimmer back toward the safe end now; keep speakers disconnected.',
     });
   }
-  const still = live?.levelsDbfs ?? [];
+  // The last two seconds or so: with the trimmer still and the reading settled, the level should hold.
+  const still = (live?.levelsDbfs ?? []).slice(-2 * LIVE_READINGS_PER_SECOND);
   if (still.length >= 5 && Math.max(...still) - Math.min(...still) > settings.wanderDb) {
     warnings.push({
       id: 'amplitude-wander',
@@ -282,6 +289,13 @@ function collectWarnings(points: readonly TrimPointData[], settings: TrimAssista
     });
   }
   return warnings;
+}
+
+/** Every n-th value counted back from the newest, oldest first. */
+function everyNth(series: readonly number[], n: number): number[] {
+  const picked: number[] = [];
+  for (let i = series.length - 1; i >= 0; i -= n) picked.unshift(series[i]);
+  return picked;
 }
 
 /** Strictly rising over the last readings by more than 3 dB in all. */

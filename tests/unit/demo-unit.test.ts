@@ -15,7 +15,8 @@ const ASSISTANT = {
   positionMax: DEMO_PROCEDURE.trim.positionMax,
   positionStep: DEMO_PROCEDURE.trim.positionStep,
   limitDbc: DEMO_PROCEDURE.trim.limitThdDb,
-  gainRiseDb: 1,
+  gainRiseDb: DEMO_PROCEDURE.trim.gainRiseDb,
+  lfRiseDb: DEMO_PROCEDURE.trim.lfRiseDb,
 };
 
 /** A bench: the simulated unit feeding the live meter, as the demo input does in the app. */
@@ -33,7 +34,7 @@ function bench() {
     return lf;
   };
   /** Turns the trimmer, waits as a technician waits for the reading, and records a trim point. */
-  const recordAt = (turns: number, dwellSeconds = 4): { point: TrimPointData; lf: number[] } => {
+  const recordAt = (turns: number, dwellSeconds = 5): { point: TrimPointData; lf: number[] } => {
     unit.setTrimmer(turns);
     const lf = run(dwellSeconds);
     const r = meter.reading;
@@ -66,7 +67,7 @@ describe('demo bench (simulated unit, invented parameters)', () => {
     // A turn either side of the null the phase differs by nearly 180° (design §5); closer in, the
     // rounded bottom (a quadrature residue) makes the turn gradual.
     const shortOf = recordAt(unit.trueNullTurns - 1).point;
-    const pastBy = recordAt(unit.trueNullTurns + 1, 2).point;
+    const pastBy = recordAt(unit.trueNullTurns + 1, 3).point;
     const turned = (((pastBy.phaseDeg! - shortOf.phaseDeg!) % 360) + 360) % 360;
     expect(Math.abs(turned - 180)).toBeLessThan(30);
   });

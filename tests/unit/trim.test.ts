@@ -132,9 +132,14 @@ describe('trim assistant', () => {
     }
   });
 
-  it('raises lf-instability when the sub-audio level grows from reading to reading', () => {
-    const advice = adviseTrim(points([0, 2], shape), options, { levelsDbfs: [], lfDbfs: [-118, -116, -113, -110] });
+  it('raises lf-instability when the sub-audio level grows from reading to reading, not for a passing thump', () => {
+    // Six live readings a second for four seconds, rising 2 dB a second from the safe end's −120 dBFS.
+    const rising = Array.from({ length: 24 }, (_, i) => -120 + (2 * i) / 6);
+    const advice = adviseTrim(points([0, 2], shape), options, { levelsDbfs: [], lfDbfs: rising });
     expect(advice.warnings.map((w) => w.id)).toContain('lf-instability');
+    // A thump that rises and falls again within the window is not growth.
+    const thump = Array.from({ length: 24 }, (_, i) => -120 + 8 * Math.sin((Math.PI * i) / 23));
+    expect(adviseTrim(points([0, 2], shape), options, { levelsDbfs: [], lfDbfs: thump }).warnings.map((w) => w.id)).not.toContain('lf-instability');
   });
 });
 
