@@ -50,6 +50,9 @@ const HUM_PRESENT_DB = 10;
 const HUM_FLOOR_DBFS = -150;
 const AT_FLOOR_MARGIN_DB = 3;
 const GOLDEN = (Math.sqrt(5) - 1) / 2;
+// Objectives of goldenMaximum().
+const SEARCH_PEAK = 0;
+const SEARCH_HUM = 1;
 
 // Component kinds.
 const FUNDAMENTAL = 0;
@@ -240,29 +243,39 @@ export class FrameAnalyzer {
 
   /** Golden-section search of the single-tone fit over ±1 bin of `centerBin`. */
   private searchPeak(centerBin: number): number {
-    let lo = centerBin - 1;
-    let hi = centerBin + 1;
+    // 32 steps narrow ±1 bin to ~4e-7 bin: far below what moves a level or a phase, even at H10.
+    return this.goldenMaximum(SEARCH_PEAK, centerBin - 1, centerBin + 1, 32, centerBin);
+  }
+
+  /**
+   * Golden-section search for the maximum of one of this analyzer's objectives over [lo, hi].
+   * The objective is chosen by a constant rather than passed as a closure, so nothing is allocated.
+   */
+  private goldenMaximum(objective: number, lo: number, hi: number, iterations: number, argument: number): number {
     let a = hi - GOLDEN * (hi - lo);
     let b = lo + GOLDEN * (hi - lo);
-    let fa = this.projectSingle(a, centerBin);
-    let fb = this.projectSingle(b, centerBin);
-    // 32 steps narrow ±1 bin to ~4e-7 bin: far below what moves a level or a phase, even at H10.
-    for (let i = 0; i < 32; i++) {
+    let fa = this.objectiveAt(objective, a, argument);
+    let fb = this.objectiveAt(objective, b, argument);
+    for (let i = 0; i < iterations; i++) {
       if (fa < fb) {
         lo = a;
         a = b;
         fa = fb;
         b = lo + GOLDEN * (hi - lo);
-        fb = this.projectSingle(b, centerBin);
+        fb = this.objectiveAt(objective, b, argument);
       } else {
         hi = b;
         b = a;
         fb = fa;
         a = hi - GOLDEN * (hi - lo);
-        fa = this.projectSingle(a, centerBin);
+        fa = this.objectiveAt(objective, a, argument);
       }
     }
     return (lo + hi) / 2;
+  }
+
+  private objectiveAt(objective: number, x: number, argument: number): number {
+    return objective === SEARCH_PEAK ? this.projectSingle(x, argument) : this.humEnergyAt(x, argument);
   }
 
   /** Energy of the least-squares fit of one tone at `bin` to the bins around `centerBin`. */
@@ -399,29 +412,8 @@ export class FrameAnalyzer {
     if (firstHum < 0 || !this.humStandsOut()) return;
     const nominal = this.options.mainsHz / this.binHz;
     const span = MAINS_SEARCH_HZ / this.binHz;
-    let lo = nominal - span;
-    let hi = nominal + span;
-    let a = hi - GOLDEN * (hi - lo);
-    let b = lo + GOLDEN * (hi - lo);
-    let fa = this.humEnergyAt(a, firstHum);
-    let fb = this.humEnergyAt(b, firstHum);
     // 14 steps narrow ±0.5 Hz to about 1 mHz, finer than mains holds still.
-    for (let i = 0; i < 14; i++) {
-      if (fa < fb) {
-        lo = a;
-        a = b;
-        fa = fb;
-        b = lo + GOLDEN * (hi - lo);
-        fb = this.humEnergyAt(b, firstHum);
-      } else {
-        hi = b;
-        b = a;
-        fb = fa;
-        a = hi - GOLDEN * (hi - lo);
-        fa = this.humEnergyAt(a, firstHum);
-      }
-    }
-    this.humEnergyAt((lo + hi) / 2, firstHum);
+    this.humEnergyAt(this.goldenMaximum(SEARCH_HUM, nominal - span, nominal + span, 14, firstHum), firstHum);
   }
 
   /** Moves the hum components (stored from `firstHum` on) to multiples of `mainsBin` and refits them. */
