@@ -159,7 +159,7 @@ export class FrameAnalyzer {
     out.flags.length = 0;
     const f0 = this.locateFundamental(knownFundamentalHz, out);
     this.buildComponents(f0);
-    this.fitComponents(false);
+    this.fitComponents(-1);
     this.measureBins(f0);
     this.refineHum();
 
@@ -241,10 +241,20 @@ export class FrameAnalyzer {
     return this.searchPeak(peak);
   }
 
-  /** Golden-section search of the single-tone fit over ±1 bin of `centerBin`. */
+  /**
+   * The fundamental's frequency in bins: a parabola through the log magnitudes of the three bins
+   * around the peak (good to a few hundredths of a bin for these windows), then a golden-section
+   * search of the single-tone fit within ±0.1 bin of that.
+   */
   private searchPeak(centerBin: number): number {
-    // 32 steps narrow ±1 bin to ~4e-7 bin: far below what moves a level or a phase, even at H10.
-    return this.goldenMaximum(SEARCH_PEAK, centerBin - 1, centerBin + 1, 32, centerBin);
+    const left = this.logPower(centerBin - 1);
+    const middle = this.logPower(centerBin);
+    const right = this.logPower(centerBin + 1);
+    const curvature = left - 2 * middle + right;
+    const offset = curvature < 0 ? Math.max(-0.5, Math.min(0.5, (0.5 * (left - right)) / curvature)) : 0;
+    const estimate = centerBin + offset;
+    // 28 steps narrow ±0.1 bin to ~3e-7 bin: far below what moves a level or a phase, even at H10.
+    return this.goldenMaximum(SEARCH_PEAK, estimate - 0.1, estimate + 0.1, 28, centerBin);
   }
 
   /**
@@ -272,6 +282,10 @@ export class FrameAnalyzer {
       }
     }
     return (lo + hi) / 2;
+  }
+
+  private logPower(bin: number): number {
+    return Math.log(this.spectrum[2 * bin] ** 2 + this.spectrum[2 * bin + 1] ** 2 + 1e-300);
   }
 
   private objectiveAt(objective: number, x: number, argument: number): number {
@@ -325,8 +339,11 @@ export class FrameAnalyzer {
     this.compCount = count;
   }
 
-  /** Fits every component (or only groups holding hum), jointly with any whose lobes overlap it. */
-  private fitComponents(onlyHum: boolean): number {
+  /**
+   * Fits components, jointly with any whose lobes overlap: all of them (humOrder −1), only groups
+   * holding hum (0), or only the group holding the hum component of that order.
+   */
+  private fitComponents(humOrder: number): number {
     const count = this.compCount;
     // Sort component indices by frequency (insertion sort: at most 14 items).
     for (let i = 0; i < count; i++) this.compIndex[i] = i;
@@ -346,9 +363,12 @@ export class FrameAnalyzer {
     while (start < count) {
       let end = start + 1;
       while (end < count && this.compBins[this.compIndex[end]] - this.compBins[this.compIndex[end - 1]] < groupGap) end++;
-      let holdsHum = false;
-      for (let i = start; i < end; i++) if (this.compKind[this.compIndex[i]] === HUM) holdsHum = true;
-      if (holdsHum || !onlyHum) energy += this.fitGroup(start, end);
+      let wanted = humOrder < 0;
+      for (let i = start; i < end; i++) {
+        const c = this.compIndex[i];
+        if (this.compKind[c] === HUM && (humOrder === 0 || this.compOrder[c] === humOrder)) wanted = true;
+      }
+      if (wanted) energy += this.fitGroup(start, end);
       start = end;
     }
     return energy;
@@ -408,18 +428,31 @@ export class FrameAnalyzer {
   /** Mains drifts from nominal: search its frequency where the hum fit explains most. */
   private refineHum(): void {
     let firstHum = -1;
-    for (let i = 0; i < this.compCount && firstHum < 0; i++) if (this.compKind[i] === HUM) firstHum = i;
+    let strongest = -1;
+    let strongestPower = 0;
+    for (let i = 0; i < this.compCount; i++) {
+      if (this.compKind[i] !== HUM) continue;
+      if (firstHum < 0) firstHum = i;
+      const power = this.compRe[i] ** 2 + this.compIm[i] ** 2;
+      if (power > strongestPower) {
+        strongestPower = power;
+        strongest = i;
+      }
+    }
     if (firstHum < 0 || !this.humStandsOut()) return;
     const nominal = this.options.mainsHz / this.binHz;
     const span = MAINS_SEARCH_HZ / this.binHz;
-    // 14 steps narrow ±0.5 Hz to about 1 mHz, finer than mains holds still.
-    this.humEnergyAt(this.goldenMaximum(SEARCH_HUM, nominal - span, nominal + span, 14, firstHum), firstHum);
+    // Searched on the strongest hum component alone (often the 2nd, from a rectifier); the others
+    // follow as multiples. 14 steps narrow ±0.5 Hz to about 1 mHz, finer than mains holds still.
+    const order = this.compOrder[strongest];
+    const mainsBin = this.goldenMaximum(SEARCH_HUM, nominal - span, nominal + span, 14, order);
+    this.humEnergyAt(mainsBin, 0);
   }
 
-  /** Moves the hum components (stored from `firstHum` on) to multiples of `mainsBin` and refits them. */
-  private humEnergyAt(mainsBin: number, firstHum: number): number {
-    for (let i = firstHum; i < this.compCount; i++) this.compBins[i] = this.compOrder[i] * mainsBin;
-    return this.fitComponents(true);
+  /** Moves the hum components to multiples of `mainsBin` and refits (see fitComponents for `humOrder`). */
+  private humEnergyAt(mainsBin: number, humOrder: number): number {
+    for (let i = 0; i < this.compCount; i++) if (this.compKind[i] === HUM) this.compBins[i] = this.compOrder[i] * mainsBin;
+    return this.fitComponents(humOrder);
   }
 
   private humStandsOut(): boolean {
