@@ -1,5 +1,13 @@
 import { resolve } from 'node:path';
 import { defineConfig } from 'electron-vite';
+import type { Plugin } from 'vite';
+
+/** In development only, the page may open the dev server's live-reload socket. */
+const allowDevServerSocket: Plugin = {
+  name: 'trimbench-dev-csp',
+  apply: 'serve',
+  transformIndexHtml: (html) => html.replace("connect-src 'self';", "connect-src 'self' ws://localhost:*;"),
+};
 
 export default defineConfig({
   main: {
@@ -22,5 +30,6 @@ export default defineConfig({
       rollupOptions: { input: { index: resolve('renderer/index.html') } },
     },
     worker: { format: 'es' },
+    plugins: [allowDevServerSocket],
   },
 });

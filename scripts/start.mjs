@@ -15,6 +15,12 @@ function electronBinaryPresent() {
   return existsSync(join(electronDir, 'dist', readFileSync(pathFile, 'utf8').trim()));
 }
 
+const [major, minor] = process.versions.node.split('.').map(Number);
+if (major < 22 || (major === 22 && minor < 12)) {
+  console.error(`Trimbench needs Node 22.12 or newer (this is ${process.version}); see DEVELOPERS.md for a one-line way to get it.`);
+  process.exit(1);
+}
+
 if (!electronBinaryPresent()) {
   console.log('Fetching the Electron runtime (first start only)…');
   const install = spawnSync(process.execPath, [join(electronDir, 'install.js')], {
@@ -22,8 +28,10 @@ if (!electronBinaryPresent()) {
     timeout: 10 * 60 * 1000,
   });
   if (install.status !== 0 || !electronBinaryPresent()) {
+    const lines = String(install.stderr ?? '').split('\n').map((line) => line.trim());
+    const cause = lines.find((line) => /error/i.test(line) && !line.startsWith('at ')) ?? lines.find(Boolean) ?? 'no reason given';
     console.error(
-      'Trimbench cannot start: the Electron runtime is not installed and could not be downloaded (is this machine offline?). ' +
+      `Trimbench cannot start: the Electron runtime is not installed and could not be downloaded (${cause.slice(0, 200)}). ` +
         'Run `npm start` again with internet access; `npm run build` and `npm test` work without it.',
     );
     process.exit(1);

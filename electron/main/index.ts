@@ -1,7 +1,7 @@
 // The Electron main process: one sandboxed window serving the built renderer from a private
 // scheme, the IPC handlers registered generically from the contract, and nothing more.
 
-import { app, BrowserWindow, ipcMain, net, protocol, session, type IpcMainInvokeEvent, type WebContents } from 'electron';
+import { app, BrowserWindow, dialog, ipcMain, net, protocol, session, type IpcMainInvokeEvent, type WebContents } from 'electron';
 import { hostname } from 'node:os';
 import { join, normalize, sep } from 'node:path';
 import { fileURLToPath, pathToFileURL } from 'node:url';
@@ -22,12 +22,20 @@ protocol.registerSchemesAsPrivileged([
   { scheme: APP_SCHEME, privileges: { standard: true, secure: true, supportFetchAPI: true } },
 ]);
 
+// The same policy as the page's meta tag, sent as a header too so it also covers the worker and worklets.
+const CONTENT_SECURITY_POLICY =
+  "default-src 'self'; script-src 'self'; style-src 'self' 'unsafe-inline'; img-src 'self' data:; font-src 'self'; " +
+  "connect-src 'self'; worker-src 'self'; media-src 'self' mediastream:; object-src 'none'; base-uri 'none'; form-action 'none'";
+
 function serveRenderer(): void {
-  protocol.handle(APP_SCHEME, (request) => {
+  protocol.handle(APP_SCHEME, async (request) => {
     const url = new URL(request.url);
     const file = normalize(join(rendererDir, decodeURIComponent(url.pathname === '/' ? '/index.html' : url.pathname)));
     if (url.host !== 'app' || !file.startsWith(rendererDir + sep)) return new Response('Not found', { status: 404 });
-    return net.fetch(pathToFileURL(file).toString());
+    const response = await net.fetch(pathToFileURL(file).toString());
+    const headers = new Headers(response.headers);
+    headers.set('Content-Security-Policy', CONTENT_SECURITY_POLICY);
+    return new Response(response.body, { status: response.status, headers });
   });
 }
 
@@ -84,17 +92,32 @@ function createWindow(): BrowserWindow {
   return window;
 }
 
-app.whenReady().then(() => {
-  const station = openStation({ dataDir: app.getPath('userData'), stationName: hostname() });
-  app.on('will-quit', () => station.close());
-  serveRenderer();
-  lockDownSessions();
-  registerIpc(station.handlers);
-  createWindow();
-  app.on('activate', () => {
-    if (BrowserWindow.getAllWindows().length === 0) createWindow();
-  });
+// One Trimbench per station: a second one would write the same database.
+if (!app.requestSingleInstanceLock()) app.quit();
+app.on('second-instance', () => {
+  const window = BrowserWindow.getAllWindows()[0];
+  if (window?.isMinimized()) window.restore();
+  window?.focus();
 });
+
+app
+  .whenReady()
+  .then(() => {
+    const station = openStation({ dataDir: app.getPath('userData'), stationName: hostname() });
+    app.on('will-quit', () => station.close());
+    serveRenderer();
+    lockDownSessions();
+    registerIpc(station.handlers);
+    createWindow();
+    app.on('activate', () => {
+      if (BrowserWindow.getAllWindows().length === 0) createWindow();
+    });
+  })
+  .catch((error: Error) => {
+    // Nothing runs without the records (a newer or locked database, a failed migration): say why and stop.
+    dialog.showErrorBox('Trimbench cannot start', error.message);
+    app.quit();
+  });
 
 app.on('window-all-closed', () => {
   if (process.platform !== 'darwin') app.quit();

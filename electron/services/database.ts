@@ -100,6 +100,13 @@ export const MIGRATIONS: readonly string[] = [
     BEGIN SELECT RAISE(ABORT, 'recorded warm checks are never edited'); END;
   CREATE TRIGGER warm_checks_never_deleted BEFORE DELETE ON warm_checks
     BEGIN SELECT RAISE(ABORT, 'recorded warm checks are never deleted'); END;
+  CREATE TRIGGER sheet_path_set_once BEFORE UPDATE OF sheet_pdf_path ON runs
+    WHEN OLD.sheet_pdf_path IS NOT NULL
+    BEGIN SELECT RAISE(ABORT, 'a recorded sheet is never replaced'); END;
+  CREATE TRIGGER procedures_never_change BEFORE UPDATE ON procedures
+    BEGIN SELECT RAISE(ABORT, 'a procedure revision never changes; store a new revision'); END;
+  CREATE TRIGGER procedures_never_deleted BEFORE DELETE ON procedures
+    BEGIN SELECT RAISE(ABORT, 'procedures are never deleted'); END;
   `,
 ];
 
@@ -110,6 +117,7 @@ export const MIGRATIONS: readonly string[] = [
 export function openDatabase(file: string): Db {
   const db = new Database(file);
   try {
+    refuseNewer(db, file); // before anything changes the file, even its journal mode
     db.pragma('journal_mode = WAL');
     db.pragma('foreign_keys = ON');
     // Every write the technician has seen confirmed must survive a power cut.
@@ -122,16 +130,24 @@ export function openDatabase(file: string): Db {
   }
 }
 
+function refuseNewer(db: Db, file: string): void {
+  const current = db.pragma('user_version', { simple: true }) as number;
+  if (current > MIGRATIONS.length) {
+    throw new ExpectedFailure(
+      `The database ${file} was written by a newer Trimbench (schema ${current}, this version knows ${MIGRATIONS.length}). Update Trimbench; the file was not changed.`,
+    );
+  }
+}
+
 function migrate(db: Db, file: string): void {
   const current = db.pragma('user_version', { simple: true }) as number;
   const latest = MIGRATIONS.length;
-  if (current > latest) {
-    throw new ExpectedFailure(
-      `The database ${file} was written by a newer Trimbench (schema ${current}, this version knows ${latest}). Update Trimbench; the file was not changed.`,
-    );
-  }
   if (current === latest) return;
-  if (current > 0) db.exec(`VACUUM INTO '${`${file}.before-schema-${current + 1}`.replaceAll("'", "''")}'`);
+  if (current > 0) {
+    // A time in the name: an earlier, interrupted attempt's copy never blocks this one.
+    const stamp = new Date().toISOString().replaceAll(':', '-');
+    db.exec(`VACUUM INTO '${`${file}.before-schema-${current + 1}-${stamp}`.replaceAll("'", "''")}'`);
+  }
   for (let version = current + 1; version <= latest; version++) {
     db.transaction(() => {
       db.exec(MIGRATIONS[version - 1]);

@@ -2,7 +2,7 @@
 // payload with the IPC contract first) and checks what only the database knows.
 
 import type { Reading } from '../../shared/measurement/reading.ts';
-import type { Run, RunDetail, StoredProcedure, TrimPoint, WarmCheck } from '../../shared/ipc/contract.ts';
+import { trimAssessmentSchema, type Run, type RunDetail, type StoredProcedure, type TrimPoint, type WarmCheck } from '../../shared/ipc/contract.ts';
 import { procedureSchema, type Procedure } from '../../shared/procedures/procedure.ts';
 import { checkSerial } from '../../shared/records/serial.ts';
 import { judgeTrim } from '../../shared/records/verdict.ts';
@@ -245,7 +245,8 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
           JSON.stringify(reading),
         ).lastInsertRowid;
         const point = toTrimPoint(statements.trimPointById.get(id)!);
-        const assessment = assessTrim(statements.trimPoints.all(row.id).map(toTrimPoint), trim, request.live);
+        // Checked against the contract before anything commits: a record the page cannot read is not written.
+        const assessment = trimAssessmentSchema.parse(assessTrim(statements.trimPoints.all(row.id).map(toTrimPoint), trim, request.live));
         statements.insertAssessment.run(row.id, sequence, recordedAt, JSON.stringify(assessment));
         return { point, assessment };
       })();
@@ -263,6 +264,9 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
       const last = points.at(-1);
       if (!last || points.length < 2) throw new ExpectedFailure('Record the trim (at least two points) before the warm re-check.');
       if (request.reading.flags.includes('no-signal')) throw new ExpectedFailure('No signal at the input: the warm reading cannot be recorded.');
+      if (request.reading.flags.includes('clipping')) {
+        throw new ExpectedFailure('The input is clipping: the warm reading cannot be recorded. Lower the level into the interface.');
+      }
       const order = trim.harmonicOrder;
       const harmonic = (reading: Reading) => reading.harmonics.find((h) => h.order === order);
       const cold = harmonic(last.reading);

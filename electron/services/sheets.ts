@@ -1,10 +1,10 @@
 // Unit sheets as PDF files in a folder beside the database. A sheet is written once per
 // finished run and never overwritten: it is the record that left the station.
 
-import { mkdirSync, writeFileSync } from 'node:fs';
+import { closeSync, existsSync, fsyncSync, mkdirSync, openSync, renameSync, statSync, writeSync } from 'node:fs';
 import { join } from 'node:path';
-import type { Records } from './records.ts';
 import { ExpectedFailure } from './expected-failure.ts';
+import type { Records } from './records.ts';
 
 export function sheetFileName(serial: string, runId: number): string {
   return `${serial}_run-${runId}.pdf`;
@@ -17,15 +17,25 @@ export function createSheets(records: Records, folder: string) {
       const { run } = records.getRun(runId);
       if (!run.finishedAt) throw new ExpectedFailure('Finish the run before saving its unit sheet.');
       if (run.sheetPdfPath) return { path: run.sheetPdfPath, alreadySaved: true };
-      const pdf = await renderPdf();
       mkdirSync(folder, { recursive: true });
       const path = join(folder, sheetFileName(run.serial, run.id));
-      try {
-        writeFileSync(path, pdf, { flag: 'wx' });
-      } catch (error) {
-        if ((error as NodeJS.ErrnoException).code !== 'EEXIST') throw error;
-        throw new ExpectedFailure(`A sheet file already exists at ${path} but is not recorded for run ${runId}; it was left as it is.`);
+      // A complete file from an earlier attempt that crashed before recording it is this run's sheet.
+      if (existsSync(path) && statSync(path).size > 0) {
+        records.setSheetPath(runId, path);
+        return { path, alreadySaved: true };
       }
+      const pdf = await renderPdf();
+      // Written whole and flushed before it gets its name, and named before it is recorded: a power
+      // cut leaves either no sheet or a complete one, never a recorded empty file.
+      const partial = `${path}.partial`;
+      const fd = openSync(partial, 'w');
+      try {
+        writeSync(fd, pdf);
+        fsyncSync(fd);
+      } finally {
+        closeSync(fd);
+      }
+      renameSync(partial, path);
       records.setSheetPath(runId, path);
       return { path, alreadySaved: false };
     },

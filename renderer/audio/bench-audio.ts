@@ -201,6 +201,8 @@ export class BenchAudio {
 
   private listen(track: MediaStreamTrack | null): void {
     this.worker.onmessage = (event: MessageEvent<FromWorker>) => {
+      // A reading already on its way when capture stopped must not bring the readout back.
+      if (this.stopped) return;
       const message = event.data;
       if (message.type === 'reading') this.events.onReading(message.reading, message.spectrumHz, message.spectrumDbfs);
       else if (message.type === 'status') this.events.onStatus(message);

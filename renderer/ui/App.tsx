@@ -52,6 +52,8 @@ export function App() {
   );
 
   const [reading, setReading] = useState<Reading | null>(null);
+  /** When the latest reading arrived (ms): a stream that stops delivering must not leave a "settled" reading behind. */
+  const [readingAt, setReadingAt] = useState(0);
   const [spectrum, setSpectrum] = useState<{ hz: Float32Array; dbfs: Float32Array } | null>(null);
 
   const [detail, setDetail] = useState<RunDetail | null>(null);
@@ -100,10 +102,26 @@ export function App() {
     return () => window.removeEventListener('keydown', onKey, { capture: true });
   }, [mute]);
 
+  const generatorRef = useRef(generator);
+  generatorRef.current = generator;
+  const [starting, setStarting] = useState(false);
+
+  function clearLiveState() {
+    setReading(null);
+    setSpectrum(null);
+    setDiscontinuities(0);
+  }
+
   async function startCapture() {
+    if (starting || audioRef.current) return; // one capture at a time, even on a double click
     setAudioProblem(null);
+    clearLiveState();
+    setStarting(true);
     try {
-      const started = await BenchAudio.start(
+      let instance: BenchAudio | null = null;
+      // Events from an instance that is no longer the current one are ignored.
+      const current = () => instance !== null && audioRef.current === instance;
+      instance = await BenchAudio.start(
         {
           inputDeviceId: choice.inputDeviceId || null,
           outputDeviceId: choice.outputDeviceId || null,
@@ -112,24 +130,31 @@ export function App() {
         },
         {
           onReading: (next, hz, dbfs) => {
+            if (!current()) return;
             setReading(next);
+            setReadingAt(Date.now());
             setSpectrum({ hz, dbfs });
           },
-          onStatus: (status) => setDiscontinuities(status.discontinuities),
+          onStatus: (status) => current() && setDiscontinuities(status.discontinuities),
           onProblem: (message) => {
+            if (!current()) return;
             setAudioProblem(message);
-            setGeneratorState((current) => ({ ...current, on: false }));
+            setGeneratorState((g) => ({ ...g, on: false }));
+            // Nothing may be recorded from a reading taken before the device went away.
+            setReading(null);
             audioRef.current = null;
             setAudio(null);
           },
         },
       );
-      audioRef.current = started;
-      setAudio(started);
-      started.setGenerator(generator);
+      audioRef.current = instance;
+      setAudio(instance);
+      instance.setGenerator(generatorRef.current);
       void refreshDevices(); // labels appear once permission is granted
     } catch (error) {
       setAudioProblem(error instanceof AudioProblem ? error.message : `Capture failed: ${(error as Error).message}`);
+    } finally {
+      setStarting(false);
     }
   }
 
@@ -137,7 +162,7 @@ export function App() {
     audioRef.current?.stop();
     audioRef.current = null;
     setAudio(null);
-    setReading(null);
+    clearLiveState();
     setGeneratorState((current) => ({ ...current, on: false }));
   }
 
@@ -155,26 +180,8 @@ export function App() {
     setDetail(opened);
     const procedure = procedures.find((p) => p.id === opened.run.procedureId)?.definition;
     if (procedure) {
-      // The stimulus comes from the procedure; it stays off until the technician turns it on. On one
-      // interface clock it is planned to whole cycles per frame, clear of mains.
-      const { stimulusHz, stimulusLevelDbfs } = procedure.trim;
-      let frequencyHz = stimulusHz;
-      setStimulusNote(null);
-      if (choice.sharedClock) {
-        try {
-          const plan = planTestFrequency({
-            targetHz: stimulusHz,
-            sampleRateHz: audioRef.current?.sampleRateHz ?? choice.sampleRateHz,
-            mainsHz: choice.mainsHz,
-            harmonicCount: HARMONIC_COUNT,
-          });
-          frequencyHz = plan.frequencyHz;
-          setStimulusNote(plan.reason);
-        } catch (error) {
-          setStimulusNote(`Stimulus left at ${stimulusHz} Hz: ${(error as Error).message}`);
-        }
-      }
-      applyGenerator({ frequencyHz, levelDbfs: stimulusLevelDbfs, on: false });
+      // The stimulus comes from the procedure; it stays off until the technician turns it on.
+      applyGenerator({ frequencyHz: procedure.trim.stimulusHz, levelDbfs: procedure.trim.stimulusLevelDbfs, on: false });
     }
   }
 
@@ -209,17 +216,45 @@ export function App() {
     setView('sheet');
   }
 
+  // On one interface clock the stimulus is planned to whole cycles per frame, clear of mains; planned
+  // again whenever the rate, the mains or the clocking changes (e.g. when capture starts at the
+  // device's own rate).
+  const openProcedure = detail ? procedures.find((p) => p.id === detail.run.procedureId)?.definition : undefined;
+  const captureRateHz = audio?.sampleRateHz ?? null;
+  useEffect(() => {
+    if (!openProcedure) return;
+    const { stimulusHz } = openProcedure.trim;
+    if (!choice.sharedClock) {
+      setStimulusNote(null);
+      if (generatorRef.current.frequencyHz !== stimulusHz) applyGenerator({ ...generatorRef.current, frequencyHz: stimulusHz });
+      return;
+    }
+    try {
+      const plan = planTestFrequency({
+        targetHz: stimulusHz,
+        sampleRateHz: captureRateHz ?? choice.sampleRateHz,
+        mainsHz: choice.mainsHz,
+        harmonicCount: HARMONIC_COUNT,
+      });
+      setStimulusNote(plan.reason);
+      if (generatorRef.current.frequencyHz !== plan.frequencyHz) applyGenerator({ ...generatorRef.current, frequencyHz: plan.frequencyHz });
+    } catch (error) {
+      setStimulusNote(`Stimulus left at ${stimulusHz} Hz: ${(error as Error).message}`);
+    }
+  }, [openProcedure, choice.sharedClock, choice.mainsHz, choice.sampleRateHz, captureRateHz, applyGenerator]);
+
   // The sheet is saved as PDF as soon as it is on screen (the PDF is made from this view).
   useEffect(() => {
     if (view !== 'sheet' || !detail || sheetPdfPath) return;
     let cancelled = false;
-    requestAnimationFrame(() => {
+    const frame = requestAnimationFrame(() => {
       call('saveSheetPdf', { runId: detail.run.id })
         .then((saved) => !cancelled && setSheetPdfPath(saved.path))
         .catch((error: Error) => !cancelled && setSheetMessage(`The PDF was not saved: ${error.message}`));
     });
     return () => {
       cancelled = true;
+      cancelAnimationFrame(frame);
     };
   }, [view, detail, sheetPdfPath]);
 
@@ -279,6 +314,7 @@ export function App() {
             choice={choice}
             onChange={setChoice}
             capturing={audio !== null}
+            starting={starting}
             capturePath={audio?.capturePath ?? null}
             sampleRateHz={audio?.sampleRateHz ?? null}
             discontinuities={discontinuities}
@@ -299,6 +335,7 @@ export function App() {
               detail={detail}
               procedure={procedure}
               reading={reading}
+              readingAt={readingAt}
               onRecord={recordPoint}
               onWarmCheck={recordWarmCheck}
               onPositionChange={setTrimmerTurns}

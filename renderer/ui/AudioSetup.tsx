@@ -17,6 +17,7 @@ export function AudioSetup({
   choice,
   onChange,
   capturing,
+  starting,
   capturePath,
   sampleRateHz,
   discontinuities,
@@ -28,6 +29,8 @@ export function AudioSetup({
   choice: AudioChoice;
   onChange(choice: AudioChoice): void;
   capturing: boolean;
+  /** Capture is being opened (a permission prompt may be up). */
+  starting: boolean;
   capturePath: string | null;
   sampleRateHz: number | null;
   discontinuities: number;
@@ -111,8 +114,8 @@ export function AudioSetup({
             Stop capture
           </button>
         ) : (
-          <button type="button" className="primary" onClick={onStart}>
-            Start capture
+          <button type="button" className="primary" onClick={onStart} disabled={starting}>
+            {starting ? 'Starting…' : 'Start capture'}
           </button>
         )}
         <button type="button" onClick={onRefresh} disabled={capturing}>

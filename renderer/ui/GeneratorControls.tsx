@@ -1,4 +1,51 @@
+import { useEffect, useState } from 'react';
 import type { GeneratorCommand } from '../worker/messages.ts';
+
+const MIN_FREQUENCY_HZ = 5;
+const MAX_FREQUENCY_HZ = 20000;
+
+/**
+ * A number field that applies its value on Enter or when it loses focus, never per keystroke:
+ * typing “-60” must not pass through −6 dBFS on its way.
+ */
+function CommitField({
+  label,
+  value,
+  onCommit,
+  check,
+}: {
+  label: string;
+  value: number;
+  onCommit(value: number): void;
+  check(value: number): string | null;
+}) {
+  const [text, setText] = useState(String(value));
+  const [problem, setProblem] = useState<string | null>(null);
+  useEffect(() => setText(String(value)), [value]);
+  const commit = () => {
+    const parsed = Number(text);
+    const issue = text.trim() === '' || !Number.isFinite(parsed) ? 'Enter a number.' : check(parsed);
+    setProblem(issue);
+    if (issue) return;
+    if (parsed !== value) onCommit(parsed);
+  };
+  return (
+    <label>
+      {label}
+      <input
+        inputMode="decimal"
+        value={text}
+        onChange={(e) => setText(e.target.value)}
+        onBlur={commit}
+        onKeyDown={(e) => {
+          if (e.key === 'Enter') commit();
+        }}
+        aria-invalid={problem !== null}
+      />
+      {problem && <span className="problem">{problem}</span>}
+    </label>
+  );
+}
 
 export function GeneratorControls({
   command,
@@ -17,28 +64,18 @@ export function GeneratorControls({
       <h2>
         Generator <span className={command.on ? 'badge live' : 'badge'}>{command.on ? 'ON' : 'muted'}</span>
       </h2>
-      <label>
-        Frequency, Hz
-        <input
-          type="number"
-          min={1}
-          max={20000}
-          step="any"
-          value={command.frequencyHz}
-          onChange={(e) => Number(e.target.value) > 0 && onChange({ ...command, frequencyHz: Number(e.target.value) })}
-        />
-      </label>
-      <label>
-        Level, dBFS
-        <input
-          type="number"
-          min={-120}
-          max={0}
-          step={0.5}
-          value={command.levelDbfs}
-          onChange={(e) => e.target.value !== '' && onChange({ ...command, levelDbfs: Math.min(0, Number(e.target.value)) })}
-        />
-      </label>
+      <CommitField
+        label="Frequency, Hz (Enter applies)"
+        value={command.frequencyHz}
+        check={(hz) => (hz < MIN_FREQUENCY_HZ || hz > MAX_FREQUENCY_HZ ? `Between ${MIN_FREQUENCY_HZ} and ${MAX_FREQUENCY_HZ} Hz.` : null)}
+        onCommit={(frequencyHz) => onChange({ ...command, frequencyHz })}
+      />
+      <CommitField
+        label="Level, dBFS (Enter applies)"
+        value={command.levelDbfs}
+        check={(dbfs) => (dbfs > 0 || dbfs < -120 ? 'Between −120 and 0 dBFS.' : null)}
+        onCommit={(levelDbfs) => onChange({ ...command, levelDbfs })}
+      />
       <button
         type="button"
         className={command.on ? '' : 'primary'}

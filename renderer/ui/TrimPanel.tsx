@@ -1,6 +1,7 @@
 import { useEffect, useMemo, useRef, useState } from 'react';
 import type { RunDetail, StoredProcedure, WarmCheck } from '../../shared/ipc/contract.ts';
 import type { Reading } from '../../shared/measurement/reading.ts';
+import { DEFAULT_LIVE_METER_CONFIG } from '../../shared/measurement/live-meter.ts';
 import { assessTrim } from '../../shared/trim/assessment.ts';
 import type { LiveSeries, TrimWarning } from '../../shared/trim/trim-assistant.ts';
 import { fixed, percent } from './format.ts';
@@ -10,11 +11,15 @@ import { TrimPlot } from './TrimPlot.tsx';
 const CONFIRM_UNSETTLED_MS = 4000;
 // Live readings kept since the trimmer last moved (about a minute at six readings a second).
 const LIVE_SERIES_LENGTH = 360;
+// A reading older than this is not recorded: the stream has stopped.
+const STALE_READING_MS = 2000;
+const LIVE_READINGS_PER_SECOND = DEFAULT_LIVE_METER_CONFIG.readingsPerSecond;
 
 export function TrimPanel({
   detail,
   procedure,
   reading,
+  readingAt,
   onRecord,
   onWarmCheck,
   onPositionChange,
@@ -24,6 +29,8 @@ export function TrimPanel({
   detail: RunDetail;
   procedure: StoredProcedure['definition'];
   reading: Reading | null;
+  /** When `reading` arrived (ms since the epoch). */
+  readingAt: number;
   onRecord(position: number, reading: Reading, live: LiveSeries): Promise<void>;
   onWarmCheck(request: { coldTemperatureC: number; warmTemperatureC: number; reading: Reading }): Promise<WarmCheck>;
   /** The typed position changed (the demo bench's virtual trimmer follows it). */
@@ -43,10 +50,16 @@ export function TrimPanel({
   // Readings since the trimmer last moved: amplitude wander and sub-audio growth show in these.
   const live = useRef<LiveSeries>({ levelsDbfs: [], lfDbfs: [] });
   const [liveCount, setLiveCount] = useState(0);
+  // Readings since the position last changed: the frame must have moved on past the old position.
+  const readingsSinceMove = useRef(0);
+  const lastSequence = useRef(0);
+  const positionInput = useRef<HTMLInputElement>(null);
 
   const setPositionText = (text: string) => {
     setPositionTextState(text);
     live.current = { levelsDbfs: [], lfDbfs: [] };
+    readingsSinceMove.current = 0;
+    unsettledAskedAt.current = 0;
     const position = Number(text);
     if (text.trim() !== '' && Number.isFinite(position)) onPositionChange(position);
   };
@@ -55,7 +68,12 @@ export function TrimPanel({
   useEffect(() => onPositionChange(Number(positionText)), []); // eslint-disable-line react-hooks/exhaustive-deps
 
   useEffect(() => {
-    if (!reading || reading.flags.includes('no-signal')) return;
+    if (!reading) return;
+    // A new meter (capture restarted, stimulus changed) starts its sequence again: so does the series.
+    if (reading.sequence < lastSequence.current) live.current = { levelsDbfs: [], lfDbfs: [] };
+    lastSequence.current = reading.sequence;
+    readingsSinceMove.current++;
+    if (reading.flags.includes('no-signal')) return;
     const series = live.current;
     series.levelsDbfs.push(reading.fundamental.levelDbfs);
     if (reading.subAudioDbfs !== null) series.lfDbfs.push(reading.subAudioDbfs);
@@ -68,10 +86,10 @@ export function TrimPanel({
   const liveWarnings = useMemo<TrimWarning[]>(() => {
     if (trimPoints.length === 0 || !reading || reading.flags.includes('no-signal')) return [];
     const now = [...trimPoints.map((p) => ({ position: p.position, reading: p.reading })), { position: Number(positionText), reading }];
-    return assessTrim(now, trim, { levelsDbfs: live.current.levelsDbfs.slice(-12), lfDbfs: live.current.lfDbfs.slice(-8) }).warnings;
-    // liveCount stands for the live series, which is kept in a ref.
+    return assessTrim(now, trim, { levelsDbfs: live.current.levelsDbfs.slice(-12), lfDbfs: live.current.lfDbfs.slice(-30) }).warnings;
+    // liveCount stands for the reading and the live series (kept in a ref), updated together.
     // eslint-disable-next-line react-hooks/exhaustive-deps
-  }, [trimPoints, reading, liveCount, positionText, trim]);
+  }, [trimPoints, liveCount, positionText, trim]);
   const warnings = [...(assessment?.warnings ?? [])];
   for (const warning of liveWarnings) if (!warnings.some((w) => w.id === warning.id)) warnings.push(warning);
 
@@ -90,6 +108,14 @@ export function TrimPanel({
     }
     if (!reading) return setMessage('There is no reading yet: start capture and turn the generator on.');
     if (busy) return;
+    if (Date.now() - readingAt > STALE_READING_MS) {
+      return setMessage('No new reading for a while: the capture has stopped delivering. Check the interface, then start capture again.');
+    }
+    // The frame is frameSize samples long: until that many have passed, it still holds the old position.
+    const readingsPerFrame = Math.ceil((reading.frameSize / reading.sampleRateHz) * LIVE_READINGS_PER_SECOND) + 1;
+    if (readingsSinceMove.current < readingsPerFrame) {
+      return setMessage('The reading still includes the previous trimmer position: wait a moment, then record.');
+    }
     if (reading === recordedReading.current) {
       return setMessage('This reading is already recorded. Move the trimmer, or wait for the next reading.');
     }
@@ -157,6 +183,7 @@ export function TrimPanel({
         <label>
           Trimmer position, {trim.positionUnit} (↑/↓ step {trim.positionStep})
           <input
+            ref={positionInput}
             data-testid="position-input"
             inputMode="decimal"
             value={positionText}
@@ -179,7 +206,15 @@ export function TrimPanel({
       <p className="problem" role="alert" hidden={message === null} data-testid="trim-message">
         {message}
       </p>
-      <AssistantSummary detail={detail} harmonic={harmonic} onUse={(position) => setPositionText(fixed(position, 2))} />
+      <AssistantSummary
+        detail={detail}
+        harmonic={harmonic}
+        onUse={(position) => {
+          // Plain digits (not the display minus sign), and back to the field so Enter records.
+          setPositionText(String(Math.round(position * 100) / 100));
+          positionInput.current?.focus();
+        }}
+      />
       {trimPoints.length > 0 && (
         <TrimPlot
           points={trimPoints}

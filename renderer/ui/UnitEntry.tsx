@@ -1,4 +1,4 @@
-import { useState } from 'react';
+import { useRef, useState } from 'react';
 import type { StoredProcedure } from '../../shared/ipc/contract.ts';
 import { checkSerial } from '../../shared/records/serial.ts';
 
@@ -19,6 +19,8 @@ export function UnitEntry({
   const [procedureId, setProcedureId] = useState<number | null>(procedures[0]?.id ?? null);
   const [serialText, setSerialText] = useState('');
   const [message, setMessage] = useState<string | null>(null);
+  // A scanner may send Enter twice; one unit is opened once.
+  const opening = useRef(false);
   const procedure = procedures.find((p) => p.id === procedureId) ?? procedures[0];
 
   async function submit() {
@@ -26,6 +28,8 @@ export function UnitEntry({
     if (operator.trim() === '') return setMessage('Enter the operator name first.');
     const check = checkSerial(serialText, procedure.definition);
     if (!check.ok) return setMessage(check.message);
+    if (opening.current) return;
+    opening.current = true;
     setMessage(null);
     localStorage.setItem('trimbench.operator', operator.trim());
     try {
@@ -33,6 +37,8 @@ export function UnitEntry({
       setSerialText('');
     } catch (error) {
       setMessage((error as Error).message);
+    } finally {
+      opening.current = false;
     }
   }
 

@@ -18,6 +18,11 @@ let spectrumHz = new Float32Array(SPECTRUM_COLUMNS + 1);
 const spectrumDbfs = new Float32Array(SPECTRUM_COLUMNS);
 const continuity = new TimestampContinuity();
 let stopRequested = false;
+/** Breaks counted by meters already replaced, so the count shown never drops back. */
+let earlierBreaks = 0;
+// A stimulus change reaches the input only after the interface's output and input latency (and
+// the capture worklet's buffering): readings restart this long after it, so no frame spans it.
+const STIMULUS_HOLD_OFF_S = 0.25;
 let demo: { unit: DemoUnit; timer: ReturnType<typeof setInterval> } | null = null;
 let lastStatusAt = 0;
 
@@ -39,12 +44,14 @@ function analyse(samples: Float32Array, length: number, sampleRateHz: number, ch
   const live = meterFor(sampleRateHz);
   if (live.push(samples, length)) {
     live.analyzer.reduceSpectrum(spectrumHz, spectrumDbfs);
+    live.reading.discontinuities += earlierBreaks;
     post({ type: 'reading', reading: live.reading, spectrumHz, spectrumDbfs });
+    live.reading.discontinuities -= earlierBreaks;
   }
   const now = performance.now();
   if (now - lastStatusAt > 500) {
     lastStatusAt = now;
-    post({ type: 'status', discontinuities: live.discontinuities, channelCount, sampleRateHz });
+    post({ type: 'status', discontinuities: earlierBreaks + live.discontinuities, channelCount, sampleRateHz });
   }
 }
 
@@ -87,7 +94,7 @@ function listenToWorklet(port: MessagePort, sampleRateHz: number): void {
   };
 }
 
-/** Runs the simulated unit in real time, in 20 ms slices, as if it were a capture device. */
+/** Runs the simulated unit in real time, every 20 ms, as if it were a capture device (at most 200 ms a tick). */
 function startDemo(sampleRateHz: number): void {
   const unit = new DemoUnit(sampleRateHz);
   const slice = new Float32Array(Math.ceil(sampleRateHz * 0.2));
@@ -110,11 +117,13 @@ self.onmessage = (event: MessageEvent<ToWorker>) => {
   const message = event.data;
   switch (message.type) {
     case 'configure':
+      if (JSON.stringify(message.settings) === JSON.stringify(settings)) break;
       settings = message.settings;
+      earlierBreaks += meter?.discontinuities ?? 0;
       meter = null;
       break;
     case 'stimulus-changed':
-      meter?.markBreak(false);
+      meter?.markBreak(false, Math.round(STIMULUS_HOLD_OFF_S * meter.config.sampleRateHz));
       break;
     case 'track-stream':
       stopRequested = false;

@@ -116,13 +116,14 @@ export class LiveMeter {
   }
 
   /**
-   * Starts a new clean stretch at the next sample. `counted` for a capture discontinuity
-   * (e.g. a timestamp gap); not counted for an intended change such as a stimulus step.
+   * Starts a new clean stretch `holdOffSamples` after the next sample. `counted` for a capture
+   * discontinuity (e.g. a timestamp gap); not counted for an intended change such as a stimulus
+   * step, whose effect arrives at the input only after the interface's latency.
    */
-  markBreak(counted: boolean): void {
+  markBreak(counted: boolean, holdOffSamples = 0): void {
     // A capture stream may restart its clock while it starts up; only breaks once measuring count.
     if (counted && this.reading.sequence > 0) this.announcedBreaks++;
-    this.startClean(this.written);
+    this.startClean(this.written + holdOffSamples);
     this.guard.restart();
   }
 
@@ -164,7 +165,8 @@ export class LiveMeter {
   }
 
   private startClean(from: number): void {
-    this.cleanFrom = from;
+    // Only ever forward: a hold-off already set is not cut short by a break found meanwhile.
+    this.cleanFrom = Math.max(this.cleanFrom, from);
     this.settle.reset();
   }
 }

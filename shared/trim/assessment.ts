@@ -69,27 +69,30 @@ export function assessTrim(
     live,
   );
   const fit = advice.fit;
+  // Stored and sent as JSON: a value the fit could not pin down is null, never ±Infinity or NaN.
+  const finiteOrNull = (value: number | null | undefined) => (value !== null && value !== undefined && Number.isFinite(value) ? value : null);
   const curve: TrimCurvePoint[] = [];
   if (fit) {
     for (let i = 0; i < CURVE_SAMPLES; i++) {
       const position = trim.positionMin + ((trim.positionMax - trim.positionMin) * i) / (CURVE_SAMPLES - 1);
-      curve.push({ position, levelDbc: fit.predictDbc(position) });
+      const levelDbc = fit.predictDbc(position);
+      if (Number.isFinite(levelDbc)) curve.push({ position, levelDbc });
     }
   }
   return {
     harmonicOrder: trim.harmonicOrder,
     model: fit?.model ?? null,
     reason: fit?.reason ?? advice.fitProblem ?? '',
-    nullPosition: fit?.nullPosition ?? null,
-    nullPositionPlusMinus: fit?.nullPositionPlusMinus ?? null,
-    nullLevelDbc: fit?.nullLevelDbc ?? null,
+    nullPosition: finiteOrNull(fit?.nullPosition),
+    nullPositionPlusMinus: finiteOrNull(fit?.nullPositionPlusMinus),
+    nullLevelDbc: finiteOrNull(fit?.nullLevelDbc),
     bracketed: advice.bracketed,
     side: advice.side,
     nextPosition: advice.nextPosition,
-    recommendedPosition: advice.recommendedPosition,
-    recommendedLevelDbc: advice.recommendedLevelDbc,
+    recommendedPosition: finiteOrNull(advice.recommendedPosition),
+    recommendedLevelDbc: finiteOrNull(advice.recommendedLevelDbc),
     recommendationNote: advice.recommendationNote,
-    thermalMarginC: advice.thermal?.deltaTemperatureC ?? null,
+    thermalMarginC: finiteOrNull(advice.thermal?.deltaTemperatureC),
     excludedPoint: fit?.excludedPoint ?? null,
     warnings: advice.warnings,
     curve,

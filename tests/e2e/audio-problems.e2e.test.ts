@@ -148,9 +148,13 @@ describe('audio problems', () => {
       await page.getByTestId('serial-input').press('Enter');
       await page.getByRole('button', { name: 'Turn on' }).click();
       await page.getByTestId('position-input').fill('1');
+      const typedAt = (await latestReading(page)).sequence;
       await page.waitForFunction(
-        () => JSON.parse(document.querySelector('[data-testid=reading-json]')?.getAttribute('data-reading') ?? '{}').settled === true,
-        undefined,
+        (after) => {
+          const reading = JSON.parse(document.querySelector('[data-testid=reading-json]')?.getAttribute('data-reading') ?? '{}');
+          return reading.settled === true && reading.sequence > after;
+        },
+        typedAt + 12,
         { timeout: 20_000 },
       );
       await page.getByTestId('position-input').press('Enter');

@@ -54,12 +54,13 @@ async function openUnit(page: Page, serial: string) {
   await serialInput.press('Enter');
 }
 
-let lastRecordedSequence = 0;
 async function recordAt(page: Page, position: string) {
   const positionInput = page.getByTestId('position-input');
   await positionInput.fill(position);
-  // A point is a new reading: the one just recorded cannot be recorded again.
-  lastRecordedSequence = (await settledReading(page, lastRecordedSequence)).sequence;
+  // A point needs readings whose frame starts after the position was typed (a 32768-sample frame
+  // at 44.1 kHz spans five readings).
+  const typedAt = JSON.parse((await page.getByTestId('reading-json').getAttribute('data-reading'))!).sequence as number;
+  await settledReading(page, typedAt + 8);
   const rows = page.getByTestId('trim-points').locator('tbody tr');
   const before = await rows.count();
   await positionInput.press('Enter');

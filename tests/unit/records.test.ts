@@ -1,9 +1,10 @@
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import Database from 'better-sqlite3';
-import { existsSync, readFileSync } from 'node:fs';
+import { existsSync, mkdirSync, readdirSync, readFileSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { MIGRATIONS, openDatabase } from '../../electron/services/database.ts';
 import { DATABASE_FILE } from '../../electron/services/station.ts';
+import { sheetFileName } from '../../electron/services/sheets.ts';
 import { noCaller, openTestStation, readingWithThd, tempDir } from '../support/station.ts';
 
 let dir: ReturnType<typeof tempDir>;
@@ -156,6 +157,58 @@ describe('records on a real database file', () => {
     station.close();
   });
 
+  it('records a point even when the fit cannot pin its null down, storing null rather than infinity', () => {
+    const station = openTestStation(dir.path);
+    const procedureId = station.records.listProcedures()[0].id;
+    const { run } = station.records.openRun({ serial: 'MG20-2611-0052', procedureId, operator: 'A. Tester' });
+    const reading = (levelDbc: number) => readingWithThd(levelDbc, { harmonics: [{ order: 3, frequencyHz: 42, levelDbc, phaseDeg: 0 }] });
+    for (const [position, level] of [[0, -40], [2, -50], [4, -66]]) {
+      station.records.recordTrimPoint({ runId: run.id, position, reading: reading(level), live: null });
+    }
+    const detail = station.records.getRun(run.id);
+    expect(detail.trimPoints).toHaveLength(3);
+    for (const value of [detail.assessment!.nullPosition, detail.assessment!.nullPositionPlusMinus]) {
+      expect(value === null || Number.isFinite(value)).toBe(true);
+    }
+    station.close();
+  });
+
+  it('adopts a complete sheet file left by a crash before it was recorded', async () => {
+    const station = openTestStation(dir.path);
+    const procedureId = station.records.listProcedures()[0].id;
+    const { run } = station.records.openRun({ serial: 'MG20-2611-0053', procedureId, operator: 'A. Tester' });
+    station.records.recordTrimPoint({ runId: run.id, position: 3, reading: readingWithThd(-62), live: null });
+    station.records.finishRun(run.id);
+    const path = join(dir.path, 'sheets', sheetFileName('MG20-2611-0053', run.id));
+    mkdirSync(join(dir.path, 'sheets'), { recursive: true });
+    writeFileSync(path, '%PDF-1.4 written before the crash\n');
+    const saved = await station.sheets.savePdf(run.id, async () => {
+      throw new Error('must not render again');
+    });
+    expect(saved).toEqual({ path, alreadySaved: true });
+    expect(station.records.getRun(run.id).run.sheetPdfPath).toBe(path);
+    // Once recorded, a sheet is never replaced, and procedures never change.
+    expect(() => station.db.prepare("UPDATE runs SET sheet_pdf_path = 'x' WHERE id = ?").run(run.id)).toThrow(/never replaced/);
+    expect(() => station.db.prepare("UPDATE procedures SET revision = 'Z'").run()).toThrow(/never changes/);
+    station.close();
+  });
+
+  it('migrates an older database forward and keeps a copy of it first', () => {
+    const file = join(dir.path, DATABASE_FILE);
+    const old = new Database(file);
+    old.exec(MIGRATIONS[0]);
+    old.pragma('user_version = 1');
+    old.close();
+    const db = openDatabase(file);
+    expect(db.pragma('user_version', { simple: true })).toBe(MIGRATIONS.length);
+    db.close();
+    const copies = readdirSync(dir.path).filter((name) => name.startsWith(`${DATABASE_FILE}.before-schema-2-`));
+    expect(copies).toHaveLength(1);
+    const copy = new Database(join(dir.path, copies[0]));
+    expect(copy.pragma('user_version', { simple: true })).toBe(1);
+    copy.close();
+  });
+
   it('refuses a database written by a newer schema and leaves it untouched', () => {
     const file = join(dir.path, DATABASE_FILE);
     const newer = new Database(file);
@@ -165,6 +218,7 @@ describe('records on a real database file', () => {
     const check = new Database(file);
     expect(check.pragma('user_version', { simple: true })).toBe(MIGRATIONS.length + 1);
     check.close();
-    expect(existsSync(`${file}.before-schema-${MIGRATIONS.length + 1}`)).toBe(false);
+    // Not even switched to WAL: no journal files appear beside it.
+    expect(existsSync(`${file}-wal`)).toBe(false);
   });
 });
