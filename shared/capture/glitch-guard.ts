@@ -1,8 +1,9 @@
 // Finds capture discontinuities (a dropped or inserted block) in the sample stream itself,
 // for capture paths whose timestamps cannot reveal them. Two signs, both cheap per sample:
 //  - a run of exact zeros while a signal is present (an inserted silent block);
-//  - a jump in the residual of a sine predictor, x[n] − 2cos(ω)·x[n−1] + x[n−2], which is
-//    near zero for a steady tone and its harmonics but spikes where samples were lost.
+//  - a jump in the residual of a sine predictor: the cascade of x[n] − 2cos(kω)·x[n−1] + x[n−2]
+//    for the tone and its 2nd and 3rd harmonics, which leaves almost nothing of a steady tone (even
+//    one rich in harmonics) but spikes where samples were lost.
 // A reading must never be computed across either (one dropout turned a −100 dBc H3 into −82 dBc).
 
 export interface GlitchGuardOptions {
@@ -35,10 +36,11 @@ export class GlitchGuard {
   private readonly floorRatio: number;
   private readonly signalPresentPower: number;
   private readonly warmupSamples: number;
-  private predictor = 2;
+  /** 2cos(kω) for k = 1..3; a stage above Nyquist is left at 2 (a plain second difference). */
+  private readonly predictors = new Float64Array([2, 2, 2]);
   private predictorHz = 0;
-  private previous1 = 0;
-  private previous2 = 0;
+  /** Two previous inputs of each of the three stages. */
+  private readonly history = new Float64Array(6);
   private residualMean = 0;
   private signalMean = 0;
   private zeroRun = 0;
@@ -66,7 +68,10 @@ export class GlitchGuard {
     if (!(frequencyHz > 0) || frequencyHz >= this.sampleRateHz / 2) return;
     if (Math.abs(frequencyHz - this.predictorHz) <= 0.01 * frequencyHz) return;
     this.predictorHz = frequencyHz;
-    this.predictor = 2 * Math.cos((2 * Math.PI * frequencyHz) / this.sampleRateHz);
+    for (let k = 1; k <= 3; k++) {
+      const omega = (2 * Math.PI * k * frequencyHz) / this.sampleRateHz;
+      this.predictors[k - 1] = omega < Math.PI ? 2 * Math.cos(omega) : 2;
+    }
     this.restart();
   }
 
@@ -87,11 +92,19 @@ export class GlitchGuard {
   scan(block: ArrayLike<number>, length: number): number {
     const { zeroRunSamples } = this.options;
     let lastBreak = -1;
-    let p1 = this.previous1;
-    let p2 = this.previous2;
+    const h = this.history;
+    const [c1, c2, c3] = this.predictors;
     for (let i = 0; i < length; i++) {
       const x = block[i];
-      const residual = x - this.predictor * p1 + p2;
+      const e1 = x - c1 * h[0] + h[1];
+      const e2 = e1 - c2 * h[2] + h[3];
+      const residual = e2 - c3 * h[4] + h[5];
+      h[1] = h[0];
+      h[0] = x;
+      h[3] = h[2];
+      h[2] = e1;
+      h[5] = h[4];
+      h[4] = e2;
       const residualPower = residual * residual;
       let broken = false;
 
@@ -119,11 +132,7 @@ export class GlitchGuard {
         this.residualMean += this.alpha * (residualPower - this.residualMean);
         if (this.zeroRun === 0) this.signalMean += this.alpha * (x * x - this.signalMean);
       }
-      p2 = p1;
-      p1 = x;
     }
-    this.previous1 = p1;
-    this.previous2 = p2;
     return lastBreak;
   }
 }
