@@ -185,6 +185,7 @@ export function TrimPanel({
           <input
             ref={positionInput}
             data-testid="position-input"
+            autoFocus
             inputMode="decimal"
             value={positionText}
             onChange={(e) => setPositionText(e.target.value)}

@@ -66,6 +66,8 @@ export function UnitEntry({
         Serial number (scan or type, then Enter)
         <input
           data-testid="serial-input"
+          // Ready for the scanner as soon as an operator is known.
+          autoFocus={operator.trim() !== ''}
           value={serialText}
           placeholder={procedure?.definition.serial.example}
           autoComplete="off"
