@@ -4,14 +4,16 @@
 
 import type { Reading } from '../measurement/reading.ts';
 import type { Procedure } from '../procedures/procedure.ts';
-import { adviseTrim, type LiveSeries, type TrimPointData, type TrimWarning } from './trim-assistant.ts';
+import { adviseTrim, type LiveSeries, type TrimAdvice, type TrimPointData } from './trim-assistant.ts';
 
 export interface TrimCurvePoint {
   position: number;
   levelDbc: number;
 }
 
-export interface TrimAssessment {
+/** The assistant's advice (see TrimAdvice), with the fit flattened into plain, finite-or-null numbers. */
+export interface TrimAssessment
+  extends Pick<TrimAdvice, 'bracketed' | 'side' | 'nextPosition' | 'recommendedPosition' | 'recommendedLevelDbc' | 'recommendationNote' | 'warnings'> {
   /** The harmonic the trim works on (3 = H3). */
   harmonicOrder: number;
   model: 'phasor' | 'magnitude' | null;
@@ -20,16 +22,9 @@ export interface TrimAssessment {
   nullPosition: number | null;
   nullPositionPlusMinus: number | null;
   nullLevelDbc: number | null;
-  bracketed: boolean;
-  side: 'short-of-null' | 'past-null' | null;
-  nextPosition: number;
-  recommendedPosition: number | null;
-  recommendedLevelDbc: number | null;
-  recommendationNote: string | null;
   /** ± °C over which the residual at the recommended setting stays inside the limit, untracked. */
   thermalMarginC: number | null;
   excludedPoint: number | null;
-  warnings: TrimWarning[];
   /** The fitted model sampled across the trimmer's range, for plots and the sheet. */
   curve: TrimCurvePoint[];
 }
