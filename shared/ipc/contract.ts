@@ -19,6 +19,8 @@ export const readingSchema = z.object({
   discontinuities: z.number().int().nonnegative(),
   settled: z.boolean(),
   settleProgress: finite.min(0).max(1),
+  // Readings stored before these fields existed parse with what they would have said.
+  settleRemainingS: finite.nonnegative().nullable().default(null),
   subAudioDbfs: dbLevel.nullable(),
   mode: z.enum(['coherent', 'windowed']),
   fundamental: z.object({ frequencyHz: finite.nonnegative(), levelDbfs: dbLevel, phaseDeg: finite }),
@@ -41,7 +43,8 @@ export const readingSchema = z.object({
       components: z.array(z.object({ order: z.number().int().min(1), frequencyHz: finite.nonnegative(), levelDbfs: dbLevel })).max(8),
     })
     .nullable(),
-  flags: z.array(z.enum(['no-signal', 'clipping', 'at-floor'])),
+  mainsCoincidentOrders: z.array(z.number().int().min(2)).max(64).default([]),
+  flags: z.array(z.enum(['no-signal', 'clipping', 'at-floor', 'mains-coincident'])),
 });
 // The schema must describe exactly what the worker produces.
 readingSchema satisfies z.ZodType<Reading>;

@@ -49,6 +49,14 @@ const HUM_PRESENT_DB = 10;
 /** and above this absolute level, near the analysis floor, so float rounding never reads as hum. */
 const HUM_FLOOR_DBFS = -150;
 const AT_FLOOR_MARGIN_DB = 3;
+/**
+ * Two tones closer than this (bins) cannot be told apart by the joint kernel fit; from about 2.5
+ * bins apart it separates them cleanly (a 12 Hz tone's H4 at 48 Hz beside 50 Hz hum, 2.7 bins at
+ * 65536 samples, is tested).
+ */
+export const RESOLVABLE_BINS = 2.5;
+/** Mains multiples a harmonic is checked against: rectifier buzz above the 10th is rarely above the noise (common practice). */
+export const MAINS_MULTIPLES = 10;
 const GOLDEN = (Math.sqrt(5) - 1) / 2;
 // Objectives of goldenMaximum().
 const SEARCH_PEAK = 0;
@@ -174,6 +182,7 @@ export class FrameAnalyzer {
     this.writeHarmonics(out, fundamentalAmplitude, fundamentalPhase, hasSignal);
     this.writeNoise(out, f0, fundamentalAmplitude, hasSignal);
     this.writeHum(out);
+    this.writeMainsCoincident(out, hasSignal);
 
     const periodSamples = f0 > 0 ? n / f0 : n;
     const flatTopSamples = Math.max(16, periodSamples / 32);
@@ -182,7 +191,24 @@ export class FrameAnalyzer {
     }
     const floor = this.options.chainFloorDbc;
     if (hasSignal && floor !== null && out.thdDb <= floor + AT_FLOOR_MARGIN_DB) out.flags.push('at-floor');
+    if (out.mainsCoincidentOrders.length > 0) out.flags.push('mains-coincident');
     return out;
+  }
+
+  /**
+   * Counted harmonics within the resolvable distance of nominal mains or a multiple: their level
+   * may hold hum too (a 20 Hz tone's H3 on 60 Hz mains), and nothing in one frame can tell.
+   */
+  private writeMainsCoincident(out: HarmonicAnalysis, hasSignal: boolean): void {
+    out.mainsCoincidentOrders.length = 0;
+    if (!hasSignal) return;
+    const mainsBin = this.options.mainsHz / this.binHz;
+    for (let i = 0; i < this.compCount; i++) {
+      if (this.compKind[i] !== HARMONIC) continue;
+      const bin = this.compBins[i];
+      const multiple = Math.min(MAINS_MULTIPLES, Math.max(1, Math.round(bin / mainsBin)));
+      if (Math.abs(bin - multiple * mainsBin) < RESOLVABLE_BINS) out.mainsCoincidentOrders.push(this.compOrder[i]);
+    }
   }
 
   /** Peak level (dBFS of a sine) per column between edgesHz[i] and edgesHz[i+1], for plotting. */

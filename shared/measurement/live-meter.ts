@@ -4,7 +4,7 @@
 
 import { GlitchGuard } from '../capture/glitch-guard.ts';
 import { DEFAULT_ANALYZER_OPTIONS, FrameAnalyzer } from './frame-analyzer.ts';
-import { createHarmonicAnalysis, type Reading } from './reading.ts';
+import { createHarmonicAnalysis, type HarmonicAnalysis, type HumComponent, type HumLevel, type Reading } from './reading.ts';
 import { SettleTracker } from './settle.ts';
 import { SubAudioMeter } from './sub-audio.ts';
 import { averageLockedFrames } from './synchronous-average.ts';
@@ -73,10 +73,15 @@ export class LiveMeter {
   private readonly ring: Float32Array;
   private readonly frame: Float64Array;
   private readonly hopSamples: number;
+  /** The newest single frame's analysis, for the hum (synchronous averaging cancels it, unlocked as it is). */
+  private readonly single: HarmonicAnalysis;
+  private readonly hum: HumLevel;
   private written = 0;
   private cleanFrom = 0;
   private nextReadingAt = 0;
   private announcedBreaks = 0;
+  /** A break has been marked since the last analysed reading: the readout must say it is settling. */
+  private waiting = false;
 
   constructor(config: Partial<LiveMeterConfig> & Pick<LiveMeterConfig, 'sampleRateHz'>) {
     this.config = { ...DEFAULT_LIVE_METER_CONFIG, ...config };
@@ -106,8 +111,11 @@ export class LiveMeter {
       discontinuities: 0,
       settled: false,
       settleProgress: 0,
+      settleRemainingS: null,
       subAudioDbfs: null,
     };
+    this.single = createHarmonicAnalysis();
+    this.hum = { frequencyHz: 0, levelDbfs: 0, components: [] };
   }
 
   /** Capture discontinuities seen so far (found in the samples or announced by the capture path). */
@@ -118,7 +126,8 @@ export class LiveMeter {
   /**
    * Starts a new clean stretch `holdOffSamples` after the next sample. `counted` for a capture
    * discontinuity (e.g. a timestamp gap); not counted for an intended change such as a stimulus
-   * step, whose effect arrives at the input only after the interface's latency.
+   * step or a trimmer move, whose effect arrives at the input only after the interface's latency
+   * (or, for the demo unit's trimmer, once it has turned there).
    */
   markBreak(counted: boolean, holdOffSamples = 0): void {
     // A capture stream may restart its clock while it starts up; only breaks once measuring count.
@@ -127,7 +136,11 @@ export class LiveMeter {
     this.guard.restart();
   }
 
-  /** Adds block[0..length); returns true when `reading` holds a new reading. */
+  /**
+   * Adds block[0..length); returns true when `reading` has changed: a new analysis (its `sequence`
+   * advances), or, while the meter waits for a clean frame after a break, a settle update (the same
+   * numbers, not settled, `settleRemainingS` counting down, `sequence` unchanged).
+   */
   push(block: Float32Array, length = block.length): boolean {
     const breakAt = this.config.sampleGuard ? this.guard.scan(block, length) : -1;
     if (breakAt >= 0) this.startClean(this.written + breakAt);
@@ -142,14 +155,32 @@ export class LiveMeter {
     this.written += length;
 
     const clean = this.written - this.cleanFrom;
-    if (clean < size || this.written < this.nextReadingAt) return false;
+    const reading = this.reading;
+    if (this.written < this.nextReadingAt) return false;
+    if (clean < size) {
+      // Nothing to analyse yet; before the first reading there is nothing to show either.
+      if (!this.waiting || reading.sequence === 0) return false;
+      // The first clean frame is analysed as soon as it is complete, not a hop later.
+      this.nextReadingAt = Math.min(this.written + this.hopSamples, this.cleanFrom + size);
+      reading.settleRemainingS = this.remainingSeconds(reading);
+      return true;
+    }
+    this.waiting = false;
     this.nextReadingAt = this.written + this.hopSamples;
     // As many whole frames as are clean, up to the averaging depth, ending at the newest sample.
     const frames = Math.min(this.averageDepth, Math.floor(clean / size));
+    if (frames > 1) {
+      // Hum is not locked to the stimulus: averaging frames in step with the stimulus would cancel
+      // it (four frames turning 0.27 of a 50 Hz cycle each nearly sum to zero), so it is read from
+      // the newest frame alone.
+      averageLockedFrames(this.ring, this.written, size, 1, this.frame);
+      this.analyzer.analyze(this.frame, this.single, this.knownFundamentalHz);
+      copyHum(this.single.hum, this.hum);
+    }
     averageLockedFrames(this.ring, this.written, size, frames, this.frame);
 
-    const reading = this.reading;
     this.analyzer.analyze(this.frame, reading, this.knownFundamentalHz);
+    if (frames > 1) reading.hum = this.single.hum ? this.hum : null;
     reading.sequence++;
     reading.discontinuities = this.discontinuities;
     reading.subAudioDbfs = this.subAudio?.levelDbfs() ?? null;
@@ -158,15 +189,49 @@ export class LiveMeter {
       reading.settleProgress = 0;
     } else {
       this.guard.setToneHz(reading.fundamental.frequencyHz);
-      reading.settleProgress = this.settle.add(reading.fundamental.levelDbfs, reading.thdDb, reading.subAudioDbfs);
+      reading.settleProgress = this.settle.add(reading.fundamental.levelDbfs, reading.thdDb);
     }
     reading.settled = reading.settleProgress >= 1;
+    reading.settleRemainingS = this.remainingSeconds(reading);
     return true;
+  }
+
+  /**
+   * Seconds until a settled reading if the coming readings agree: the rest of the clean frame
+   * (and of any hold-off), then one reading per hop for each reading still needed.
+   */
+  private remainingSeconds(reading: Reading): number | null {
+    if (reading.settled) return 0;
+    if (reading.flags.includes('no-signal') && !this.waiting) return null;
+    const firstFrameDone = this.cleanFrom + this.frameSize;
+    const nextReading = Math.max(firstFrameDone, this.nextReadingAt, this.written);
+    const needed = this.waiting ? this.settle.options.readingsToAgree : this.settle.readingsNeeded;
+    return (nextReading - this.written + (needed - 1) * this.hopSamples) / this.config.sampleRateHz;
   }
 
   private startClean(from: number): void {
     // Only ever forward: a hold-off already set is not cut short by a break found meanwhile.
     this.cleanFrom = Math.max(this.cleanFrom, from);
     this.settle.reset();
+    this.waiting = true;
+    const reading = this.reading;
+    reading.settled = false;
+    reading.settleProgress = 0;
+    reading.settleRemainingS = this.remainingSeconds(reading);
+  }
+}
+
+/** Copies a hum result into `to` (owned by the meter), reusing its component objects. */
+function copyHum(from: HumLevel | null, to: HumLevel): void {
+  if (!from) return;
+  to.frequencyHz = from.frequencyHz;
+  to.levelDbfs = from.levelDbfs;
+  const components = to.components;
+  while (components.length < from.components.length) components.push({ order: 0, frequencyHz: 0, levelDbfs: 0 } satisfies HumComponent);
+  components.length = from.components.length;
+  for (let i = 0; i < from.components.length; i++) {
+    components[i].order = from.components[i].order;
+    components[i].frequencyHz = from.components[i].frequencyHz;
+    components[i].levelDbfs = from.components[i].levelDbfs;
   }
 }

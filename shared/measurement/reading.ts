@@ -4,7 +4,11 @@
 /** Levels below this are shown and stored as this value, so every number stays finite (JSON has no −∞). */
 export const FLOOR_DB = -300;
 
-export type ReadingFlag = 'no-signal' | 'clipping' | 'at-floor';
+/**
+ * mains-coincident: a counted harmonic lies within the analyzer's resolvable distance of mains or
+ * one of its multiples, so its level may hold hum too (see `mainsCoincidentOrders`).
+ */
+export type ReadingFlag = 'no-signal' | 'clipping' | 'at-floor' | 'mains-coincident';
 
 export interface FundamentalTone {
   frequencyHz: number;
@@ -56,6 +60,8 @@ export interface HarmonicAnalysis {
   noiseAWeightedDbfs: number;
   /** Mains hum, or null when none stands above the noise. */
   hum: HumLevel | null;
+  /** Harmonic orders that cannot be told apart from mains or its multiples (flag 'mains-coincident'). */
+  mainsCoincidentOrders: number[];
   flags: ReadingFlag[];
 }
 
@@ -68,6 +74,12 @@ export interface Reading extends HarmonicAnalysis {
   settled: boolean;
   /** 0..1, how close successive readings are to agreeing. */
   settleProgress: number;
+  /**
+   * Estimated seconds until a settled reading, if the coming readings agree: 0 when settled, null
+   * when unknown (no signal). While it counts down after a break the reading's other numbers are
+   * the last ones measured before the break (its `sequence` does not advance).
+   */
+  settleRemainingS: number | null;
   /** Level in the sub-audio band well below the fundamental (dBFS), null until enough capture. */
   subAudioDbfs: number | null;
 }
@@ -87,6 +99,7 @@ export function createHarmonicAnalysis(): HarmonicAnalysis {
     noiseDbfs: FLOOR_DB,
     noiseAWeightedDbfs: FLOOR_DB,
     hum: null,
+    mainsCoincidentOrders: [],
     flags: [],
   };
 }

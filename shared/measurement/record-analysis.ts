@@ -27,6 +27,11 @@ export function analyzeRecord(samples: Float64Array, sampleRateHz: number, optio
   if (samples.length < MIN_RECORD_SAMPLES) {
     throw new RangeError(`the recording holds ${samples.length} samples; at least ${MIN_RECORD_SAMPLES} are needed`);
   }
+  // A NaN or infinity (a float WAV from a crashed or overflowing program) would poison every sum.
+  const bad = samples.findIndex((x) => !Number.isFinite(x));
+  if (bad >= 0) {
+    throw new RangeError(`the recording holds a non-finite sample (${samples[bad]}) at sample ${bad} (${(bad / sampleRateHz).toFixed(3)} s); nothing analysed`);
+  }
   const analyzerOptions = {
     harmonicCount: options.harmonicCount ?? DEFAULT_ANALYZER_OPTIONS.harmonicCount,
     mainsHz: options.mainsHz ?? DEFAULT_ANALYZER_OPTIONS.mainsHz,
@@ -78,6 +83,7 @@ class Accumulator {
   private humFrequency = 0;
   private readonly humPower = new Map<number, { power: number; frequencyHz: number }>();
   private readonly flags = new Set<ReadingFlag>();
+  private readonly mainsCoincident = new Set<number>();
 
   constructor(harmonicCount: number) {
     this.harmonicPower = new Float64Array(harmonicCount + 1);
@@ -119,6 +125,7 @@ class Accumulator {
       }
     }
     for (const flag of frame.flags) this.flags.add(flag);
+    for (const order of frame.mainsCoincidentOrders) this.mainsCoincident.add(order);
   }
 
   result(): HarmonicAnalysis {
@@ -165,6 +172,7 @@ class Accumulator {
             components: humComponents,
           }
         : null,
+      mainsCoincidentOrders: [...this.mainsCoincident].sort((a, b) => a - b),
       flags: [...this.flags],
     };
   }

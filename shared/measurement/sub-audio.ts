@@ -21,13 +21,17 @@ export class SubAudioMeter {
   private readonly analyzer: FrameAnalyzer;
   private readonly result: HarmonicAnalysis = createHarmonicAnalysis();
   private readonly highHz: number;
-  private readonly fundamentalHz: number;
+  /** Where what is left of the fundamental after the low-pass stages lands in the decimated stream. */
+  private readonly fundamentalResidueHz: number;
 
   /** `fundamentalHz`: the tone being measured; the band runs from 1.5 Hz to half of it. */
   constructor(sampleRateHz: number, fundamentalHz: number) {
     this.decimatedRateHz = sampleRateHz / 2 ** STAGES;
-    this.fundamentalHz = fundamentalHz;
     this.highHz = Math.min(fundamentalHz / 2, this.decimatedRateHz / 4);
+    // A residue folded down into (or next to) the band is far below anything watched for there (the
+    // stages attenuate it by well over 100 dB): then the fit is pointed at an empty stretch above the band.
+    const residueHz = aliasHz(fundamentalHz, this.decimatedRateHz);
+    this.fundamentalResidueHz = residueHz > 1.5 * this.highHz ? residueHz : 0.45 * this.decimatedRateHz;
     this.history = new Float64Array(STAGES * 3);
     this.phase = new Uint8Array(STAGES);
     this.analyzer = new FrameAnalyzer(FRAME, this.decimatedRateHz, {
@@ -47,8 +51,9 @@ export class SubAudioMeter {
     if (this.written < FRAME || this.highHz <= SUB_AUDIO_LOW_HZ) return null;
     const start = this.written % FRAME;
     for (let i = 0; i < FRAME; i++) this.frame[i] = this.ring[(start + i) % FRAME];
-    const known = this.fundamentalHz < this.decimatedRateHz / 2 ? this.fundamentalHz : null;
-    this.analyzer.analyze(this.frame, this.result, known);
+    // Always a known frequency: left to search, the analysis would take the strongest sub-audio
+    // component (the very oscillation watched for) as the fundamental and remove it.
+    this.analyzer.analyze(this.frame, this.result, this.fundamentalResidueHz);
     return this.result.noiseDbfs;
   }
 
@@ -69,4 +74,10 @@ export class SubAudioMeter {
     this.ring[this.written % FRAME] = value;
     this.written++;
   }
+}
+
+/** The frequency a tone at `frequencyHz` appears at when sampled at `rateHz` (folded into 0..rate/2). */
+function aliasHz(frequencyHz: number, rateHz: number): number {
+  const folded = frequencyHz % rateHz;
+  return folded > rateHz / 2 ? rateHz - folded : folded;
 }
