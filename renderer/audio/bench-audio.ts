@@ -246,9 +246,12 @@ export class BenchAudio {
     if (changed) this.worker.postMessage({ type: 'stimulus-changed' } satisfies ToWorker);
   }
 
-  /** Turns the demo bench's virtual trimmer (no effect on a real unit). */
-  setVirtualTrimmer(turns: number): void {
-    if (!this.device && !this.stopped) this.worker.postMessage({ type: 'demo-trimmer', turns } satisfies ToWorker);
+  /**
+   * The technician moved the trimmer to `turns`: no reading or average spans the move (for any
+   * input), and the demo bench's virtual trimmer turns there.
+   */
+  trimmerMoved(turns: number): void {
+    if (!this.stopped) this.worker.postMessage({ type: 'trimmer-moved', turns } satisfies ToWorker);
   }
 
   mute(): void {

@@ -167,7 +167,7 @@ export function App() {
   }
 
   useEffect(() => {
-    audio?.setVirtualTrimmer(trimmerTurns);
+    audio?.trimmerMoved(trimmerTurns);
   }, [audio, trimmerTurns]);
 
   // The meter follows the stimulus (long frames for low tones) and the station's mains and clocking.

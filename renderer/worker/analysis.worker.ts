@@ -2,7 +2,7 @@
 // All measurement logic lives in shared/; this file only moves samples and messages.
 
 import { TimestampContinuity } from '../../shared/capture/timestamp-continuity.ts';
-import { LiveMeter } from '../../shared/measurement/live-meter.ts';
+import { MeterSession } from '../../shared/measurement/meter-session.ts';
 import { DemoUnit } from '../../shared/sim/demo-unit.ts';
 import type { AudioDataLike, FromWorker, MeterSettings, ToWorker, WorkletBlock } from './messages.ts';
 
@@ -12,37 +12,36 @@ const SPECTRUM_COLUMNS = 480;
 const SPECTRUM_LOW_HZ = 5;
 
 let settings: MeterSettings = { channel: 0, expectedFundamentalHz: null, harmonicCount: 10, mainsHz: 50, stimulusLocked: false };
-let meter: LiveMeter | null = null;
+let session: MeterSession | null = null;
+let spectrumRateHz = 0;
 let block = new Float32Array(4096);
 let spectrumHz = new Float32Array(SPECTRUM_COLUMNS + 1);
 const spectrumDbfs = new Float32Array(SPECTRUM_COLUMNS);
 const continuity = new TimestampContinuity();
 let stopRequested = false;
-/** Breaks counted by meters already replaced, so the count shown never drops back. */
-let earlierBreaks = 0;
-// A stimulus change reaches the input only after the interface's output and input latency (and
-// the capture worklet's buffering): readings restart this long after it, so no frame spans it.
-const STIMULUS_HOLD_OFF_S = 0.25;
 let demo: { unit: DemoUnit; timer: ReturnType<typeof setInterval> } | null = null;
 let lastStatusAt = 0;
 
 const post = (message: FromWorker) => self.postMessage(message);
 
-function meterFor(sampleRateHz: number): LiveMeter {
-  if (!meter || meter.config.sampleRateHz !== sampleRateHz) {
-    // The demo unit cannot drop blocks: looking for breaks in its samples would only mistake an
-    // oscillating, clipping stage for capture trouble.
-    meter = new LiveMeter({ sampleRateHz, ...settings, sampleGuard: demo === null });
+function sessionFor(sampleRateHz: number): MeterSession {
+  // The demo unit cannot drop blocks: looking for breaks in its samples would only mistake an
+  // oscillating, clipping stage for capture trouble.
+  session ??= new MeterSession(settings, { sampleGuard: demo === null });
+  if (spectrumRateHz !== sampleRateHz) {
+    spectrumRateHz = sampleRateHz;
     // Log-spaced column edges from a few hertz to Nyquist for the spectrum plot.
     const ratio = sampleRateHz / 2 / SPECTRUM_LOW_HZ;
     spectrumHz = Float32Array.from({ length: SPECTRUM_COLUMNS + 1 }, (_, i) => SPECTRUM_LOW_HZ * ratio ** (i / SPECTRUM_COLUMNS));
   }
-  return meter;
+  return session;
 }
 
 function analyse(samples: Float32Array, length: number, sampleRateHz: number, channelCount: number): void {
-  const live = meterFor(sampleRateHz);
-  if (live.push(samples, length)) {
+  const current = sessionFor(sampleRateHz);
+  const live = current.push(samples, length, sampleRateHz);
+  if (live) {
+    const earlierBreaks = current.breaksBeforeThisMeter;
     live.analyzer.reduceSpectrum(spectrumHz, spectrumDbfs);
     live.reading.discontinuities += earlierBreaks;
     post({ type: 'reading', reading: live.reading, spectrumHz, spectrumDbfs });
@@ -51,7 +50,7 @@ function analyse(samples: Float32Array, length: number, sampleRateHz: number, ch
   const now = performance.now();
   if (now - lastStatusAt > 500) {
     lastStatusAt = now;
-    post({ type: 'status', discontinuities: earlierBreaks + live.discontinuities, channelCount, sampleRateHz });
+    post({ type: 'status', discontinuities: current.discontinuities, channelCount, sampleRateHz });
   }
 }
 
@@ -71,7 +70,7 @@ async function readTrack(readable: ReadableStream<AudioDataLike>): Promise<void>
         } else {
           block.fill(0, 0, frames);
         }
-        if (continuity.isGap(audio.timestamp, frames, audio.sampleRate)) meterFor(audio.sampleRate).markBreak(true);
+        if (continuity.isGap(audio.timestamp, frames, audio.sampleRate)) sessionFor(audio.sampleRate).captureGap(audio.sampleRate);
         analyse(block, frames, audio.sampleRate, audio.numberOfChannels);
       } finally {
         audio.close();
@@ -117,13 +116,11 @@ self.onmessage = (event: MessageEvent<ToWorker>) => {
   const message = event.data;
   switch (message.type) {
     case 'configure':
-      if (JSON.stringify(message.settings) === JSON.stringify(settings)) break;
       settings = message.settings;
-      earlierBreaks += meter?.discontinuities ?? 0;
-      meter = null;
+      session?.configure(settings);
       break;
     case 'stimulus-changed':
-      meter?.markBreak(false, Math.round(STIMULUS_HOLD_OFF_S * meter.config.sampleRateHz));
+      session?.stimulusChanged();
       break;
     case 'track-stream':
       stopRequested = false;
@@ -140,8 +137,8 @@ self.onmessage = (event: MessageEvent<ToWorker>) => {
     case 'demo-stimulus':
       demo?.unit.setStimulus(message.setting);
       break;
-    case 'demo-trimmer':
-      demo?.unit.setTrimmer(message.turns);
+    case 'trimmer-moved':
+      session?.trimmerMoved(demo ? demo.unit.setTrimmer(message.turns) : 0);
       break;
     case 'stop':
       stopRequested = true;

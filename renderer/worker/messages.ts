@@ -1,16 +1,12 @@
 // Messages between the page, the analysis worker and the audio worklets.
 
 import type { StimulusSetting } from '../../shared/dsp/sine-source.ts';
+import type { MeterSessionSettings } from '../../shared/measurement/meter-session.ts';
 import type { Reading } from '../../shared/measurement/reading.ts';
 
-export interface MeterSettings {
+export interface MeterSettings extends MeterSessionSettings {
   /** Input channel (0-based) that carries the unit's output. */
   channel: number;
-  expectedFundamentalHz: number | null;
-  harmonicCount: number;
-  mainsHz: 50 | 60;
-  /** Generator and input run on one interface clock (see LiveMeterConfig.stimulusLocked). */
-  stimulusLocked: boolean;
 }
 
 export type ToWorker =
@@ -24,7 +20,11 @@ export type ToWorker =
   /** The demo bench: the simulated unit runs here in real time and is the capture. */
   | { type: 'demo-start'; sampleRateHz: number }
   | { type: 'demo-stimulus'; setting: GeneratorCommand }
-  | { type: 'demo-trimmer'; turns: number }
+  /**
+   * The technician moved the trimmer (an intended break for any input, like a stimulus change);
+   * the demo unit's virtual trimmer turns there.
+   */
+  | { type: 'trimmer-moved'; turns: number }
   | { type: 'stop' };
 
 export type FromWorker =

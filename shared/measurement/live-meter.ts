@@ -82,6 +82,8 @@ export class LiveMeter {
   private announcedBreaks = 0;
   /** A break has been marked since the last analysed reading: the readout must say it is settling. */
   private waiting = false;
+  /** `reading` holds numbers to show (analysed here, or carried over from the meter this one replaced). */
+  private hasNumbers = false;
 
   constructor(config: Partial<LiveMeterConfig> & Pick<LiveMeterConfig, 'sampleRateHz'>) {
     this.config = { ...DEFAULT_LIVE_METER_CONFIG, ...config };
@@ -159,13 +161,14 @@ export class LiveMeter {
     if (this.written < this.nextReadingAt) return false;
     if (clean < size) {
       // Nothing to analyse yet; before the first reading there is nothing to show either.
-      if (!this.waiting || reading.sequence === 0) return false;
+      if (!this.waiting || !this.hasNumbers) return false;
       // The first clean frame is analysed as soon as it is complete, not a hop later.
       this.nextReadingAt = Math.min(this.written + this.hopSamples, this.cleanFrom + size);
       reading.settleRemainingS = this.remainingSeconds(reading);
       return true;
     }
     this.waiting = false;
+    this.hasNumbers = true;
     this.nextReadingAt = this.written + this.hopSamples;
     // As many whole frames as are clean, up to the averaging depth, ending at the newest sample.
     const frames = Math.min(this.averageDepth, Math.floor(clean / size));
@@ -194,6 +197,22 @@ export class LiveMeter {
     reading.settled = reading.settleProgress >= 1;
     reading.settleRemainingS = this.remainingSeconds(reading);
     return true;
+  }
+
+  /**
+   * Shows the last numbers of the meter this one replaces (its sequence starts again at 0) while
+   * this one waits for its first clean frame, so the readout says "settling" at once instead of
+   * keeping a settled reading of the old stimulus on screen.
+   */
+  carryOver(previous: Reading): void {
+    if (this.hasNumbers || previous.sequence === 0) return;
+    const { sequence: _s, sampleRateHz: _r, frameSize: _f, discontinuities: _d, ...analysis } = JSON.parse(JSON.stringify(previous)) as Reading;
+    Object.assign(this.reading, analysis);
+    this.hasNumbers = true;
+    this.waiting = true;
+    this.reading.settled = false;
+    this.reading.settleProgress = 0;
+    this.reading.settleRemainingS = this.remainingSeconds(this.reading);
   }
 
   /**

@@ -107,9 +107,13 @@ export class DemoUnit {
   /** How fast the virtual trimmer turns, turns per second (invented: a brisk hand on a trim tool). */
   static readonly TURNS_PER_SECOND = 2;
 
-  /** Turns the virtual trimmer; like a screwdriver it gets there at a finite rate, not in one jump. */
-  setTrimmer(turns: number): void {
+  /**
+   * Turns the virtual trimmer; like a screwdriver it gets there at a finite rate, not in one jump.
+   * Returns the seconds the move takes from here.
+   */
+  setTrimmer(turns: number): number {
     this.trimmerTarget = turns;
+    return Math.abs(turns - this.trimmerTurns) / DemoUnit.TURNS_PER_SECOND;
   }
 
   setStimulus(setting: StimulusSetting): void {

@@ -26,6 +26,7 @@ export function readingWithThd(thdDb: number, overrides: Partial<Reading> = {}):
     discontinuities: 0,
     settled: true,
     settleProgress: 1,
+    settleRemainingS: 0,
     subAudioDbfs: -110,
     mode: 'windowed',
     fundamental: { frequencyHz: 14, levelDbfs: -12, phaseDeg: 10 },
@@ -40,6 +41,7 @@ export function readingWithThd(thdDb: number, overrides: Partial<Reading> = {}):
     noiseDbfs: -120,
     noiseAWeightedDbfs: -122,
     hum: null,
+    mainsCoincidentOrders: [],
     flags: [],
     ...overrides,
   };
