@@ -3,21 +3,27 @@
 // by the same shared/ code as the live app.
 //
 //   npm run -s cli -- analyze FILE.wav [--channel N] [--mains 50|60] [--harmonics N] [--band LO-HI] [--fundamental HZ] [--json]
-//   npm run -s cli -- plan --target HZ --rate HZ [--mains 50|60] [--harmonics N] [--json]
+//   npm run -s cli -- plan --target HZ --rate HZ [--mains 50|60] [--harmonics N] [--max-offset HZ] [--json]
 //   npm run -s cli -- fit FILE.csv [--margin-db X] [--step X] [--limit-dbc X] [--json]
 
 import { readFileSync } from 'node:fs';
 import { parseArgs } from 'node:util';
 import { decodeWav, WavFormatError } from '../shared/audio/wav.ts';
-import { planTestFrequency } from '../shared/measurement/frequency-planner.ts';
+import { DEFAULT_MAX_OFFSET_PERCENT, planTestFrequency } from '../shared/measurement/frequency-planner.ts';
 import { analyzeRecord, type RecordAnalysis } from '../shared/measurement/record-analysis.ts';
 import { adviseTrim, DEFAULT_TRIM_ASSISTANT_OPTIONS } from '../shared/trim/trim-assistant.ts';
 import { parseTrimCsv, TrimCsvError } from '../shared/trim/trim-csv.ts';
 
 const USAGE = `usage:
   trimbench analyze FILE.wav [--channel N] [--mains 50|60] [--harmonics N] [--band LO-HI] [--fundamental HZ] [--json]
-  trimbench plan --target HZ --rate HZ [--mains 50|60] [--harmonics N] [--json]
-  trimbench fit FILE.csv [--margin-db X] [--step X] [--limit-dbc X] [--json]`;
+  trimbench plan --target HZ --rate HZ [--mains 50|60] [--harmonics N] [--max-offset HZ] [--json]
+  trimbench fit FILE.csv [--margin-db X] [--step X] [--limit-dbc X] [--json]
+  trimbench help
+
+  analyze   offline analysis of a WAV recording (refuses non-finite samples)
+  plan      the whole-cycle test frequency nearest the target, clear of mains, at most
+            --max-offset Hz from it (default ${DEFAULT_MAX_OFFSET_PERCENT} % of the target)
+  fit       the trim assistant on a CSV of trim points`;
 
 /** A problem with the user's input: printed as one line, exit status 1. */
 class UsageProblem extends Error {}
@@ -117,6 +123,7 @@ function analysisJson(file: string, channel: number, r: RecordAnalysis) {
     noiseDbfs: r.noiseDbfs,
     noiseAWeightedDbfs: r.noiseAWeightedDbfs,
     hum: r.hum ? { frequencyHz: r.hum.frequencyHz, levelDbfs: r.hum.levelDbfs, components: r.hum.components } : null,
+    mainsCoincidentOrders: r.mainsCoincidentOrders,
     flags: r.flags,
   };
 }
@@ -137,6 +144,11 @@ function analysisTable(file: string, channel: number, r: RecordAnalysis): string
     ...r.harmonics.map((h) => `H${String(h.order).padEnd(5)}${f(h.frequencyHz, 2).padStart(14)}${f(h.levelDbc, 2).padStart(12)}${f(h.phaseDeg, 1).padStart(10)}`),
   ];
   if (r.harmonicsAboveNyquist.length) lines.push(`left out (at or above Nyquist): ${r.harmonicsAboveNyquist.map((o) => `H${o}`).join(', ')}`);
+  if (r.mainsCoincidentOrders.length) {
+    lines.push(
+      `mains-coincident: ${r.mainsCoincidentOrders.map((o) => `H${o}`).join(', ')} cannot be told apart from mains hum or its multiples; their levels may include hum`,
+    );
+  }
   if (r.flags.length) lines.push(`flags: ${r.flags.join(', ')}`);
   return lines.join('\n');
 }
@@ -151,17 +163,19 @@ function plan(args: string[]): string {
       rate: { type: 'string' },
       mains: { type: 'string' },
       harmonics: { type: 'string' },
+      'max-offset': { type: 'string' },
       json: { type: 'boolean', default: false },
     },
   });
   if (positionals.length > 0) throw new UsageProblem(`plan takes no file\n${USAGE}`);
+  const maxOffsetHz = numberOption('max-offset', values['max-offset'], (v) => v >= 0, 'a frequency in Hz, 0 or more');
   const targetHz = numberOption('target', values.target, (v) => v > 0, 'a frequency in Hz above 0');
   const sampleRateHz = numberOption('rate', values.rate, (v) => Number.isInteger(v) && v >= 8000, 'a sample rate in Hz, at least 8000');
   if (targetHz === undefined || sampleRateHz === undefined) throw new UsageProblem(`plan needs --target and --rate\n${USAGE}`);
   const harmonicCount = numberOption('harmonics', values.harmonics, (v) => Number.isInteger(v) && v >= 1 && v <= 50, 'a whole number from 1 to 50') ?? 10;
   let choice;
   try {
-    choice = planTestFrequency({ targetHz, sampleRateHz, mainsHz: mainsOption(values.mains), harmonicCount });
+    choice = planTestFrequency({ targetHz, sampleRateHz, mainsHz: mainsOption(values.mains), harmonicCount, maxOffsetHz });
   } catch (error) {
     if (error instanceof RangeError) throw new UsageProblem(error.message);
     throw error;
@@ -238,7 +252,8 @@ function fit(args: string[]): string {
 function main(argv: string[]): number {
   const [command, ...rest] = argv;
   try {
-    if (command === 'analyze') process.stdout.write(`${analyze(rest)}\n`);
+    if (command === 'help' || command === '--help' || command === '-h') process.stdout.write(`${USAGE}\n`);
+    else if (command === 'analyze') process.stdout.write(`${analyze(rest)}\n`);
     else if (command === 'plan') process.stdout.write(`${plan(rest)}\n`);
     else if (command === 'fit') process.stdout.write(`${fit(rest)}\n`);
     else throw new UsageProblem(command ? `unknown command “${command}”\n${USAGE}` : USAGE);

@@ -3,6 +3,7 @@
 // sample different phases) and keeps every counted harmonic resolvably clear of mains hum and
 // its multiples (a 10 Hz tone's H5 sits exactly on 50 Hz mains).
 
+import { MAINS_MULTIPLES } from './frame-analyzer.ts';
 import { CYCLES_PER_FRAME, frameSizeFor } from './live-meter.ts';
 
 export interface PlanRequest {
@@ -14,6 +15,25 @@ export interface PlanRequest {
   frameSize?: number;
   /** Least distance between a counted harmonic and a mains multiple, in bins. */
   clearanceBins?: number;
+  /**
+   * Farthest the planned frequency may lie from the target, Hz; by default
+   * DEFAULT_MAX_OFFSET_PERCENT of the target.
+   */
+  maxOffsetHz?: number;
+}
+
+/**
+ * Default largest move of the stimulus from the procedure's frequency, percent: small beside the
+ * stimulus check's frequency tolerance, so a planned tone is still the procedure's tone.
+ */
+export const DEFAULT_MAX_OFFSET_PERCENT = 1;
+
+/**
+ * Nothing coherent and clear of mains lies within the allowed distance of the target: the caller
+ * uses the target itself, analysed windowed.
+ */
+export class NoCoherentFrequency extends RangeError {
+  override name = 'NoCoherentFrequency';
 }
 
 export interface Plan {
@@ -30,9 +50,6 @@ export interface Plan {
 // Tones whose lobes overlap are fitted jointly, which separates them cleanly from about 2.5 bins
 // apart (a 12 Hz tone's H4 at 48 Hz beside 50 Hz hum, 2.7 bins at 65536 samples, is tested).
 const DEFAULT_CLEARANCE_BINS = 3;
-// Mains multiples considered: rectifier buzz above the 10th is rarely above the noise (common practice).
-const MAINS_MULTIPLES = 10;
-const SEARCH_CYCLES = 2000;
 
 export function planTestFrequency(request: PlanRequest): Plan {
   const { targetHz, sampleRateHz, mainsHz, harmonicCount } = request;
@@ -44,6 +61,8 @@ export function planTestFrequency(request: PlanRequest): Plan {
   const binHz = sampleRateHz / frameSize;
   const clearanceBins = request.clearanceBins ?? DEFAULT_CLEARANCE_BINS;
   const ideal = targetHz / binHz;
+  const maxOffsetHz = request.maxOffsetHz ?? (targetHz * DEFAULT_MAX_OFFSET_PERCENT) / 100;
+  if (!(maxOffsetHz >= 0)) throw new RangeError(`the largest offset must be a frequency ≥ 0 Hz, got ${maxOffsetHz}`);
 
   const closestMainsBins = (cycles: number): number => {
     let closest = Infinity;
@@ -57,9 +76,11 @@ export function planTestFrequency(request: PlanRequest): Plan {
     return closest;
   };
 
-  // Walk outward from the ideal cycle count, nearest first.
-  for (let step = 0; step < SEARCH_CYCLES; step++) {
+  // Walk outward from the ideal cycle count, nearest first, no farther than allowed.
+  const steps = Math.ceil(maxOffsetHz / binHz) + 1;
+  for (let step = 0; step <= steps; step++) {
     for (const cycles of step === 0 ? [Math.round(ideal)] : [Math.round(ideal) - step, Math.round(ideal) + step]) {
+      if (Math.abs(cycles * binHz - targetHz) > maxOffsetHz) continue;
       if (cycles < CYCLES_PER_FRAME || cycles % 2 === 0 || cycles * binHz >= sampleRateHz / 2) continue;
       // The live meter picks its frame from the stimulus frequency: it must pick this one.
       if (request.frameSize === undefined && frameSizeFor(sampleRateHz, cycles * binHz) !== frameSize) continue;
@@ -79,7 +100,10 @@ export function planTestFrequency(request: PlanRequest): Plan {
       };
     }
   }
-  throw new RangeError(`no frequency near ${targetHz} Hz keeps H1–H${harmonicCount} clear of ${mainsHz} Hz mains with this frame`);
+  throw new NoCoherentFrequency(
+    `no whole-cycle frequency within ${formatHz(maxOffsetHz)} Hz of ${formatHz(targetHz)} Hz keeps H1–H${harmonicCount} clear of ` +
+      `${mainsHz} Hz mains at ${sampleRateHz} Hz; use ${formatHz(targetHz)} Hz itself, analysed windowed`,
+  );
 }
 
 function formatHz(hz: number): string {
