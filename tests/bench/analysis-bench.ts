@@ -9,7 +9,10 @@
 import FFT from 'fft.js';
 import { FrameAnalyzer } from '../../shared/measurement/frame-analyzer.ts';
 import { LiveMeter } from '../../shared/measurement/live-meter.ts';
+import { MeterSession } from '../../shared/measurement/meter-session.ts';
 import { createHarmonicAnalysis } from '../../shared/measurement/reading.ts';
+import { DEMO_PROCEDURE } from '../../shared/procedures/demo-procedure.ts';
+import { DemoUnit } from '../../shared/sim/demo-unit.ts';
 
 const FRAME = 65536;
 const RATE = 48000;
@@ -95,6 +98,52 @@ if (gc) {
   log('heap growth not measured: run with node --expose-gc (npm run bench does)');
 }
 
+/**
+ * Simulated seconds from the end of a trimmer move to the first settled (recordable) reading: the
+ * demo unit and the live meter at 48 kHz, the demo procedure's stimulus, the trimmer turning at
+ * its finite rate, the worker's message handling (MeterSession).
+ */
+function settleAfterMove(fromTurns: number, toTurns: number): number | null {
+  const rate = 48000;
+  const block = new Float32Array(480);
+  const unit = new DemoUnit(rate);
+  const { stimulusHz, stimulusLevelDbfs } = DEMO_PROCEDURE.trim;
+  unit.setStimulus({ frequencyHz: stimulusHz, levelDbfs: stimulusLevelDbfs, on: true });
+  unit.setTrimmer(fromTurns);
+  const session = new MeterSession({ expectedFundamentalHz: stimulusHz, harmonicCount: 10, mainsHz: 50, stimulusLocked: false }, { sampleGuard: false });
+  let samples = 0;
+  for (; samples < 12 * rate; samples += block.length) {
+    unit.render(block);
+    session.push(block, block.length, rate);
+  }
+  const moveS = unit.setTrimmer(toTurns);
+  session.trimmerMoved(moveS);
+  const stopsAt = samples + moveS * rate;
+  for (const end = samples + 20 * rate; samples < end; ) {
+    unit.render(block);
+    samples += block.length;
+    if (session.push(block, block.length, rate)?.reading.settled) return (samples - stopsAt) / rate;
+  }
+  return null;
+}
+const settleMoves = [
+  { fromTurns: 4.5, toTurns: 4.75, where: 'near the null' },
+  { fromTurns: 2, toTurns: 2.25, where: 'far from the null' },
+  { fromTurns: 0, toTurns: 0.25, where: 'at the safe end' },
+  { fromTurns: 5.25, toTurns: 5, where: 'back onto the null' },
+].map((move) => ({ ...move, settleS: settleAfterMove(move.fromTurns, move.toTurns) }));
+const settleAfterMoveS = settleMoves[0].settleS;
+for (const m of settleMoves) log(`settled after a ${m.fromTurns} → ${m.toTurns} turn move (${m.where}): ${m.settleS?.toFixed(2) ?? 'never'} s simulated (target ≤ 3)`);
+
+// The demo unit against real time (it runs live in the worker).
+const demo = new DemoUnit(48000);
+demo.setStimulus({ frequencyHz: 14, levelDbfs: -12, on: true });
+const demoBlock = new Float32Array(4800);
+const demoStart = performance.now();
+for (let i = 0; i < 100; i++) demo.render(demoBlock); // 10 s of audio
+const demoUnitRealTimeFactor = 10 / ((performance.now() - demoStart) / 1000);
+log(`demo unit at 48 kHz: ${demoUnitRealTimeFactor.toFixed(1)}× real time`);
+
 if (json) {
   process.stdout.write(
     `${JSON.stringify({
@@ -104,6 +153,9 @@ if (json) {
       readingsPerSecond96kStereo,
       coreShareAt10PerSecond,
       heapGrowthBytesPer10k,
+      settleAfterMoveS,
+      settleMoves,
+      demoUnitRealTimeFactor,
       frameSize: FRAME,
       node: process.version,
     })}\n`,

@@ -83,6 +83,44 @@ describe('analyze', () => {
   });
 });
 
+describe('analyze refuses and flags', () => {
+  it('refuses a float WAV holding a NaN with one line and a non-zero status', () => {
+    const samples = tone(48000, 48000, 1000, 0.5);
+    samples[12345] = Number.NaN;
+    const file = join(files.path, 'nan.wav');
+    writeFileSync(file, encodeWavFloat32([samples], 48000));
+    const result = run('analyze', file, '--json');
+    expect(result.status).toBe(1);
+    expect(result.stdout).toBe('');
+    expect(result.stderr.trim().split('\n')).toHaveLength(1);
+    expect(result.stderr).toMatch(/non-finite sample .* at sample 12345/);
+  });
+
+  it('flags H3 of a 20 Hz tone on 60 Hz mains as mains-coincident, in JSON and in the table', () => {
+    // 20 Hz with H3 at −70 dBc plus 60 Hz hum at −62 dBc: 20n Hz is a multiple of 60 Hz for n = 3, 6, 9.
+    const rate = 48000;
+    const x = tone(rate * 4, rate, 20, 0.5, { partials: [{ order: 3, levelDbc: -70, phaseDeg: 0 }] });
+    const hum = tone(rate * 4, rate, 60, 0.5 * 10 ** (-62 / 20));
+    const file = join(files.path, 'twenty.wav');
+    writeFileSync(file, encodeWavFloat32([x.map((v, i) => v + hum[i])], rate));
+    const json = JSON.parse(run('analyze', file, '--mains', '60', '--json').stdout);
+    expect(json.flags).toContain('mains-coincident');
+    expect(json.mainsCoincidentOrders).toEqual([3, 6, 9]);
+    expect(run('analyze', file, '--mains', '60').stdout).toMatch(/mains-coincident: H3, H6, H9/);
+  });
+});
+
+describe('help', () => {
+  for (const word of ['--help', '-h', 'help']) {
+    it(`${word} prints the usage and exits 0`, () => {
+      const result = run(word);
+      expect(result.status).toBe(0);
+      expect(result.stdout).toMatch(/^usage:/);
+      expect(result.stderr).toBe('');
+    });
+  }
+});
+
 describe('plan', () => {
   it('prints the planned frequency and why', () => {
     const result = run('plan', '--target', '14', '--rate', '48000', '--mains', '50');

@@ -49,13 +49,19 @@ function bench() {
 }
 
 describe('demo bench (simulated unit, invented parameters)', () => {
-  it('runs at least 5× faster than real time at 48 kHz', () => {
-    const unit = new DemoUnit(RATE);
-    unit.setStimulus(STIMULUS);
-    const block = new Float32Array(4800);
-    const start = performance.now();
-    for (let i = 0; i < 100; i++) unit.render(block); // 10 s of audio
-    expect(performance.now() - start).toBeLessThan(10_000 / 5);
+  // Its speed against real time is a benchmark figure (npm run bench: demoUnitRealTimeFactor), not a test.
+
+  it("its true null is where the construction puts it: R0 / compensation per turn = (120 + 10) / 26 = 5.00 turns", () => {
+    // The deepest H3 lies within 0.02 turns of R = 0 (DemoUnit.trueNullTurns): measured H3 either side is deeper at 5.00.
+    const { recordAt } = bench();
+    const at = (turns: number) => recordAt(turns, 4).point.levelDbc;
+    const atNull = at(5);
+    // The bottom is rounded by a quadrature residue: a quarter turn either side is a little higher,
+    // half a turn clearly so.
+    expect(atNull).toBeLessThan(at(4.75));
+    expect(atNull).toBeLessThan(at(5.25));
+    expect(atNull).toBeLessThan(at(4.5) - 3);
+    expect(atNull).toBeLessThan(at(5.5) - 3);
   });
 
   it('has the physics the trim is about: H3 falls toward the null and the phase turns through it', () => {
@@ -73,21 +79,25 @@ describe('demo bench (simulated unit, invented parameters)', () => {
   });
 
   it('the assistant finds the true null within 0.1 turns from at most six points', () => {
-    const { recordAt, unit } = bench();
+    const { recordAt } = bench();
+    // From the simulator's construction: R0 / compensation per turn = 130 Ω / 26 Ω per turn.
+    const trueNull = (120 + 10) / 26;
     const points: TrimPointData[] = [];
     let advice: TrimAdvice | null = null;
+    let pointsWhenFound: number | null = null;
     let position = ASSISTANT.positionMin;
-    while (points.length < 6) {
+    // Up to twice the claim, so a slower assistant shows as a count above six, not a pass.
+    while (points.length < 12 && pointsWhenFound === null) {
       const { point, lf } = recordAt(position);
       points.push(point);
       advice = adviseTrim(points, ASSISTANT, { levelsDbfs: [], lfDbfs: lf });
-      if (advice.bracketed && advice.fit && advice.fit.nullPositionPlusMinus < 0.05) break;
+      if (advice.bracketed && advice.fit && advice.fit.nullPositionPlusMinus < 0.05) pointsWhenFound = points.length;
       position = advice.nextPosition;
     }
-    expect(points.length).toBeLessThanOrEqual(6);
-    expect(advice!.fit).not.toBeNull();
-    expect(Math.abs(advice!.fit!.nullPosition - unit.trueNullTurns)).toBeLessThan(0.1);
-    expect(advice!.recommendedPosition!).toBeLessThan(unit.trueNullTurns);
+    expect(pointsWhenFound).not.toBeNull();
+    expect(pointsWhenFound!).toBeLessThanOrEqual(6);
+    expect(Math.abs(advice!.fit!.nullPosition - trueNull)).toBeLessThan(0.1);
+    expect(advice!.recommendedPosition!).toBeLessThan(trueNull);
   });
 
   it('raises lf-instability before the stage breaks into oscillation', () => {

@@ -7,7 +7,7 @@ import * as fftJs from 'fft-js';
 import { fitSine3, fitSine4 } from '../../shared/dsp/sine-fit.ts';
 import { analogueLevel, DBU_REFERENCE_VRMS } from '../../shared/levels.ts';
 import { FrameAnalyzer } from '../../shared/measurement/frame-analyzer.ts';
-import { planTestFrequency } from '../../shared/measurement/frequency-planner.ts';
+import { NoCoherentFrequency, planTestFrequency } from '../../shared/measurement/frequency-planner.ts';
 import { createHarmonicAnalysis } from '../../shared/measurement/reading.ts';
 import { SubAudioMeter } from '../../shared/measurement/sub-audio.ts';
 import { averageLockedFrames } from '../../shared/measurement/synchronous-average.ts';
@@ -118,7 +118,7 @@ describe('level conversion', () => {
 
 describe('frequency planner', () => {
   it('moves a 10 Hz tone off 50 Hz mains (its H5 would sit on mains) to a coherent, clear frequency', () => {
-    const plan = planTestFrequency({ targetHz: 10, sampleRateHz: 48000, mainsHz: 50, harmonicCount: 10 });
+    const plan = planTestFrequency({ targetHz: 10, sampleRateHz: 48000, mainsHz: 50, harmonicCount: 10, maxOffsetHz: 2 });
     const binHz = 48000 / plan.frameSize;
     expect(plan.cycles % 2).toBe(1);
     expect(plan.frequencyHz).toBeCloseTo(plan.cycles * binHz, 9);
@@ -136,6 +136,39 @@ describe('frequency planner', () => {
   it('keeps a frequency that is already clear, snapped to whole cycles', () => {
     const plan = planTestFrequency({ targetHz: 1000, sampleRateHz: 48000, mainsHz: 60, harmonicCount: 10, frameSize: 65536 });
     expect(Math.abs(plan.frequencyHz - 1000)).toBeLessThan(48000 / 65536);
+  });
+
+  // The design's own statement of the tolerance: at most 1 % of the procedure's frequency by default.
+  for (const sampleRateHz of [44100, 48000]) {
+    for (const mainsHz of [50, 60] as const) {
+      it(`14 Hz at ${sampleRateHz} Hz, ${mainsHz} Hz mains: within 0.14 Hz (1 %) and clear of mains, or refused`, () => {
+        let plan;
+        try {
+          plan = planTestFrequency({ targetHz: 14, sampleRateHz, mainsHz, harmonicCount: 10 });
+        } catch (error) {
+          expect(error).toBeInstanceOf(NoCoherentFrequency);
+          expect((error as Error).message).toMatch(/use 14 Hz itself, analysed windowed/);
+          return;
+        }
+        expect(Math.abs(plan.frequencyHz - 14)).toBeLessThanOrEqual(0.14);
+        const binHz = sampleRateHz / plan.frameSize;
+        expect(plan.frequencyHz).toBeCloseTo(plan.cycles * binHz, 9);
+        for (let order = 1; order <= 10; order++) {
+          for (let multiple = 1; multiple <= 10; multiple++) {
+            expect(Math.abs(order * plan.frequencyHz - multiple * mainsHz)).toBeGreaterThanOrEqual(3 * binHz - 1e-9);
+          }
+        }
+      });
+    }
+  }
+
+  it('44.1 kHz, 50 Hz mains: nothing coherent near 14 Hz is clear, so the exact frequency is to be used', () => {
+    // At 65536 samples a bin is 0.673 Hz. Within 0.14 Hz of 14 Hz only 21 cycles (14.131 Hz) is odd,
+    // and its H7 (98.92 Hz) lies 1.6 bins from 100 Hz: too close to tell apart (construction).
+    expect(() => planTestFrequency({ targetHz: 14, sampleRateHz: 44100, mainsHz: 50, harmonicCount: 10 })).toThrow(NoCoherentFrequency);
+    // A wider stated tolerance allows the next clear count (23 cycles, 15.477 Hz).
+    const wide = planTestFrequency({ targetHz: 14, sampleRateHz: 44100, mainsHz: 50, harmonicCount: 10, maxOffsetHz: 2 });
+    expect(wide.cycles).toBe(23);
   });
 
   it('refuses a target at or above Nyquist', () => {
