@@ -185,10 +185,12 @@ export function adviseTrim(points: readonly TrimPointData[], options: Partial<Tr
     const nearBound = Math.max(nullPosition - plusMinus, latest.position + FIRST_MOVE_STEPS * positionStep);
     next = Math.min(latest.position + APPROACH_FRACTION * remaining, nearBound);
   } else {
-    // Near the null: the points that pin it down lie close to it, on both sides.
-    const distance = Math.min(positionStep, Math.max(plusMinus, grid));
-    const candidates = [nullPosition, nullPosition - distance, nullPosition + distance].map((p) => clamp(round(p, grid)));
-    next = candidates.find((c) => !points.some((p) => Math.abs(p.position - c) < grid / 2)) ?? candidates[1];
+    // Near the null: the points that pin it down lie closest to it (their noise is least), on both
+    // sides; while it is still uncertain by more than a step, a step either side brackets it.
+    const offsets = plusMinus > positionStep ? [0, -positionStep, positionStep] : [0, -grid, grid, -2 * grid, 2 * grid];
+    const candidates = offsets.map((offset) => clamp(round(nullPosition, grid) + offset));
+    const taken = (c: number) => points.filter((p) => Math.abs(p.position - c) < grid / 2).length;
+    next = candidates.reduce((best, c) => (taken(c) < taken(best) ? c : best));
   }
   // At most one step past the null's far bound, and no wild jumps.
   const cap = Math.min(nullPosition + plusMinus + positionStep, furthest + MAX_MOVE_STEPS * positionStep);

@@ -69,15 +69,23 @@ const amplitude = (levelDbc: number) => 10 ** (levelDbc / 20);
 /** Two-sided 95 % Student-t quantiles t(0.975, ν) for ν = 1..10 (any statistics table). */
 const STUDENT_T_975 = [Infinity, 12.706, 4.303, 3.182, 2.776, 2.571, 2.447, 2.365, 2.306, 2.262, 2.228];
 
+/** The stated reading uncertainty counts as an estimate from this many degrees of freedom. */
+const STATED_UNCERTAINTY_DOF = 4;
+
 /**
  * Half-width of a 95 % interval for a parameter whose standard error is `sigma` from the stated
- * reading uncertainty: 1.96 σ when that uncertainty holds; when the points scatter more than stated,
- * the scatter estimates σ and, with few degrees of freedom, Student's t widens the interval.
+ * reading uncertainty. The stated uncertainty and the fit's own scatter are pooled, the stated one
+ * weighted as if it came from STATED_UNCERTAINTY_DOF degrees of freedom (a scaled inverse-χ²
+ * prior), and Student's t for the pooled degrees of freedom gives the width: with few points the
+ * scatter says little and the interval widens; points scattering more than stated widen it too.
  */
 function interval95(sigma: number, reducedChi2: number, dof: number): number {
-  const t = dof <= 0 ? 0 : dof < STUDENT_T_975.length ? STUDENT_T_975[dof] : 1.96 + 2.4 / dof;
-  return sigma * Math.max(1.96, t * Math.sqrt(reducedChi2));
+  const pooledDof = STATED_UNCERTAINTY_DOF + Math.max(0, dof);
+  const scale = (STATED_UNCERTAINTY_DOF + Math.max(0, dof) * reducedChi2) / pooledDof;
+  const t = pooledDof < STUDENT_T_975.length ? STUDENT_T_975[pooledDof] : 1.96 + 2.4 / pooledDof;
+  return sigma * t * Math.sqrt(Math.max(1, scale));
 }
+
 const toDb = (ratio: number) => 20 * Math.log10(Math.max(ratio, 1e-15));
 
 /** Fits the trim curve; chooses the phasor model when every point has a consistent phase. */

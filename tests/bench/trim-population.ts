@@ -4,10 +4,15 @@
 import { simulatePopulation } from '../support/trim-population.ts';
 
 const [units, seed] = process.argv.slice(2).map(Number);
-const figures = simulatePopulation({ ...(units ? { units } : {}), ...(seed ? { seed } : {}) });
 const percent = (share: number) => `${(100 * share).toFixed(1)} %`;
-console.log(
+for (const depthDbc of [
+  [-86, -62],
+  [-95, -86],
+] as [number, number][]) {
+  const figures = simulatePopulation({ depthDbc, ...(units ? { units } : {}), ...(seed ? { seed } : {}) });
+  console.log(
   [
+    `true null depths         ${depthDbc[0]} to ${depthDbc[1]} dBc (noise floor −100 dBc)`,
     `units                    ${figures.units}`,
     `recommendations shown    ${figures.recommendationsShown}`,
     `past the true null       ${figures.pastNull}`,
@@ -15,5 +20,6 @@ console.log(
     `stable within 8 points   ${percent(figures.shareWithin8Points)}`,
     `median points            ${figures.medianPoints}`,
     `within 2 dB of the depth ${percent(figures.shareWithin2Db)}`,
-  ].join('\n'),
-);
+  ].join('\n') + '\n',
+  );
+}

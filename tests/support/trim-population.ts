@@ -15,6 +15,8 @@ export interface PopulationOptions {
   phaseNoiseDeg: number;
   /** Absolute noise floor, dBc (RMS of the complex noise added to the harmonic). */
   floorDbc: number;
+  /** Range of true null depths, dBc. */
+  depthDbc: [number, number];
   /** The technician gives up after this many points. */
   pointCap: number;
   assistant: Partial<TrimAssistantOptions>;
@@ -26,6 +28,9 @@ export const POPULATION_DEFAULTS: PopulationOptions = {
   relativeNoise: 0.03,
   phaseNoiseDeg: 1.5,
   floorDbc: -100,
+  // A well-trimmed null in such a stage reaches about −65 to −70 dB (references.md, common
+  // practice); the population goes from just inside the −60 dBc limit to 14 dB above the floor.
+  depthDbc: [-86, -62],
   pointCap: 14,
   assistant: { positionMin: 0, positionMax: 10, positionStep: 0.25, limitDbc: -60, marginDb: 1 },
 };
@@ -71,7 +76,7 @@ export function simulatePopulation(overrides: Partial<PopulationOptions> = {}): 
     // Construction: the null at p0 with depth d; the fixed residue stands at right angles to the
     // slope, so |H| is least, and equal to d, exactly at p0.
     const p0 = between(1.5, 9);
-    const depth = 10 ** (between(-92, -66) / 20);
+    const depth = 10 ** (between(o.depthDbc[0], o.depthDbc[1]) / 20);
     const safeEnd = 10 ** (between(-48, -32) / 20);
     const slope = Math.sqrt(safeEnd * safeEnd - depth * depth) / p0;
     const theta = between(0, 2 * Math.PI);
