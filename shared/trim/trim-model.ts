@@ -179,7 +179,7 @@ function fitPhasor(observations: readonly TrimObservation[], settings: TrimFitOp
   const reducedChi2 = dof > 0 ? chi2 / dof : 0;
 
   const slope2 = bRe * bRe + bIm * bIm;
-  if (slope2 === 0) throw new TrimFitError('the readings do not change with position: no null can be predicted');
+  if (slope2 === 0) throw new TrimFitError('The readings barely change with the trimmer: check the trimmer is in circuit and the right channel is captured.');
   const n = aRe * bRe + aIm * bIm;
   const nullPosition = -n / slope2;
   const depth = Math.sqrt(Math.max(0, aRe * aRe + aIm * aIm - (n * n) / slope2));
@@ -252,7 +252,7 @@ function fitMagnitude(observations: readonly TrimObservation[], settings: TrimFi
   const chi2 = residuals.reduce((sum, r) => sum + r * r, 0);
   const dof = positions.length - 3;
   const reducedChi2 = dof > 0 ? chi2 / dof : 0;
-  if (!(s > 0)) throw new TrimFitError('the readings do not change with position: no null can be predicted');
+  if (!(s > 0)) throw new TrimFitError('The readings barely change with the trimmer: check the trimmer is in circuit and the right channel is captured.');
 
   // Covariance of the parameters from the Jacobian of the normalised model at the solution.
   const jacobian = positions.map((p, i) => {
