@@ -163,7 +163,7 @@ export function adviseTrim(points: readonly TrimPointData[], options: Partial<Tr
   const used = points.filter((_, i) => i !== fit.excludedPoint);
   const bracketed = used.some((p) => p.position < nullPosition) && used.some((p) => p.position > nullPosition);
   const side = latest.position > nullPosition ? 'past-null' : 'short-of-null';
-  const pastNull = pastNullWarning(latest.position, fit, positionStep);
+  const pastNull = pastNullWarning(latest.position, fit);
   if (pastNull) warnings.push(pastNull);
 
   const { offset: marginOffset, allowedDbc, note } = recommendedOffset(fit, settings);
@@ -246,11 +246,12 @@ function untrustworthy(fit: TrimFit, points: readonly TrimPointData[], settings:
 }
 
 /**
- * Past the null, judged at a position against the null's confidence: only beyond both the far
- * bound and the one step past the null that bracketing may take.
+ * Past the null, judged at a position against the null's confidence: beyond its far bound the
+ * trimmer is past it with about 97.5 % confidence (a bracketing point one step past the bound is
+ * too, and the warning then says to turn back, which is the next move anyway).
  */
-export function pastNullWarning(position: number, fit: TrimFit, positionStep: number): TrimWarning | null {
-  const bound = fit.nullPosition + Math.max(fit.nullPositionPlusMinus, positionStep);
+export function pastNullWarning(position: number, fit: TrimFit): TrimWarning | null {
+  const bound = fit.nullPosition + fit.nullPositionPlusMinus;
   if (!(position > bound + 1e-9)) return null;
   return {
     id: 'past-null',

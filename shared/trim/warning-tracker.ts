@@ -175,7 +175,7 @@ export class WarningTracker {
   }
 
   private pastNull(position: number): Verdict {
-    const warning = this.fit ? pastNullWarning(position, this.fit, this.settings.positionStep) : null;
+    const warning = this.fit ? pastNullWarning(position, this.fit) : null;
     return warning ? { state: 'on', warning } : { state: 'off' };
   }
 
