@@ -11,7 +11,7 @@ import { parseArgs } from 'node:util';
 import { decodeWav, WavFormatError } from '../shared/audio/wav.ts';
 import { DEFAULT_MAX_OFFSET_PERCENT, planTestFrequency } from '../shared/measurement/frequency-planner.ts';
 import { analyzeRecord, type RecordAnalysis } from '../shared/measurement/record-analysis.ts';
-import { adviseTrim, DEFAULT_TRIM_ASSISTANT_OPTIONS } from '../shared/trim/trim-assistant.ts';
+import { adviseTrim, DEFAULT_TRIM_ASSISTANT_OPTIONS, describeThermalMargin } from '../shared/trim/trim-assistant.ts';
 import { parseTrimCsv, TrimCsvError } from '../shared/trim/trim-csv.ts';
 
 const USAGE = `usage:
@@ -224,7 +224,8 @@ function fit(args: string[]): string {
     limitDbc: limitDbc ?? DEFAULT_TRIM_ASSISTANT_OPTIONS.limitDbc,
     marginDb: marginDb ?? DEFAULT_TRIM_ASSISTANT_OPTIONS.marginDb,
   });
-  if (!advice.fit) throw new UsageProblem(`${file}: ${advice.fitProblem}`);
+  // No trustworthy fit: the assistant's own words, and no numbers.
+  if (!advice.fit || advice.fitProblem !== null) throw new UsageProblem(`${file}: ${advice.fitProblem ?? 'no fit'}`);
   const result = {
     model: advice.fit.model,
     nullPosition: advice.fit.nullPosition,
@@ -235,16 +236,18 @@ function fit(args: string[]): string {
     nextPosition: advice.nextPosition,
     recommendedPosition: advice.recommendedPosition,
     warnings: advice.warnings.map((w) => w.id),
+    fitProblem: advice.fitProblem,
   };
   if (values.json) return JSON.stringify(result);
+  const thermal = describeThermalMargin(advice.thermal?.deltaTemperatureC ?? null);
   return [
     `${file}: ${points.length} trim points — ${advice.fit.reason}`,
     `null              ${result.nullPosition.toFixed(3)} ± ${result.nullPositionPlusMinus.toFixed(3)}, ${result.nullLevelDbc.toFixed(1)} dBc (${result.bracketed ? 'bracketed' : 'not yet bracketed'})`,
     `latest point      ${result.side}`,
     `next position     ${result.nextPosition.toFixed(2)}`,
-    `recommended       ${result.recommendedPosition?.toFixed(3) ?? '—'}${advice.recommendedLevelDbc !== null ? ` (predicted ${advice.recommendedLevelDbc.toFixed(1)} dBc)` : ''}`,
+    `recommended       ${result.recommendedPosition?.toFixed(3) ?? '— (not yet safe to recommend)'}${advice.recommendedLevelDbc !== null ? ` (predicted ${advice.recommendedLevelDbc.toFixed(1)} dBc)` : ''}`,
     ...(advice.recommendationNote ? [`note              ${advice.recommendationNote}`] : []),
-    ...(advice.thermal ? [`thermal margin    ±${advice.thermal.deltaTemperatureC.toFixed(1)} °C untracked (copper α ${advice.thermal.alphaPerC}/°C)`] : []),
+    ...(thermal ? [`thermal margin    ${thermal} (copper α ${advice.thermal!.alphaPerC}/°C)`] : []),
     ...advice.warnings.map((w) => `WARNING ${w.id}: ${w.seen} ${w.advice}`),
   ].join('\n');
 }

@@ -88,7 +88,7 @@ export const trimPointSchema = z.object({
   reading: readingSchema,
 });
 
-const warningSchema = z.object({
+export const warningSchema = z.object({
   id: z.enum(['gain-rise', 'lf-instability', 'amplitude-wander', 'clipping', 'past-null']),
   seen: z.string(),
   advice: z.string(),
@@ -98,6 +98,7 @@ export const trimAssessmentSchema = z.object({
   harmonicOrder: z.number().int(),
   model: z.enum(['phasor', 'magnitude']).nullable(),
   reason: z.string(),
+  fitProblem: z.string().nullable().default(null),
   nullPosition: finite.nullable(),
   nullPositionPlusMinus: finite.nullable(),
   nullLevelDbc: finite.nullable(),

@@ -4,7 +4,7 @@
 
 import type { Reading } from '../measurement/reading.ts';
 import type { Procedure } from '../procedures/procedure.ts';
-import { adviseTrim, type LiveSeries, type TrimAdvice, type TrimPointData } from './trim-assistant.ts';
+import { adviseTrim, type LiveSeries, type TrimAdvice, type TrimAssistantOptions, type TrimPointData } from './trim-assistant.ts';
 
 export interface TrimCurvePoint {
   position: number;
@@ -19,10 +19,16 @@ export interface TrimAssessment
   model: 'phasor' | 'magnitude' | null;
   /** Why that model, or why there is no fit yet. */
   reason: string;
+  /**
+   * Non-null when there is no trustworthy fit (too few points, no effect of the trimmer, readings
+   * off any trim curve, a null out of the trimmer's reach): what is wrong and what to check. Then
+   * every null, recommendation and thermal number is null and the curve is empty.
+   */
+  fitProblem: string | null;
   nullPosition: number | null;
   nullPositionPlusMinus: number | null;
   nullLevelDbc: number | null;
-  /** ± °C over which the residual at the recommended setting stays inside the limit, untracked. */
+  /** ± °C over which the residual at the recommended setting stays inside the limit, untracked (print it with describeThermalMargin). */
   thermalMarginC: number | null;
   excludedPoint: number | null;
   /** The fitted model sampled across the trimmer's range, for plots and the sheet. */
@@ -41,28 +47,40 @@ export function trimPointData(position: number, reading: Reading, harmonicOrder:
     gainDb: reading.fundamental.levelDbfs,
     lfDbfs: reading.subAudioDbfs,
     clipping: reading.flags.includes('clipping'),
+    thdDb: reading.thdDb,
+    fundamentalHz: reading.fundamental.frequencyHz,
   };
 }
 
-export function assessTrim(
-  points: readonly { position: number; reading: Reading }[],
-  trim: Procedure['trim'],
-  live: LiveSeries | null = null,
-): TrimAssessment {
-  const data = points.map((p) => trimPointData(p.position, p.reading, trim.harmonicOrder));
-  const advice = adviseTrim(
-    data,
-    {
-      positionMin: trim.positionMin,
-      positionMax: trim.positionMax,
-      positionStep: trim.positionStep,
-      limitDbc: trim.limitThdDb,
-      marginDb: trim.marginDb,
-      gainRiseDb: trim.gainRiseDb,
-      lfRiseDb: trim.lfRiseDb,
-    },
-    live,
-  );
+/** A recorded point as the assessment takes it: inFit false (an unconfirmed unsettled point) is shown, never used. */
+export interface AssessedPoint {
+  position: number;
+  reading: Reading;
+  /** Missing counts as true (points stored before unsettled points could be left out). */
+  inFit?: boolean;
+}
+
+/** The procedure's trim step as the assistant's options. */
+export function trimAssistantOptions(trim: Procedure['trim'], stimulusHz: number | null = trim.stimulusHz): Partial<TrimAssistantOptions> {
+  return {
+    positionMin: trim.positionMin,
+    positionMax: trim.positionMax,
+    positionStep: trim.positionStep,
+    limitDbc: trim.limitThdDb,
+    marginDb: trim.marginDb,
+    gainRiseDb: trim.gainRiseDb,
+    lfRiseDb: trim.lfRiseDb,
+    stimulusHz,
+  };
+}
+
+/** The points the fit and the warnings use, as the assistant sees them. */
+export function fittedPointData(points: readonly AssessedPoint[], harmonicOrder: number): TrimPointData[] {
+  return points.filter((p) => p.inFit !== false).map((p) => trimPointData(p.position, p.reading, harmonicOrder));
+}
+
+export function assessTrim(points: readonly AssessedPoint[], trim: Procedure['trim'], live: LiveSeries | null = null): TrimAssessment {
+  const advice = adviseTrim(fittedPointData(points, trim.harmonicOrder), trimAssistantOptions(trim), live);
   const fit = advice.fit;
   // Stored and sent as JSON: a value the fit could not pin down is null, never ±Infinity or NaN.
   const finiteOrNull = (value: number | null | undefined) => (value !== null && value !== undefined && Number.isFinite(value) ? value : null);
@@ -78,6 +96,7 @@ export function assessTrim(
     harmonicOrder: trim.harmonicOrder,
     model: fit?.model ?? null,
     reason: fit?.reason ?? advice.fitProblem ?? '',
+    fitProblem: advice.fitProblem,
     nullPosition: finiteOrNull(fit?.nullPosition),
     nullPositionPlusMinus: finiteOrNull(fit?.nullPositionPlusMinus),
     nullLevelDbc: finiteOrNull(fit?.nullLevelDbc),

@@ -29,7 +29,7 @@ export interface TrimFitOptions {
 
 export const DEFAULT_TRIM_FIT_OPTIONS: TrimFitOptions = {
   relativeUncertainty: 0.03,
-  floorDbc: -110,
+  floorDbc: -100,
   phaseConsistencyChi2: 25,
   outlierSigma: 4,
 };
@@ -41,12 +41,19 @@ export interface TrimFit {
   /** Why this model was used. */
   reason: string;
   nullPosition: number;
-  /** About two standard deviations of the null position (≈ 95 %). */
+  /**
+   * The null position's 95 % interval half-width: the stated reading uncertainty's 1.96 σ, or the
+   * scatter's Student-t interval when the points scatter more than stated, whichever is wider.
+   */
   nullPositionPlusMinus: number;
   /** Predicted harmonic level at the null, dBc. */
   nullLevelDbc: number;
   /** Slope of the harmonic amplitude away from the null, per unit of position (linear ratio). */
   slopePerPosition: number;
+  /** The slope over its own standard error: below about 3 the trimmer shows no clear effect. */
+  slopeSignificance: number;
+  /** χ² per degree of freedom of the fit (0 when nothing is left over to judge it). */
+  reducedChi2: number;
   /** Index of a point left out as an outlier, or null. */
   excludedPoint: number | null;
   /** Predicted level at a position, dBc. */
@@ -58,6 +65,27 @@ export class TrimFitError extends Error {
 }
 
 const amplitude = (levelDbc: number) => 10 ** (levelDbc / 20);
+
+/** Two-sided 95 % Student-t quantiles t(0.975, ν) for ν = 1..10 (any statistics table). */
+const STUDENT_T_975 = [Infinity, 12.706, 4.303, 3.182, 2.776, 2.571, 2.447, 2.365, 2.306, 2.262, 2.228];
+
+/** The stated reading uncertainty counts as an estimate from this many degrees of freedom. */
+const STATED_UNCERTAINTY_DOF = 4;
+
+/**
+ * Half-width of a 95 % interval for a parameter whose standard error is `sigma` from the stated
+ * reading uncertainty. The stated uncertainty and the fit's own scatter are pooled, the stated one
+ * weighted as if it came from STATED_UNCERTAINTY_DOF degrees of freedom (a scaled inverse-χ²
+ * prior), and Student's t for the pooled degrees of freedom gives the width: with few points the
+ * scatter says little and the interval widens; points scattering more than stated widen it too.
+ */
+function interval95(sigma: number, reducedChi2: number, dof: number): number {
+  const pooledDof = STATED_UNCERTAINTY_DOF + Math.max(0, dof);
+  const scale = (STATED_UNCERTAINTY_DOF + Math.max(0, dof) * reducedChi2) / pooledDof;
+  const t = pooledDof < STUDENT_T_975.length ? STUDENT_T_975[pooledDof] : 1.96 + 2.4 / pooledDof;
+  return sigma * t * Math.sqrt(Math.max(1, scale));
+}
+
 const toDb = (ratio: number) => 20 * Math.log10(Math.max(ratio, 1e-15));
 
 /** Fits the trim curve; chooses the phasor model when every point has a consistent phase. */
@@ -80,6 +108,11 @@ export function fitTrimCurve(observations: readonly TrimObservation[], options: 
     throw new TrimFitError(`with two points the fit needs their phases, and ${phasorProblem}; record a third point`);
   }
   const magnitude = robust(observations, (subset) => fitMagnitude(subset, settings), settings);
+  if (magnitude.reducedChi2 > settings.phaseConsistencyChi2) {
+    throw new TrimFitError(
+      `the readings do not follow one trim curve (${withPhase ? 'neither the phases nor the levels fit' : 'the levels do not fit'}, reduced χ² ${magnitude.reducedChi2.toFixed(0)}): check that each point was recorded with the trimmer still and the reading settled, and that the unit is stable`,
+    );
+  }
   return { ...magnitude.fit, reason: `magnitude model: ${phasorProblem}` };
 }
 
@@ -146,17 +179,16 @@ function fitPhasor(observations: readonly TrimObservation[], settings: TrimFitOp
   const reducedChi2 = dof > 0 ? chi2 / dof : 0;
 
   const slope2 = bRe * bRe + bIm * bIm;
-  if (slope2 === 0) throw new TrimFitError('the readings do not change with position: no null can be predicted');
+  if (slope2 === 0) throw new TrimFitError('The readings barely change with the trimmer: check the trimmer is in circuit and the right channel is captured.');
   const n = aRe * bRe + aIm * bIm;
   const nullPosition = -n / slope2;
   const depth = Math.sqrt(Math.max(0, aRe * aRe + aIm * aIm - (n * n) / slope2));
 
   // Propagate the parameter covariance (σ²-weighted, scaled up by the scatter when it exceeds the
   // stated uncertainty) to the null position. Re and Im parts share the matrix [[s2,−s1],[−s1,s0]]/det.
-  const scale = Math.max(1, reducedChi2);
-  const cAA = (s2 / det) * scale;
-  const cAB = (-s1 / det) * scale;
-  const cBB = (s0 / det) * scale;
+  const cAA = s2 / det;
+  const cAB = -s1 / det;
+  const cBB = s0 / det;
   const dAr = -bRe / slope2;
   const dAi = -bIm / slope2;
   const dBr = -(aRe * slope2 - n * 2 * bRe) / (slope2 * slope2);
@@ -164,6 +196,7 @@ function fitPhasor(observations: readonly TrimObservation[], settings: TrimFitOp
   const variance = dAr * dAr * cAA + 2 * dAr * dBr * cAB + dBr * dBr * cBB + dAi * dAi * cAA + 2 * dAi * dBi * cAB + dBi * dBi * cBB;
 
   const slope = Math.sqrt(slope2);
+  const scatter = Math.max(1, reducedChi2);
   return {
     residuals,
     reducedChi2,
@@ -171,9 +204,12 @@ function fitPhasor(observations: readonly TrimObservation[], settings: TrimFitOp
       model: 'phasor',
       reason: 'phasor model: every point has a phase and they lie on a straight line',
       nullPosition,
-      nullPositionPlusMinus: 2 * Math.sqrt(Math.max(0, variance)),
+      nullPositionPlusMinus: interval95(Math.sqrt(Math.max(0, variance)), reducedChi2, dof),
       nullLevelDbc: toDb(depth),
       slopePerPosition: slope,
+      // |B|²/σ² per component is χ² with two degrees of freedom when the trimmer has no effect.
+      slopeSignificance: slope / Math.sqrt(cBB * scatter),
+      reducedChi2,
       excludedPoint: null,
       predictDbc: (position) => toDb(Math.hypot(aRe + bRe * position, aIm + bIm * position)),
     },
@@ -216,7 +252,7 @@ function fitMagnitude(observations: readonly TrimObservation[], settings: TrimFi
   const chi2 = residuals.reduce((sum, r) => sum + r * r, 0);
   const dof = positions.length - 3;
   const reducedChi2 = dof > 0 ? chi2 / dof : 0;
-  if (!(s > 0)) throw new TrimFitError('the readings do not change with position: no null can be predicted');
+  if (!(s > 0)) throw new TrimFitError('The readings barely change with the trimmer: check the trimmer is in circuit and the right channel is captured.');
 
   // Covariance of the parameters from the Jacobian of the normalised model at the solution.
   const jacobian = positions.map((p, i) => {
@@ -230,7 +266,14 @@ function fitMagnitude(observations: readonly TrimObservation[], settings: TrimFi
   solver.bIm.fill(0);
   for (const row of jacobian) for (let a = 0; a < size; a++) for (let b = 0; b < size; b++) solver.gRe[a * solver.capacity + b] += row[a] * row[b];
   solver.bRe[1] = 1; // solve JᵀJ·x = e_p0: x[1] is var(p0) before scaling
-  const variance = solver.solve(size) ? solver.bRe[1] * Math.max(1, reducedChi2) : Infinity;
+  const variance = solver.solve(size) ? solver.bRe[1] : Infinity;
+  solver.gRe.fill(0);
+  solver.gIm.fill(0);
+  solver.bRe.fill(0);
+  solver.bIm.fill(0);
+  for (const row of jacobian) for (let a = 0; a < size; a++) for (let b = 0; b < size; b++) solver.gRe[a * solver.capacity + b] += row[a] * row[b];
+  solver.bRe[0] = 1; // x[0] is var(s)
+  const slopeVariance = solver.solve(size) ? solver.bRe[0] * Math.max(1, reducedChi2) : Infinity;
 
   return {
     residuals,
@@ -239,9 +282,11 @@ function fitMagnitude(observations: readonly TrimObservation[], settings: TrimFi
       model: 'magnitude',
       reason: 'magnitude model',
       nullPosition: p0,
-      nullPositionPlusMinus: 2 * Math.sqrt(Math.max(0, variance)),
+      nullPositionPlusMinus: interval95(Math.sqrt(Math.max(0, variance)), reducedChi2, dof),
       nullLevelDbc: toDb(f),
       slopePerPosition: s,
+      slopeSignificance: s / Math.sqrt(Math.max(slopeVariance, 1e-300)),
+      reducedChi2,
       excludedPoint: null,
       predictDbc: (position) => toDb(model(s, p0, f, position)),
     },

@@ -171,13 +171,16 @@ describe('fit', () => {
       'nextPosition',
       'recommendedPosition',
       'warnings',
+      'fitProblem',
     ]);
     expect(json.model).toBe('phasor');
     expect(json.nullPosition).toBeCloseTo(5.2, 4);
     expect(json.nullLevelDbc).toBeCloseTo(-72, 2);
     expect(json.bracketed).toBe(false);
     expect(json.side).toBe('short-of-null');
-    expect(json.recommendedPosition).toBeLessThan(json.nullPosition);
+    // Three points all turns short of the null: not yet safe to recommend a setting (issue 7).
+    expect(json.recommendedPosition).toBeNull();
+    expect(json.fitProblem).toBeNull();
     expect(json.warnings).toEqual([]);
   });
 
