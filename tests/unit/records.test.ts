@@ -260,6 +260,36 @@ describe('records on a real database file', () => {
     copy.close();
   });
 
+  it('opens a database from before issue 7: revision A and its points stay readable, new runs use revision B', () => {
+    const file = join(dir.path, DATABASE_FILE);
+    const old = new Database(file);
+    old.exec(MIGRATIONS[0]);
+    old.exec(MIGRATIONS[1]);
+    old.pragma('user_version = 2');
+    // Revision A as it was stored: no level window, no frequency tolerance.
+    const { expectedLevelDbfs: _w, frequencyTolerancePercent: _f, ...trimA } = DEMO_PROCEDURE.trim;
+    old.prepare('INSERT INTO procedures (code, revision, definition_json) VALUES (?, ?, ?)').run(
+      DEMO_PROCEDURE.code,
+      'A',
+      JSON.stringify({ ...DEMO_PROCEDURE, revision: 'A', trim: trimA }),
+    );
+    old.prepare("INSERT INTO units (serial, model_code, created_at) VALUES ('MG20-2611-0060', 'MG-20', '2026-01-05T09:00:00.000Z')").run();
+    old.prepare("INSERT INTO runs (unit_id, procedure_id, operator, station, started_at, limit_thd_db) VALUES (1, 1, 'A. Tester', 'b', '2026-01-05T09:00:00.000Z', -60)").run();
+    old.prepare(
+      "INSERT INTO trim_points (run_id, sequence, position, recorded_at, settled, thd_db, reading_json) VALUES (1, 1, 0, '2026-01-05T09:01:00.000Z', 1, -40, ?)",
+    ).run(JSON.stringify(readingWithThd(-40)));
+    old.close();
+
+    const station = openTestStation(dir.path);
+    expect(station.records.listProcedures().map((p) => p.definition.revision)).toEqual(['B']);
+    const detail = station.records.getRun(1);
+    expect(detail.run.procedureRevision).toBe('A');
+    expect(detail.trimPoints).toMatchObject([{ sequence: 1, settled: true, inFit: true, stimulusHz: null, confirmedAt: null }]);
+    expect(detail.warningLog).toEqual([]);
+    expect(detail.run.verdictReasons).toEqual([]);
+    station.close();
+  });
+
   it('refuses a database written by a newer schema and leaves it untouched', () => {
     const file = join(dir.path, DATABASE_FILE);
     const newer = new Database(file);
