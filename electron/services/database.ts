@@ -108,6 +108,53 @@ export const MIGRATIONS: readonly string[] = [
   CREATE TRIGGER procedures_never_deleted BEFORE DELETE ON procedures
     BEGIN SELECT RAISE(ABORT, 'procedures are never deleted'); END;
   `,
+  // Issue 7: the stimulus with each point, unsettled points kept out of the fit until confirmed,
+  // the verdict's reasons, and the log of warnings raised and cleared.
+  `
+  ALTER TABLE trim_points ADD COLUMN stimulus_hz REAL;
+  ALTER TABLE trim_points ADD COLUMN stimulus_level_dbfs REAL;
+  ALTER TABLE trim_points ADD COLUMN in_fit INTEGER NOT NULL DEFAULT 1 CHECK (in_fit IN (0, 1));
+  ALTER TABLE runs ADD COLUMN verdict_reasons_json TEXT;
+  DROP TRIGGER finished_runs_frozen;
+  CREATE TRIGGER finished_runs_frozen
+    BEFORE UPDATE OF unit_id, procedure_id, operator, station, started_at, finished_at, verdict, verdict_reason, verdict_reasons_json, final_thd_db, limit_thd_db ON runs
+    WHEN OLD.finished_at IS NOT NULL
+    BEGIN SELECT RAISE(ABORT, 'a finished run is never edited'); END;
+  CREATE TABLE point_confirmations (
+    id INTEGER PRIMARY KEY,
+    run_id INTEGER NOT NULL REFERENCES runs(id),
+    point_id INTEGER NOT NULL UNIQUE REFERENCES trim_points(id),
+    after_sequence INTEGER NOT NULL,
+    confirmed_at TEXT NOT NULL,
+    assessment_json TEXT NOT NULL
+  );
+  CREATE TABLE warning_changes (
+    id INTEGER PRIMARY KEY,
+    run_id INTEGER NOT NULL REFERENCES runs(id),
+    warning_id TEXT NOT NULL,
+    change TEXT NOT NULL CHECK (change IN ('raised', 'cleared')),
+    at TEXT NOT NULL,
+    position REAL NOT NULL,
+    after_sequence INTEGER NOT NULL,
+    seen TEXT NOT NULL,
+    source TEXT NOT NULL CHECK (source IN ('assessment', 'live'))
+  );
+  CREATE INDEX warning_changes_by_run ON warning_changes (run_id);
+  CREATE TRIGGER confirmations_of_finished_run BEFORE INSERT ON point_confirmations
+    WHEN (SELECT finished_at FROM runs WHERE id = NEW.run_id) IS NOT NULL
+    BEGIN SELECT RAISE(ABORT, 'the run is finished'); END;
+  CREATE TRIGGER confirmations_never_change BEFORE UPDATE ON point_confirmations
+    BEGIN SELECT RAISE(ABORT, 'recorded confirmations are never edited'); END;
+  CREATE TRIGGER confirmations_never_deleted BEFORE DELETE ON point_confirmations
+    BEGIN SELECT RAISE(ABORT, 'recorded confirmations are never deleted'); END;
+  CREATE TRIGGER warning_changes_of_finished_run BEFORE INSERT ON warning_changes
+    WHEN (SELECT finished_at FROM runs WHERE id = NEW.run_id) IS NOT NULL
+    BEGIN SELECT RAISE(ABORT, 'the run is finished'); END;
+  CREATE TRIGGER warning_changes_never_change BEFORE UPDATE ON warning_changes
+    BEGIN SELECT RAISE(ABORT, 'the warning log is never edited'); END;
+  CREATE TRIGGER warning_changes_never_deleted BEFORE DELETE ON warning_changes
+    BEGIN SELECT RAISE(ABORT, 'the warning log is never deleted'); END;
+  `,
 ];
 
 /**

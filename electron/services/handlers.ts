@@ -32,8 +32,10 @@ export function createHandlers({ records, sheets, station }: Services): Handlers
     listProcedures: async () => records.listProcedures(),
     openRun: async (request) => records.openRun(request),
     recordTrimPoint: async (request) => records.recordTrimPoint(request),
+    includeUnsettledPoint: async (request) => records.includeUnsettledPoint(request),
+    logWarningChanges: async (request) => records.logWarningChanges(request),
     recordWarmCheck: async (request) => records.recordWarmCheck(request),
-    finishRun: async ({ runId }) => records.finishRun(runId),
+    finishRun: async (request) => records.finishRun(request),
     saveSheetPdf: async ({ runId }, caller) => sheets.savePdf(runId, () => caller.printToPdf()),
     printSheet: async ({ runId }, caller) => {
       if (!records.getRun(runId).run.finishedAt) throw new ExpectedFailure('Finish the run before printing its unit sheet.');

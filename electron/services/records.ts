@@ -2,10 +2,19 @@
 // payload with the IPC contract first) and checks what only the database knows.
 
 import type { Reading } from '../../shared/measurement/reading.ts';
-import { trimAssessmentSchema, type Run, type RunDetail, type StoredProcedure, type TrimPoint, type WarmCheck } from '../../shared/ipc/contract.ts';
+import {
+  trimAssessmentSchema,
+  type Run,
+  type RunDetail,
+  type StoredProcedure,
+  type TrimPoint,
+  type WarmCheck,
+  type WarningLogEntry,
+} from '../../shared/ipc/contract.ts';
 import { procedureSchema, type Procedure } from '../../shared/procedures/procedure.ts';
 import { checkSerial } from '../../shared/records/serial.ts';
-import { judgeTrim } from '../../shared/records/verdict.ts';
+import { whyNotRecordable, type StimulusSetting } from '../../shared/records/stimulus-check.ts';
+import { judgeTrimRun } from '../../shared/records/verdict.ts';
 import { assessTrim, type TrimAssessment } from '../../shared/trim/assessment.ts';
 import { warmRecheck, type LiveSeries } from '../../shared/trim/trim-assistant.ts';
 import type { Db } from './database.ts';
@@ -22,6 +31,7 @@ interface RunRow {
   finished_at: string | null;
   verdict: 'pass' | 'fail' | null;
   verdict_reason: string | null;
+  verdict_reasons_json: string | null;
   final_thd_db: number | null;
   limit_thd_db: number;
   sheet_pdf_path: string | null;
@@ -34,7 +44,33 @@ interface TrimPointRow {
   position: number;
   recorded_at: string;
   settled: number;
+  in_fit: number;
+  stimulus_hz: number | null;
   reading_json: string;
+}
+
+interface WarningChangeRow {
+  warning_id: WarningLogEntry['id'];
+  change: WarningLogEntry['change'];
+  at: string;
+  position: number;
+  after_sequence: number;
+  seen: string;
+  source: WarningLogEntry['source'];
+}
+
+/** A warning change as the page's live watch reports it. */
+export interface ReportedWarningChange {
+  id: WarningLogEntry['id'];
+  change: WarningLogEntry['change'];
+  position: number;
+  seen: string;
+}
+
+export interface RecordedPoint {
+  point: TrimPoint;
+  assessment: TrimAssessment;
+  warningLog: WarningLogEntry[];
 }
 
 export interface RecordsOptions {
@@ -53,7 +89,10 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
   const statements = {
     procedureByKey: db.prepare<[string, string], { id: number }>('SELECT id FROM procedures WHERE code = ? AND revision = ?'),
     insertProcedure: db.prepare('INSERT INTO procedures (code, revision, definition_json) VALUES (?, ?, ?)'),
-    procedures: db.prepare<[], { id: number; definition_json: string }>('SELECT id, definition_json FROM procedures ORDER BY id'),
+    // The newest revision of each procedure: new runs use it; older runs keep naming their own.
+    procedures: db.prepare<[], { id: number; definition_json: string }>(
+      'SELECT id, definition_json FROM procedures WHERE id IN (SELECT MAX(id) FROM procedures GROUP BY code) ORDER BY id',
+    ),
     procedureById: db.prepare<[number], { id: number; definition_json: string }>(
       'SELECT id, definition_json FROM procedures WHERE id = ?',
     ),
@@ -74,14 +113,33 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
       'SELECT COALESCE(MAX(sequence), 0) + 1 AS next FROM trim_points WHERE run_id = ?',
     ),
     insertTrimPoint: db.prepare(
-      `INSERT INTO trim_points (run_id, sequence, position, recorded_at, settled, thd_db, reading_json)
-       VALUES (?, ?, ?, ?, ?, ?, ?)`,
+      `INSERT INTO trim_points (run_id, sequence, position, recorded_at, settled, in_fit, stimulus_hz, stimulus_level_dbfs, thd_db, reading_json)
+       VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`,
     ),
     trimPointById: db.prepare<[number | bigint], TrimPointRow>('SELECT * FROM trim_points WHERE id = ?'),
-    finishRun: db.prepare('UPDATE runs SET finished_at = ?, verdict = ?, verdict_reason = ?, final_thd_db = ? WHERE id = ?'),
+    finishRun: db.prepare(
+      'UPDATE runs SET finished_at = ?, verdict = ?, verdict_reason = ?, verdict_reasons_json = ?, final_thd_db = ? WHERE id = ?',
+    ),
     insertAssessment: db.prepare('INSERT INTO trim_assessments (run_id, after_sequence, assessed_at, assessment_json) VALUES (?, ?, ?, ?)'),
-    assessments: db.prepare<[number], { after_sequence: number; assessment_json: string }>(
-      'SELECT after_sequence, assessment_json FROM trim_assessments WHERE run_id = ? ORDER BY after_sequence',
+    // Assessments after points and after confirmations, in the order they were made: a confirmation
+    // always follows the assessment of the point it came after.
+    assessments: db.prepare<[number, number], { after_sequence: number; assessment_json: string }>(
+      `SELECT after_sequence, assessment_json FROM (
+         SELECT after_sequence, 0 AS kind, id, assessment_json FROM trim_assessments WHERE run_id = ?
+         UNION ALL
+         SELECT after_sequence, 1 AS kind, id, assessment_json FROM point_confirmations WHERE run_id = ?)
+       ORDER BY after_sequence, kind, id`,
+    ),
+    confirmations: db.prepare<[number], { point_id: number; confirmed_at: string }>(
+      'SELECT point_id, confirmed_at FROM point_confirmations WHERE run_id = ?',
+    ),
+    insertConfirmation: db.prepare(
+      'INSERT INTO point_confirmations (run_id, point_id, after_sequence, confirmed_at, assessment_json) VALUES (?, ?, ?, ?, ?)',
+    ),
+    warningLog: db.prepare<[number], WarningChangeRow>('SELECT * FROM warning_changes WHERE run_id = ? ORDER BY id'),
+    insertWarningChange: db.prepare(
+      `INSERT INTO warning_changes (run_id, warning_id, change, at, position, after_sequence, seen, source)
+       VALUES (?, ?, ?, ?, ?, ?, ?, ?)`,
     ),
     insertWarmCheck: db.prepare(
       `INSERT INTO warm_checks (run_id, recorded_at, position, cold_temperature_c, warm_temperature_c, reading_json, result_json)
@@ -119,21 +177,94 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
       finishedAt: row.finished_at,
       verdict: row.verdict,
       verdictReason: row.verdict_reason,
+      verdictReasons: row.verdict_reasons_json
+        ? (JSON.parse(row.verdict_reasons_json) as string[])
+        : row.verdict_reason
+          ? [row.verdict_reason]
+          : [],
       finalThdDb: row.final_thd_db,
       limitThdDb: row.limit_thd_db,
       sheetPdfPath: row.sheet_pdf_path,
     };
   }
 
-  function toTrimPoint(row: TrimPointRow): TrimPoint {
+  function toTrimPoint(row: TrimPointRow, confirmed: ReadonlyMap<number, string>): TrimPoint {
     return {
       id: row.id,
       sequence: row.sequence,
       position: row.position,
       recordedAt: row.recorded_at,
       settled: row.settled === 1,
+      inFit: row.in_fit === 1 || confirmed.has(row.id),
+      confirmedAt: confirmed.get(row.id) ?? null,
+      stimulusHz: row.stimulus_hz,
       reading: JSON.parse(row.reading_json) as Reading,
     };
+  }
+
+  function trimPoints(runId: number): TrimPoint[] {
+    const confirmed = new Map(statements.confirmations.all(runId).map((c) => [c.point_id, c.confirmed_at]));
+    return statements.trimPoints.all(runId).map((row) => toTrimPoint(row, confirmed));
+  }
+
+  function assessmentsOf(runId: number) {
+    return statements.assessments.all(runId, runId).map((a) => ({
+      afterSequence: a.after_sequence,
+      assessment: JSON.parse(a.assessment_json) as TrimAssessment,
+    }));
+  }
+
+  function warningLog(runId: number): WarningLogEntry[] {
+    return statements.warningLog.all(runId).map((row) => ({
+      id: row.warning_id,
+      change: row.change,
+      at: row.at,
+      position: row.position,
+      afterSequence: row.after_sequence,
+      seen: row.seen,
+      source: row.source,
+    }));
+  }
+
+  /**
+   * The assessment of the points the fit may use (settled, or confirmed). Checked against the
+   * contract before anything commits: a record the page cannot read is not written.
+   */
+  function assess(runId: number, trim: Procedure['trim'], live: LiveSeries | null, confirming: number | null = null): TrimAssessment {
+    // Only the points in the fit are passed for now; once assessTrim honours inFit itself, it may be
+    // given every point with its flag.
+    const points = trimPoints(runId)
+      .filter((p) => p.inFit || p.id === confirming)
+      .map((p) => ({ position: p.position, reading: p.reading, inFit: true }));
+    return trimAssessmentSchema.parse(assessTrim(points, trim, live));
+  }
+
+  /** Logs the warnings that appeared or went away from one assessment to the next. */
+  function logAssessedChanges(
+    runId: number,
+    before: TrimAssessment | null,
+    after: TrimAssessment,
+    at: { time: string; position: number; afterSequence: number },
+  ): void {
+    const previous = before?.warnings ?? [];
+    for (const warning of after.warnings) {
+      if (!previous.some((w) => w.id === warning.id)) {
+        statements.insertWarningChange.run(runId, warning.id, 'raised', at.time, at.position, at.afterSequence, warning.seen, 'assessment');
+      }
+    }
+    for (const warning of previous) {
+      if (!after.warnings.some((w) => w.id === warning.id)) {
+        const seen = `no longer seen (was: ${warning.seen})`;
+        statements.insertWarningChange.run(runId, warning.id, 'cleared', at.time, at.position, at.afterSequence, seen, 'assessment');
+      }
+    }
+  }
+
+  /** Warnings the live watch raised and has not reported cleared. */
+  function openLiveWarnings(log: readonly WarningLogEntry[]): { id: string; seen: string }[] {
+    const last = new Map<string, WarningLogEntry>();
+    for (const entry of log) if (entry.source === 'live') last.set(entry.id, entry);
+    return [...last.values()].filter((e) => e.change === 'raised').map((e) => ({ id: e.id, seen: e.seen }));
   }
 
   function runRow(runId: number): RunRow {
@@ -144,10 +275,7 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
 
   function runDetail(runId: number): RunDetail {
     const row = runRow(runId);
-    const assessments = statements.assessments.all(runId).map((a) => ({
-      afterSequence: a.after_sequence,
-      assessment: JSON.parse(a.assessment_json) as TrimAssessment,
-    }));
+    const assessments = assessmentsOf(runId);
     // Each warning as first raised: the record of what the technician was told, and when.
     const warningsRaised: RunDetail['warningsRaised'] = [];
     for (const { afterSequence, assessment } of assessments) {
@@ -158,9 +286,10 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
     const warm = statements.latestWarmCheck.get(runId);
     return {
       run: toRun(row),
-      trimPoints: statements.trimPoints.all(runId).map(toTrimPoint),
+      trimPoints: trimPoints(runId),
       assessment: assessments.at(-1)?.assessment ?? null,
       warningsRaised,
+      warningLog: warningLog(runId),
       warmCheck: warm ? (JSON.parse(warm.result_json) as WarmCheck) : null,
       earlierRuns: statements.earlierRuns.get(row.unit_id, runId)?.count ?? 0,
     };
@@ -212,27 +341,32 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
 
     getRun: runDetail,
 
-    /** Writes the point and the assistant's assessment after it, in one transaction. */
-    recordTrimPoint(request: { runId: number; position: number; reading: Reading; live: LiveSeries | null }): {
-      point: TrimPoint;
-      assessment: TrimAssessment;
-    } {
+    /**
+     * Writes the point, the assistant's assessment after it and the warnings that changed, in one
+     * transaction. Main judges what it can check itself: the stimulus as the page reports it against
+     * the procedure, the reading against the stimulus, and settling.
+     */
+    recordTrimPoint(request: {
+      runId: number;
+      position: number;
+      reading: Reading;
+      live: LiveSeries | null;
+      stimulus: StimulusSetting;
+      unsettled?: 'refuse' | 'record-marked';
+    }): RecordedPoint {
       const row = runRow(request.runId);
       if (row.finished_at) throw new ExpectedFailure(`Run ${row.id} is finished; start a retest to record more trim points.`);
       const { trim } = parseProcedure(row.definition_json);
-      const { position, reading } = request;
+      const { position, reading, stimulus } = request;
       if (position < trim.positionMin || position > trim.positionMax) {
         throw new ExpectedFailure(
           `Trimmer position ${position} is outside ${trim.positionMin}–${trim.positionMax} ${trim.positionUnit}.`,
         );
       }
-      if (reading.flags.includes('no-signal')) {
-        throw new ExpectedFailure('No signal at the input: this reading cannot be recorded. Check the cabling and the generator.');
-      }
-      if (reading.flags.includes('clipping')) {
-        throw new ExpectedFailure('The input is clipping: this reading cannot be recorded. Lower the level into the interface.');
-      }
+      const refusal = whyNotRecordable(reading, stimulus, trim, request.unsettled ?? 'refuse');
+      if (refusal) throw new ExpectedFailure(`This reading cannot be recorded. ${refusal}`);
       return db.transaction(() => {
+        const before = assessmentsOf(row.id).at(-1)?.assessment ?? null;
         const sequence = statements.nextSequence.get(row.id)?.next ?? 1;
         const recordedAt = timestamp();
         const id = statements.insertTrimPoint.run(
@@ -241,15 +375,60 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
           position,
           recordedAt,
           reading.settled ? 1 : 0,
+          reading.settled ? 1 : 0, // an unsettled point joins the fit only when the technician confirms it
+          stimulus.frequencyHz,
+          stimulus.levelDbfs,
           reading.thdDb,
           JSON.stringify(reading),
         ).lastInsertRowid;
-        const point = toTrimPoint(statements.trimPointById.get(id)!);
-        // Checked against the contract before anything commits: a record the page cannot read is not written.
-        const assessment = trimAssessmentSchema.parse(assessTrim(statements.trimPoints.all(row.id).map(toTrimPoint), trim, request.live));
+        const assessment = assess(row.id, trim, request.live);
         statements.insertAssessment.run(row.id, sequence, recordedAt, JSON.stringify(assessment));
-        return { point, assessment };
+        logAssessedChanges(row.id, before, assessment, { time: recordedAt, position, afterSequence: sequence });
+        const point = trimPoints(row.id).find((p) => p.id === Number(id))!;
+        return { point, assessment, warningLog: warningLog(row.id) };
       })();
+    },
+
+    /** The technician confirms an unsettled point: it joins the fit and the verdict, re-assessed and logged. */
+    includeUnsettledPoint(request: { runId: number; pointId: number }): RecordedPoint {
+      const row = runRow(request.runId);
+      if (row.finished_at) throw new ExpectedFailure(`Run ${row.id} is finished; its points can no longer change.`);
+      const { trim } = parseProcedure(row.definition_json);
+      const points = trimPoints(row.id);
+      const point = points.find((p) => p.id === request.pointId);
+      if (!point) throw new ExpectedFailure(`Run ${row.id} has no trim point with id ${request.pointId}.`);
+      if (point.inFit) throw new ExpectedFailure(`Trim point ${point.sequence} is already in the fit.`);
+      const latest = points.at(-1)!;
+      return db.transaction(() => {
+        const before = assessmentsOf(row.id).at(-1)?.assessment ?? null;
+        const confirmedAt = timestamp();
+        const assessment = assess(row.id, trim, null, point.id);
+        statements.insertConfirmation.run(row.id, point.id, latest.sequence, confirmedAt, JSON.stringify(assessment));
+        logAssessedChanges(row.id, before, assessment, { time: confirmedAt, position: latest.position, afterSequence: latest.sequence });
+        return { point: trimPoints(row.id).find((p) => p.id === point.id)!, assessment, warningLog: warningLog(row.id) };
+      })();
+    },
+
+    /** Warning changes the page's live watch saw between points, logged with main's time. */
+    logWarningChanges(request: { runId: number; changes: readonly ReportedWarningChange[] }): { warningLog: WarningLogEntry[] } {
+      const row = runRow(request.runId);
+      if (row.finished_at) throw new ExpectedFailure(`Run ${row.id} is finished; its warning log is closed.`);
+      const { trim } = parseProcedure(row.definition_json);
+      for (const change of request.changes) {
+        if (change.position < trim.positionMin || change.position > trim.positionMax) {
+          throw new ExpectedFailure(
+            `Warning position ${change.position} is outside ${trim.positionMin}–${trim.positionMax} ${trim.positionUnit}.`,
+          );
+        }
+      }
+      const afterSequence = (statements.nextSequence.get(row.id)?.next ?? 1) - 1;
+      const at = timestamp();
+      db.transaction(() => {
+        for (const change of request.changes) {
+          statements.insertWarningChange.run(row.id, change.id, change.change, at, change.position, afterSequence, change.seen, 'live');
+        }
+      })();
+      return { warningLog: warningLog(row.id) };
     },
 
     /**
@@ -260,7 +439,7 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
       const row = runRow(request.runId);
       if (row.finished_at) throw new ExpectedFailure(`Run ${row.id} is finished; the warm re-check belongs before finishing.`);
       const { trim } = parseProcedure(row.definition_json);
-      const points = statements.trimPoints.all(row.id).map(toTrimPoint);
+      const points = trimPoints(row.id);
       const last = points.at(-1);
       if (!last || points.length < 2) throw new ExpectedFailure('Record the trim (at least two points) before the warm re-check.');
       if (request.reading.flags.includes('no-signal')) throw new ExpectedFailure('No signal at the input: the warm reading cannot be recorded.');
@@ -301,17 +480,32 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
       return result;
     },
 
-    /** Judges the run on THD at its last trim point (and not left past the null) and freezes it. */
-    finishRun(runId: number): RunDetail {
-      const row = runRow(runId);
-      if (row.finished_at) return runDetail(runId);
-      const points = statements.trimPoints.all(runId);
-      const last = points.at(-1);
-      if (!last) throw new ExpectedFailure('Record at least one trim point before finishing the run.');
-      const finalThdDb = toTrimPoint(last).reading.thdDb;
-      const { verdict, reason } = judgeTrim(finalThdDb, row.limit_thd_db, runDetail(runId).assessment?.side ?? null);
-      statements.finishRun.run(timestamp(), verdict, reason, finalThdDb, runId);
-      return runDetail(runId);
+    /**
+     * Judges the run (judgeTrimRun) and freezes it. A run that cannot pass is refused with the
+     * reasons, unless the technician asks to finish it as FAIL with them.
+     */
+    finishRun(request: { runId: number; asFailure?: boolean }): RunDetail {
+      const row = runRow(request.runId);
+      if (row.finished_at) return runDetail(row.id);
+      const { trim } = parseProcedure(row.definition_json);
+      const detail = runDetail(row.id);
+      const judged = judgeTrimRun(
+        { trimPoints: detail.trimPoints, assessment: detail.assessment, openLiveWarnings: openLiveWarnings(detail.warningLog) },
+        trim,
+      );
+      if (judged.verdict === 'fail' && !request.asFailure) {
+        throw new ExpectedFailure(
+          `This run cannot pass:\n${judged.reasons.map((r) => `• ${r}`).join('\n')}\nPut that right and finish again, or finish the run as FAIL.`,
+        );
+      }
+      const reasons =
+        judged.verdict === 'pass' && request.asFailure
+          ? ['Finished as FAIL by the technician, although the trim met every condition for a pass.']
+          : judged.reasons;
+      const verdict = reasons.length === 0 ? 'pass' : 'fail';
+      const finalThdDb = detail.trimPoints.at(-1)?.reading.thdDb ?? null;
+      statements.finishRun.run(timestamp(), verdict, reasons.join(' ') || null, JSON.stringify(reasons), finalThdDb, row.id);
+      return runDetail(row.id);
     },
 
     setSheetPath(runId: number, path: string): void {

@@ -188,14 +188,20 @@ export function App() {
   async function recordPoint(position: number, current: Reading, live: LiveSeries) {
     if (!detail) return;
     // Shown as recorded only after main has written it (and its assessment) to the database.
-    const { point, assessment } = await call('recordTrimPoint', { runId: detail.run.id, position, reading: current, live });
+    const { point, assessment, warningLog } = await call('recordTrimPoint', {
+      runId: detail.run.id,
+      position,
+      reading: current,
+      live,
+      stimulus: generatorRef.current,
+    });
     setDetail((d) => {
       if (!d) return d;
       const warningsRaised = [...d.warningsRaised];
       for (const warning of assessment.warnings) {
         if (!warningsRaised.some((w) => w.id === warning.id)) warningsRaised.push({ ...warning, afterSequence: point.sequence });
       }
-      return { ...d, trimPoints: [...d.trimPoints, point], assessment, warningsRaised };
+      return { ...d, trimPoints: [...d.trimPoints, point], assessment, warningsRaised, warningLog };
     });
   }
 

@@ -6,6 +6,8 @@ export const IPC_CHANNELS = [
   'listProcedures',
   'openRun',
   'recordTrimPoint',
+  'includeUnsettledPoint',
+  'logWarningChanges',
   'recordWarmCheck',
   'finishRun',
   'saveSheetPdf',

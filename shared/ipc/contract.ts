@@ -72,8 +72,10 @@ export const runSchema = z.object({
   startedAt: z.string(),
   finishedAt: z.string().nullable(),
   verdict: z.enum(['pass', 'fail']).nullable(),
-  /** Why a run failed (the limit missed, or left past the null). */
+  /** Why a run failed, as one text (kept for runs finished before verdictReasons). */
   verdictReason: z.string().nullable(),
+  /** Why a run failed, one plain sentence each; empty on a pass. */
+  verdictReasons: z.array(z.string()),
   finalThdDb: finite.nullable(),
   limitThdDb: finite,
   sheetPdfPath: z.string().nullable(),
@@ -84,7 +86,14 @@ export const trimPointSchema = z.object({
   sequence: z.number().int().positive(),
   position: finite,
   recordedAt: z.string(),
+  /** False: recorded deliberately before the reading settled (marked everywhere). */
   settled: z.boolean(),
+  /** In the fit and the verdict: settled points, and unsettled ones the technician confirmed. */
+  inFit: z.boolean(),
+  /** When the technician confirmed an unsettled point into the fit; null otherwise. */
+  confirmedAt: z.string().nullable(),
+  /** The generator's frequency for this point; null for points stored before it was recorded. */
+  stimulusHz: finite.nullable(),
   reading: readingSchema,
 });
 
@@ -128,6 +137,21 @@ export const warmCheckSchema = z.object({
   untrackedDrift: finite.nonnegative(),
 });
 
+const warningIdSchema = warningSchema.shape.id;
+
+/** One raised or cleared warning: from main's successive assessments or the page's live watch. */
+export const warningLogEntrySchema = z.object({
+  id: warningIdSchema,
+  change: z.enum(['raised', 'cleared']),
+  /** ISO 8601 with its zone. */
+  at: z.string(),
+  position: finite,
+  /** The trim point after which it happened (0: before the first). */
+  afterSequence: z.number().int().nonnegative(),
+  seen: z.string(),
+  source: z.enum(['assessment', 'live']),
+});
+
 export const runDetailSchema = z.object({
   run: runSchema,
   trimPoints: z.array(trimPointSchema),
@@ -135,12 +159,38 @@ export const runDetailSchema = z.object({
   assessment: trimAssessmentSchema.nullable(),
   /** Every warning raised during the run, with the point after which it was first raised. */
   warningsRaised: z.array(warningSchema.extend({ afterSequence: z.number().int() })),
+  /** Every raise and clear of a warning during the run, in order. */
+  warningLog: z.array(warningLogEntrySchema),
   warmCheck: warmCheckSchema.nullable(),
   /** Earlier finished runs of the same serial (retests are new runs). */
   earlierRuns: z.number().int().nonnegative(),
 });
 
 const runRef = z.object({ runId: rowId }).strict();
+
+/** The generator as it was when the reading was taken (the page holds it; main judges it). */
+const stimulusSettingSchema = z
+  .object({ on: z.boolean(), frequencyHz: finite.positive().max(200_000), levelDbfs: finite.min(-200).max(0) })
+  .strict();
+
+/** Bounds on what the page may report at once: a burst of changes, each with a short description. */
+export const MAX_WARNING_CHANGES_PER_CALL = 32;
+export const MAX_WARNING_SEEN_CHARS = 400;
+
+const warningChangeSchema = z
+  .object({
+    id: warningIdSchema,
+    change: z.enum(['raised', 'cleared']),
+    position: finite.min(-1e6).max(1e6),
+    seen: z.string().min(1).max(MAX_WARNING_SEEN_CHARS),
+  })
+  .strict();
+
+const recordedPointResponse = z.object({
+  point: trimPointSchema,
+  assessment: trimAssessmentSchema,
+  warningLog: z.array(warningLogEntrySchema),
+});
 const nothing = z.object({}).strict();
 
 export const contract = {
@@ -164,9 +214,20 @@ export const contract = {
         reading: readingSchema,
         /** Live readings since the trimmer last moved, for the warnings that need a series. */
         live: z.object({ levelsDbfs: z.array(finite).max(600), lfDbfs: z.array(finite).max(600) }).strict().nullable(),
+        stimulus: stimulusSettingSchema,
+        /** 'record-marked' is the deliberate, distinct action for a reading that has not settled. */
+        unsettled: z.enum(['refuse', 'record-marked']).default('refuse'),
       })
       .strict(),
-    response: z.object({ point: trimPointSchema, assessment: trimAssessmentSchema }),
+    response: recordedPointResponse,
+  },
+  includeUnsettledPoint: {
+    request: z.object({ runId: rowId, pointId: rowId }).strict(),
+    response: recordedPointResponse,
+  },
+  logWarningChanges: {
+    request: z.object({ runId: rowId, changes: z.array(warningChangeSchema).min(1).max(MAX_WARNING_CHANGES_PER_CALL) }).strict(),
+    response: z.object({ warningLog: z.array(warningLogEntrySchema) }),
   },
   recordWarmCheck: {
     request: z
@@ -179,7 +240,10 @@ export const contract = {
       .strict(),
     response: warmCheckSchema,
   },
-  finishRun: { request: runRef, response: runDetailSchema },
+  finishRun: {
+    request: z.object({ runId: rowId, asFailure: z.boolean().optional() }).strict(),
+    response: runDetailSchema,
+  },
   saveSheetPdf: { request: runRef, response: z.object({ path: z.string(), alreadySaved: z.boolean() }) },
   printSheet: { request: runRef, response: z.object({ printed: z.boolean() }) },
 } satisfies Record<IpcChannel, { request: z.ZodType; response: z.ZodType }>;
@@ -203,3 +267,5 @@ export type Run = z.infer<typeof runSchema>;
 export type TrimPoint = z.infer<typeof trimPointSchema>;
 export type RunDetail = z.infer<typeof runDetailSchema>;
 export type WarmCheck = z.infer<typeof warmCheckSchema>;
+export type WarningLogEntry = z.infer<typeof warningLogEntrySchema>;
+export type StimulusSettingRequest = z.infer<typeof stimulusSettingSchema>;

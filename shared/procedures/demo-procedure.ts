@@ -6,7 +6,7 @@ import { PROCEDURE_SCHEMA_VERSION, type Procedure } from './procedure.ts';
 export const DEMO_PROCEDURE: Procedure = {
   schemaVersion: PROCEDURE_SCHEMA_VERSION,
   code: 'MG20-LF-TRIM',
-  revision: 'A',
+  revision: 'B',
   title: 'MG-20 low-frequency compensation trim (demo — invented values)',
   invented: true,
   model: {
@@ -18,6 +18,13 @@ export const DEMO_PROCEDURE: Procedure = {
   trim: {
     stimulusHz: 14,
     stimulusLevelDbfs: -12,
+    // Invented. The demo unit (shared/sim/demo-unit.ts) returns its −12 dBFS stimulus at −12.3 dBFS
+    // at the safe end and −11.7 dBFS just short of oscillation (about 6 turns): the window leaves
+    // 3 dB either side of that for the interface's own gain, and refuses a capture 16 dB low.
+    expectedLevelDbfs: { low: -15, high: -9 },
+    // Invented. A 14 Hz tone read from a 12-cycle frame is good to far better than 1 %; a tone 1 %
+    // away is another source (or the unit oscillating on its own).
+    frequencyTolerancePercent: 1,
     positionUnit: 'turns',
     positionMin: 0,
     positionMax: 10,

@@ -5,6 +5,18 @@ import { z } from 'zod';
 
 export const PROCEDURE_SCHEMA_VERSION = 1;
 
+/**
+ * How far (percent of the procedure's stimulus frequency) a planned coherent test frequency may
+ * move from it. The harmonics then stay within the same few percent of where the procedure put
+ * them, which a trim at a sub-audio-adjacent frequency tolerates; further than that it is no longer
+ * the procedure's measurement (a 14 Hz step run at 15.5 Hz is 10 % off). Main refuses a trim point
+ * whose stimulus is further than this; the planner keeps within it.
+ */
+export const PLANNED_FREQUENCY_TOLERANCE_PERCENT = 3;
+
+/** Tolerance for "the generator is at the procedure's level": typed or planned levels are exact. */
+export const STIMULUS_LEVEL_TOLERANCE_DB = 0.01;
+
 export const procedureSchema = z.object({
   schemaVersion: z.literal(PROCEDURE_SCHEMA_VERSION),
   code: z.string().min(1).max(40),
@@ -25,6 +37,19 @@ export const procedureSchema = z.object({
   trim: z.object({
     stimulusHz: z.number().positive(),
     stimulusLevelDbfs: z.number().max(0),
+    /**
+     * The window (dBFS) the captured fundamental must lie in at this step with the generator at
+     * stimulusLevelDbfs: it holds the unit at any trimmer setting short of oscillation and refuses
+     * what is not the unit's answer to the stimulus (wrong channel, unit off, wrong gain).
+     * Revision A procedures were stored without it: null, and then only the frequency is checked.
+     */
+    expectedLevelDbfs: z
+      .object({ low: z.number().max(0), high: z.number().max(0) })
+      .refine((w) => w.low < w.high, 'low must be below high')
+      .nullable()
+      .default(null),
+    /** How far (percent) the captured fundamental may lie from the generator's frequency. */
+    frequencyTolerancePercent: z.number().positive().max(20).default(1),
     positionUnit: z.string().min(1).max(20),
     positionMin: z.number(),
     positionMax: z.number(),
