@@ -29,7 +29,7 @@ export interface JudgedPoint {
 export interface JudgedRun {
   trimPoints: readonly JudgedPoint[];
   /** The latest assessment (after the final point, and after any confirmation). */
-  assessment: (TrimAssessment & { fitProblem?: string | null }) | null;
+  assessment: TrimAssessment | null;
   /** Warnings the live watch raised and has not cleared (from the run's warning log). */
   openLiveWarnings?: readonly { id: string; seen: string }[];
 }

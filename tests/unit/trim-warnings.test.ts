@@ -31,6 +31,7 @@ function reading(position: number, extra: { lf?: number; thdDb?: number; frequen
     noiseDbfs: -110,
     noiseAWeightedDbfs: -112,
     hum: null,
+    mainsCoincidentOrders: [],
     flags: extra.flags ?? [],
     sequence: 1,
     sampleRateHz: 48000,
@@ -38,6 +39,7 @@ function reading(position: number, extra: { lf?: number; thdDb?: number; frequen
     discontinuities: 0,
     settled: true,
     settleProgress: 1,
+    settleRemainingS: 0,
     subAudioDbfs: extra.lf ?? -100,
   } as Reading;
 }

@@ -15,6 +15,7 @@ const assessment: TrimAssessment = {
   harmonicOrder: 3,
   model: 'phasor',
   reason: 'phases agree with a straight line',
+  fitProblem: null,
   nullPosition: 5,
   nullPositionPlusMinus: 0.05,
   nullLevelDbc: -70,
