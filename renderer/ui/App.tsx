@@ -281,6 +281,14 @@ export function App() {
     }
   }, [openProcedure, choice.sharedClock, choice.mainsHz, choice.sampleRateHz, captureRateHz, applyGenerator]);
 
+  // Back from the sheet, the next unit's serial is what comes next (the scanner types into it).
+  const returnedFromSheet = useRef(false);
+  useEffect(() => {
+    if (view !== 'bench' || !returnedFromSheet.current) return;
+    returnedFromSheet.current = false;
+    serialInputRef.current?.focus();
+  }, [view]);
+
   // The sheet is saved as PDF as soon as it is on screen (the PDF is made from this view).
   useEffect(() => {
     if (view !== 'sheet' || !detail || sheetPdfPath) return;
@@ -320,6 +328,7 @@ export function App() {
           setView('bench');
           setDetail(null);
           setSheetPdfPath(null);
+          returnedFromSheet.current = true;
         }}
       />
     );

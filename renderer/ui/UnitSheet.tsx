@@ -47,7 +47,8 @@ export function UnitSheet({
         <button type="button" ref={printButton} className="primary" onClick={onPrint} data-testid="sheet-print">
           Print…
         </button>
-        <button type="button" onClick={onBack} data-testid="sheet-back">
+        {/* Not while the PDF is being made: it is rendered from this view. */}
+        <button type="button" onClick={onBack} data-testid="sheet-back" disabled={!pdfPath && !message}>
           Back to the bench (next unit)
         </button>
         <span className="hint" data-testid="sheet-pdf-path">
