@@ -129,6 +129,8 @@ export function TrimPanel({
       return 'The reading still includes the previous trimmer position: wait a moment, then record.';
     }
     if (reading === recordedReading.current) return 'This reading is already recorded. Move the trimmer, or wait for the next reading.';
+    // A repeated Enter must not fill the table with copies of the point just recorded.
+    if (last && last.position === position) return `Point ${last.sequence} is already at ${fixed(position, 2)} ${trim.positionUnit}: move the trimmer first.`;
     return null;
   }
 
@@ -289,6 +291,7 @@ export function TrimPanel({
           positionUnit={trim.positionUnit}
         />
       )}
+      <div className="table-scroll">
       <table className="points" data-testid="trim-points">
         <thead>
           <tr>
@@ -296,7 +299,7 @@ export function TrimPanel({
             <th scope="col">Position</th>
             <th scope="col">{harmonic}, dBc</th>
             <th scope="col">THD, dB</th>
-            <th scope="col">THD</th>
+            <th scope="col">THD, %</th>
             <th scope="col">Level, dBFS</th>
             <th scope="col">Settled</th>
           </tr>
@@ -308,13 +311,17 @@ export function TrimPanel({
               <td>{fixed(p.position, 2)}</td>
               <td>{fixed(p.reading.harmonics.find((h) => h.order === trim.harmonicOrder)?.levelDbc, 1)}</td>
               <td>{fixed(p.reading.thdDb, 1)}</td>
-              <td>{percent(p.reading.thdPercent)}</td>
+              <td>{percent(p.reading.thdPercent).replace(' %', '')}</td>
               <td>{fixed(p.reading.fundamental.levelDbfs, 2)}</td>
-              <td className={p.settled ? undefined : 'unsettled'}>{p.settled ? 'yes' : 'no (unsettled)'}</td>
+              <td className={p.settled ? undefined : 'unsettled'}>{p.settled ? 'yes' : 'unsettled'}</td>
             </tr>
           ))}
         </tbody>
       </table>
+      </div>
+      {trimPoints.some((p) => !p.settled) && (
+        <p className="hint">Unsettled points are marked in red: they stay out of the curve fit and the verdict unless you include them.</p>
+      )}
       {trimPoints.length >= 2 && <WarmCheckForm reading={reading} existing={detail.warmCheck} onWarmCheck={onWarmCheck} />}
       <div className="row">
         <button type="button" onClick={() => void finish()} disabled={busy || trimPoints.length === 0} data-testid="finish-run">

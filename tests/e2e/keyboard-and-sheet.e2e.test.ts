@@ -81,7 +81,7 @@ describe('the trim from the keyboard', () => {
       if ((await latest(page)).settled) continue;
       await page.getByTestId('record-unsettled').click();
       await page.getByTestId('confirm-unsettled').click();
-      await expect.poll(() => page.getByTestId('trim-points').textContent()).toMatch(/no \(unsettled\)/);
+      await expect.poll(() => page.getByTestId('trim-points').textContent()).toMatch(/unsettled/);
       recordedUnsettled = true;
     }
     expect(recordedUnsettled).toBe(true);
