@@ -5,7 +5,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { execFileSync } from 'node:child_process';
 import { join } from 'node:path';
 import type { Page } from 'playwright-core';
-import { openBench, type Bench } from '../harness/bench-harness.ts';
+import { openBench, type Bench, POLL } from '../harness/bench-harness.ts';
 import type { Reading } from '../../shared/measurement/reading.ts';
 import { tempDir } from '../support/station.ts';
 import { writeToneWav } from '../support/wav-files.ts';
@@ -43,7 +43,7 @@ async function settledReading(page: Page, afterSequence = 0, timeoutMs = 30_000)
 
 async function startCapture(page: Page) {
   await page.getByRole('button', { name: 'Start capture' }).click();
-  await expect.poll(() => page.getByTestId('capture-status').isVisible()).toBe(true);
+  await expect.poll(() => page.getByTestId('capture-status').isVisible(), POLL).toBe(true);
 }
 
 async function openUnit(page: Page, serial: string) {
@@ -103,17 +103,17 @@ describe('the readout tells the technician what is true', () => {
     await startCapture(page);
     // Chromium's fake capture device runs at 44.1 kHz whatever is asked (DEVELOPERS.md, from
     // observation), while the station's default choice is 48 kHz: the difference is said.
-    await expect.poll(() => page.getByTestId('capture-status').textContent()).toMatch(/Capturing at 44\.1 kHz/);
+    await expect.poll(() => page.getByTestId('capture-status').textContent(), POLL).toMatch(/Capturing at 44\.1 kHz/);
     expect(await page.getByTestId('rate-note').textContent()).toMatch(/44\.1 kHz, not the 48 kHz chosen/);
     expect(await page.getByTestId('capture-status').textContent()).not.toMatch(/worklet|track processor/i);
     // Before a unit is opened the generator holds no made-up tone.
     expect(await page.getByLabel('Frequency, Hz (Enter applies)').inputValue()).toBe('');
     await openUnit(page, 'MG20-2611-0044');
     // The demo procedure's stimulus (shared/procedures/demo-procedure.ts, invented): 14 Hz.
-    await expect.poll(() => page.getByLabel('Frequency, Hz (Enter applies)').inputValue()).toBe('14');
+    await expect.poll(() => page.getByLabel('Frequency, Hz (Enter applies)').inputValue(), POLL).toBe('14');
     // The tone's THD is about −50 dB by construction; the demo procedure's limit is −60 dB.
     await settledReading(page);
-    await expect.poll(() => page.getByTestId('thd-limit').textContent()).toMatch(/limit ≤ −60\.0 dB: above the limit/);
+    await expect.poll(() => page.getByTestId('thd-limit').textContent(), POLL).toMatch(/limit ≤ −60\.0 dB: above the limit/);
     await recordAt(page, '0');
     // The THD % cell ("0.316 %") stays on one line: its height is one line of text.
     const { cellPx, linePx } = await page.evaluate(() => {
@@ -130,14 +130,14 @@ describe('records through the bridged handlers', () => {
     let page = await bench.openApp();
     await startCapture(page);
     await openUnit(page, SERIAL);
-    await expect.poll(() => page.getByTestId('run-serial').textContent()).toBe(SERIAL);
+    await expect.poll(() => page.getByTestId('run-serial').textContent(), POLL).toBe(SERIAL);
     for (const position of ['0', '1.5', '3']) await recordAt(page, position);
 
     await page.close();
     page = await bench.openApp();
     await openUnit(page, SERIAL);
     const rows = page.getByTestId('trim-points').locator('tbody tr');
-    await expect.poll(() => rows.count()).toBe(3);
+    await expect.poll(() => rows.count(), POLL).toBe(3);
     expect(await rows.nth(1).locator('td').nth(1).textContent()).toBe('1.50');
     const stored = bench.station.db
       .prepare('SELECT p.position FROM trim_points p JOIN runs r ON r.id = p.run_id JOIN units u ON u.id = r.unit_id WHERE u.serial = ? ORDER BY p.sequence')
@@ -151,7 +151,7 @@ describe('records through the bridged handlers', () => {
     const page = await bench.openApp();
     await startCapture(page);
     await openUnit(page, serial);
-    await expect.poll(() => page.getByTestId('run-serial').textContent()).toBe(serial);
+    await expect.poll(() => page.getByTestId('run-serial').textContent(), POLL).toBe(serial);
     for (const position of ['0', '1.5']) await recordAt(page, position);
     await page.getByTestId('finish-run').click();
     const pathText = page.getByTestId('sheet-pdf-path');
@@ -169,10 +169,10 @@ describe('records through the bridged handlers', () => {
   it('says why a malformed serial is refused and opens nothing', async () => {
     const page = await bench.openApp();
     await openUnit(page, 'MG20-26110042');
-    await expect.poll(() => page.getByTestId('serial-message').textContent()).toMatch(/not a MG-20 serial number/);
+    await expect.poll(() => page.getByTestId('serial-message').textContent(), POLL).toMatch(/not a MG-20 serial number/);
     await page.getByTestId('serial-input').fill('');
     await page.getByTestId('serial-input').press('Enter');
-    await expect.poll(() => page.getByTestId('serial-message').textContent()).toBe('Enter or scan a serial number.');
+    await expect.poll(() => page.getByTestId('serial-message').textContent(), POLL).toBe('Enter or scan a serial number.');
     expect(await page.getByTestId('run-serial').count()).toBe(0);
   });
 });
@@ -183,10 +183,10 @@ describe('a station with no audio input', () => {
     try {
       const page = await bare.openApp();
       // With no interface the demo bench is chosen for the technician; ask for a real input.
-      await expect.poll(() => page.getByTestId('input-select').inputValue()).toBe('demo-bench');
+      await expect.poll(() => page.getByTestId('input-select').inputValue(), POLL).toBe('demo-bench');
       await page.getByTestId('input-select').selectOption('');
       await page.getByRole('button', { name: 'Start capture' }).click();
-      await expect.poll(() => page.getByTestId('audio-problem').textContent()).toMatch(/No audio input device found/);
+      await expect.poll(() => page.getByTestId('audio-problem').textContent(), POLL).toMatch(/No audio input device found/);
     } finally {
       await bare.close();
     }

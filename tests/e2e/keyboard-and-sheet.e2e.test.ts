@@ -6,7 +6,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { execFileSync } from 'node:child_process';
 import { copyFileSync } from 'node:fs';
 import type { Page } from 'playwright-core';
-import { openBench, type Bench } from '../harness/bench-harness.ts';
+import { openBench, type Bench, POLL } from '../harness/bench-harness.ts';
 import { readingWithThd } from '../support/station.ts';
 
 let bench: Bench;
@@ -25,7 +25,7 @@ async function openUnitByKeyboard(page: Page, serial: string) {
   await page.getByTestId('serial-input').focus();
   await page.keyboard.type(serial);
   await page.keyboard.press('Enter');
-  await expect.poll(() => page.getByTestId('run-serial').textContent()).toBe(serial);
+  await expect.poll(() => page.getByTestId('run-serial').textContent(), POLL).toBe(serial);
 }
 
 describe('the trim from the keyboard', () => {
@@ -34,7 +34,7 @@ describe('the trim from the keyboard', () => {
     await expect.poll(() => page.getByTestId('input-select').inputValue(), { timeout: 10_000 }).toBe('demo-bench');
     await page.getByRole('button', { name: 'Start capture' }).focus();
     await page.keyboard.press('Enter');
-    await expect.poll(() => page.getByTestId('capture-status').isVisible()).toBe(true);
+    await expect.poll(() => page.getByTestId('capture-status').isVisible(), POLL).toBe(true);
     await openUnitByKeyboard(page, 'MG20-2611-0101');
     expect(await focusedTestId(page)).toBe('position-input');
 
@@ -42,16 +42,16 @@ describe('the trim from the keyboard', () => {
     // so the next Enter is the record key, not "Turn off".
     await page.getByTestId('generator-toggle').focus();
     await page.keyboard.press('Enter');
-    await expect.poll(() => generatorOn(page)).toBe(true);
+    await expect.poll(() => generatorOn(page), POLL).toBe(true);
     expect(await focusedTestId(page)).toBe('position-input');
     await page.keyboard.press('Enter');
     expect(await generatorOn(page)).toBe(true);
 
     // G (shown in the trim step) turns it off and on from the position field.
     await page.keyboard.press('g');
-    await expect.poll(() => generatorOn(page)).toBe(false);
+    await expect.poll(() => generatorOn(page), POLL).toBe(false);
     await page.keyboard.press('g');
-    await expect.poll(() => generatorOn(page)).toBe(true);
+    await expect.poll(() => generatorOn(page), POLL).toBe(true);
 
     // Enter pressed every 1.5 s straight after a move: whatever it records must be settled.
     await page.getByTestId('position-input').fill('1');
@@ -76,12 +76,12 @@ describe('the trim from the keyboard', () => {
       if (!(await page.getByTestId('unsettled-confirm').isVisible())) continue;
       const before = (bench.station.db.prepare('SELECT COUNT(*) AS n FROM trim_points').get() as { n: number }).n;
       await page.keyboard.press('Enter'); // lands on Cancel
-      await expect.poll(() => page.getByTestId('unsettled-confirm').count()).toBe(0);
+      await expect.poll(() => page.getByTestId('unsettled-confirm').count(), POLL).toBe(0);
       expect((bench.station.db.prepare('SELECT COUNT(*) AS n FROM trim_points').get() as { n: number }).n).toBe(before);
       if ((await latest(page)).settled) continue;
       await page.getByTestId('record-unsettled').click();
       await page.getByTestId('confirm-unsettled').click();
-      await expect.poll(() => page.getByTestId('trim-points').textContent()).toMatch(/unsettled/);
+      await expect.poll(() => page.getByTestId('trim-points').textContent(), POLL).toMatch(/unsettled/);
       recordedUnsettled = true;
     }
     expect(recordedUnsettled).toBe(true);
@@ -90,15 +90,15 @@ describe('the trim from the keyboard', () => {
     // Closing the unit mutes the generator and sends the keyboard to the serial field.
     await page.getByTestId('close-unit').focus();
     await page.keyboard.press('Enter');
-    await expect.poll(() => generatorOn(page)).toBe(false);
-    await expect.poll(() => focusedTestId(page)).toBe('serial-input');
+    await expect.poll(() => generatorOn(page), POLL).toBe(false);
+    await expect.poll(() => focusedTestId(page), POLL).toBe('serial-input');
   });
 
   it('after Finish lands on the sheet’s Print, and back from the sheet on the serial field', { timeout: 120_000 }, async () => {
     const page = await bench.openApp();
     await expect.poll(() => page.getByTestId('input-select').inputValue(), { timeout: 10_000 }).toBe('demo-bench');
     await page.getByRole('button', { name: 'Start capture' }).click();
-    await expect.poll(() => page.getByTestId('capture-status').isVisible()).toBe(true);
+    await expect.poll(() => page.getByTestId('capture-status').isVisible(), POLL).toBe(true);
     await openUnitByKeyboard(page, 'MG20-2611-0102');
     await page.keyboard.press('g');
     await page.waitForFunction(() => JSON.parse(document.querySelector('[data-testid=reading-json]')?.getAttribute('data-reading') ?? '{}').settled === true, undefined, { timeout: 60_000 });
@@ -106,12 +106,12 @@ describe('the trim from the keyboard', () => {
     await expect.poll(async () => (await page.getByTestId('position-input').press('Enter'), rows.count()), { timeout: 30_000, interval: 1500 }).toBe(1);
     await page.getByTestId('finish-run').focus();
     await page.keyboard.press('Enter');
-    await expect.poll(() => page.getByTestId('sheet-verdict').isVisible()).toBe(true);
-    await expect.poll(() => focusedTestId(page)).toBe('sheet-print');
+    await expect.poll(() => page.getByTestId('sheet-verdict').isVisible(), POLL).toBe(true);
+    await expect.poll(() => focusedTestId(page), POLL).toBe('sheet-print');
     await expect.poll(() => page.getByTestId('sheet-pdf-path').textContent(), { timeout: 20_000 }).toMatch(/^Saved as /);
     await page.getByTestId('sheet-back').focus();
     await page.keyboard.press('Enter');
-    await expect.poll(() => focusedTestId(page)).toBe('serial-input');
+    await expect.poll(() => focusedTestId(page), POLL).toBe('serial-input');
     expect(await generatorOn(page)).toBe(false);
   });
 });
@@ -134,7 +134,7 @@ async function sheetPdf(serial: string, positions: number[]): Promise<{ pages: s
   for (const position of positions) bench.station.records.recordTrimPoint({ runId: run.id, position, reading: trimReading(position), live: null });
   const page = await bench.openApp();
   await openUnitByKeyboard(page, serial); // reopens the run with its points
-  await expect.poll(() => page.getByTestId('trim-points').locator('tbody tr').count()).toBe(positions.length);
+  await expect.poll(() => page.getByTestId('trim-points').locator('tbody tr').count(), POLL).toBe(positions.length);
   await page.getByTestId('finish-run').click();
   await expect.poll(() => page.getByTestId('sheet-pdf-path').textContent(), { timeout: 20_000 }).toMatch(/^Saved as /);
   const pdfPath = (await page.getByTestId('sheet-pdf-path').textContent())!.replace(/^Saved as /, '');

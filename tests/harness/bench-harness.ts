@@ -16,6 +16,8 @@ import { openStation } from '../../electron/services/station.ts';
 import { SHEET_PDF } from '../../electron/main/sheet-pdf.ts';
 
 export const RENDERER_DIR = fileURLToPath(new URL('../../out/renderer/', import.meta.url));
+/** How long a browser test waits for the page to show something: generous, as Chromium shares the machine. */
+export const POLL = { timeout: 15_000 } as const;
 export const CHROMIUM_PATH = process.env['TRIMBENCH_CHROMIUM'] ?? '/usr/bin/chromium';
 
 const MIME: Record<string, string> = {
