@@ -9,6 +9,7 @@ import { IPC_CHANNELS, ipcChannelName } from '../../shared/ipc/channels.ts';
 import { dispatch, type CallerContext } from '../services/handlers.ts';
 import { openStation } from '../services/station.ts';
 import { securityPolicy } from './security-policy.ts';
+import { MM_PER_INCH, SHEET_PDF } from './sheet-pdf.ts';
 
 const APP_SCHEME = 'trimbench';
 const APP_ORIGIN = `${APP_SCHEME}://app`;
@@ -56,7 +57,21 @@ function lockDownSessions(): void {
 
 function callerContext(sender: WebContents): CallerContext {
   return {
-    printToPdf: async () => sender.printToPDF({ pageSize: 'A4', printBackground: true }),
+    printToPdf: async () =>
+      sender.printToPDF({
+        pageSize: 'A4',
+        printBackground: true,
+        displayHeaderFooter: SHEET_PDF.displayHeaderFooter,
+        headerTemplate: SHEET_PDF.headerTemplate,
+        footerTemplate: SHEET_PDF.footerTemplate,
+        // printToPDF takes margins in inches.
+        margins: {
+          top: SHEET_PDF.marginsMm.top / MM_PER_INCH,
+          bottom: SHEET_PDF.marginsMm.bottom / MM_PER_INCH,
+          left: SHEET_PDF.marginsMm.left / MM_PER_INCH,
+          right: SHEET_PDF.marginsMm.right / MM_PER_INCH,
+        },
+      }),
     print: () => new Promise((resolve) => sender.print({ silent: false, printBackground: true }, (success) => resolve(success))),
   };
 }

@@ -11,7 +11,7 @@ import { GeneratorControls } from './GeneratorControls.tsx';
 import { LiveReadout } from './LiveReadout.tsx';
 import { SafetyNotice } from './SafetyNotice.tsx';
 import { SpectrumPlot } from './SpectrumPlot.tsx';
-import { TrimPanel } from './TrimPanel.tsx';
+import { TrimPanel, type UnsettledChoice } from './TrimPanel.tsx';
 import { UnitEntry } from './UnitEntry.tsx';
 import { UnitSheet } from './UnitSheet.tsx';
 
@@ -36,7 +36,13 @@ export function App() {
   const [audioProblem, setAudioProblem] = useState<string | null>(null);
   const [discontinuities, setDiscontinuities] = useState(0);
   const [generator, setGeneratorState] = useState<GeneratorCommand>({ frequencyHz: 1000, levelDbfs: -20, on: false });
+  // Until a unit's procedure (or the technician) sets the stimulus, the fields show nothing rather
+  // than a made-up tone.
+  const [generatorSet, setGeneratorSet] = useState(false);
   const [stimulusNote, setStimulusNote] = useState<string | null>(null);
+  // Where the keyboard goes next: the next Enter must record or open a unit, never mute.
+  const positionInputRef = useRef<HTMLInputElement>(null);
+  const serialInputRef = useRef<HTMLInputElement>(null);
   /** The position typed in the trim step; on the demo bench it turns the virtual trimmer. */
   const [trimmerTurns, setTrimmerTurns] = useState(0);
 
@@ -85,25 +91,48 @@ export function App() {
 
   const applyGenerator = useCallback((command: GeneratorCommand) => {
     setGeneratorState(command);
+    setGeneratorSet(true);
+    generatorRef.current = command;
     audioRef.current?.setGenerator(command);
   }, []);
 
   const mute = useCallback(() => {
     setGeneratorState((current) => ({ ...current, on: false }));
+    generatorRef.current = { ...generatorRef.current, on: false };
     audioRef.current?.mute();
   }, []);
 
-  // Esc mutes the generator from anywhere, even while typing in a field.
+  const generatorRef = useRef(generator);
+  generatorRef.current = generator;
+  const generatorSetRef = useRef(generatorSet);
+  generatorSetRef.current = generatorSet;
+
+  /** On/off from the generator panel, the trim step's button or the G key. */
+  const toggleGenerator = useCallback(() => {
+    if (generatorRef.current.on) return mute();
+    if (!audioRef.current || !generatorSetRef.current) return;
+    applyGenerator({ ...generatorRef.current, on: true });
+    // Focus leaves the button that turned it on (whose next Enter would mute it) for the field
+    // whose Enter is the next step: record a point, or open a unit.
+    (positionInputRef.current ?? serialInputRef.current)?.focus();
+  }, [applyGenerator, mute]);
+
+  // Esc mutes the generator from anywhere, even while typing in a field. G turns it on or off
+  // wherever G cannot be typed: outside text fields, and in the trim position field (numbers only).
   useEffect(() => {
     const onKey = (event: KeyboardEvent) => {
-      if (event.key === 'Escape') mute();
+      if (event.key === 'Escape') return mute();
+      if ((event.key === 'g' || event.key === 'G') && !event.ctrlKey && !event.altKey && !event.metaKey) {
+        const target = event.target as HTMLElement | null;
+        const typing = target !== null && (target.isContentEditable || /^(INPUT|TEXTAREA|SELECT)$/.test(target.tagName));
+        if (typing && target !== positionInputRef.current) return;
+        event.preventDefault();
+        toggleGenerator();
+      }
     };
     window.addEventListener('keydown', onKey, { capture: true });
     return () => window.removeEventListener('keydown', onKey, { capture: true });
-  }, [mute]);
-
-  const generatorRef = useRef(generator);
-  generatorRef.current = generator;
+  }, [mute, toggleGenerator]);
   const [starting, setStarting] = useState(false);
 
   function clearLiveState() {
@@ -185,15 +214,17 @@ export function App() {
     }
   }
 
-  async function recordPoint(position: number, current: Reading, live: LiveSeries) {
+  async function recordPoint(position: number, current: Reading, live: LiveSeries, unsettled: UnsettledChoice) {
     if (!detail) return;
     // Shown as recorded only after main has written it (and its assessment) to the database.
+    // `unsettled` is 'record-marked' only from the deliberate "Record unsettled…" confirmation.
     const { point, assessment, warningLog } = await call('recordTrimPoint', {
       runId: detail.run.id,
       position,
       reading: current,
       live,
       stimulus: generatorRef.current,
+      unsettled,
     });
     setDetail((d) => {
       if (!d) return d;
@@ -210,6 +241,12 @@ export function App() {
     const warmCheck = await call('recordWarmCheck', { runId: detail.run.id, ...request });
     setDetail((d) => (d ? { ...d, warmCheck } : d));
     return warmCheck;
+  }
+
+  function closeUnit() {
+    // No unit, no tone: the generator is muted with the unit it was set up for.
+    mute();
+    setDetail(null);
   }
 
   async function finishRun() {
@@ -248,6 +285,14 @@ export function App() {
       setStimulusNote(`Stimulus left at ${stimulusHz} Hz: ${(error as Error).message}`);
     }
   }, [openProcedure, choice.sharedClock, choice.mainsHz, choice.sampleRateHz, captureRateHz, applyGenerator]);
+
+  // Back from the sheet, the next unit's serial is what comes next (the scanner types into it).
+  const returnedFromSheet = useRef(false);
+  useEffect(() => {
+    if (view !== 'bench' || !returnedFromSheet.current) return;
+    returnedFromSheet.current = false;
+    serialInputRef.current?.focus();
+  }, [view]);
 
   // The sheet is saved as PDF as soon as it is on screen (the PDF is made from this view).
   useEffect(() => {
@@ -288,6 +333,7 @@ export function App() {
           setView('bench');
           setDetail(null);
           setSheetPdfPath(null);
+          returnedFromSheet.current = true;
         }}
       />
     );
@@ -298,7 +344,7 @@ export function App() {
       <header className="topbar">
         <h1>Trimbench</h1>
         <span className="hint">{station ? `Station ${station.stationName}` : ''}</span>
-        <button type="button" className={generator.on ? 'mute live' : 'mute'} onClick={mute} data-testid="mute">
+        <button type="button" className={generator.on ? 'mute live' : 'mute'} onClick={mute} data-testid="mute" disabled={!generator.on}>
           {generator.on ? 'Mute generator (Esc)' : 'Generator muted'}
         </button>
       </header>
@@ -328,10 +374,22 @@ export function App() {
             onStop={stopCapture}
             onRefresh={() => void refreshDevices()}
           />
-          <GeneratorControls command={generator} onChange={applyGenerator} available={audio !== null} note={stimulusNote} />
+          <GeneratorControls
+            command={generator}
+            set={generatorSet}
+            onChange={applyGenerator}
+            onToggle={toggleGenerator}
+            available={audio !== null}
+            note={stimulusNote}
+          />
         </div>
         <div className="column wide">
-          <LiveReadout reading={reading} />
+          <LiveReadout
+            reading={reading}
+            generatorOn={generator.on}
+            limitThdDb={detail && procedure ? procedure.trim.limitThdDb : null}
+            harmonicCount={HARMONIC_COUNT}
+          />
           <SpectrumPlot spectrumHz={spectrum?.hz ?? null} spectrumDbfs={spectrum?.dbfs ?? null} />
         </div>
         <div className="column">
@@ -343,13 +401,17 @@ export function App() {
               reading={reading}
               readingAt={readingAt}
               onRecord={recordPoint}
+              positionInputRef={positionInputRef}
+              generator={generator}
+              generatorAvailable={audio !== null}
+              onToggleGenerator={toggleGenerator}
               onWarmCheck={recordWarmCheck}
               onPositionChange={setTrimmerTurns}
               onFinish={finishRun}
-              onClose={() => setDetail(null)}
+              onClose={closeUnit}
             />
           ) : (
-            <UnitEntry procedures={procedures} onOpen={openRun} busy={procedures.length === 0} />
+            <UnitEntry procedures={procedures} onOpen={openRun} busy={procedures.length === 0} serialInputRef={serialInputRef} />
           )}
         </div>
       </main>

@@ -51,7 +51,7 @@ export function AudioSetup({
           onChange={(e) => set({ inputDeviceId: e.target.value })}
           disabled={capturing}
         >
-          <option value={DEMO_INPUT}>Demo bench — simulated unit (invented values)</option>
+          <option value={DEMO_INPUT}>Demo bench (simulated unit)</option>
           <option value="">System default input</option>
           {devices?.inputs.map((d, i) => (
             <option key={d.deviceId || i} value={d.deviceId}>
@@ -123,11 +123,18 @@ export function AudioSetup({
         </button>
       </div>
       {capturing && (
-        <p className="hint" data-testid="capture-status">
-          Capturing at {sampleRateHz ? `${sampleRateHz / 1000} kHz` : '—'} via{' '}
-          {capturePath === 'track-processor' ? 'track processor' : capturePath === 'demo' ? 'the demo bench' : 'audio worklet'}
+        // How samples arrive is an implementation detail: kept in an attribute for tests, not shown.
+        <p className="hint" data-testid="capture-status" data-capture-path={capturePath ?? ''}>
+          Capturing at {sampleRateHz ? `${sampleRateHz / 1000} kHz` : '—'} from {demo ? 'the demo bench' : 'the input'}
           {' · '}
           <span data-testid="discontinuities">{discontinuities}</span> capture break{discontinuities === 1 ? '' : 's'} (no reading spans one)
+        </p>
+      )}
+      {capturing && sampleRateHz !== null && sampleRateHz !== choice.sampleRateHz && (
+        <p className="hint" role="status" data-testid="rate-note">
+          {demo
+            ? `The demo bench runs at ${sampleRateHz / 1000} kHz; the rate chosen above applies to a real interface.`
+            : `The interface runs at ${sampleRateHz / 1000} kHz, not the ${choice.sampleRateHz / 1000} kHz chosen: readings use ${sampleRateHz / 1000} kHz.`}
         </p>
       )}
     </section>

@@ -15,13 +15,14 @@ function CommitField({
   check,
 }: {
   label: string;
-  value: number;
+  /** null: nothing set yet (the field stays empty and says who sets it). */
+  value: number | null;
   onCommit(value: number): void;
   check(value: number): string | null;
 }) {
-  const [text, setText] = useState(String(value));
+  const [text, setText] = useState(value === null ? '' : String(value));
   const [problem, setProblem] = useState<string | null>(null);
-  useEffect(() => setText(String(value)), [value]);
+  useEffect(() => setText(value === null ? '' : String(value)), [value]);
   const commit = () => {
     const parsed = Number(text);
     const issue = text.trim() === '' || !Number.isFinite(parsed) ? 'Enter a number.' : check(parsed);
@@ -35,6 +36,7 @@ function CommitField({
       <input
         inputMode="decimal"
         value={text}
+        placeholder={value === null ? 'set by the unit’s procedure' : undefined}
         onChange={(e) => setText(e.target.value)}
         onBlur={commit}
         onKeyDown={(e) => {
@@ -49,12 +51,17 @@ function CommitField({
 
 export function GeneratorControls({
   command,
+  set,
   onChange,
+  onToggle,
   available,
   note,
 }: {
   command: GeneratorCommand;
+  /** False until a unit's procedure or the technician has set frequency and level. */
+  set: boolean;
   onChange(command: GeneratorCommand): void;
+  onToggle(): void;
   available: boolean;
   /** Why the frequency is what it is, when it was planned. */
   note: string | null;
@@ -66,26 +73,28 @@ export function GeneratorControls({
       </h2>
       <CommitField
         label="Frequency, Hz (Enter applies)"
-        value={command.frequencyHz}
+        value={set ? command.frequencyHz : null}
         check={(hz) => (hz < MIN_FREQUENCY_HZ || hz > MAX_FREQUENCY_HZ ? `Between ${MIN_FREQUENCY_HZ} and ${MAX_FREQUENCY_HZ} Hz.` : null)}
         onCommit={(frequencyHz) => onChange({ ...command, frequencyHz })}
       />
       <CommitField
         label="Level, dBFS (Enter applies)"
-        value={command.levelDbfs}
+        value={set ? command.levelDbfs : null}
         check={(dbfs) => (dbfs > 0 || dbfs < -120 ? 'Between −120 and 0 dBFS.' : null)}
         onCommit={(levelDbfs) => onChange({ ...command, levelDbfs })}
       />
       <button
         type="button"
         className={command.on ? '' : 'primary'}
-        disabled={!available}
-        onClick={() => onChange({ ...command, on: !command.on })}
+        disabled={!available || !set}
+        onClick={onToggle}
+        data-testid="generator-toggle"
       >
-        {command.on ? 'Turn off' : 'Turn on'}
+        {command.on ? 'Turn off (G)' : 'Turn on (G)'}
       </button>
       {note && <p className="hint">{note}</p>}
-      {!available && <p className="hint">Start capture to use the generator.</p>}
+      {!set && <p className="hint">Opening a unit sets the stimulus from its procedure.</p>}
+      {set && !available && <p className="hint">Start capture to use the generator.</p>}
     </section>
   );
 }

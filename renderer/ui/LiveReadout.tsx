@@ -1,7 +1,33 @@
 import type { Reading } from '../../shared/measurement/reading.ts';
+import { judgeThd } from '../../shared/records/verdict.ts';
 import { fixed, percent } from './format.ts';
 
-export function LiveReadout({ reading }: { reading: Reading | null }) {
+/** A big number, or a quiet placeholder where there is none (a bold 3rem dash reads as a black bar). */
+function Big({ value, testId }: { value: string | null; testId: string }) {
+  return value === null ? (
+    <span className="big none" data-testid={testId}>
+      no reading
+    </span>
+  ) : (
+    <span className="big" data-testid={testId}>
+      {value}
+    </span>
+  );
+}
+
+export function LiveReadout({
+  reading,
+  generatorOn,
+  limitThdDb,
+  harmonicCount,
+}: {
+  reading: Reading | null;
+  generatorOn: boolean;
+  /** The open unit's THD limit; null with no unit open. */
+  limitThdDb: number | null;
+  /** Harmonics counted in THD (H2..HN), shown even while no harmonic is measured. */
+  harmonicCount: number;
+}) {
   if (!reading) {
     return (
       <section className="panel readout" aria-label="Live reading">
@@ -11,6 +37,12 @@ export function LiveReadout({ reading }: { reading: Reading | null }) {
     );
   }
   const noSignal = reading.flags.includes('no-signal');
+  // With the generator muted, silence is expected: said calmly, and nothing is claimed about a
+  // fundamental. WIRING (records): replace this with checkStimulus(reading, stimulus, trim) and show
+  // its `message` here (role="alert" for every problem except 'generator-off').
+  const quietByDesign = noSignal && !generatorOn;
+  const lastOrder = reading.harmonics.at(-1)?.order ?? harmonicCount;
+  const thdVerdict = !noSignal && limitThdDb !== null ? judgeThd(reading.thdDb, limitThdDb) : null;
   return (
     <section className="panel readout" aria-label="Live reading">
       <h2>
@@ -19,24 +51,33 @@ export function LiveReadout({ reading }: { reading: Reading | null }) {
           {reading.settled ? 'settled' : `settling ${Math.round(reading.settleProgress * 100)} %`}
         </span>
       </h2>
+      {/* WIRING (meas): Reading.settleRemainingS: show "about N s to settled" beside the badge. */}
       <progress max={1} value={reading.settleProgress} aria-label="Progress toward a settled reading" />
       <div className="big-numbers">
         <div>
-          <span className="big" data-testid="fundamental-level">
-            {noSignal ? '—' : fixed(reading.fundamental.levelDbfs, 2)}
-          </span>
-          <span className="unit">dBFS</span>
-          <div className="caption">fundamental {noSignal ? '' : `at ${fixed(reading.fundamental.frequencyHz, 2)} Hz`}</div>
+          <Big value={noSignal ? null : fixed(reading.fundamental.levelDbfs, 2)} testId="fundamental-level" />
+          {!noSignal && <span className="unit">dBFS</span>}
+          <div className="caption">fundamental{noSignal ? '' : ` at ${fixed(reading.fundamental.frequencyHz, 2)} Hz`}</div>
         </div>
         <div>
-          <span className="big" data-testid="thd-db">
-            {noSignal ? '—' : fixed(reading.thdDb, 1)}
-          </span>
-          <span className="unit">dB THD</span>
-          <div className="caption">{noSignal ? '' : percent(reading.thdPercent)} (H2–H{reading.harmonics.at(-1)?.order ?? '—'})</div>
+          <Big value={noSignal ? null : fixed(reading.thdDb, 1)} testId="thd-db" />
+          {!noSignal && <span className="unit">dB THD</span>}
+          <div className="caption">
+            {noSignal ? '' : `${percent(reading.thdPercent)} · `}H2–H{lastOrder}
+          </div>
+          {thdVerdict && limitThdDb !== null && (
+            <div className={`limit ${thdVerdict}`} data-testid="thd-limit">
+              limit ≤ {fixed(limitThdDb, 1)} dB: {thdVerdict === 'pass' ? 'within' : 'above the limit'}
+            </div>
+          )}
         </div>
       </div>
-      {noSignal && (
+      {quietByDesign && (
+        <p className="hint" role="status" data-testid="generator-off-note">
+          The generator is off, so there is no tone to measure yet. Turn it on (<kbd>G</kbd>) when the unit is connected.
+        </p>
+      )}
+      {noSignal && generatorOn && (
         <p className="problem" role="alert">
           No signal at the input channel. Check the cabling, the channel choice and that the generator is on.
         </p>
@@ -72,8 +113,8 @@ export function LiveReadout({ reading }: { reading: Reading | null }) {
         <dd>{reading.subAudioDbfs === null ? '— (needs a stimulus frequency)' : `${fixed(reading.subAudioDbfs, 1)} dBFS`}</dd>
         <dt>Analysis</dt>
         <dd>
-          {reading.mode === 'coherent' ? 'coherent, in step with the generator' : 'windowed, fundamental found'} · {reading.frameSize} samples at{' '}
-          {reading.sampleRateHz / 1000} kHz
+          {reading.mode === 'coherent' ? 'coherent, in step with the generator' : 'windowed'}
+          {!noSignal && reading.mode !== 'coherent' && ', fundamental found'} · {reading.frameSize} samples at {reading.sampleRateHz / 1000} kHz
         </dd>
       </dl>
       <table className="harmonics">

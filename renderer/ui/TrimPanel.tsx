@@ -1,4 +1,4 @@
-import { useEffect, useMemo, useRef, useState } from 'react';
+import { useEffect, useMemo, useRef, useState, type RefObject } from 'react';
 import type { RunDetail, StoredProcedure, WarmCheck } from '../../shared/ipc/contract.ts';
 import type { Reading } from '../../shared/measurement/reading.ts';
 import { DEFAULT_LIVE_METER_CONFIG } from '../../shared/measurement/live-meter.ts';
@@ -6,9 +6,13 @@ import { assessTrim } from '../../shared/trim/assessment.ts';
 import type { LiveSeries, TrimWarning } from '../../shared/trim/trim-assistant.ts';
 import { fixed, percent } from './format.ts';
 import { TrimPlot } from './TrimPlot.tsx';
+import type { GeneratorCommand } from '../worker/messages.ts';
 
-// A second Enter within this time records an unsettled reading anyway (and it is marked so).
-const CONFIRM_UNSETTLED_MS = 4000;
+/**
+ * How a reading that has not settled is treated: Enter only ever records settled readings
+ * ('refuse'); 'record-marked' comes only from the separate, confirmed "Record unsettled…" action.
+ */
+export type UnsettledChoice = 'refuse' | 'record-marked';
 // Live readings kept since the trimmer last moved (about a minute at six readings a second).
 const LIVE_SERIES_LENGTH = 360;
 // A reading older than this is not recorded: the stream has stopped.
@@ -21,6 +25,10 @@ export function TrimPanel({
   reading,
   readingAt,
   onRecord,
+  positionInputRef: positionInput,
+  generator,
+  generatorAvailable,
+  onToggleGenerator,
   onWarmCheck,
   onPositionChange,
   onFinish,
@@ -31,7 +39,12 @@ export function TrimPanel({
   reading: Reading | null;
   /** When `reading` arrived (ms since the epoch). */
   readingAt: number;
-  onRecord(position: number, reading: Reading, live: LiveSeries): Promise<void>;
+  onRecord(position: number, reading: Reading, live: LiveSeries, unsettled: UnsettledChoice): Promise<void>;
+  /** The position field, so whoever moves focus can send it back here (Enter records). */
+  positionInputRef: RefObject<HTMLInputElement | null>;
+  generator: GeneratorCommand;
+  generatorAvailable: boolean;
+  onToggleGenerator(): void;
   onWarmCheck(request: { coldTemperatureC: number; warmTemperatureC: number; reading: Reading }): Promise<WarmCheck>;
   /** The typed position changed (the demo bench's virtual trimmer follows it). */
   onPositionChange(position: number): void;
@@ -44,7 +57,8 @@ export function TrimPanel({
   const [positionText, setPositionTextState] = useState(String(last ? last.position : trim.positionMin));
   const [message, setMessage] = useState<string | null>(null);
   const [busy, setBusy] = useState(false);
-  const unsettledAskedAt = useRef(0);
+  // The "Record unsettled…" confirmation is open.
+  const [confirmingUnsettled, setConfirmingUnsettled] = useState(false);
   // The reading last recorded: a second Enter on the same reading must not make a second point.
   const recordedReading = useRef<Reading | null>(null);
   // Readings since the trimmer last moved: amplitude wander and sub-audio growth show in these.
@@ -53,13 +67,12 @@ export function TrimPanel({
   // Readings since the position last changed: the frame must have moved on past the old position.
   const readingsSinceMove = useRef(0);
   const lastSequence = useRef(0);
-  const positionInput = useRef<HTMLInputElement>(null);
 
   const setPositionText = (text: string) => {
     setPositionTextState(text);
     live.current = { levelsDbfs: [], lfDbfs: [] };
     readingsSinceMove.current = 0;
-    unsettledAskedAt.current = 0;
+    setConfirmingUnsettled(false);
     const position = Number(text);
     if (text.trim() !== '' && Number.isFinite(position)) onPositionChange(position);
   };
@@ -100,40 +113,57 @@ export function TrimPanel({
     setPositionText(String(Math.round(next * 1e6) / 1e6));
   }
 
-  async function record() {
-    const position = Number(positionText);
-    if (positionText.trim() === '' || !Number.isFinite(position)) return setMessage('Type the trimmer position first.');
+  /** Why the current reading cannot be recorded at all (settled or not); null when it can. */
+  function notRecordable(position: number): string | null {
+    if (positionText.trim() === '' || !Number.isFinite(position)) return 'Type the trimmer position first.';
     if (position < trim.positionMin || position > trim.positionMax) {
-      return setMessage(`Position must be within ${trim.positionMin}–${trim.positionMax} ${trim.positionUnit}.`);
+      return `Position must be within ${trim.positionMin}–${trim.positionMax} ${trim.positionUnit}.`;
     }
-    if (!reading) return setMessage('There is no reading yet: start capture and turn the generator on.');
-    if (busy) return;
+    if (!reading) return 'There is no reading yet: start capture and turn the generator on.';
     if (Date.now() - readingAt > STALE_READING_MS) {
-      return setMessage('No new reading for a while: the capture has stopped delivering. Check the interface, then start capture again.');
+      return 'No new reading for a while: the capture has stopped delivering. Check the interface, then start capture again.';
     }
     // The frame is frameSize samples long: until that many have passed, it still holds the old position.
     const readingsPerFrame = Math.ceil((reading.frameSize / reading.sampleRateHz) * LIVE_READINGS_PER_SECOND) + 1;
     if (readingsSinceMove.current < readingsPerFrame) {
-      return setMessage('The reading still includes the previous trimmer position: wait a moment, then record.');
+      return 'The reading still includes the previous trimmer position: wait a moment, then record.';
     }
-    if (reading === recordedReading.current) {
-      return setMessage('This reading is already recorded. Move the trimmer, or wait for the next reading.');
+    if (reading === recordedReading.current) return 'This reading is already recorded. Move the trimmer, or wait for the next reading.';
+    // A repeated Enter must not fill the table with copies of the point just recorded.
+    if (last && last.position === position) return `Point ${last.sequence} is already at ${fixed(position, 2)} ${trim.positionUnit}: move the trimmer first.`;
+    return null;
+  }
+
+  async function record(unsettled: UnsettledChoice) {
+    const position = Number(positionText);
+    if (busy) return;
+    const problem = notRecordable(position);
+    if (problem !== null || !reading) return setMessage(problem);
+    // Enter explains and never records an unsettled reading, however often it is pressed.
+    if (!reading.settled && unsettled === 'refuse') {
+      return setMessage(
+        'Not recorded: the reading has not settled yet. Wait for “settled” and press Enter. To keep this reading as it is, use “Record unsettled…”.',
+      );
     }
-    if (!reading.settled && Date.now() - unsettledAskedAt.current > CONFIRM_UNSETTLED_MS) {
-      unsettledAskedAt.current = Date.now();
-      return setMessage('The reading has not settled. Wait for “settled”, or press Enter again to record it marked as unsettled.');
-    }
-    unsettledAskedAt.current = 0;
+    setConfirmingUnsettled(false);
     setBusy(true);
     try {
-      await onRecord(position, reading, { levelsDbfs: live.current.levelsDbfs.slice(-60), lfDbfs: live.current.lfDbfs.slice(-60) });
+      await onRecord(position, reading, { levelsDbfs: live.current.levelsDbfs.slice(-60), lfDbfs: live.current.lfDbfs.slice(-60) }, unsettled);
       recordedReading.current = reading;
       setMessage(null);
     } catch (error) {
       setMessage((error as Error).message);
     } finally {
       setBusy(false);
+      positionInput.current?.focus();
     }
+  }
+
+  function askRecordUnsettled() {
+    const problem = notRecordable(Number(positionText));
+    if (problem !== null) return setMessage(problem);
+    setMessage(null);
+    setConfirmingUnsettled(true);
   }
 
   async function finish() {
@@ -179,6 +209,16 @@ export function TrimPanel({
         Stimulus {trim.stimulusHz} Hz at {trim.stimulusLevelDbfs} dBFS · trims {harmonic} · limit THD ≤ {trim.limitThdDb} dB at the final
         point
       </p>
+      <div className="row generator-row" data-testid="trim-generator">
+        <span className={generator.on ? 'badge live' : 'badge'}>{generator.on ? 'Generator ON' : 'Generator off'}</span>
+        <span className="hint">
+          {generator.on ? `${fixed(generator.frequencyHz, 3)} Hz at ${fixed(generator.levelDbfs, 1)} dBFS` : 'Turn it on to measure.'}
+        </span>
+        <button type="button" onClick={onToggleGenerator} disabled={!generatorAvailable} data-testid="trim-generator-toggle">
+          {generator.on ? 'Turn off (G)' : 'Turn on (G)'}
+        </button>
+      </div>
+      {!generatorAvailable && <p className="hint">Start capture (Audio interface) to use the generator.</p>}
       <div className="row">
         <label>
           Trimmer position, {trim.positionUnit} (↑/↓ step {trim.positionStep})
@@ -192,7 +232,7 @@ export function TrimPanel({
             onKeyDown={(e) => {
               if (e.key === 'Enter') {
                 e.preventDefault();
-                void record();
+                void record('refuse');
               } else if (e.key === 'ArrowUp' || e.key === 'ArrowDown') {
                 e.preventDefault();
                 stepPosition(e.key === 'ArrowUp' ? 1 : -1);
@@ -200,13 +240,38 @@ export function TrimPanel({
             }}
           />
         </label>
-        <button type="button" className="primary" onClick={() => void record()} disabled={busy} data-testid="record-point">
+        <button type="button" className="primary" onClick={() => void record('refuse')} disabled={busy} data-testid="record-point">
           Record point (Enter)
         </button>
+        {reading && !reading.settled && !confirmingUnsettled && (
+          <button type="button" onClick={askRecordUnsettled} disabled={busy} data-testid="record-unsettled">
+            Record unsettled…
+          </button>
+        )}
       </div>
+      <p className="hint keys">
+        <kbd>Enter</kbd> records a settled reading · <kbd>↑</kbd>/<kbd>↓</kbd> step · <kbd>G</kbd> generator on/off · <kbd>Esc</kbd> mutes
+      </p>
       <p className="problem" role="alert" hidden={message === null} data-testid="trim-message">
         {message}
       </p>
+      {confirmingUnsettled && (
+        <div className="confirm" role="alertdialog" aria-label="Record an unsettled point" data-testid="unsettled-confirm">
+          <p>
+            Record the reading at {positionText} {trim.positionUnit} although it has not settled? It is marked “unsettled” here and on the
+            sheet, and it stays out of the curve fit and the verdict unless you include it later.
+          </p>
+          <div className="row">
+            {/* Cancel holds the focus: a stray Enter here keeps the point out. */}
+            <button type="button" autoFocus onClick={() => (setConfirmingUnsettled(false), positionInput.current?.focus())}>
+              Cancel
+            </button>
+            <button type="button" className="warn" onClick={() => void record('record-marked')} data-testid="confirm-unsettled">
+              Record marked unsettled
+            </button>
+          </div>
+        </div>
+      )}
       <AssistantSummary
         detail={detail}
         harmonic={harmonic}
@@ -223,8 +288,10 @@ export function TrimPanel({
           harmonicOrder={trim.harmonicOrder}
           positionMin={trim.positionMin}
           positionMax={trim.positionMax}
+          positionUnit={trim.positionUnit}
         />
       )}
+      <div className="table-scroll">
       <table className="points" data-testid="trim-points">
         <thead>
           <tr>
@@ -232,7 +299,7 @@ export function TrimPanel({
             <th scope="col">Position</th>
             <th scope="col">{harmonic}, dBc</th>
             <th scope="col">THD, dB</th>
-            <th scope="col">THD</th>
+            <th scope="col">THD, %</th>
             <th scope="col">Level, dBFS</th>
             <th scope="col">Settled</th>
           </tr>
@@ -244,20 +311,24 @@ export function TrimPanel({
               <td>{fixed(p.position, 2)}</td>
               <td>{fixed(p.reading.harmonics.find((h) => h.order === trim.harmonicOrder)?.levelDbc, 1)}</td>
               <td>{fixed(p.reading.thdDb, 1)}</td>
-              <td>{percent(p.reading.thdPercent)}</td>
+              <td>{percent(p.reading.thdPercent).replace(' %', '')}</td>
               <td>{fixed(p.reading.fundamental.levelDbfs, 2)}</td>
-              <td>{p.settled ? 'yes' : 'no'}</td>
+              <td className={p.settled ? undefined : 'unsettled'}>{p.settled ? 'yes' : 'unsettled'}</td>
             </tr>
           ))}
         </tbody>
       </table>
+      </div>
+      {trimPoints.some((p) => !p.settled) && (
+        <p className="hint">Unsettled points are marked in red: they stay out of the curve fit and the verdict unless you include them.</p>
+      )}
       {trimPoints.length >= 2 && <WarmCheckForm reading={reading} existing={detail.warmCheck} onWarmCheck={onWarmCheck} />}
       <div className="row">
         <button type="button" onClick={() => void finish()} disabled={busy || trimPoints.length === 0} data-testid="finish-run">
           Finish run and make the unit sheet
         </button>
-        <button type="button" onClick={onClose} disabled={busy}>
-          Close unit
+        <button type="button" onClick={onClose} disabled={busy} data-testid="close-unit">
+          Close unit (mutes the generator)
         </button>
       </div>
     </section>
@@ -293,7 +364,7 @@ function AssistantSummary({ detail, harmonic, onUse }: { detail: RunDetail; harm
             {a.recommendedPosition === null ? '—' : `${fixed(a.recommendedPosition, 2)} (predicted ${fixed(a.recommendedLevelDbc, 1)} dBc)`}
             {a.thermalMarginC !== null && ` · holds the limit over ±${fixed(a.thermalMarginC, 0)} °C untracked`}
           </dd>
-          <dt>Model</dt>
+          <dt>Curve fit</dt>
           <dd className="hint">{a.reason}</dd>
         </dl>
       )}

@@ -15,8 +15,9 @@ interface TrimMarks {
 function drawMarks(marks: TrimMarks) {
   return (u: uPlot) => {
     const { ctx } = u;
-    const { top, height } = u.bbox;
-    const x = (value: number) => u.valToPos(value, 'x', true);
+    const { top, height, left, width } = u.bbox;
+    // Clamped to the plotting area: a band or line far outside the trimmer's range stays inside the axes.
+    const x = (value: number) => Math.min(left + width, Math.max(left, u.valToPos(value, 'x', true)));
     ctx.save();
     if (marks.nullPosition !== null) {
       // Over-compensation: everything past the null, shaded so it cannot be missed.
@@ -57,6 +58,7 @@ export function TrimPlot({
   harmonicOrder,
   positionMin,
   positionMax,
+  positionUnit,
   height = 240,
 }: {
   points: TrimPoint[];
@@ -64,6 +66,8 @@ export function TrimPlot({
   harmonicOrder: number;
   positionMin: number;
   positionMax: number;
+  /** The procedure's unit of trimmer position (e.g. turns). */
+  positionUnit: string;
   height?: number;
 }) {
   const marks: TrimMarks = {
@@ -89,7 +93,7 @@ export function TrimPlot({
           },
         },
       },
-      axes: [{ label: 'Trimmer position' }, { label: `H${harmonicOrder}, dBc`, size: 60 }],
+      axes: [{ label: `Trimmer position, ${positionUnit}` }, { label: `H${harmonicOrder}, dBc`, size: 60 }],
       series: [
         {},
         { label: 'fitted model', stroke: '#1f5fa8', width: 1.5, points: { show: false }, spanGaps: true },
@@ -98,7 +102,7 @@ export function TrimPlot({
       hooks: { draw: [drawMarks(marks)] },
     }),
     // eslint-disable-next-line react-hooks/exhaustive-deps
-    [key, harmonicOrder, positionMin, positionMax, height],
+    [key, harmonicOrder, positionMin, positionMax, positionUnit, height],
   );
   const data = useMemo<uPlot.AlignedData>(() => {
     // One x axis for both series: the model's samples and the points' positions, merged.
@@ -111,11 +115,21 @@ export function TrimPlot({
     return [rows.map((r) => r.x), rows.map((r) => r.model), rows.map((r) => r.point)];
   }, [points, assessment, harmonicOrder]);
   return (
-    <UPlotChart
-      key={key}
-      options={options}
-      data={data}
-      label={`H${harmonicOrder} against trimmer position: recorded points, fitted model, null and recommended setting`}
-    />
+    <figure className="trim-figure">
+      <UPlotChart
+        key={key}
+        options={options}
+        data={data}
+        label={`H${harmonicOrder} against trimmer position: recorded points, fitted curve, null and recommended setting`}
+      />
+      {/* Drawn by hand: the marks are canvas drawings that uPlot's own legend does not know. */}
+      <figcaption className="legend" data-testid="trim-legend">
+        <span><i className="swatch point" /> recorded point (H{harmonicOrder})</span>
+        {(assessment?.curve.length ?? 0) > 0 && <span><i className="swatch fit" /> fitted curve</span>}
+        {marks.nullPosition !== null && <span><i className="swatch null" /> null ± uncertainty</span>}
+        {marks.nullPosition !== null && <span><i className="swatch past" /> past the null (over-compensated)</span>}
+        {marks.recommendedPosition !== null && <span><i className="swatch recommended" /> recommended setting</span>}
+      </figcaption>
+    </figure>
   );
 }

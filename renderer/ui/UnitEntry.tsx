@@ -1,4 +1,4 @@
-import { useRef, useState } from 'react';
+import { useRef, useState, type RefObject } from 'react';
 import type { StoredProcedure } from '../../shared/ipc/contract.ts';
 import { checkSerial } from '../../shared/records/serial.ts';
 
@@ -10,8 +10,11 @@ export function UnitEntry({
   procedures,
   onOpen,
   busy,
+  serialInputRef,
 }: {
   procedures: StoredProcedure[];
+  /** The serial field, so focus can be sent back to it (after the sheet, after the generator key). */
+  serialInputRef: RefObject<HTMLInputElement | null>;
   onOpen(request: { serial: string; procedureId: number; operator: string }): Promise<void>;
   busy: boolean;
 }) {
@@ -54,17 +57,20 @@ export function UnitEntry({
         <select value={procedure?.id ?? ''} onChange={(e) => setProcedureId(Number(e.target.value))}>
           {procedures.map((p) => (
             <option key={p.id} value={p.id}>
-              {p.definition.title} · rev {p.definition.revision}
+              {p.definition.code} rev {p.definition.revision}
             </option>
           ))}
         </select>
       </label>
+      {/* The full title under the list: a long title inside the list would be cut off. */}
+      {procedure && <p className="hint">{procedure.definition.title}</p>}
       {procedure?.definition.invented && (
         <p className="invented">Demo procedure: the maker, model and limits are invented for practice.</p>
       )}
       <label>
         Serial number (scan or type, then Enter)
         <input
+          ref={serialInputRef}
           data-testid="serial-input"
           // Ready for the scanner as soon as an operator is known.
           autoFocus={operator.trim() !== ''}

@@ -1,5 +1,6 @@
 import type { RunDetail, StoredProcedure } from '../../shared/ipc/contract.ts';
-import { fixed, localDateTime, percent } from './format.ts';
+import { useEffect, useRef } from 'react';
+import { fixed, localDateTime, localTime, percent, zoneLabel } from './format.ts';
 import { TrimPlot } from './TrimPlot.tsx';
 import { WARNING_TITLES } from './TrimPanel.tsx';
 
@@ -21,15 +22,34 @@ export function UnitSheet({
   const { run, trimPoints, assessment, warmCheck } = detail;
   const final = trimPoints.at(-1);
   const verdict = run.verdict ?? 'fail';
+  const verdictText = verdict === 'pass' ? 'PASS' : 'FAIL';
   const order = assessment?.harmonicOrder ?? procedure?.trim.harmonicOrder ?? 3;
+  const unit = procedure?.trim.positionUnit ?? '';
+  const anyUnsettled = trimPoints.some((p) => !p.settled);
+  const zone = zoneLabel(new Date(trimPoints[0]?.recordedAt ?? run.finishedAt ?? Date.now()));
+  const printButton = useRef<HTMLButtonElement>(null);
+
+  // The PDF's running header prints the page title on every page, so the title carries the serial.
+  useEffect(() => {
+    const before = document.title;
+    document.title = `${run.serial} · ${verdictText}`;
+    return () => {
+      document.title = before;
+    };
+  }, [run.serial, verdictText]);
+
+  // After Finish the keyboard lands on the sheet's main action.
+  useEffect(() => printButton.current?.focus(), []);
+
   return (
     <div className="sheet-view">
       <div className="no-print row sheet-actions">
-        <button type="button" onClick={onBack}>
-          Back to the bench
-        </button>
-        <button type="button" className="primary" onClick={onPrint}>
+        <button type="button" ref={printButton} className="primary" onClick={onPrint} data-testid="sheet-print">
           Print…
+        </button>
+        {/* Not while the PDF is being made: it is rendered from this view. */}
+        <button type="button" onClick={onBack} data-testid="sheet-back" disabled={!pdfPath && !message}>
+          Back to the bench (next unit)
         </button>
         <span className="hint" data-testid="sheet-pdf-path">
           {pdfPath ? `Saved as ${pdfPath}` : 'Saving the PDF…'}
@@ -42,32 +62,50 @@ export function UnitSheet({
       </div>
       <article className="sheet" aria-label="Unit sheet">
         <header>
-          <h1>Unit sheet</h1>
+          <div>
+            <h1>Unit sheet</h1>
+            <div className="sheet-serial">
+              Serial <strong data-testid="sheet-serial">{run.serial}</strong>
+            </div>
+          </div>
           <div className={`verdict ${verdict}`} data-testid="sheet-verdict">
-            {verdict === 'pass' ? 'PASS' : 'FAIL'}
+            {verdictText}
           </div>
         </header>
         {run.invented && (
-          <p className="invented">Demo procedure — the maker, model, limits and values on this sheet are invented for practice.</p>
+          <p className="invented">Demo procedure — the maker, product, limits and values on this sheet are invented for practice.</p>
         )}
-        <dl className="facts">
-          <dt>Serial</dt>
-          <dd data-testid="sheet-serial">{run.serial}</dd>
-          <dt>Model</dt>
+        <dl className="facts result">
+          <dt>Verdict</dt>
+          <dd data-testid="sheet-verdict-line">
+            {verdictText}
+            {run.verdictReason ? ` — ${run.verdictReason}` : ''}
+          </dd>
+          <dt>Limit</dt>
+          <dd>THD ≤ {fixed(run.limitThdDb, 1)} dB at the final trim point</dd>
+          <dt>Final reading</dt>
+          <dd>
+            {final
+              ? `THD ${fixed(final.reading.thdDb, 1)} dB (${percent(final.reading.thdPercent)}) at ${fixed(final.reading.fundamental.frequencyHz, 2)} Hz, ${fixed(final.reading.fundamental.levelDbfs, 2)} dBFS, trimmer at ${fixed(final.position, 2)} ${unit}${final.settled ? '' : ' (unsettled)'}`
+              : '—'}
+          </dd>
+        </dl>
+        <dl className="facts two-up">
+          <dt>Product</dt>
           <dd>
             {run.modelCode} — {run.modelName}
           </dd>
           <dt>Procedure</dt>
           <dd>
-            {run.procedureCode} rev {run.procedureRevision} — {run.procedureTitle}
+            {run.procedureCode} rev {run.procedureRevision}
           </dd>
+          <dt>Finished</dt>
+          <dd>{localDateTime(run.finishedAt)}</dd>
           <dt>Run</dt>
           <dd>
             {run.id}
             {detail.earlierRuns > 0 ? ` (retest; ${detail.earlierRuns} earlier)` : ''}
           </dd>
-          <dt>Date</dt>
-          <dd>{localDateTime(run.finishedAt)}</dd>
           <dt>Operator</dt>
           <dd>{run.operator}</dd>
           <dt>Station</dt>
@@ -78,13 +116,13 @@ export function UnitSheet({
           <thead>
             <tr>
               <th scope="col">#</th>
-              <th scope="col">Position</th>
+              <th scope="col">Position, {unit}</th>
               <th scope="col">H{order}, dBc</th>
               <th scope="col">THD, dB</th>
-              <th scope="col">THD</th>
+              <th scope="col">THD, %</th>
               <th scope="col">Fundamental, dBFS</th>
               <th scope="col">Settled</th>
-              <th scope="col">Recorded</th>
+              <th scope="col">Recorded ({zone})</th>
             </tr>
           </thead>
           <tbody>
@@ -94,81 +132,82 @@ export function UnitSheet({
                 <td>{fixed(p.position, 2)}</td>
                 <td>{fixed(p.reading.harmonics.find((h) => h.order === order)?.levelDbc, 1)}</td>
                 <td>{fixed(p.reading.thdDb, 1)}</td>
-                <td>{percent(p.reading.thdPercent)}</td>
+                <td>{percent(p.reading.thdPercent).replace(' %', '')}</td>
                 <td>{fixed(p.reading.fundamental.levelDbfs, 2)}</td>
-                <td>{p.settled ? 'yes' : 'no'}</td>
-                <td>{localDateTime(p.recordedAt)}</td>
+                <td className={p.settled ? undefined : 'unsettled'}>{p.settled ? 'yes' : 'no *'}</td>
+                <td>{localTime(p.recordedAt)}</td>
               </tr>
             ))}
           </tbody>
         </table>
-        <h2>Trim curve</h2>
-        {procedure && trimPoints.length > 0 && (
-          <TrimPlot
-            points={trimPoints}
-            assessment={assessment}
-            harmonicOrder={order}
-            positionMin={procedure.trim.positionMin}
-            positionMax={procedure.trim.positionMax}
-            height={200}
-          />
+        {anyUnsettled && (
+          <p className="note" data-testid="sheet-unsettled-note">
+            * Unsettled: recorded deliberately before the reading had settled, so its value may still have been changing. An unsettled
+            point is left out of the curve fit and the verdict unless the technician confirmed it.
+          </p>
         )}
-        <dl className="facts">
-          <dt>Model</dt>
-          <dd>{assessment?.reason || '—'}</dd>
-          <dt>Null</dt>
-          <dd data-testid="sheet-null">
-            {assessment?.nullPosition != null
-              ? `${fixed(assessment.nullPosition, 2)} ± ${fixed(assessment.nullPositionPlusMinus, 2)} ${procedure?.trim.positionUnit ?? ''}, H${order} ${fixed(assessment.nullLevelDbc, 1)} dBc${assessment.bracketed ? '' : ' (not bracketed)'}`
-              : '—'}
-          </dd>
-          <dt>Recommended</dt>
-          <dd>
-            {assessment?.recommendedPosition != null
-              ? `${fixed(assessment.recommendedPosition, 2)} (predicted H${order} ${fixed(assessment.recommendedLevelDbc, 1)} dBc); final point at ${fixed(final?.position, 2)}, ${assessment.side === 'past-null' ? 'past the null' : 'short of the null'}`
-              : '—'}
-          </dd>
-          <dt>Thermal margin</dt>
-          <dd>
-            {assessment?.thermalMarginC != null
-              ? `the residual stays inside the limit over ±${fixed(assessment.thermalMarginC, 0)} °C if the compensation does not track (copper α = 0.00393/°C)`
-              : '—'}
-          </dd>
-          <dt>Warm re-check</dt>
-          <dd data-testid="sheet-warm-check">
-            {warmCheck
-              ? `${fixed(warmCheck.coldTemperatureC, 1)} → ${fixed(warmCheck.warmTemperatureC, 1)} °C: H${order} ${fixed(warmCheck.coldLevelDbc, 1)} → ${fixed(warmCheck.warmLevelDbc, 1)} dBc; the unit's tracking held ${fixed(100 * warmCheck.trackingFraction, 0)} % of the untracked drift`
-              : 'not done'}
-          </dd>
-        </dl>
+        <div className="sheet-curve">
+          <div>
+            <h2>Trim curve</h2>
+            {procedure && trimPoints.length > 0 && (
+              <TrimPlot
+                points={trimPoints}
+                assessment={assessment}
+                harmonicOrder={order}
+                positionMin={procedure.trim.positionMin}
+                positionMax={procedure.trim.positionMax}
+                positionUnit={unit}
+                height={190}
+              />
+            )}
+          </div>
+          <dl className="facts">
+            <dt>Curve fit</dt>
+            <dd>{assessment?.reason || '—'}</dd>
+            <dt>Null</dt>
+            <dd data-testid="sheet-null">
+              {assessment?.nullPosition != null
+                ? `${fixed(assessment.nullPosition, 2)} ± ${fixed(assessment.nullPositionPlusMinus, 2)} ${unit}, H${order} ${fixed(assessment.nullLevelDbc, 1)} dBc${assessment.bracketed ? '' : ' (not bracketed)'}`
+                : '—'}
+            </dd>
+            <dt>Recommended</dt>
+            <dd>
+              {assessment?.recommendedPosition != null
+                ? `${fixed(assessment.recommendedPosition, 2)} ${unit} (predicted H${order} ${fixed(assessment.recommendedLevelDbc, 1)} dBc); final point at ${fixed(final?.position, 2)}, ${assessment.side === 'past-null' ? 'past the null' : 'short of the null'}`
+                : '—'}
+            </dd>
+            <dt>Thermal margin</dt>
+            <dd>
+              {assessment?.thermalMarginC != null
+                ? `the residual stays inside the limit over ±${fixed(assessment.thermalMarginC, 0)} °C if the compensation does not track (copper α = 0.00393/°C)`
+                : '—'}
+            </dd>
+            <dt>Warm re-check</dt>
+            <dd data-testid="sheet-warm-check">
+              {warmCheck
+                ? `${fixed(warmCheck.coldTemperatureC, 1)} → ${fixed(warmCheck.warmTemperatureC, 1)} °C: H${order} ${fixed(warmCheck.coldLevelDbc, 1)} → ${fixed(warmCheck.warmLevelDbc, 1)} dBc; the unit's tracking held ${fixed(100 * warmCheck.trackingFraction, 0)} % of the untracked drift`
+                : 'not done'}
+            </dd>
+          </dl>
+        </div>
         <h2>Warnings raised</h2>
+        {/* WIRING (records): RunDetail.warningLog — list each warning with the point where it was raised and where it cleared. */}
         {detail.warningsRaised.length === 0 ? (
           <p data-testid="sheet-warnings">None.</p>
         ) : (
-          <ul data-testid="sheet-warnings">
-            {detail.warningsRaised.map((w) => (
-              <li key={w.id}>
-                <strong>{WARNING_TITLES[w.id]}</strong> (after point {w.afterSequence}): {w.seen}
-              </li>
-            ))}
-          </ul>
+          <>
+            <ul data-testid="sheet-warnings">
+              {detail.warningsRaised.map((w) => (
+                <li key={w.id}>
+                  <strong>{WARNING_TITLES[w.id]}</strong> (after point {w.afterSequence}): {w.seen}
+                </li>
+              ))}
+            </ul>
+            <p className="note">
+              A warning still active at the final point fails the unit; one that cleared earlier is listed here for the record.
+            </p>
+          </>
         )}
-        <h2>Result</h2>
-        <dl className="facts">
-          <dt>Final reading</dt>
-          <dd>
-            {final
-              ? `THD ${fixed(final.reading.thdDb, 1)} dB (${percent(final.reading.thdPercent)}) at ${fixed(final.reading.fundamental.frequencyHz, 2)} Hz, ${fixed(final.reading.fundamental.levelDbfs, 2)} dBFS, trimmer at ${fixed(final.position, 2)}`
-              : '—'}
-          </dd>
-          <dt>Limit</dt>
-          <dd>THD ≤ {fixed(run.limitThdDb, 1)} dB at the final trim point</dd>
-          <dt>Verdict</dt>
-          <dd>
-            {verdict === 'pass' ? 'PASS' : 'FAIL'}
-            {run.verdictReason ? ` — ${run.verdictReason}` : ''}
-          </dd>
-        </dl>
         <footer className="signature">
           <span>Checked by: ______________________</span>
           <span>Made with Trimbench. Trimbench measures; it does not certify electrical safety.</span>

@@ -5,7 +5,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { execFileSync } from 'node:child_process';
 import { join } from 'node:path';
 import type { Page } from 'playwright-core';
-import { openBench, type Bench } from '../harness/bench-harness.ts';
+import { openBench, type Bench, POLL } from '../harness/bench-harness.ts';
 import type { Reading } from '../../shared/measurement/reading.ts';
 import { tempDir } from '../support/station.ts';
 import { writeToneWav } from '../support/wav-files.ts';
@@ -43,7 +43,7 @@ async function settledReading(page: Page, afterSequence = 0, timeoutMs = 30_000)
 
 async function startCapture(page: Page) {
   await page.getByRole('button', { name: 'Start capture' }).click();
-  await expect.poll(() => page.getByTestId('capture-status').isVisible()).toBe(true);
+  await expect.poll(() => page.getByTestId('capture-status').isVisible(), POLL).toBe(true);
 }
 
 async function openUnit(page: Page, serial: string) {
@@ -97,33 +97,69 @@ describe('live readout from a fake capture device', () => {
   });
 });
 
+describe('the readout tells the technician what is true', () => {
+  it('names the rate actually used, shows THD against the open unit’s limit, and keeps each point on one line', async () => {
+    const page = await bench.openApp();
+    await startCapture(page);
+    // Chromium's fake capture device runs at 44.1 kHz whatever is asked (DEVELOPERS.md, from
+    // observation), while the station's default choice is 48 kHz: the difference is said.
+    await expect.poll(() => page.getByTestId('capture-status').textContent(), POLL).toMatch(/Capturing at 44\.1 kHz/);
+    expect(await page.getByTestId('rate-note').textContent()).toMatch(/44\.1 kHz, not the 48 kHz chosen/);
+    expect(await page.getByTestId('capture-status').textContent()).not.toMatch(/worklet|track processor/i);
+    // Before a unit is opened the generator holds no made-up tone.
+    expect(await page.getByLabel('Frequency, Hz (Enter applies)').inputValue()).toBe('');
+    await openUnit(page, 'MG20-2611-0044');
+    // The demo procedure's stimulus (shared/procedures/demo-procedure.ts, invented): 14 Hz.
+    await expect.poll(() => page.getByLabel('Frequency, Hz (Enter applies)').inputValue(), POLL).toBe('14');
+    // The tone's THD is about −50 dB by construction; the demo procedure's limit is −60 dB.
+    await settledReading(page);
+    await expect.poll(() => page.getByTestId('thd-limit').textContent(), POLL).toMatch(/limit ≤ −60\.0 dB: above the limit/);
+    await recordAt(page, '0');
+    // The THD % cell ("0.316 %") stays on one line: its height is one line of text.
+    const { cellPx, linePx } = await page.evaluate(() => {
+      const cell = document.querySelector('[data-testid=trim-points] tbody tr td:nth-child(5)') as HTMLElement;
+      const style = getComputedStyle(cell);
+      return { cellPx: cell.getBoundingClientRect().height - parseFloat(style.paddingTop) - parseFloat(style.paddingBottom), linePx: parseFloat(style.fontSize) * 1.5 };
+    });
+    expect(cellPx).toBeLessThan(linePx);
+  });
+});
+
 describe('records through the bridged handlers', () => {
   it('keeps three recorded trim points when the page is closed and reopened', async () => {
     let page = await bench.openApp();
     await startCapture(page);
     await openUnit(page, SERIAL);
-    await expect.poll(() => page.getByTestId('run-serial').textContent()).toBe(SERIAL);
+    await expect.poll(() => page.getByTestId('run-serial').textContent(), POLL).toBe(SERIAL);
     for (const position of ['0', '1.5', '3']) await recordAt(page, position);
 
     await page.close();
     page = await bench.openApp();
     await openUnit(page, SERIAL);
     const rows = page.getByTestId('trim-points').locator('tbody tr');
-    await expect.poll(() => rows.count()).toBe(3);
+    await expect.poll(() => rows.count(), POLL).toBe(3);
     expect(await rows.nth(1).locator('td').nth(1).textContent()).toBe('1.50');
-    const stored = bench.station.db.prepare('SELECT position FROM trim_points ORDER BY sequence').all();
+    const stored = bench.station.db
+      .prepare('SELECT p.position FROM trim_points p JOIN runs r ON r.id = p.run_id JOIN units u ON u.id = r.unit_id WHERE u.serial = ? ORDER BY p.sequence')
+      .all(SERIAL);
     expect(stored).toEqual([{ position: 0 }, { position: 1.5 }, { position: 3 }]);
   });
 
   it('finishes the run into a unit sheet saved as a PDF holding the serial and the verdict', async () => {
-    const page = bench.page;
+    // Its own page and its own unit: this test does not lean on the one before.
+    const serial = 'MG20-2611-0043';
+    const page = await bench.openApp();
+    await startCapture(page);
+    await openUnit(page, serial);
+    await expect.poll(() => page.getByTestId('run-serial').textContent(), POLL).toBe(serial);
+    for (const position of ['0', '1.5']) await recordAt(page, position);
     await page.getByTestId('finish-run').click();
     const pathText = page.getByTestId('sheet-pdf-path');
     await expect.poll(() => pathText.textContent(), { timeout: 20_000 }).toMatch(/^Saved as /);
     const pdfPath = (await pathText.textContent())!.replace(/^Saved as /, '');
     expect(pdfPath.startsWith(join(bench.dataDir, 'sheets'))).toBe(true);
     const text = execFileSync('pdftotext', ['-layout', pdfPath, '-'], { encoding: 'utf8' });
-    expect(text).toContain(SERIAL);
+    expect(text).toContain(serial);
     // THD of the captured tone is about −50 dB; the demo limit is −60 dB: the unit fails.
     expect(EXPECTED_THD_DB).toBeGreaterThan(-60);
     expect(text).toContain('FAIL');
@@ -133,10 +169,10 @@ describe('records through the bridged handlers', () => {
   it('says why a malformed serial is refused and opens nothing', async () => {
     const page = await bench.openApp();
     await openUnit(page, 'MG20-26110042');
-    await expect.poll(() => page.getByTestId('serial-message').textContent()).toMatch(/not a MG-20 serial number/);
+    await expect.poll(() => page.getByTestId('serial-message').textContent(), POLL).toMatch(/not a MG-20 serial number/);
     await page.getByTestId('serial-input').fill('');
     await page.getByTestId('serial-input').press('Enter');
-    await expect.poll(() => page.getByTestId('serial-message').textContent()).toBe('Enter or scan a serial number.');
+    await expect.poll(() => page.getByTestId('serial-message').textContent(), POLL).toBe('Enter or scan a serial number.');
     expect(await page.getByTestId('run-serial').count()).toBe(0);
   });
 });
@@ -147,10 +183,10 @@ describe('a station with no audio input', () => {
     try {
       const page = await bare.openApp();
       // With no interface the demo bench is chosen for the technician; ask for a real input.
-      await expect.poll(() => page.getByTestId('input-select').inputValue()).toBe('demo-bench');
+      await expect.poll(() => page.getByTestId('input-select').inputValue(), POLL).toBe('demo-bench');
       await page.getByTestId('input-select').selectOption('');
       await page.getByRole('button', { name: 'Start capture' }).click();
-      await expect.poll(() => page.getByTestId('audio-problem').textContent()).toMatch(/No audio input device found/);
+      await expect.poll(() => page.getByTestId('audio-problem').textContent(), POLL).toMatch(/No audio input device found/);
     } finally {
       await bare.close();
     }

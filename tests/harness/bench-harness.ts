@@ -13,8 +13,11 @@ import { chromium, type BrowserContext, type Page } from 'playwright-core';
 import { IPC_CHANNELS } from '../../shared/ipc/channels.ts';
 import { dispatch, type CallerContext } from '../../electron/services/handlers.ts';
 import { openStation } from '../../electron/services/station.ts';
+import { SHEET_PDF } from '../../electron/main/sheet-pdf.ts';
 
 export const RENDERER_DIR = fileURLToPath(new URL('../../out/renderer/', import.meta.url));
+/** How long a browser test waits for the page to show something: generous, as Chromium shares the machine. */
+export const POLL = { timeout: 15_000 } as const;
 export const CHROMIUM_PATH = process.env['TRIMBENCH_CHROMIUM'] ?? '/usr/bin/chromium';
 
 const MIME: Record<string, string> = {
@@ -115,7 +118,15 @@ export async function openBench({ captureWav, dataDir, microphone = 'granted' }:
 
   const caller: CallerContext = {
     // The same sheet view that Electron's printToPDF renders, through Chromium's own PDF path.
-    printToPdf: async () => page.pdf({ format: 'A4', printBackground: true }),
+    printToPdf: async () =>
+      page.pdf({
+        format: 'A4',
+        printBackground: true,
+        displayHeaderFooter: SHEET_PDF.displayHeaderFooter,
+        headerTemplate: SHEET_PDF.headerTemplate,
+        footerTemplate: SHEET_PDF.footerTemplate,
+        margin: Object.fromEntries(Object.entries(SHEET_PDF.marginsMm).map(([side, mm]) => [side, `${mm}mm`])),
+      }),
     print: async () => false, // no printer here: reported to the page as cancelled
   };
   await context.exposeBinding('__trimbenchCall', (_source, channel: string, payload: unknown) =>
