@@ -12,6 +12,12 @@ declare global {
 
 export class ApiError extends Error {
   override name = 'ApiError';
+  /** The kind main gave: 'ExpectedFailure' for a refusal with what to do, 'InvalidRequest', 'InternalError'. */
+  readonly kind: string;
+  constructor(message: string, kind = 'ApiError') {
+    super(message);
+    this.kind = kind;
+  }
 }
 
 export async function call<C extends IpcChannel>(channel: C, request: IpcRequest<C>): Promise<IpcResponse<C>> {
@@ -19,6 +25,6 @@ export async function call<C extends IpcChannel>(channel: C, request: IpcRequest
   if (!bridge) throw new ApiError('Trimbench is not connected to its records service (no bridge on this page).');
   const invoke = bridge[channel] as unknown as (request: IpcRequest<C>) => Promise<IpcResult<IpcResponse<C>>>;
   const result = await invoke(request);
-  if (!result.ok) throw new ApiError(result.error.message);
+  if (!result.ok) throw new ApiError(result.error.message, result.error.name);
   return result.value;
 }

@@ -3,6 +3,8 @@ import type { RunDetail, Station, StoredProcedure } from '../../shared/ipc/contr
 import type { Reading } from '../../shared/measurement/reading.ts';
 import type { LiveSeries } from '../../shared/trim/trim-assistant.ts';
 import { planTestFrequency } from '../../shared/measurement/frequency-planner.ts';
+import { checkStimulus } from '../../shared/records/stimulus-check.ts';
+import type { WarningChange } from '../../shared/trim/warning-tracker.ts';
 import { call } from '../api.ts';
 import { AudioProblem, BenchAudio, DEMO_INPUT, listDevices, type AudioDevices } from '../audio/bench-audio.ts';
 import type { GeneratorCommand, MeterSettings } from '../worker/messages.ts';
@@ -236,6 +238,20 @@ export function App() {
     });
   }
 
+  /** The technician confirms an unsettled point: it joins the fit (main re-assesses and logs it). */
+  async function includePoint(pointId: number) {
+    if (!detail) return;
+    const { point, assessment, warningLog } = await call('includeUnsettledPoint', { runId: detail.run.id, pointId });
+    setDetail((d) => (d ? { ...d, trimPoints: d.trimPoints.map((p) => (p.id === point.id ? point : p)), assessment, warningLog } : d));
+  }
+
+  /** Live warnings raised and cleared between points go into the run's log. */
+  async function logWarningChanges(changes: WarningChange[]) {
+    if (!detail || changes.length === 0) return;
+    const { warningLog } = await call('logWarningChanges', { runId: detail.run.id, changes });
+    setDetail((d) => (d && d.run.id === detail.run.id ? { ...d, warningLog } : d));
+  }
+
   async function recordWarmCheck(request: { coldTemperatureC: number; warmTemperatureC: number; reading: Reading }) {
     if (!detail) throw new Error('No unit is open.');
     const warmCheck = await call('recordWarmCheck', { runId: detail.run.id, ...request });
@@ -249,9 +265,10 @@ export function App() {
     setDetail(null);
   }
 
-  async function finishRun() {
+  /** Refused with the reasons when the run has not earned a PASS, unless it is finished as a FAIL. */
+  async function finishRun(asFailure: boolean) {
     if (!detail) return;
-    const finished = await call('finishRun', { runId: detail.run.id });
+    const finished = await call('finishRun', { runId: detail.run.id, asFailure });
     mute();
     setDetail(finished);
     setSheetPdfPath(finished.run.sheetPdfPath);
@@ -282,7 +299,9 @@ export function App() {
       setStimulusNote(plan.reason);
       if (generatorRef.current.frequencyHz !== plan.frequencyHz) applyGenerator({ ...generatorRef.current, frequencyHz: plan.frequencyHz });
     } catch (error) {
-      setStimulusNote(`Stimulus left at ${stimulusHz} Hz: ${(error as Error).message}`);
+      // Nothing coherent lies close enough to the procedure's frequency: play it exactly, analysed windowed.
+      setStimulusNote(`Playing the procedure's ${stimulusHz} Hz exactly, analysed windowed: ${(error as Error).message}`);
+      if (generatorRef.current.frequencyHz !== stimulusHz) applyGenerator({ ...generatorRef.current, frequencyHz: stimulusHz });
     }
   }, [openProcedure, choice.sharedClock, choice.mainsHz, choice.sampleRateHz, captureRateHz, applyGenerator]);
 
@@ -389,6 +408,7 @@ export function App() {
             generatorOn={generator.on}
             limitThdDb={detail && procedure ? procedure.trim.limitThdDb : null}
             harmonicCount={HARMONIC_COUNT}
+            stimulusCheck={detail && procedure && reading ? checkStimulus(reading, generator, procedure.trim) : null}
           />
           <SpectrumPlot spectrumHz={spectrum?.hz ?? null} spectrumDbfs={spectrum?.dbfs ?? null} />
         </div>
@@ -408,6 +428,8 @@ export function App() {
               onWarmCheck={recordWarmCheck}
               onPositionChange={setTrimmerTurns}
               onFinish={finishRun}
+              onIncludePoint={includePoint}
+              onWarningChanges={logWarningChanges}
               onClose={closeUnit}
             />
           ) : (

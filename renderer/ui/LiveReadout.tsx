@@ -1,4 +1,5 @@
 import type { Reading } from '../../shared/measurement/reading.ts';
+import type { StimulusCheck } from '../../shared/records/stimulus-check.ts';
 import { judgeThd } from '../../shared/records/verdict.ts';
 import { fixed, percent } from './format.ts';
 
@@ -20,9 +21,12 @@ export function LiveReadout({
   generatorOn,
   limitThdDb,
   harmonicCount,
+  stimulusCheck,
 }: {
   reading: Reading | null;
   generatorOn: boolean;
+  /** Whether the reading is the open unit's answer to the stimulus playing; null with no unit open. */
+  stimulusCheck: StimulusCheck | null;
   /** The open unit's THD limit; null with no unit open. */
   limitThdDb: number | null;
   /** Harmonics counted in THD (H2..HN), shown even while no harmonic is measured. */
@@ -37,10 +41,9 @@ export function LiveReadout({
     );
   }
   const noSignal = reading.flags.includes('no-signal');
-  // With the generator muted, silence is expected: said calmly, and nothing is claimed about a
-  // fundamental. WIRING (records): replace this with checkStimulus(reading, stimulus, trim) and show
-  // its `message` here (role="alert" for every problem except 'generator-off').
-  const quietByDesign = noSignal && !generatorOn;
+  // With the generator muted, silence is expected: said calmly, and nothing is claimed about a fundamental.
+  const quietByDesign = !generatorOn && (noSignal || stimulusCheck !== null);
+  const notTheStimulus = stimulusCheck && !stimulusCheck.ok && stimulusCheck.problem !== 'generator-off' ? stimulusCheck.message : null;
   const lastOrder = reading.harmonics.at(-1)?.order ?? harmonicCount;
   const thdVerdict = !noSignal && limitThdDb !== null ? judgeThd(reading.thdDb, limitThdDb) : null;
   return (
@@ -51,7 +54,9 @@ export function LiveReadout({
           {reading.settled ? 'settled' : `settling ${Math.round(reading.settleProgress * 100)} %`}
         </span>
       </h2>
-      {/* WIRING (meas): Reading.settleRemainingS: show "about N s to settled" beside the badge. */}
+      <p className="hint settle-time" data-testid="settle-time">
+        {settleText(reading, notTheStimulus !== null || quietByDesign)}
+      </p>
       <progress max={1} value={reading.settleProgress} aria-label="Progress toward a settled reading" />
       <div className="big-numbers">
         <div>
@@ -77,17 +82,24 @@ export function LiveReadout({
           The generator is off, so there is no tone to measure yet. Turn it on (<kbd>G</kbd>) when the unit is connected.
         </p>
       )}
-      {noSignal && generatorOn && (
-        <p className="problem" role="alert">
-          No signal at the input channel. Check the cabling, the channel choice and that the generator is on.
+      {notTheStimulus ? (
+        <p className="problem" role="alert" data-testid="stimulus-problem">
+          Not recordable: {notTheStimulus}
         </p>
+      ) : (
+        noSignal &&
+        generatorOn && (
+          <p className="problem" role="alert">
+            No signal at the input channel. Check the cabling, the channel choice and that the generator is on.
+          </p>
+        )
       )}
       {reading.flags.includes('at-floor') && (
         <p className="hint" role="status">
           This reading is within 3 dB of the chain’s own floor: the unit may be better than it reads.
         </p>
       )}
-      {reading.flags.includes('clipping') && (
+      {reading.flags.includes('clipping') && !notTheStimulus && (
         <p className="problem" role="alert">
           The input is clipping. Lower the level into the interface (or the generator level) until this message goes.
         </p>
@@ -144,4 +156,12 @@ export function LiveReadout({
       <output hidden data-testid="reading-json" data-reading={JSON.stringify(reading)} />
     </section>
   );
+}
+
+/** Time left to a settled reading, or why none is coming. */
+function settleText(reading: Reading, notMeasuring: boolean): string {
+  if (notMeasuring) return 'Nothing to settle on until the reading is of the stimulus.';
+  if (reading.settled) return 'Settled: Enter records this reading.';
+  if (reading.settleRemainingS === null) return 'Waiting for a steady reading…';
+  return `About ${Math.max(1, Math.ceil(reading.settleRemainingS))} s to settled, if nothing moves.`;
 }

@@ -1,11 +1,14 @@
-import { useEffect, useMemo, useRef, useState, type RefObject } from 'react';
+import { useEffect, useRef, useState, type RefObject } from 'react';
 import type { RunDetail, StoredProcedure, WarmCheck } from '../../shared/ipc/contract.ts';
 import type { Reading } from '../../shared/measurement/reading.ts';
-import { DEFAULT_LIVE_METER_CONFIG } from '../../shared/measurement/live-meter.ts';
-import { assessTrim } from '../../shared/trim/assessment.ts';
+import { whyNotRecordable } from '../../shared/records/stimulus-check.ts';
 import type { LiveSeries, TrimWarning } from '../../shared/trim/trim-assistant.ts';
+import type { WarningChange } from '../../shared/trim/warning-tracker.ts';
+import { ApiError } from '../api.ts';
+import { AssistantSummary } from './AssistantSummary.tsx';
 import { fixed, percent } from './format.ts';
 import { TrimPlot } from './TrimPlot.tsx';
+import { useLiveWarnings } from './useLiveWarnings.ts';
 import type { GeneratorCommand } from '../worker/messages.ts';
 
 /**
@@ -17,7 +20,6 @@ export type UnsettledChoice = 'refuse' | 'record-marked';
 const LIVE_SERIES_LENGTH = 360;
 // A reading older than this is not recorded: the stream has stopped.
 const STALE_READING_MS = 2000;
-const LIVE_READINGS_PER_SECOND = DEFAULT_LIVE_METER_CONFIG.readingsPerSecond;
 
 export function TrimPanel({
   detail,
@@ -32,6 +34,8 @@ export function TrimPanel({
   onWarmCheck,
   onPositionChange,
   onFinish,
+  onIncludePoint,
+  onWarningChanges,
   onClose,
 }: {
   detail: RunDetail;
@@ -48,7 +52,11 @@ export function TrimPanel({
   onWarmCheck(request: { coldTemperatureC: number; warmTemperatureC: number; reading: Reading }): Promise<WarmCheck>;
   /** The typed position changed (the demo bench's virtual trimmer follows it). */
   onPositionChange(position: number): void;
-  onFinish(): Promise<void>;
+  /** Refused with the reasons when the run has not earned a PASS, unless `asFailure`. */
+  onFinish(asFailure: boolean): Promise<void>;
+  /** Confirms an unsettled point so it joins the fit. */
+  onIncludePoint(pointId: number): Promise<void>;
+  onWarningChanges(changes: WarningChange[]): void;
   onClose(): void;
 }) {
   const { run, trimPoints, assessment } = detail;
@@ -61,18 +69,21 @@ export function TrimPanel({
   const [confirmingUnsettled, setConfirmingUnsettled] = useState(false);
   // The reading last recorded: a second Enter on the same reading must not make a second point.
   const recordedReading = useRef<Reading | null>(null);
+  // Why Finish was refused (the run has not earned a PASS): shown with the offer to finish as FAIL.
+  const [finishRefusal, setFinishRefusal] = useState<string | null>(null);
   // Readings since the trimmer last moved: amplitude wander and sub-audio growth show in these.
   const live = useRef<LiveSeries>({ levelsDbfs: [], lfDbfs: [] });
-  const [liveCount, setLiveCount] = useState(0);
-  // Readings since the position last changed: the frame must have moved on past the old position.
-  const readingsSinceMove = useRef(0);
   const lastSequence = useRef(0);
+  // The meter restarts its clean stretch at a move; a reading already on its way when the move
+  // was sent may still come in, so the first one after the move does not count either.
+  const sequenceAtMove = useRef(0);
 
   const setPositionText = (text: string) => {
     setPositionTextState(text);
     live.current = { levelsDbfs: [], lfDbfs: [] };
-    readingsSinceMove.current = 0;
+    sequenceAtMove.current = lastSequence.current;
     setConfirmingUnsettled(false);
+    setFinishRefusal(null);
     const position = Number(text);
     if (text.trim() !== '' && Number.isFinite(position)) onPositionChange(position);
   };
@@ -83,28 +94,23 @@ export function TrimPanel({
   useEffect(() => {
     if (!reading) return;
     // A new meter (capture restarted, stimulus changed) starts its sequence again: so does the series.
-    if (reading.sequence < lastSequence.current) live.current = { levelsDbfs: [], lfDbfs: [] };
+    if (reading.sequence < lastSequence.current) {
+      live.current = { levelsDbfs: [], lfDbfs: [] };
+      sequenceAtMove.current = 0;
+    }
+    // Settle updates repeat the last measured numbers under the same sequence: not a new reading.
+    if (reading.sequence === lastSequence.current) return;
     lastSequence.current = reading.sequence;
-    readingsSinceMove.current++;
     if (reading.flags.includes('no-signal')) return;
     const series = live.current;
     series.levelsDbfs.push(reading.fundamental.levelDbfs);
     if (reading.subAudioDbfs !== null) series.lfDbfs.push(reading.subAudioDbfs);
     if (series.levelsDbfs.length > LIVE_SERIES_LENGTH) series.levelsDbfs.shift();
     if (series.lfDbfs.length > LIVE_SERIES_LENGTH) series.lfDbfs.shift();
-    setLiveCount((n) => n + 1);
   }, [reading]);
 
-  // Warnings from the live series, between recorded points (the stored assessment holds the rest).
-  const liveWarnings = useMemo<TrimWarning[]>(() => {
-    if (trimPoints.length === 0 || !reading || reading.flags.includes('no-signal')) return [];
-    const now = [...trimPoints.map((p) => ({ position: p.position, reading: p.reading })), { position: Number(positionText), reading }];
-    return assessTrim(now, trim, { levelsDbfs: live.current.levelsDbfs.slice(-12), lfDbfs: live.current.lfDbfs.slice(-30) }).warnings;
-    // liveCount stands for the reading and the live series (kept in a ref), updated together.
-    // eslint-disable-next-line react-hooks/exhaustive-deps
-  }, [trimPoints, liveCount, positionText, trim]);
-  const warnings = [...(assessment?.warnings ?? [])];
-  for (const warning of liveWarnings) if (!warnings.some((w) => w.id === warning.id)) warnings.push(warning);
+  // Only what holds now, at the typed position; raised and cleared with hysteresis, and logged.
+  const warnings: TrimWarning[] = useLiveWarnings(trim, trimPoints, Number(positionText), reading, generator.frequencyHz, onWarningChanges);
 
   function stepPosition(direction: 1 | -1) {
     const current = Number(positionText);
@@ -123,11 +129,12 @@ export function TrimPanel({
     if (Date.now() - readingAt > STALE_READING_MS) {
       return 'No new reading for a while: the capture has stopped delivering. Check the interface, then start capture again.';
     }
-    // The frame is frameSize samples long: until that many have passed, it still holds the old position.
-    const readingsPerFrame = Math.ceil((reading.frameSize / reading.sampleRateHz) * LIVE_READINGS_PER_SECOND) + 1;
-    if (readingsSinceMove.current < readingsPerFrame) {
+    if (reading.sequence <= sequenceAtMove.current + 1) {
       return 'The reading still includes the previous trimmer position: wait a moment, then record.';
     }
+    // The same rule main applies: the generator at the procedure's stimulus and the reading its answer.
+    const stimulusProblem = whyNotRecordable(reading, generator, trim, 'record-marked');
+    if (stimulusProblem) return stimulusProblem;
     if (reading === recordedReading.current) return 'This reading is already recorded. Move the trimmer, or wait for the next reading.';
     // A repeated Enter must not fill the table with copies of the point just recorded.
     if (last && last.position === position) return `Point ${last.sequence} is already at ${fixed(position, 2)} ${trim.positionUnit}: move the trimmer first.`;
@@ -159,6 +166,17 @@ export function TrimPanel({
     }
   }
 
+  async function includePoint(pointId: number) {
+    setBusy(true);
+    try {
+      await onIncludePoint(pointId);
+    } catch (error) {
+      setMessage((error as Error).message);
+    } finally {
+      setBusy(false);
+    }
+  }
+
   function askRecordUnsettled() {
     const problem = notRecordable(Number(positionText));
     if (problem !== null) return setMessage(problem);
@@ -166,12 +184,13 @@ export function TrimPanel({
     setConfirmingUnsettled(true);
   }
 
-  async function finish() {
+  async function finish(asFailure: boolean) {
     setBusy(true);
     try {
-      await onFinish();
+      await onFinish(asFailure);
     } catch (error) {
-      setMessage((error as Error).message);
+      if (error instanceof ApiError && error.kind === 'ExpectedFailure' && !asFailure) setFinishRefusal((error as Error).message);
+      else setMessage((error as Error).message);
     } finally {
       setBusy(false);
     }
@@ -188,7 +207,7 @@ export function TrimPanel({
         {detail.earlierRuns > 0 && ` · retest (${detail.earlierRuns} earlier run${detail.earlierRuns === 1 ? '' : 's'})`}
       </p>
       {run.invented && <p className="invented">Demo procedure: invented values, for practice only.</p>}
-      {warnings.length > 0 && (
+      {warnings.length > 0 ? (
         <div className="warning-banner" role="alert" data-testid="trim-warnings">
           {warnings.map((w) => (
             <p key={w.id} data-warning={w.id}>
@@ -196,6 +215,13 @@ export function TrimPanel({
             </p>
           ))}
         </div>
+      ) : (
+        // Holds the banner's place, so a warning appearing does not push the panel down.
+        trimPoints.length > 0 && (
+          <p className="warning-banner quiet" data-testid="no-warnings">
+            No warning at {positionText} {trim.positionUnit}.
+          </p>
+        )
       )}
       <details open={trimPoints.length === 0}>
         <summary>Procedure, safety first</summary>
@@ -275,6 +301,7 @@ export function TrimPanel({
       <AssistantSummary
         detail={detail}
         harmonic={harmonic}
+        unit={trim.positionUnit}
         onUse={(position) => {
           // Plain digits (not the display minus sign), and back to the field so Enter records.
           setPositionText(String(Math.round(position * 100) / 100));
@@ -313,24 +340,45 @@ export function TrimPanel({
               <td>{fixed(p.reading.thdDb, 1)}</td>
               <td>{percent(p.reading.thdPercent).replace(' %', '')}</td>
               <td>{fixed(p.reading.fundamental.levelDbfs, 2)}</td>
-              <td className={p.settled ? undefined : 'unsettled'}>{p.settled ? 'yes' : 'unsettled'}</td>
+              <td className={p.inFit ? undefined : 'unsettled'}>
+                {p.settled ? 'yes' : p.inFit ? 'no, included' : 'unsettled'}
+                {!p.inFit && (
+                  <button type="button" className="small" onClick={() => void includePoint(p.id)} disabled={busy} data-testid={`include-${p.sequence}`}>
+                    Include in fit
+                  </button>
+                )}
+              </td>
             </tr>
           ))}
         </tbody>
       </table>
       </div>
-      {trimPoints.some((p) => !p.settled) && (
+      {trimPoints.some((p) => !p.inFit) && (
         <p className="hint">Unsettled points are marked in red: they stay out of the curve fit and the verdict unless you include them.</p>
       )}
       {trimPoints.length >= 2 && <WarmCheckForm reading={reading} existing={detail.warmCheck} onWarmCheck={onWarmCheck} />}
       <div className="row">
-        <button type="button" onClick={() => void finish()} disabled={busy || trimPoints.length === 0} data-testid="finish-run">
+        <button type="button" onClick={() => void finish(false)} disabled={busy || trimPoints.length === 0} data-testid="finish-run">
           Finish run and make the unit sheet
         </button>
         <button type="button" onClick={onClose} disabled={busy} data-testid="close-unit">
           Close unit (mutes the generator)
         </button>
       </div>
+      {finishRefusal && (
+        <div className="confirm" role="alertdialog" aria-label="The run cannot pass yet" data-testid="finish-refusal">
+          <p className="refusal">{finishRefusal}</p>
+          <div className="row">
+            {/* Keep trimming holds the focus: a stray Enter does not fail the unit. */}
+            <button type="button" autoFocus onClick={() => (setFinishRefusal(null), positionInput.current?.focus())}>
+              Keep trimming
+            </button>
+            <button type="button" className="warn" onClick={() => void finish(true)} disabled={busy} data-testid="finish-as-fail">
+              Finish as FAIL with these reasons
+            </button>
+          </div>
+        </div>
+      )}
     </section>
   );
 }
@@ -342,46 +390,6 @@ export const WARNING_TITLES: Record<TrimWarning['id'], string> = {
   clipping: 'Clipping',
   'past-null': 'Past the null',
 };
-
-function AssistantSummary({ detail, harmonic, onUse }: { detail: RunDetail; harmonic: string; onUse(position: number): void }) {
-  const a = detail.assessment;
-  if (!a) return <p className="hint">Record the first point at the safe end; the assistant fits the trim curve from the second.</p>;
-  return (
-    <div className="assistant" data-testid="assistant">
-      {a.nullPosition === null ? (
-        <p className="hint">{a.reason}</p>
-      ) : (
-        <dl className="facts">
-          <dt>Null</dt>
-          <dd data-testid="null-position">
-            {fixed(a.nullPosition, 2)} ± {fixed(a.nullPositionPlusMinus, 2)} · {harmonic} {fixed(a.nullLevelDbc, 1)} dBc ·{' '}
-            {a.bracketed ? 'bracketed' : 'predicted, not yet bracketed'}
-          </dd>
-          <dt>Latest point</dt>
-          <dd>{a.side === 'past-null' ? 'past the null (over-compensated)' : 'short of the null (safe side)'}</dd>
-          <dt>Recommended</dt>
-          <dd data-testid="recommended-position">
-            {a.recommendedPosition === null ? '—' : `${fixed(a.recommendedPosition, 2)} (predicted ${fixed(a.recommendedLevelDbc, 1)} dBc)`}
-            {a.thermalMarginC !== null && ` · holds the limit over ±${fixed(a.thermalMarginC, 0)} °C untracked`}
-          </dd>
-          <dt>Curve fit</dt>
-          <dd className="hint">{a.reason}</dd>
-        </dl>
-      )}
-      {a.recommendationNote && <p className="hint">{a.recommendationNote}</p>}
-      <div className="row">
-        <button type="button" onClick={() => onUse(a.nextPosition)} data-testid="use-next">
-          Try next: {fixed(a.nextPosition, 2)}
-        </button>
-        {a.recommendedPosition !== null && (
-          <button type="button" onClick={() => onUse(a.recommendedPosition!)}>
-            Set recommended: {fixed(a.recommendedPosition, 2)}
-          </button>
-        )}
-      </div>
-    </div>
-  );
-}
 
 function WarmCheckForm({
   reading,

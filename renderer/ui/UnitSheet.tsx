@@ -3,6 +3,7 @@ import { useEffect, useRef } from 'react';
 import { fixed, localDateTime, localTime, percent, zoneLabel } from './format.ts';
 import { TrimPlot } from './TrimPlot.tsx';
 import { WARNING_TITLES } from './TrimPanel.tsx';
+import { describeThermalMargin } from '../../shared/trim/trim-assistant.ts';
 
 export function UnitSheet({
   detail,
@@ -79,7 +80,19 @@ export function UnitSheet({
           <dt>Verdict</dt>
           <dd data-testid="sheet-verdict-line">
             {verdictText}
-            {run.verdictReason ? ` — ${run.verdictReason}` : ''}
+            {run.verdictReasons.length === 1 && ` — ${run.verdictReasons[0]}`}
+            {run.verdictReasons.length > 1 && (
+              <ul className="reasons">
+                {run.verdictReasons.map((reason) => (
+                  <li key={reason}>{reason}</li>
+                ))}
+              </ul>
+            )}
+          </dd>
+          <dt>Stimulus</dt>
+          <dd data-testid="sheet-stimulus">
+            {final?.stimulusHz != null ? `${fixed(final.stimulusHz, 3)} Hz` : '—'}
+            {procedure && ` at ${fixed(procedure.trim.stimulusLevelDbfs, 1)} dBFS (procedure: ${procedure.trim.stimulusHz} Hz)`}
           </dd>
           <dt>Limit</dt>
           <dd>THD ≤ {fixed(run.limitThdDb, 1)} dB at the final trim point</dd>
@@ -134,7 +147,7 @@ export function UnitSheet({
                 <td>{fixed(p.reading.thdDb, 1)}</td>
                 <td>{percent(p.reading.thdPercent).replace(' %', '')}</td>
                 <td>{fixed(p.reading.fundamental.levelDbfs, 2)}</td>
-                <td className={p.settled ? undefined : 'unsettled'}>{p.settled ? 'yes' : 'no *'}</td>
+                <td className={p.inFit ? undefined : 'unsettled'}>{p.settled ? 'yes' : p.inFit ? 'no, confirmed *' : 'no *'}</td>
                 <td>{localTime(p.recordedAt)}</td>
               </tr>
             ))}
@@ -163,7 +176,7 @@ export function UnitSheet({
           </div>
           <dl className="facts">
             <dt>Curve fit</dt>
-            <dd>{assessment?.reason || '—'}</dd>
+            <dd>{assessment?.fitProblem ?? (assessment?.reason || '—')}</dd>
             <dt>Null</dt>
             <dd data-testid="sheet-null">
               {assessment?.nullPosition != null
@@ -178,9 +191,7 @@ export function UnitSheet({
             </dd>
             <dt>Thermal margin</dt>
             <dd>
-              {assessment?.thermalMarginC != null
-                ? `the residual stays inside the limit over ±${fixed(assessment.thermalMarginC, 0)} °C if the compensation does not track (copper α = 0.00393/°C)`
-                : '—'}
+              {describeThermalMargin(assessment?.thermalMarginC ?? null) ?? '—'}
             </dd>
             <dt>Warm re-check</dt>
             <dd data-testid="sheet-warm-check">
@@ -191,20 +202,37 @@ export function UnitSheet({
           </dl>
         </div>
         <h2>Warnings raised</h2>
-        {/* WIRING (records): RunDetail.warningLog — list each warning with the point where it was raised and where it cleared. */}
-        {detail.warningsRaised.length === 0 ? (
+        {detail.warningLog.length === 0 ? (
           <p data-testid="sheet-warnings">None.</p>
         ) : (
           <>
-            <ul data-testid="sheet-warnings">
-              {detail.warningsRaised.map((w) => (
-                <li key={w.id}>
-                  <strong>{WARNING_TITLES[w.id]}</strong> (after point {w.afterSequence}): {w.seen}
-                </li>
-              ))}
-            </ul>
+            <table className="points warning-log" data-testid="sheet-warnings">
+              <thead>
+                <tr>
+                  <th scope="col">Time ({zone})</th>
+                  <th scope="col">Warning</th>
+                  <th scope="col">Change</th>
+                  <th scope="col">At, {unit}</th>
+                  <th scope="col">After point</th>
+                  <th scope="col">Seen</th>
+                </tr>
+              </thead>
+              <tbody>
+                {detail.warningLog.map((w, i) => (
+                  <tr key={i}>
+                    <td>{localTime(w.at)}</td>
+                    <td>{WARNING_TITLES[w.id]}</td>
+                    <td>{w.change}</td>
+                    <td>{fixed(w.position, 2)}</td>
+                    <td>{w.afterSequence}</td>
+                    <td className="seen">{w.seen}</td>
+                  </tr>
+                ))}
+              </tbody>
+            </table>
             <p className="note">
-              A warning still active at the final point fails the unit; one that cleared earlier is listed here for the record.
+              A warning still active at the final point fails the unit; one that was raised and cleared earlier is listed here for the
+              record.
             </p>
           </>
         )}
