@@ -23,14 +23,18 @@ export function useLiveWarnings(
   const points = useMemo(() => trimPoints.map((p) => ({ position: p.position, reading: p.reading, inFit: p.inFit })), [trimPoints]);
   const [active, setActive] = useState<TrimWarning[]>([]);
   const lastSequence = useRef(-1);
+  const lastPosition = useRef(Number.NaN);
   const changesTo = useRef(onChanges);
   changesTo.current = onChanges;
 
   useEffect(() => {
-    // Settle updates repeat the last measured numbers (same sequence): only new measurements count.
-    if (!reading || reading.sequence === lastSequence.current || points.length === 0 || !Number.isFinite(position)) return;
+    if (!reading || points.length === 0 || !Number.isFinite(position)) return;
+    // Settle updates repeat the last measured numbers (same sequence): they count only as a move.
+    const newReading = reading.sequence !== lastSequence.current;
+    if (!newReading && position === lastPosition.current) return;
     lastSequence.current = reading.sequence;
-    const update = tracker.current!.update({ position, reading, points, stimulusHz });
+    lastPosition.current = position;
+    const update = tracker.current!.update({ position, reading, points, stimulusHz, newReading });
     setActive((current) => (sameWarnings(current, update.active) ? current : update.active));
     const loggable = update.changes.filter((c) => c.position >= trim.positionMin && c.position <= trim.positionMax);
     if (loggable.length > 0) changesTo.current(loggable);

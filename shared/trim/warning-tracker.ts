@@ -49,6 +49,11 @@ export interface LiveWarningInput {
   points: readonly AssessedPoint[];
   /** The tone the generator is playing now, Hz. */
   stimulusHz: number;
+  /**
+   * False when only the position changed and the reading is the one already seen (the meter has no
+   * new frame yet after a move): past-null follows the position at once, the rest waits for a reading.
+   */
+  newReading?: boolean;
 }
 
 export interface WarningHysteresis {
@@ -128,8 +133,9 @@ export class WarningTracker {
       this.lastPosition = input.position;
     }
     const { reading } = input;
+    const fresh = input.newReading !== false;
     const noSignal = reading.flags.includes('no-signal');
-    if (!noSignal) {
+    if (!noSignal && fresh) {
       push(this.levelSeries, reading.fundamental.levelDbfs);
       if (reading.subAudioDbfs !== null) push(this.lfSeries, reading.subAudioDbfs);
     }
@@ -144,6 +150,11 @@ export class WarningTracker {
     const active: TrimWarning[] = [];
     for (const id of ORDER) {
       const track = this.tracks.get(id)!;
+      if (!fresh && id !== 'past-null') {
+        // Judged again only on a new reading: a repeated one must not count toward raising or clearing.
+        if (track.active && track.warning) active.push(track.warning);
+        continue;
+      }
       const verdict = verdicts[id];
       if (verdict.state !== 'off' && verdict.warning) track.warning = verdict.warning;
       track.onRun = verdict.state === 'on' ? track.onRun + 1 : 0;

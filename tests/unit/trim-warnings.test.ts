@@ -58,6 +58,19 @@ describe('WarningTracker', () => {
     expect(back.changes).toEqual([expect.objectContaining({ id: 'past-null', change: 'cleared', position: 4.9 })]);
   });
 
+  it('clears past-null on the move itself, before the meter has a new frame, without counting the old reading again', () => {
+    const points = recorded([0, 1, 4]).map((p, i) => (i === 0 ? { ...p, reading: reading(0, { lf: -100 }) } : p));
+    const tracker = new WarningTracker(trim);
+    // At 7 turns the sub-audio is far up (an oscillating stage): both warnings are raised.
+    let update = tracker.update({ position: 7, reading: reading(7, { lf: -30 }), points, stimulusHz: 14 });
+    for (let i = 0; i < 6; i++) update = tracker.update({ position: 7, reading: reading(7, { lf: -30 }), points, stimulusHz: 14 });
+    expect(update.active.map((w) => w.id)).toEqual(expect.arrayContaining(['past-null', 'lf-instability']));
+    // Back to 4.9 with no new frame yet (the last reading is repeated): past-null goes at once (the
+    // construction's null is at 5.00), the sub-audio warning waits for readings taken at 4.9.
+    for (let i = 0; i < 30; i++) update = tracker.update({ position: 4.9, reading: reading(7, { lf: -30 }), points, stimulusHz: 14, newReading: false });
+    expect(update.active.map((w) => w.id)).toEqual(['lf-instability']);
+  });
+
   it('does not flicker while the sub-audio level hovers about its threshold, and clears once it has fallen', () => {
     const points = recorded([0, 1, 4]).map((p, i) => (i === 0 ? { ...p, reading: reading(0, { lf: -100 }) } : p));
     const tracker = new WarningTracker(trim);
