@@ -58,7 +58,7 @@ async function recordHere(page: Page) {
       await waitSettled(page);
       await page.getByTestId('position-input').press('Enter');
       return rows(page).count();
-    }, { timeout: 60_000, intervals: [500] })
+    }, { timeout: 60_000, interval: 500 })
     .toBe(before + 1);
 }
 
@@ -128,14 +128,15 @@ describe('on the demo bench (simulated unit, invented values)', () => {
     }
     await page.getByTestId('position-input').fill('7');
     await expect.poll(() => page.locator('[data-warning=past-null]').count(), POLL).toBe(1);
-    await page.waitForTimeout(4000); // long enough for the stage to start misbehaving at 7 turns
+    // Left there, the simulated stage breaks into a slow oscillation, and the banner says so.
+    await expect.poll(() => page.locator('[data-warning=lf-instability]').textContent(), { timeout: 30_000 }).toMatch(/oscillating/);
 
     await page.getByTestId('position-input').fill('4.9');
     // Gone with the move itself: a new frame takes at least 1.5 s (65536 samples at 44.1 kHz), so a
     // banner that waited for one would still name 7 turns here.
-    await expect.poll(() => page.locator('[data-warning=past-null]').count(), { timeout: 1200, intervals: [100] }).toBe(0);
+    await expect.poll(() => page.locator('[data-warning=past-null]').count(), { timeout: 1200, interval: 100 }).toBe(0);
     // Whatever the oscillation left behind clears once it has died away (sub-audio window ~5.5 s).
-    await expect.poll(() => page.getByTestId('no-warnings').isVisible(), { timeout: 60_000, intervals: [500] }).toBe(true);
+    await expect.poll(() => page.getByTestId('no-warnings').isVisible(), { timeout: 60_000, interval: 500 }).toBe(true);
     // And stays clear: sampled four times a second for ten seconds at a setting short of the null.
     for (let i = 0; i < 40; i++) {
       expect(await page.getByTestId('no-warnings').isVisible()).toBe(true);
