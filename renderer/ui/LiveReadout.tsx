@@ -99,6 +99,13 @@ export function LiveReadout({
           This reading is within 3 dB of the chain’s own floor: the unit may be better than it reads.
         </p>
       )}
+      {reading.mainsCoincidentOrders.length > 0 && (
+        <p className="hint" role="status" data-testid="mains-coincident">
+          {reading.mainsCoincidentOrders.map((order) => `H${order}`).join(', ')} {reading.mainsCoincidentOrders.length === 1 ? 'lies' : 'lie'} on
+          mains hum or one of its multiples: {reading.mainsCoincidentOrders.length === 1 ? 'its level includes' : 'their levels include'} the
+          hum and cannot be told apart from it. Move the test frequency slightly, or treat {reading.mainsCoincidentOrders.length === 1 ? 'it' : 'them'} as an upper bound.
+        </p>
+      )}
       {reading.flags.includes('clipping') && !notTheStimulus && (
         <p className="problem" role="alert">
           The input is clipping. Lower the level into the interface (or the generator level) until this message goes.

@@ -2,6 +2,7 @@ import { useEffect, useRef, useState, type RefObject } from 'react';
 import type { RunDetail, StoredProcedure, WarmCheck } from '../../shared/ipc/contract.ts';
 import type { Reading } from '../../shared/measurement/reading.ts';
 import { whyNotRecordable } from '../../shared/records/stimulus-check.ts';
+import { judgeTrimRun } from '../../shared/records/verdict.ts';
 import type { LiveSeries, TrimWarning } from '../../shared/trim/trim-assistant.ts';
 import type { WarningChange } from '../../shared/trim/warning-tracker.ts';
 import { ApiError } from '../api.ts';
@@ -197,6 +198,8 @@ export function TrimPanel({
   }
 
   const harmonic = `H${trim.harmonicOrder}`;
+  // What Finish would give now: main's own rule, so the technician knows before pressing it.
+  const outlook = trimPoints.length > 0 ? judgeTrimRun({ trimPoints, assessment, openLiveWarnings: warnings }, trim) : null;
   return (
     <section className="panel trim" aria-label="Trim step">
       <h2>
@@ -365,6 +368,13 @@ export function TrimPanel({
           Close unit (mutes the generator)
         </button>
       </div>
+      {outlook && (
+        <p className={outlook.verdict === 'pass' ? 'hint outlook pass' : 'hint outlook'} data-testid="finish-outlook">
+          {outlook.verdict === 'pass'
+            ? 'Finishing now gives PASS.'
+            : `Not ready to pass: ${outlook.reasons[0]}${outlook.reasons.length > 1 ? ` (and ${outlook.reasons.length - 1} more)` : ''}`}
+        </p>
+      )}
       {finishRefusal && (
         <div className="confirm" role="alertdialog" aria-label="The run cannot pass yet" data-testid="finish-refusal">
           <p className="refusal">{finishRefusal}</p>

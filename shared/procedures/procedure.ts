@@ -5,18 +5,6 @@ import { z } from 'zod';
 
 export const PROCEDURE_SCHEMA_VERSION = 1;
 
-/**
- * How far (percent of the procedure's stimulus frequency) a planned coherent test frequency may
- * move from it. The harmonics then stay within the same few percent of where the procedure put
- * them, which a trim at a sub-audio-adjacent frequency tolerates; further than that it is no longer
- * the procedure's measurement (a 14 Hz step run at 15.5 Hz is 10 % off). Main refuses a trim point
- * whose stimulus is further than this; the planner keeps within it.
- */
-export const PLANNED_FREQUENCY_TOLERANCE_PERCENT = 3;
-
-/** Tolerance for "the generator is at the procedure's level": typed or planned levels are exact. */
-export const STIMULUS_LEVEL_TOLERANCE_DB = 0.01;
-
 export const procedureSchema = z.object({
   schemaVersion: z.literal(PROCEDURE_SCHEMA_VERSION),
   code: z.string().min(1).max(40),

@@ -5,7 +5,20 @@
 
 import type { StimulusSetting } from '../dsp/sine-source.ts';
 import type { Reading } from '../measurement/reading.ts';
-import { PLANNED_FREQUENCY_TOLERANCE_PERCENT, STIMULUS_LEVEL_TOLERANCE_DB, type Procedure } from '../procedures/procedure.ts';
+import type { Procedure } from '../procedures/procedure.ts';
+
+// Kept here, not beside the procedure schema: the page uses them and must not pull zod in.
+/**
+ * How far (percent of the procedure's stimulus frequency) a planned coherent test frequency may
+ * move from it. The harmonics then stay within the same few percent of where the procedure put
+ * them, which a trim at a sub-audio-adjacent frequency tolerates; further than that it is no longer
+ * the procedure's measurement (a 14 Hz step run at 15.5 Hz is 10 % off). Main refuses a trim point
+ * whose stimulus is further than this; the planner keeps within it.
+ */
+export const PLANNED_FREQUENCY_TOLERANCE_PERCENT = 3;
+
+/** Tolerance for "the generator is at the procedure's level": typed or planned levels are exact. */
+export const STIMULUS_LEVEL_TOLERANCE_DB = 0.01;
 
 export type { StimulusSetting };
 

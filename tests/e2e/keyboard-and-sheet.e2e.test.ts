@@ -65,12 +65,15 @@ describe('the trim from the keyboard', () => {
     // The deliberate action: its own button and a confirmation that holds the focus on Cancel, so
     // a stray Enter there records nothing.
     let recordedUnsettled = false;
-    for (const position of ['1.5', '2', '2.5', '3'] as const) {
+    // After a move the meter waits for a frame holding only the new position, then needs three
+    // agreeing readings: a reading is recordable but unsettled for about a sixth of a second, so
+    // the technician may need a few tries to catch one.
+    for (const position of ['1.5', '2', '2.5', '3', '3.25', '3.5', '3.75', '4', '4.25', '4.5'] as const) {
       if (recordedUnsettled) break;
       await page.getByTestId('position-input').fill(position);
       const movedAt = (await latest(page)).sequence;
-      // Past the frame that still holds the old position (65536 samples at 48 kHz ≈ 1.4 s ≈ 9 readings).
-      await page.waitForFunction((after) => JSON.parse(document.querySelector('[data-testid=reading-json]')!.getAttribute('data-reading')!).sequence > after + 10, movedAt);
+      // The page counts the first reading after a move as possibly still the old position.
+      await page.waitForFunction((after) => JSON.parse(document.querySelector('[data-testid=reading-json]')!.getAttribute('data-reading')!).sequence >= after + 2, movedAt, { polling: 10 });
       if ((await latest(page)).settled || !(await page.getByTestId('record-unsettled').isVisible())) continue;
       await page.getByTestId('record-unsettled').click();
       if (!(await page.getByTestId('unsettled-confirm').isVisible())) continue;
@@ -106,7 +109,18 @@ describe('the trim from the keyboard', () => {
     await expect.poll(async () => (await page.getByTestId('position-input').press('Enter'), rows.count()), { timeout: 30_000, interval: 1500 }).toBe(1);
     await page.getByTestId('finish-run').focus();
     await page.keyboard.press('Enter');
+    // One point is no trim: Finish is refused with the reasons, and the focus sits on "Keep
+    // trimming", so a stray Enter does not fail the unit.
+    await expect.poll(() => page.getByTestId('finish-refusal').isVisible(), POLL).toBe(true);
+    await page.keyboard.press('Enter');
+    await expect.poll(() => page.getByTestId('finish-refusal').count(), POLL).toBe(0);
+    expect(await page.getByTestId('sheet-verdict').count()).toBe(0);
+    await page.getByTestId('finish-run').focus();
+    await page.keyboard.press('Enter');
+    await page.getByTestId('finish-as-fail').focus();
+    await page.keyboard.press('Enter');
     await expect.poll(() => page.getByTestId('sheet-verdict').isVisible(), POLL).toBe(true);
+    expect(await page.getByTestId('sheet-verdict').textContent()).toBe('FAIL');
     await expect.poll(() => focusedTestId(page), POLL).toBe('sheet-print');
     await expect.poll(() => page.getByTestId('sheet-pdf-path').textContent(), { timeout: 20_000 }).toMatch(/^Saved as /);
     await page.getByTestId('sheet-back').focus();
@@ -136,6 +150,8 @@ async function sheetPdf(serial: string, positions: number[]): Promise<{ pages: s
   await openUnitByKeyboard(page, serial); // reopens the run with its points
   await expect.poll(() => page.getByTestId('trim-points').locator('tbody tr').count(), POLL).toBe(positions.length);
   await page.getByTestId('finish-run').click();
+  // These points never reach a recommendation (all far short of the null): the run cannot pass.
+  await page.getByTestId('finish-as-fail').click();
   await expect.poll(() => page.getByTestId('sheet-pdf-path').textContent(), { timeout: 20_000 }).toMatch(/^Saved as /);
   const pdfPath = (await page.getByTestId('sheet-pdf-path').textContent())!.replace(/^Saved as /, '');
   copyFileSync(pdfPath, `/tmp/trimbench-sheet-${positions.length}-points.pdf`); // for a look by eye
