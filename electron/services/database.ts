@@ -155,6 +155,11 @@ export const MIGRATIONS: readonly string[] = [
   CREATE TRIGGER warning_changes_never_deleted BEFORE DELETE ON warning_changes
     BEGIN SELECT RAISE(ABORT, 'the warning log is never deleted'); END;
   `,
+  // The live readings each point was recorded after: confirming an earlier unsettled point
+  // re-assesses the run, and the warnings that came from the final point's series must survive it.
+  `
+  ALTER TABLE trim_points ADD COLUMN live_json TEXT;
+  `,
 ];
 
 /**

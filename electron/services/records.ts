@@ -47,6 +47,8 @@ interface TrimPointRow {
   in_fit: number;
   stimulus_hz: number | null;
   reading_json: string;
+  /** The live series sent with the point; null when none was (and for points stored before it was kept). */
+  live_json: string | null;
 }
 
 interface WarningChangeRow {
@@ -96,6 +98,9 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
     procedureById: db.prepare<[number], { id: number; definition_json: string }>(
       'SELECT id, definition_json FROM procedures WHERE id = ?',
     ),
+    newestRevisionOf: db.prepare<[number], { id: number; revision: string }>(
+      'SELECT id, revision FROM procedures WHERE id = (SELECT MAX(id) FROM procedures WHERE code = (SELECT code FROM procedures WHERE id = ?))',
+    ),
     unitBySerial: db.prepare<[string], { id: number; model_code: string }>('SELECT id, model_code FROM units WHERE serial = ?'),
     insertUnit: db.prepare('INSERT INTO units (serial, model_code, created_at) VALUES (?, ?, ?)'),
     openRunOfUnit: db.prepare<[number, number], { id: number }>(
@@ -113,8 +118,8 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
       'SELECT COALESCE(MAX(sequence), 0) + 1 AS next FROM trim_points WHERE run_id = ?',
     ),
     insertTrimPoint: db.prepare(
-      `INSERT INTO trim_points (run_id, sequence, position, recorded_at, settled, in_fit, stimulus_hz, stimulus_level_dbfs, thd_db, reading_json)
-       VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`,
+      `INSERT INTO trim_points (run_id, sequence, position, recorded_at, settled, in_fit, stimulus_hz, stimulus_level_dbfs, thd_db, reading_json, live_json)
+       VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`,
     ),
     trimPointById: db.prepare<[number | bigint], TrimPointRow>('SELECT * FROM trim_points WHERE id = ?'),
     finishRun: db.prepare(
@@ -230,12 +235,17 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
    * The assessment of the points the fit may use (settled, or confirmed). Checked against the
    * contract before anything commits: a record the page cannot read is not written.
    */
-  function assess(runId: number, trim: Procedure['trim'], live: LiveSeries | null, confirming: number | null = null): TrimAssessment {
+  function assess(runId: number, trim: Procedure['trim'], confirming: number | null = null): TrimAssessment {
     // Only the points in the fit are passed for now; once assessTrim honours inFit itself, it may be
     // given every point with its flag.
-    const points = trimPoints(runId)
-      .filter((p) => p.inFit || p.id === confirming)
-      .map((p) => ({ position: p.position, reading: p.reading, inFit: true }));
+    const inFit = trimPoints(runId).filter((p) => p.inFit || p.id === confirming);
+    const points = inFit.map((p) => ({ position: p.position, reading: p.reading, inFit: true }));
+    // The warnings that need a series (level wander, rising sub-audio) are judged at the latest
+    // point in the fit, from the series recorded with it: an unsettled point left out lends it none,
+    // and confirming an earlier one does not make the final point's vanish.
+    const latest = inFit.at(-1);
+    const liveJson = latest ? (statements.trimPointById.get(latest.id)?.live_json ?? null) : null;
+    const live = liveJson === null ? null : (JSON.parse(liveJson) as LiveSeries);
     return trimAssessmentSchema.parse(assessTrim(points, trim, live));
   }
 
@@ -326,6 +336,15 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
         }
         const open = statements.openRunOfUnit.get(unit.id, request.procedureId);
         if (open) return open.id;
+        // An unfinished run keeps its revision; a new one must not start on a replaced revision,
+        // which may lack checks the newer one has (revision A of the demo has no level window).
+        const newest = statements.newestRevisionOf.get(request.procedureId);
+        if (newest && newest.id !== request.procedureId) {
+          throw new ExpectedFailure(
+            `${procedure.code} revision ${procedure.revision} has been replaced by revision ${newest.revision}: ` +
+              `new runs use revision ${newest.revision}. Choose it to start testing ${serial}.`,
+          );
+        }
         const info = statements.insertRun.run(
           unit.id,
           request.procedureId,
@@ -365,6 +384,12 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
       }
       const refusal = whyNotRecordable(reading, stimulus, trim, request.unsettled ?? 'refuse');
       if (refusal) throw new ExpectedFailure(`This reading cannot be recorded. ${refusal}`);
+      // A second point where the last one is adds nothing but a repeated Enter's copy, and would let
+      // a later reading at an unchanged trimmer stand in for the one the fit already has.
+      const last = statements.trimPoints.all(row.id).at(-1);
+      if (last && last.position === position) {
+        throw new ExpectedFailure(`Point ${last.sequence} is already at ${position} ${trim.positionUnit}: move the trimmer before recording another.`);
+      }
       return db.transaction(() => {
         const before = assessmentsOf(row.id).at(-1)?.assessment ?? null;
         const sequence = statements.nextSequence.get(row.id)?.next ?? 1;
@@ -380,8 +405,9 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
           stimulus.levelDbfs,
           reading.thdDb,
           JSON.stringify(reading),
+          request.live === null ? null : JSON.stringify(request.live),
         ).lastInsertRowid;
-        const assessment = assess(row.id, trim, request.live);
+        const assessment = assess(row.id, trim);
         statements.insertAssessment.run(row.id, sequence, recordedAt, JSON.stringify(assessment));
         logAssessedChanges(row.id, before, assessment, { time: recordedAt, position, afterSequence: sequence });
         const point = trimPoints(row.id).find((p) => p.id === Number(id))!;
@@ -402,7 +428,7 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
       return db.transaction(() => {
         const before = assessmentsOf(row.id).at(-1)?.assessment ?? null;
         const confirmedAt = timestamp();
-        const assessment = assess(row.id, trim, null, point.id);
+        const assessment = assess(row.id, trim, point.id);
         statements.insertConfirmation.run(row.id, point.id, latest.sequence, confirmedAt, JSON.stringify(assessment));
         logAssessedChanges(row.id, before, assessment, { time: confirmedAt, position: latest.position, afterSequence: latest.sequence });
         return { point: trimPoints(row.id).find((p) => p.id === point.id)!, assessment, warningLog: warningLog(row.id) };
@@ -435,17 +461,22 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
      * A warm re-check at the final setting: a second reading later, with both temperatures, compared
      * with the last trim point to show how well the unit's own thermal tracking held.
      */
-    recordWarmCheck(request: { runId: number; coldTemperatureC: number; warmTemperatureC: number; reading: Reading }): WarmCheck {
+    recordWarmCheck(request: {
+      runId: number;
+      coldTemperatureC: number;
+      warmTemperatureC: number;
+      reading: Reading;
+      stimulus: StimulusSetting;
+    }): WarmCheck {
       const row = runRow(request.runId);
       if (row.finished_at) throw new ExpectedFailure(`Run ${row.id} is finished; the warm re-check belongs before finishing.`);
       const { trim } = parseProcedure(row.definition_json);
       const points = trimPoints(row.id);
       const last = points.at(-1);
       if (!last || points.length < 2) throw new ExpectedFailure('Record the trim (at least two points) before the warm re-check.');
-      if (request.reading.flags.includes('no-signal')) throw new ExpectedFailure('No signal at the input: the warm reading cannot be recorded.');
-      if (request.reading.flags.includes('clipping')) {
-        throw new ExpectedFailure('The input is clipping: the warm reading cannot be recorded. Lower the level into the interface.');
-      }
+      // Printed on the sheet beside the trim: held to what a trim point is held to.
+      const refusal = whyNotRecordable(request.reading, request.stimulus, trim, 'refuse');
+      if (refusal) throw new ExpectedFailure(`The warm reading cannot be recorded. ${refusal}`);
       const order = trim.harmonicOrder;
       const harmonic = (reading: Reading) => reading.harmonics.find((h) => h.order === order);
       const cold = harmonic(last.reading);
@@ -489,8 +520,10 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
       if (row.finished_at) return runDetail(row.id);
       const { trim } = parseProcedure(row.definition_json);
       const detail = runDetail(row.id);
+      const watched = new Set(statements.trimPoints.all(row.id).filter((p) => p.live_json !== null).map((p) => p.id));
+      const judgedPoints = detail.trimPoints.map((p) => ({ ...p, liveWatched: watched.has(p.id) }));
       const judged = judgeTrimRun(
-        { trimPoints: detail.trimPoints, assessment: detail.assessment, openLiveWarnings: openLiveWarnings(detail.warningLog) },
+        { trimPoints: judgedPoints, assessment: detail.assessment, openLiveWarnings: openLiveWarnings(detail.warningLog) },
         trim,
       );
       if (judged.verdict === 'fail' && !request.asFailure) {

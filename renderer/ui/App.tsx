@@ -254,7 +254,7 @@ export function App() {
 
   async function recordWarmCheck(request: { coldTemperatureC: number; warmTemperatureC: number; reading: Reading }) {
     if (!detail) throw new Error('No unit is open.');
-    const warmCheck = await call('recordWarmCheck', { runId: detail.run.id, ...request });
+    const warmCheck = await call('recordWarmCheck', { runId: detail.run.id, ...request, stimulus: generatorRef.current });
     setDetail((d) => (d ? { ...d, warmCheck } : d));
     return warmCheck;
   }

@@ -236,6 +236,8 @@ export const contract = {
         coldTemperatureC: finite.min(-40).max(150),
         warmTemperatureC: finite.min(-40).max(150),
         reading: readingSchema,
+        /** The generator when the warm reading was taken: judged as for a trim point. */
+        stimulus: stimulusSettingSchema,
       })
       .strict(),
     response: warmCheckSchema,

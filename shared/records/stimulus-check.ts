@@ -6,6 +6,7 @@
 import type { StimulusSetting } from '../dsp/sine-source.ts';
 import type { Reading } from '../measurement/reading.ts';
 import type { Procedure } from '../procedures/procedure.ts';
+import { whyReadingInconsistent } from './reading-check.ts';
 
 // Kept here, not beside the procedure schema: the page uses them and must not pull zod in.
 /**
@@ -125,6 +126,9 @@ export function whyNotRecordable(
   trim: TrimStep,
   unsettled: 'refuse' | 'record-marked',
 ): string | null {
+  // First: a reading that contradicts itself says nothing reliable about the stimulus either.
+  const inconsistent = whyReadingInconsistent(reading);
+  if (inconsistent) return inconsistent;
   const setting = checkStimulusSetting(stimulus, trim);
   if (setting) return setting;
   const check = checkStimulus(reading, stimulus, trim);

@@ -21,9 +21,17 @@ export interface JudgedPoint {
   position: number;
   settled: boolean;
   inFit: boolean;
+  /** When the technician confirmed an unsettled point into the fit; null or absent otherwise. */
+  confirmedAt?: string | null;
   /** The generator's frequency when the point was recorded; null for points stored before it was. */
   stimulusHz: number | null;
   reading: Reading;
+  /**
+   * False when the point came without the live readings since the trimmer moved, so the warnings
+   * that need them (level wander, rising sub-audio) were never looked for there. Main knows it;
+   * left out (the page's view), nothing is assumed.
+   */
+  liveWatched?: boolean;
 }
 
 export interface JudgedRun {
@@ -56,15 +64,35 @@ export function judgeTrimRun(run: JudgedRun, trim: Procedure['trim']): TrimJudge
         ? `The null was not located: ${fitProblem}`
         : 'The null was not located: record more trim points, moving toward more compensation.',
     );
-  } else if (!a.bracketed && a.nullPositionPlusMinus === null) {
-    reasons.push('The null was neither bracketed nor located within a stated uncertainty: record points on both sides of it.');
+  } else if (!a.bracketed && !(a.nullPositionPlusMinus !== null && a.nullPositionPlusMinus <= trim.positionStep)) {
+    // Located: points on both sides of it, or its uncertainty no wider than one step either way,
+    // which is as finely as the technician can set the trimmer anyway.
+    const stated = a.nullPositionPlusMinus === null ? 'with no stated uncertainty' : `± ${turns(a.nullPositionPlusMinus, unit)}`;
+    reasons.push(
+      `The null (${turns(a.nullPosition, unit)} ${stated}) was neither bracketed nor located to within one trimmer step ` +
+        `(±${turns(trim.positionStep, unit)}): record points on both sides of it.`,
+    );
   }
   if (a && a.nullPosition !== null && fitProblem === null && a.recommendedPosition === null) {
     reasons.push(`There is no recommended setting yet${a.recommendationNote ? `: ${a.recommendationNote}` : '.'}`);
   }
 
   const at = `The final point (${final.sequence}, at ${turns(final.position, unit)})`;
-  if (!final.settled) reasons.push(`${at} was recorded before its reading settled.`);
+  // Every reading a PASS rests on must be settled, the final one above all: confirming an unsettled
+  // point lets the fit use it, never the verdict rest on it.
+  if (!final.settled) {
+    reasons.push(
+      final.confirmedAt
+        ? `${at} was recorded before its reading settled; confirming it into the fit does not make it a settled reading. Record a settled point there.`
+        : `${at} was recorded before its reading settled.`,
+    );
+  }
+  if (final.liveWatched === false) {
+    reasons.push(
+      `${at} was recorded without the live readings since the trimmer moved, so level wander and rising sub-audio were never looked for there: ` +
+        'move the trimmer off and back and record it again from the bench.',
+    );
+  }
   if (!final.inFit) reasons.push(`${at} is left out of the fit (unsettled and not confirmed).`);
 
   const stimulus = { on: true, frequencyHz: final.stimulusHz ?? trim.stimulusHz, levelDbfs: trim.stimulusLevelDbfs };

@@ -12,6 +12,8 @@ import { noCaller, openTestStation, readingWithThd, tempDir } from '../support/s
 
 const STIMULUS = { on: true, frequencyHz: DEMO_PROCEDURE.trim.stimulusHz, levelDbfs: DEMO_PROCEDURE.trim.stimulusLevelDbfs };
 const TRUE_NULL = 5;
+/** Live readings since the move: the level holding with the trimmer still, as a settled stage does (common practice). */
+const STEADY = { levelsDbfs: Array<number>(12).fill(-12), lfDbfs: Array<number>(12).fill(-110) };
 
 /** A reading on the constructed line at `position`, of the demo stimulus (14 Hz, −12 dBFS). */
 function onLine(position: number, overrides: Partial<Reading> = {}): Reading {
@@ -36,8 +38,11 @@ afterEach(() => {
   dir.remove();
 });
 
-const record = (position: number, reading: Reading, extra: { stimulus?: typeof STIMULUS; unsettled?: 'refuse' | 'record-marked' } = {}) =>
-  station.records.recordTrimPoint({ runId, position, reading, live: null, stimulus: extra.stimulus ?? STIMULUS, unsettled: extra.unsettled });
+const record = (
+  position: number,
+  reading: Reading,
+  extra: { stimulus?: typeof STIMULUS; unsettled?: 'refuse' | 'record-marked'; live?: typeof STEADY } = {},
+) => station.records.recordTrimPoint({ runId, position, reading, live: extra.live ?? STEADY, stimulus: extra.stimulus ?? STIMULUS, unsettled: extra.unsettled });
 const finish = (asFailure?: boolean) => dispatch(station.handlers, 'finishRun', asFailure === undefined ? { runId } : { runId, asFailure }, noCaller);
 
 describe('a trim point is a measurement of the stimulus', () => {
@@ -157,9 +162,14 @@ describe('unsettled points', () => {
       settleProgress: 0.25,
       subAudioDbfs: -85,
       harmonics: [{ order: 3, frequencyHz: 42, levelDbc: -30, phaseDeg: 120 }],
+      // THD is its one harmonic's level, as every reading's must be.
+      thdDb: -30,
+      thdPercent: 100 * 10 ** (-30 / 20),
     });
     expect(() => record(3.5, moving)).toThrow(/has not settled/);
-    const marked = record(3.5, moving, { unsettled: 'record-marked' });
+    // Its live series since the move shows the sub-audio level climbing to the −85 dBFS it read.
+    const climbing = { levelsDbfs: STEADY.levelsDbfs, lfDbfs: Array.from({ length: 12 }, (_, i) => -110 + (25 * i) / 11) };
+    const marked = record(3.5, moving, { unsettled: 'record-marked', live: climbing });
     expect(marked.point).toMatchObject({ settled: false, inFit: false, confirmedAt: null });
     // Left out: the null is still the line's (5 turns), and no instability warning is raised from it.
     expect(marked.assessment.nullPosition).toBeCloseTo(TRUE_NULL, 6);

@@ -191,7 +191,7 @@ describe('records on a real database file', () => {
     station.records.recordTrimPoint({ runId: run.id, position: 0, reading: reading(-40), live: null, stimulus: STIMULUS });
     station.records.recordTrimPoint({ runId: run.id, position: 4.8, reading: reading(-70), live: null, stimulus: STIMULUS });
     // Copper α = 0.00393/°C (IEC 60028): 20 °C untracked moves H3 by α·20·0.01 = 7.9e-4.
-    const check = station.records.recordWarmCheck({ runId: run.id, coldTemperatureC: 22, warmTemperatureC: 42, reading: reading(-70) });
+    const check = station.records.recordWarmCheck({ runId: run.id, coldTemperatureC: 22, warmTemperatureC: 42, reading: reading(-70), stimulus: STIMULUS });
     expect(check.untrackedDrift).toBeCloseTo(0.00393 * 20 * 0.01, 8);
     expect(check.trackingFraction).toBe(1); // no change at all: the unit tracked fully
     expect(station.records.getRun(run.id).warmCheck).toEqual(check);

@@ -1,0 +1,45 @@
+// Does a reading agree with itself? Main stores and judges readings the page sends; a reading whose
+// settled flag contradicts its own progress, or whose THD is not the sum of its own harmonics, was
+// not produced by the meter (or was edited on the way), and a verdict must not rest on it.
+// Called through whyNotRecordable, so main and the page apply the same rule.
+
+import { FLOOR_DB, type Reading } from '../measurement/reading.ts';
+
+/** How far a reading's THD may lie from the RSS of its harmonics: rounding, never a real difference. */
+export const THD_CONSISTENCY_DB = 0.1;
+
+/** dB of an amplitude ratio, floored as the meter floors every level (so −∞ never appears). */
+const flooredDb = (ratio: number) => Math.max(FLOOR_DB, 20 * Math.log10(ratio));
+
+/**
+ * Why the reading contradicts itself, or null when it is consistent. THD is the root of the summed
+ * harmonic powers relative to the fundamental (THD as a ratio of RMS values, as IEEE 1241 defines
+ * it; from memory). A harmonic stored at the floor may have been anything below it, so it
+ * widens the accepted range instead of being counted at the floor.
+ */
+export function whyReadingInconsistent(reading: Reading): string | null {
+  if (reading.settled !== reading.settleProgress >= 1) {
+    return `The reading says ${reading.settled ? 'settled' : 'not settled'} at ${Math.round(100 * reading.settleProgress)} % settling progress: it was not produced by the meter.`;
+  }
+  if (reading.settled && reading.settleRemainingS !== null && reading.settleRemainingS !== 0) {
+    return `The reading says settled with ${reading.settleRemainingS} s still to wait: it was not produced by the meter.`;
+  }
+  let knownPower = 0;
+  let flooredPower = 0;
+  for (const harmonic of reading.harmonics) {
+    const power = 10 ** (harmonic.levelDbc / 10);
+    if (harmonic.levelDbc <= FLOOR_DB) flooredPower += power;
+    else knownPower += power;
+  }
+  const lowDb = flooredDb(Math.sqrt(knownPower)) - THD_CONSISTENCY_DB;
+  const highDb = flooredDb(Math.sqrt(knownPower + flooredPower)) + THD_CONSISTENCY_DB;
+  const within = (db: number) => db >= lowDb && db <= highDb;
+  const fromHarmonics = `${flooredDb(Math.sqrt(knownPower)).toFixed(2)} dB from its harmonics`;
+  if (!within(reading.thdDb)) {
+    return `The reading's THD (${reading.thdDb.toFixed(2)} dB) is not the ${fromHarmonics}: it was not produced by the meter.`;
+  }
+  if (!within(flooredDb(reading.thdPercent / 100))) {
+    return `The reading's THD (${reading.thdPercent.toPrecision(3)} %) is not the ${fromHarmonics}: it was not produced by the meter.`;
+  }
+  return null;
+}
