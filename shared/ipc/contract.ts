@@ -12,40 +12,47 @@ const rowId = z.number().int().positive();
 
 const dbLevel = finite;
 
-export const readingSchema = z.object({
-  sequence: z.number().int().nonnegative(),
-  sampleRateHz: finite.positive(),
-  frameSize: z.number().int().positive(),
-  discontinuities: z.number().int().nonnegative(),
-  settled: z.boolean(),
-  settleProgress: finite.min(0).max(1),
-  // Readings stored before these fields existed parse with what they would have said.
-  settleRemainingS: finite.nonnegative().nullable().default(null),
-  subAudioDbfs: dbLevel.nullable(),
-  mode: z.enum(['coherent', 'windowed']),
-  fundamental: z.object({ frequencyHz: finite.nonnegative(), levelDbfs: dbLevel, phaseDeg: finite }),
-  harmonics: z
-    .array(z.object({ order: z.number().int().min(2), frequencyHz: finite.nonnegative(), levelDbc: dbLevel, phaseDeg: finite }))
-    .max(64),
-  harmonicsAboveNyquist: z.array(z.number().int().min(2)).max(64),
-  thdPercent: finite.nonnegative(),
-  thdDb: dbLevel,
-  thdnPercent: finite.nonnegative(),
-  thdnDb: dbLevel,
-  sinadDb: finite,
-  enob: finite,
-  noiseDbfs: dbLevel,
-  noiseAWeightedDbfs: dbLevel,
-  hum: z
-    .object({
-      frequencyHz: finite.nonnegative(),
-      levelDbfs: dbLevel,
-      components: z.array(z.object({ order: z.number().int().min(1), frequencyHz: finite.nonnegative(), levelDbfs: dbLevel })).max(8),
-    })
-    .nullable(),
-  mainsCoincidentOrders: z.array(z.number().int().min(2)).max(64).default([]),
-  flags: z.array(z.enum(['no-signal', 'clipping', 'at-floor', 'mains-coincident'])),
-});
+export const readingSchema = z
+  .object({
+    sequence: z.number().int().nonnegative(),
+    sampleRateHz: finite.positive(),
+    frameSize: z.number().int().positive(),
+    discontinuities: z.number().int().nonnegative(),
+    settled: z.boolean(),
+    settleProgress: finite.min(0).max(1),
+    // Readings stored before these fields existed parse with what they would have said.
+    settleRemainingS: finite.nonnegative().nullable().default(null),
+    subAudioDbfs: dbLevel.nullable(),
+    mode: z.enum(['coherent', 'windowed']),
+    fundamental: z.object({ frequencyHz: finite.nonnegative(), levelDbfs: dbLevel, phaseDeg: finite }),
+    measuredFundamentalHz: finite.nonnegative().optional(),
+    harmonics: z
+      .array(z.object({ order: z.number().int().min(2), frequencyHz: finite.nonnegative(), levelDbc: dbLevel, phaseDeg: finite }))
+      .max(64),
+    harmonicsAboveNyquist: z.array(z.number().int().min(2)).max(64),
+    thdPercent: finite.nonnegative(),
+    thdDb: dbLevel,
+    thdnPercent: finite.nonnegative(),
+    thdnDb: dbLevel,
+    sinadDb: finite,
+    enob: finite,
+    noiseDbfs: dbLevel,
+    noiseAWeightedDbfs: dbLevel,
+    hum: z
+      .object({
+        frequencyHz: finite.nonnegative(),
+        levelDbfs: dbLevel,
+        components: z.array(z.object({ order: z.number().int().min(1), frequencyHz: finite.nonnegative(), levelDbfs: dbLevel })).max(8),
+      })
+      .nullable(),
+    mainsCoincidentOrders: z.array(z.number().int().min(2)).max(64).default([]),
+    flags: z.array(z.enum(['no-signal', 'clipping', 'at-floor', 'mains-coincident'])),
+  })
+  // Readings stored before the frequency found was kept apart: their fundamental's is all there is.
+  .transform(({ measuredFundamentalHz, ...reading }) => ({
+    ...reading,
+    measuredFundamentalHz: measuredFundamentalHz ?? reading.fundamental.frequencyHz,
+  }));
 // The schema must describe exactly what the worker produces.
 readingSchema satisfies z.ZodType<Reading>;
 

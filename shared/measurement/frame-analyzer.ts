@@ -146,8 +146,8 @@ export class FrameAnalyzer {
   /**
    * Analyses frame[offset .. offset+frameSize) into `out`. The harmonic and hum entries put into
    * `out` belong to this analyzer and are overwritten by its next analyze() call. With `knownFundamentalHz` (the stimulus
-   * frequency on a shared clock) the fundamental is not searched for; when it also fits a whole
-   * number of cycles in the frame the analysis is coherent.
+   * frequency on a shared clock) the tones are read at it rather than at the strongest tone found;
+   * when it also fits a whole number of cycles in the frame the analysis is coherent.
    */
   analyze(frame: ArrayLike<number>, out: HarmonicAnalysis, knownFundamentalHz: number | null = null, offset = 0): HarmonicAnalysis {
     const n = this.frameSize;
@@ -228,21 +228,42 @@ export class FrameAnalyzer {
 
   // ---- fundamental ------------------------------------------------------------------------
 
+  /**
+   * The fundamental the components are built on, in bins. With a known frequency that is the
+   * generator's (exact when coherent); `out.measuredFundamentalHz` is always the strongest tone
+   * found in the frame, so a tone that is not the generator's (a wrong channel, another source) is
+   * never taken for it unseen.
+   */
   private locateFundamental(knownHz: number | null, out: HarmonicAnalysis): number {
-    const n = this.frameSize;
     out.mode = 'windowed';
+    const strongest = this.strongestBin();
+    let f0: number;
+    let measured: number;
     if (knownHz !== null && knownHz > 0) {
       const knownBin = knownHz / this.binHz;
-      if (Math.abs(knownBin - Math.round(knownBin)) < 1e-6 && knownBin >= 1) {
+      const nearest = Math.round(knownBin);
+      if (Math.abs(knownBin - nearest) < 1e-6 && knownBin >= 1) {
         out.mode = 'coherent';
-        return Math.round(knownBin);
+        f0 = nearest;
+        measured = this.searchPeak(strongest);
+      } else {
+        f0 = this.searchPeak(nearest);
+        measured = strongest === nearest ? f0 : this.searchPeak(strongest);
       }
-      return this.searchPeak(Math.round(knownBin));
+    } else {
+      f0 = this.searchPeak(strongest);
+      measured = f0;
     }
+    out.measuredFundamentalHz = measured * this.binHz;
+    return f0;
+  }
+
+  /** The bin of the strongest tone above the DC lobe. */
+  private strongestBin(): number {
     // Lowest bin searched keeps the DC lobe out of the search. A tone's main lobe is many bins
     // wide, so every second bin finds it; the neighbours then settle the peak bin.
     const firstBin = this.options.window.mainLobeBins + 2;
-    const lastBin = n / 2 - FIT_HALF_WIDTH - 2;
+    const lastBin = this.frameSize / 2 - FIT_HALF_WIDTH - 2;
     const spectrum = this.spectrum;
     let peak = firstBin;
     let peakPower = -1;
@@ -264,7 +285,7 @@ export class FrameAnalyzer {
         peak = k;
       }
     }
-    return this.searchPeak(peak);
+    return peak;
   }
 
   /**

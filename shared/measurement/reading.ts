@@ -42,7 +42,17 @@ export interface HumLevel {
 export interface HarmonicAnalysis {
   /** coherent: the stimulus frequency is known and fits whole cycles in the frame; windowed: it was estimated. */
   mode: 'coherent' | 'windowed';
+  /**
+   * The tones are read at this fundamental: the generator's frequency when it is known and
+   * coherent, the peak nearest it when known otherwise, else the strongest tone found.
+   */
   fundamental: FundamentalTone;
+  /**
+   * The strongest tone actually found in the frame, Hz, whatever the generator is set to: equal to
+   * `fundamental.frequencyHz` when nothing was known, and the test of whether the tone read is the
+   * generator's when it was.
+   */
+  measuredFundamentalHz: number;
   /** Orders 2..N that lie below Nyquist. */
   harmonics: HarmonicLevel[];
   /** Orders 2..N left out because they reach Nyquist. */
@@ -88,6 +98,7 @@ export function createHarmonicAnalysis(): HarmonicAnalysis {
   return {
     mode: 'windowed',
     fundamental: { frequencyHz: 0, levelDbfs: FLOOR_DB, phaseDeg: 0 },
+    measuredFundamentalHz: 0,
     harmonics: [],
     harmonicsAboveNyquist: [],
     thdPercent: 0,

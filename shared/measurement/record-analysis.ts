@@ -69,6 +69,7 @@ class Accumulator {
   private fundamentalPower = 0;
   private firstPhaseDeg = 0;
   private frequencyHz = 0;
+  private measuredFrequencyHz = 0;
   private mode: HarmonicAnalysis['mode'] = 'windowed';
   private readonly harmonicPower: Float64Array;
   private readonly harmonicCos: Float64Array;
@@ -103,6 +104,7 @@ class Accumulator {
     const amplitude = 10 ** (frame.fundamental.levelDbfs / 20);
     this.fundamentalPower += amplitude * amplitude;
     this.frequencyHz += frame.fundamental.frequencyHz;
+    this.measuredFrequencyHz += frame.measuredFundamentalHz;
     for (const h of frame.harmonics) {
       const ratio = 10 ** (h.levelDbc / 20);
       this.harmonicPower[h.order] += ratio * ratio;
@@ -155,6 +157,7 @@ class Accumulator {
         levelDbfs: dbFromRatio(Math.sqrt(this.fundamentalPower / n)),
         phaseDeg: this.firstPhaseDeg,
       },
+      measuredFundamentalHz: this.measuredFrequencyHz / n,
       harmonics: noSignal ? [] : harmonics,
       harmonicsAboveNyquist: this.aboveNyquist,
       thdPercent: noSignal ? 0 : 100 * thd,

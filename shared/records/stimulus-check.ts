@@ -59,7 +59,9 @@ export function checkStimulus(reading: Reading, stimulus: StimulusSetting, trim:
       message: 'The input is clipping: lower the level into the interface (or the unit is oscillating: turn the trimmer back toward the safe end).',
     };
   }
-  const measuredHz = reading.fundamental.frequencyHz;
+  // The frequency found in the signal, not the one the tones were read at: on a shared clock the
+  // latter is the generator's own setting, and would pass any tone.
+  const measuredHz = reading.measuredFundamentalHz;
   const offPercent = (100 * Math.abs(measuredHz - stimulus.frequencyHz)) / stimulus.frequencyHz;
   if (!(offPercent <= trim.frequencyTolerancePercent)) {
     return {

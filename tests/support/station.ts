@@ -16,9 +16,13 @@ export function openTestStation(dataDir: string) {
   return openStation({ dataDir, stationName: 'test-bench-1' });
 }
 
-/** A plausible settled reading with the given THD (for records tests; not a measurement). */
+/**
+ * A plausible settled reading with the given THD (for records tests; not a measurement). The
+ * frequency found is the fundamental's, as in a windowed reading, unless given.
+ */
 export function readingWithThd(thdDb: number, overrides: Partial<Reading> = {}): Reading {
   const thdPercent = 100 * 10 ** (thdDb / 20);
+  const fundamental = overrides.fundamental ?? { frequencyHz: 14, levelDbfs: -12, phaseDeg: 10 };
   return {
     sequence: 12,
     sampleRateHz: 48000,
@@ -29,7 +33,8 @@ export function readingWithThd(thdDb: number, overrides: Partial<Reading> = {}):
     settleRemainingS: 0,
     subAudioDbfs: -110,
     mode: 'windowed',
-    fundamental: { frequencyHz: 14, levelDbfs: -12, phaseDeg: 10 },
+    fundamental,
+    measuredFundamentalHz: fundamental.frequencyHz,
     harmonics: [{ order: 3, frequencyHz: 42, levelDbc: thdDb, phaseDeg: 90 }],
     harmonicsAboveNyquist: [],
     thdPercent,

@@ -20,6 +20,7 @@ function reading(position: number, extra: { lf?: number; thdDb?: number; frequen
   return {
     mode: 'coherent',
     fundamental: { frequencyHz: extra.frequencyHz ?? 14, levelDbfs: extra.levelDbfs ?? -12, phaseDeg: 0 },
+    measuredFundamentalHz: extra.frequencyHz ?? 14,
     harmonics: [h3],
     harmonicsAboveNyquist: [],
     thdPercent: 0,
