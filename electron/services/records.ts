@@ -3,6 +3,7 @@
 
 import type { Reading } from '../../shared/measurement/reading.ts';
 import {
+  readingSchema,
   trimAssessmentSchema,
   type Run,
   type RunDetail,
@@ -203,7 +204,8 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
       inFit: row.in_fit === 1 || confirmed.has(row.id),
       confirmedAt: confirmed.get(row.id) ?? null,
       stimulusHz: row.stimulus_hz,
-      reading: JSON.parse(row.reading_json) as Reading,
+      // Through the schema: readings stored before a field existed get its default, never undefined.
+      reading: readingSchema.parse(JSON.parse(row.reading_json)),
     };
   }
 

@@ -102,7 +102,7 @@ export function LiveReadout({
       {reading.mainsCoincidentOrders.length > 0 && (
         <p className="hint" role="status" data-testid="mains-coincident">
           {reading.mainsCoincidentOrders.map((order) => `H${order}`).join(', ')} {reading.mainsCoincidentOrders.length === 1 ? 'lies' : 'lie'} on
-          mains hum or one of its multiples: {reading.mainsCoincidentOrders.length === 1 ? 'its level includes' : 'their levels include'} the
+          mains hum or one of its multiples: {reading.mainsCoincidentOrders.length === 1 ? 'its level may include' : 'their levels may include'} the
           hum and cannot be told apart from it. Move the test frequency slightly, or treat {reading.mainsCoincidentOrders.length === 1 ? 'it' : 'them'} as an upper bound.
         </p>
       )}
@@ -168,7 +168,7 @@ export function LiveReadout({
 /** Time left to a settled reading, or why none is coming. */
 function settleText(reading: Reading, notMeasuring: boolean): string {
   if (notMeasuring) return 'Nothing to settle on until the reading is of the stimulus.';
-  if (reading.settled) return 'Settled: Enter records this reading.';
+  if (reading.settled) return 'Settled.';
   if (reading.settleRemainingS === null) return 'Waiting for a steady reading…';
   return `About ${Math.max(1, Math.ceil(reading.settleRemainingS))} s to settled, if nothing moves.`;
 }

@@ -235,8 +235,8 @@ export function TrimPanel({
         </ol>
       </details>
       <p className="hint">
-        Stimulus {trim.stimulusHz} Hz at {trim.stimulusLevelDbfs} dBFS · trims {harmonic} · limit THD ≤ {trim.limitThdDb} dB at the final
-        point
+        Procedure: {trim.stimulusHz} Hz at {trim.stimulusLevelDbfs} dBFS · trims {harmonic} · limit THD ≤ {trim.limitThdDb} dB at the
+        final point
       </p>
       <div className="row generator-row" data-testid="trim-generator">
         <span className={generator.on ? 'badge live' : 'badge'}>{generator.on ? 'Generator ON' : 'Generator off'}</span>
