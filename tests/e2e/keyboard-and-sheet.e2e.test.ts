@@ -73,7 +73,7 @@ describe('the trim from the keyboard', () => {
   });
 
   it('records an unsettled reading only through its own confirmed action, never on Enter', { timeout: 120_000 }, async () => {
-    // The unit's answer to the demo stimulus (14 Hz, −12 dBFS) with its level swaying ±0.3 dB over
+    // The unit’s answer to the demo stimulus (14 Hz, −12 dBFS: a full-scale sine is 0 dBFS, AES17) with its level swaying ±0.3 dB over
     // the 4 s loop: well inside the procedure's window, but successive readings never agree within
     // the 0.05 dB a settled reading needs, so it stays unsettled for as long as the test likes.
     const rateHz = 44100;
@@ -81,7 +81,7 @@ describe('the trim from the keyboard', () => {
     const samples = new Float32Array(length);
     for (let i = 0; i < length; i++) {
       const swayDb = 0.3 * Math.sin((2 * Math.PI * 0.25 * i) / rateHz);
-      samples[i] = Math.SQRT2 * 10 ** ((-12 + swayDb) / 20) * Math.cos((2 * Math.PI * 14 * i) / rateHz);
+      samples[i] = 10 ** ((-12 + swayDb) / 20) * Math.cos((2 * Math.PI * 14 * i) / rateHz);
     }
     const wav = join(mkdtempSync(join(tmpdir(), 'trimbench-sway-')), 'sway.wav');
     writeFileSync(wav, encodeWavFloat32([samples, samples], rateHz));
