@@ -137,8 +137,6 @@ export function TrimPanel({
     const stimulusProblem = whyNotRecordable(reading, generator, trim, 'record-marked');
     if (stimulusProblem) return stimulusProblem;
     if (reading === recordedReading.current) return 'This reading is already recorded. Move the trimmer, or wait for the next reading.';
-    // A repeated Enter must not fill the table with copies of the point just recorded.
-    if (last && last.position === position) return `Point ${last.sequence} is already at ${fixed(position, 2)} ${trim.positionUnit}: move the trimmer first.`;
     return null;
   }
 

@@ -416,7 +416,8 @@ export function amplitudeWanderWarning(spreadDb: number): TrimWarning {
 export const CLIPPING_WARNING: TrimWarning = {
   id: 'clipping',
   seen: 'The input is clipping.',
-  advice: 'Lower the level into the interface; a clipped reading cannot be trusted.',
+  // Past the null an oscillating stage drives itself to the rails: turning the input gain down would hide it.
+  advice: 'If the trimmer is past the null or the stage is oscillating, turn it back toward the safe end first; otherwise lower the level into the interface. A clipped reading cannot be trusted.',
 };
 
 /** Strictly rising samples taken about a second apart, over the last few seconds. */
