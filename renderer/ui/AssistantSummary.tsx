@@ -31,8 +31,11 @@ export function AssistantSummary({
             {fixed(a.nullPosition, 2)} ± {fixed(a.nullPositionPlusMinus, 2)} {unit} · {harmonic} {fixed(a.nullLevelDbc, 1)} dBc ·{' '}
             {a.bracketed ? 'bracketed' : 'predicted, not yet bracketed'}
           </dd>
-          <dt>Latest point</dt>
-          <dd>{a.side === 'past-null' ? 'past the null (over-compensated)' : 'short of the null (safe side)'}</dd>
+          <dt>Last recorded</dt>
+          <dd>
+            {fixed(detail.trimPoints.at(-1)?.position, 2)} {unit}:{' '}
+            {a.side === 'past-null' ? 'past the null (over-compensated)' : 'short of the null (safe side)'}
+          </dd>
           <dt>Recommended</dt>
           <dd data-testid="recommended-position">
             {a.recommendedPosition === null

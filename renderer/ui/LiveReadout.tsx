@@ -45,7 +45,9 @@ export function LiveReadout({
   const quietByDesign = !generatorOn && (noSignal || stimulusCheck !== null);
   const notTheStimulus = stimulusCheck && !stimulusCheck.ok && stimulusCheck.problem !== 'generator-off' ? stimulusCheck.message : null;
   const lastOrder = reading.harmonics.at(-1)?.order ?? harmonicCount;
-  const thdVerdict = !noSignal && limitThdDb !== null ? judgeThd(reading.thdDb, limitThdDb) : null;
+  // Against the limit only when the reading is the unit's answer to the stimulus: a green "within"
+  // beside a foreign tone would read as a pass.
+  const thdVerdict = !noSignal && limitThdDb !== null && stimulusCheck?.ok ? judgeThd(reading.thdDb, limitThdDb) : null;
   return (
     <section className="panel readout" aria-label="Live reading">
       <h2>
@@ -129,7 +131,7 @@ export function LiveReadout({
             : 'none above the noise'}
         </dd>
         <dt>Sub-audio</dt>
-        <dd>{reading.subAudioDbfs === null ? '— (needs a stimulus frequency)' : `${fixed(reading.subAudioDbfs, 1)} dBFS`}</dd>
+        <dd>{reading.subAudioDbfs === null ? (generatorOn ? '— (measured after about 6 s of a steady tone)' : '— (needs the generator on)') : `${fixed(reading.subAudioDbfs, 1)} dBFS`}</dd>
         <dt>Analysis</dt>
         <dd>
           {reading.mode === 'coherent' ? 'coherent, in step with the generator' : 'windowed'}

@@ -270,7 +270,7 @@ export function TrimPanel({
         <button type="button" className="primary" onClick={() => void record('refuse')} disabled={busy} data-testid="record-point">
           Record point (Enter)
         </button>
-        {reading && !reading.settled && !confirmingUnsettled && (
+        {reading && !reading.settled && !confirmingUnsettled && whyNotRecordable(reading, generator, trim, 'record-marked') === null && (
           <button type="button" onClick={askRecordUnsettled} disabled={busy} data-testid="record-unsettled">
             Record unsettled…
           </button>
