@@ -348,7 +348,7 @@ function collectWarnings(points: readonly TrimPointData[], settings: TrimAssista
   const growing = baselineLf !== null && live !== null && live.lfDbfs.length > 0 && lfGrowing(live.lfDbfs, baselineLf);
   if (baselineLf !== null && latestLf !== null && (latestLf - baselineLf > settings.lfRiseDb || growing)) {
     const signs = { lfDbfs: latestLf, thdDb: latest.thdDb ?? null, fundamentalHz: latest.fundamentalHz ?? null };
-    warnings.push(lfInstabilityWarning(isOscillating(baselineLf, signs, settings.stimulusHz), baselineLf, signs, growing, settings.stimulusHz));
+    warnings.push(lfInstabilityWarning(isOscillating(baselineLf, signs, settings.stimulusHz), baselineLf, signs, growing ? 'rising' : 'steady', settings.stimulusHz));
   }
   // The last two seconds or so: with the trimmer still and the reading settled, the level should hold.
   const still = (live?.levelsDbfs ?? []).slice(-2 * LIVE_READINGS_PER_SECOND);
@@ -379,7 +379,10 @@ export function isOscillating(baselineLfDbfs: number, signs: OscillationSigns, s
   return (signs.thdDb !== null && signs.thdDb > OSCILLATION_THD_DB) || offTone || signs.lfDbfs - baselineLfDbfs > OSCILLATION_LF_RISE_DB;
 }
 
-export function lfInstabilityWarning(oscillating: boolean, baselineLfDbfs: number, signs: OscillationSigns, growing: boolean, stimulusHz: number | null): TrimWarning {
+/** Which way the sub-audio level is heading over the last seconds. */
+export type LfTrend = 'rising' | 'falling' | 'steady';
+
+export function lfInstabilityWarning(oscillating: boolean, baselineLfDbfs: number, signs: OscillationSigns, heading: LfTrend, stimulusHz: number | null): TrimWarning {
   const above = `${fixed(signs.lfDbfs - baselineLfDbfs, 1)} dB above the safe end's (${fixed(baselineLfDbfs, 1)} dBFS)`;
   if (oscillating) {
     const thd = signs.thdDb !== null ? `; THD ${fixed(signs.thdDb, 1)} dB` : '';
@@ -390,9 +393,18 @@ export function lfInstabilityWarning(oscillating: boolean, baselineLfDbfs: numbe
       advice: 'Turn the trimmer back toward the safe end now and keep speakers disconnected; no reading means anything until the oscillation stops.',
     };
   }
+  if (heading === 'falling') {
+    // After the trimmer came back from an oscillation the level dies away over seconds: that is
+    // recovery, not a new instability, and the advice is to wait, not to turn further.
+    return {
+      id: 'lf-instability',
+      seen: `Sub-audio level is falling back: ${fixed(signs.lfDbfs, 1)} dBFS, still ${above}.`,
+      advice: 'The stage is recovering from low-frequency instability: leave the trimmer where it is, on the safe side, until this clears; keep speakers disconnected.',
+    };
+  }
   return {
     id: 'lf-instability',
-    seen: `Sub-audio level is ${growing ? 'rising from reading to reading' : 'up'}: ${fixed(signs.lfDbfs, 1)} dBFS, ${above}.`,
+    seen: `Sub-audio level is ${heading === 'rising' ? 'rising from reading to reading' : 'up'}: ${fixed(signs.lfDbfs, 1)} dBFS, ${above}.`,
     advice: 'Low-frequency instability is starting: turn the trimmer back toward the safe end now; keep speakers disconnected.',
   };
 }
@@ -431,6 +443,12 @@ function everyNth(series: readonly number[], n: number): number[] {
   const picked: number[] = [];
   for (let i = series.length - 1; i >= 0; i -= n) picked.unshift(series[i]);
   return picked;
+}
+
+/** Strictly falling over the last few seconds by more than 3 dB in all. */
+export function lfFalling(lfDbfs: readonly number[]): boolean {
+  const picked = everyNth(lfDbfs, LIVE_READINGS_PER_SECOND).slice(-4);
+  return isGrowing(picked.map((value) => -value));
 }
 
 /** Strictly rising over the last readings by more than 3 dB in all. */

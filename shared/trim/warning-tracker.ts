@@ -14,6 +14,7 @@ import {
   gainRiseWarning,
   isOscillating,
   LIVE_READINGS_PER_SECOND,
+  lfFalling,
   lfGrowing,
   lfInstabilityWarning,
   pastNullWarning,
@@ -198,7 +199,8 @@ export class WarningTracker {
     const oscillating = isOscillating(baseline, signs, input.stimulusHz);
     const growing = lfGrowing(this.lfSeries, baseline);
     const rise = lf - baseline;
-    const warning = lfInstabilityWarning(oscillating, baseline, signs, growing, input.stimulusHz);
+    const trend = growing ? 'rising' : lfFalling(this.lfSeries) ? 'falling' : 'steady';
+    const warning = lfInstabilityWarning(oscillating, baseline, signs, trend, input.stimulusHz);
     if (oscillating || growing || rise > this.settings.lfRiseDb) return { state: 'on', warning };
     if (rise > this.settings.lfRiseDb - this.hysteresis.lfLeaveDb) return { state: 'hold', warning };
     return { state: 'off' };

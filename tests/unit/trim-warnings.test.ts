@@ -72,6 +72,20 @@ describe('WarningTracker', () => {
     expect(update.active.map((w) => w.id)).toEqual(['lf-instability']);
   });
 
+  it('says the stage is recovering, not that instability is starting, while the sub-audio level dies away', () => {
+    const points = recorded([0, 1, 4]).map((p, i) => (i === 0 ? { ...p, reading: reading(0, { lf: -100 }) } : p));
+    const tracker = new WarningTracker(trim);
+    // Construction: 3 s at 30 dB above the safe end (over the procedure's 20 dB rise), then back at
+    // 4.5 turns the level decays by 2 dB a second, at six readings a second.
+    for (let i = 0; i < 18; i++) tracker.update({ position: 4.5, reading: reading(4.5, { lf: -70 }), points, stimulusHz: 14 });
+    let active: ReturnType<WarningTracker['update']>['active'] = [];
+    for (let i = 0; i < 24; i++) active = tracker.update({ position: 4.5, reading: reading(4.5, { lf: -70 - (2 * i) / 6 }), points, stimulusHz: 14 }).active;
+    const lf = active.find((w) => w.id === 'lf-instability')!;
+    expect(lf.seen).toMatch(/falling back/);
+    expect(lf.advice).toMatch(/recovering/);
+    expect(lf.advice).not.toMatch(/starting/);
+  });
+
   it('does not flicker while the sub-audio level hovers about its threshold, and clears once it has fallen', () => {
     const points = recorded([0, 1, 4]).map((p, i) => (i === 0 ? { ...p, reading: reading(0, { lf: -100 }) } : p));
     const tracker = new WarningTracker(trim);
