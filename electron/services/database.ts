@@ -163,11 +163,32 @@ export const MIGRATIONS: readonly string[] = [
 ];
 
 /**
+ * How long a write waits for another connection's write to finish before it gives up. SQLite
+ * applies it only to transactions that take the write lock up front (BEGIN IMMEDIATE): a deferred
+ * one that reads first and then must write fails at once when another writer got in between
+ * (SQLite, "Isolation in SQLite" and sqlite3_busy_timeout). So every write here is immediate.
+ */
+export const BUSY_TIMEOUT_MS = 5000;
+
+/** True for SQLite's "database is locked" family (SQLITE_BUSY and its extended codes). */
+export function isDatabaseBusy(error: unknown): boolean {
+  const code = (error as { code?: unknown } | null)?.code;
+  return typeof code === 'string' && code.startsWith('SQLITE_BUSY');
+}
+
+/** The technician's message for a database that stayed busy past the timeout. */
+export function databaseBusyFailure(file: string): ExpectedFailure {
+  return new ExpectedFailure(
+    `The records database ${file} is busy: another Trimbench may be using this data folder. Close it and try again.`,
+  );
+}
+
+/**
  * Opens (creating if needed) and migrates the database. Before migrating an existing file it
  * writes a copy beside it; a file from a newer Trimbench is refused rather than guessed at.
  */
-export function openDatabase(file: string): Db {
-  const db = new Database(file);
+export function openDatabase(file: string, { busyTimeoutMs = BUSY_TIMEOUT_MS }: { busyTimeoutMs?: number } = {}): Db {
+  const db = new Database(file, { timeout: busyTimeoutMs });
   try {
     refuseNewer(db, file); // before anything changes the file, even its journal mode
     db.pragma('journal_mode = WAL');
@@ -178,12 +199,17 @@ export function openDatabase(file: string): Db {
     return db;
   } catch (error) {
     db.close();
+    if (isDatabaseBusy(error)) throw databaseBusyFailure(file);
     throw error;
   }
 }
 
+function schemaVersion(db: Db): number {
+  return db.pragma('user_version', { simple: true }) as number;
+}
+
 function refuseNewer(db: Db, file: string): void {
-  const current = db.pragma('user_version', { simple: true }) as number;
+  const current = schemaVersion(db);
   if (current > MIGRATIONS.length) {
     throw new ExpectedFailure(
       `The database ${file} was written by a newer Trimbench (schema ${current}, this version knows ${MIGRATIONS.length}). Update Trimbench; the file was not changed.`,
@@ -191,19 +217,38 @@ function refuseNewer(db: Db, file: string): void {
   }
 }
 
+/**
+ * Brings the schema to the latest version in one IMMEDIATE transaction that re-reads the version
+ * once it holds the write lock: another process opening the same fresh file at the same moment
+ * either finished first (nothing left to do) or waits for this one. A crash part-way leaves the
+ * file as it was, since the whole migration commits or none of it does.
+ */
 function migrate(db: Db, file: string): void {
-  const current = db.pragma('user_version', { simple: true }) as number;
   const latest = MIGRATIONS.length;
-  if (current === latest) return;
-  if (current > 0) {
-    // A time in the name: an earlier, interrupted attempt's copy never blocks this one.
-    const stamp = new Date().toISOString().replaceAll(':', '-');
-    db.exec(`VACUUM INTO '${`${file}.before-schema-${current + 1}-${stamp}`.replaceAll("'", "''")}'`);
+  let backedUpVersion = 0;
+  // Bounded: each pass either migrates, finds nothing to do, or saw the version move under it.
+  for (let attempt = 0; attempt < 3; attempt++) {
+    const seen = schemaVersion(db);
+    if (seen === latest) return;
+    if (seen > 0 && seen !== backedUpVersion) {
+      // VACUUM INTO cannot run inside a transaction, so the copy is taken first and the version it
+      // holds is checked again under the lock. A time in the name: an earlier, interrupted
+      // attempt's copy never blocks this one.
+      const stamp = new Date().toISOString().replaceAll(':', '-');
+      db.exec(`VACUUM INTO '${`${file}.before-schema-${seen + 1}-${stamp}`.replaceAll("'", "''")}'`);
+      backedUpVersion = seen;
+    }
+    const done = db.transaction(() => {
+      const current = schemaVersion(db);
+      refuseNewer(db, file);
+      if (current === latest) return true;
+      // Changed since the copy was taken: take a copy of what is there now before touching it.
+      if (current > 0 && current !== backedUpVersion) return false;
+      for (let version = current + 1; version <= latest; version++) db.exec(MIGRATIONS[version - 1]);
+      db.pragma(`user_version = ${latest}`);
+      return true;
+    }).immediate();
+    if (done) return;
   }
-  for (let version = current + 1; version <= latest; version++) {
-    db.transaction(() => {
-      db.exec(MIGRATIONS[version - 1]);
-      db.pragma(`user_version = ${version}`);
-    })();
-  }
+  throw new ExpectedFailure(`The database ${file} kept changing while Trimbench was updating it. Close other Trimbench windows and start again.`);
 }
