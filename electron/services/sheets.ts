@@ -1,8 +1,8 @@
 // Unit sheets as PDF files in a folder beside the database. A sheet is written once per
 // finished run and never overwritten: it is the record that left the station.
 
-import { closeSync, existsSync, fsyncSync, mkdirSync, openSync, renameSync, statSync, writeSync } from 'node:fs';
-import { join } from 'node:path';
+import { closeSync, existsSync, fstatSync, fsyncSync, mkdirSync, openSync, readSync, renameSync, unlinkSync, writeSync } from 'node:fs';
+import { basename, dirname, join } from 'node:path';
 import { ExpectedFailure } from './expected-failure.ts';
 import type { Records } from './records.ts';
 
@@ -10,34 +10,153 @@ export function sheetFileName(serial: string, runId: number): string {
   return `${serial}_run-${runId}.pdf`;
 }
 
+/** The n-th name tried for a run's sheet: the plain name, then `_2`, `_3` … beside a file that is not ours. */
+function candidateName(serial: string, runId: number, attempt: number): string {
+  return attempt === 1 ? sheetFileName(serial, runId) : `${serial}_run-${runId}_${attempt}.pdf`;
+}
+
+/** Beyond this many foreign files in the way, something is wrong with the folder: refuse. */
+const MAX_NAME_ATTEMPTS = 20;
+
+const PDF_HEADER = '%PDF-';
+const PDF_EOF = '%%EOF';
+/** How far from the end to look for %%EOF; only white space may follow it. */
+const TAIL_BYTES = 1024;
+/** White-space characters of ISO 32000-1 §7.2.2 Table 1: NUL, HT, LF, FF, CR, SP. */
+const PDF_WHITE_SPACE = new Set([0x00, 0x09, 0x0a, 0x0c, 0x0d, 0x20]);
+
+/**
+ * Whether bytes are a complete PDF file as far as its two ends show: the header "%PDF-" first
+ * (ISO 32000-1 §7.5.2) and the end-of-file marker "%%EOF" last, possibly followed by an end of
+ * line (§7.5.5). An empty or cut-short render fails this, so it is never recorded as a sheet.
+ */
+export function looksLikePdf(head: Uint8Array, tail: Uint8Array): boolean {
+  if (head.length < PDF_HEADER.length) return false;
+  for (let i = 0; i < PDF_HEADER.length; i++) if (head[i] !== PDF_HEADER.charCodeAt(i)) return false;
+  let end = tail.length;
+  while (end > 0 && PDF_WHITE_SPACE.has(tail[end - 1])) end--;
+  if (end < PDF_EOF.length) return false;
+  for (let i = 0; i < PDF_EOF.length; i++) if (tail[end - PDF_EOF.length + i] !== PDF_EOF.charCodeAt(i)) return false;
+  return true;
+}
+
+function pdfBytesLookComplete(pdf: Uint8Array): boolean {
+  return looksLikePdf(pdf.subarray(0, PDF_HEADER.length), pdf.subarray(Math.max(0, pdf.length - TAIL_BYTES)));
+}
+
+/** Reads only the two ends of a file on disk: a stray large file is not loaded to be judged. */
+function fileLooksLikePdf(path: string): boolean {
+  const fd = openSync(path, 'r');
+  try {
+    const head = new Uint8Array(PDF_HEADER.length);
+    const headRead = readSync(fd, head, 0, head.length, 0);
+    const size = fstatSync(fd).size;
+    const tail = new Uint8Array(Math.min(TAIL_BYTES, size));
+    const tailRead = readSync(fd, tail, 0, tail.length, size - tail.length);
+    return looksLikePdf(head.subarray(0, headRead), tail.subarray(0, tailRead));
+  } finally {
+    closeSync(fd);
+  }
+}
+
+/**
+ * Makes a folder's entries (a rename, a new file, a new subfolder) durable. A file's own fsync
+ * does not cover the directory entry that names it (Linux fsync(2), NOTES); the directory has to
+ * be opened and fsynced itself.
+ */
+function fsyncFolder(folder: string): void {
+  // Windows cannot open a directory as a file to flush it (and NTFS journals its metadata), so
+  // there is nothing to do there.
+  if (process.platform === 'win32') return;
+  const fd = openSync(folder, 'r');
+  try {
+    fsyncSync(fd);
+  } finally {
+    closeSync(fd);
+  }
+}
+
+let partialCounter = 0;
+
 export function createSheets(records: Records, folder: string) {
-  return {
-    folder,
-    async savePdf(runId: number, renderPdf: () => Promise<Uint8Array>): Promise<{ path: string; alreadySaved: boolean }> {
-      const { run } = records.getRun(runId);
-      if (!run.finishedAt) throw new ExpectedFailure('Finish the run before saving its unit sheet.');
-      if (run.sheetPdfPath) return { path: run.sheetPdfPath, alreadySaved: true };
-      mkdirSync(folder, { recursive: true });
-      const path = join(folder, sheetFileName(run.serial, run.id));
-      // A complete file from an earlier attempt that crashed before recording it is this run's sheet.
-      if (existsSync(path) && statSync(path).size > 0) {
-        records.setSheetPath(runId, path);
-        return { path, alreadySaved: true };
+  /** One save at a time per run: a second request while one is running gets the same answer. */
+  const inFlight = new Map<number, Promise<{ path: string; alreadySaved: boolean }>>();
+
+  async function saveOnce(runId: number, renderPdf: () => Promise<Uint8Array>): Promise<{ path: string; alreadySaved: boolean }> {
+    const { run } = records.getRun(runId);
+    if (!run.finishedAt) throw new ExpectedFailure('Finish the run before saving its unit sheet.');
+    if (run.sheetPdfPath) return { path: run.sheetPdfPath, alreadySaved: true };
+    // A new sheets folder is itself an entry in the data folder: flush that too.
+    if (mkdirSync(folder, { recursive: true }) !== undefined) fsyncFolder(dirname(folder));
+
+    // The first free name, unless a complete PDF already holds one of the run's names: that is
+    // this run's sheet, written by an earlier attempt that stopped before recording it. A file
+    // that is not a complete PDF is someone else's (or damaged) and is left exactly as it is.
+    let path: string | null = null;
+    for (let attempt = 1; attempt <= MAX_NAME_ATTEMPTS && path === null; attempt++) {
+      const candidate = join(folder, candidateName(run.serial, run.id, attempt));
+      if (!existsSync(candidate)) {
+        path = candidate;
+      } else if (fileLooksLikePdf(candidate)) {
+        records.setSheetPath(runId, candidate);
+        return { path: candidate, alreadySaved: true };
       }
-      const pdf = await renderPdf();
-      // Written whole and flushed before it gets its name, and named before it is recorded: a power
-      // cut leaves either no sheet or a complete one, never a recorded empty file.
-      const partial = `${path}.partial`;
-      const fd = openSync(partial, 'w');
+    }
+    if (path === null) {
+      throw new ExpectedFailure(
+        `The sheet for run ${run.id} was not saved: ${MAX_NAME_ATTEMPTS} files named ${sheetFileName(run.serial, run.id)} or like it, none a complete PDF, are in ${folder}. Move them out of that folder and save again.`,
+      );
+    }
+
+    const pdf = await renderPdf();
+    if (pdf.length === 0) {
+      throw new ExpectedFailure(`Sheet ${basename(path)} was not saved: the page printed an empty file. Save the sheet again.`);
+    }
+    if (!pdfBytesLookComplete(pdf)) {
+      throw new ExpectedFailure(`Sheet ${basename(path)} was not saved: what the page printed is not a complete PDF. Save the sheet again.`);
+    }
+
+    // Written whole and flushed under a temporary name, renamed, and the rename flushed with the
+    // folder before the path is recorded: a power cut leaves either no recorded sheet or a
+    // recorded, complete file, never a recorded path with no file or an empty one.
+    const partial = `${path}.${process.pid}-${++partialCounter}.partial`;
+    const fd = openSync(partial, 'wx');
+    try {
       try {
-        writeSync(fd, pdf);
+        let written = 0;
+        while (written < pdf.length) written += writeSync(fd, pdf, written, pdf.length - written);
         fsyncSync(fd);
       } finally {
         closeSync(fd);
       }
+      // rename() replaces an existing target, so the name must still be free. The data folder
+      // is held by this one station process and saves are single-flight per run (run ids are
+      // in the names), so nothing else can take it between this check and the rename.
+      if (existsSync(path)) {
+        throw new ExpectedFailure(`Sheet ${basename(path)} was not saved: a file of that name appeared in ${folder}. Save the sheet again.`);
+      }
       renameSync(partial, path);
-      records.setSheetPath(runId, path);
-      return { path, alreadySaved: false };
+    } catch (error) {
+      try {
+        unlinkSync(partial);
+      } catch {
+        // Already renamed or never created: nothing to tidy.
+      }
+      throw error;
+    }
+    fsyncFolder(folder);
+    records.setSheetPath(runId, path);
+    return { path, alreadySaved: false };
+  }
+
+  return {
+    folder,
+    savePdf(runId: number, renderPdf: () => Promise<Uint8Array>): Promise<{ path: string; alreadySaved: boolean }> {
+      const running = inFlight.get(runId);
+      if (running) return running;
+      const saving = saveOnce(runId, renderPdf).finally(() => inFlight.delete(runId));
+      inFlight.set(runId, saving);
+      return saving;
     },
   };
 }

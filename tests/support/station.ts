@@ -53,6 +53,7 @@ export function readingWithThd(thdDb: number, overrides: Partial<Reading> = {}):
 }
 
 export const noCaller: CallerContext = {
-  printToPdf: async () => new TextEncoder().encode('%PDF-1.4 test\n'),
+  // The two ends every PDF has (ISO 32000-1 §7.5.2, §7.5.5); the sheet service refuses anything less.
+  printToPdf: async () => new TextEncoder().encode('%PDF-1.4 test\n%%EOF\n'),
   print: async () => false,
 };

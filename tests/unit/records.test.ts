@@ -232,7 +232,7 @@ describe('records on a real database file', () => {
     station.records.finishRun({ runId: run.id, asFailure: true });
     const path = join(dir.path, 'sheets', sheetFileName('MG20-2611-0053', run.id));
     mkdirSync(join(dir.path, 'sheets'), { recursive: true });
-    writeFileSync(path, '%PDF-1.4 written before the crash\n');
+    writeFileSync(path, '%PDF-1.4 written before the crash\n%%EOF\n');
     const saved = await station.sheets.savePdf(run.id, async () => {
       throw new Error('must not render again');
     });
