@@ -4,7 +4,9 @@
 import type { Reading } from '../../shared/measurement/reading.ts';
 import {
   readingSchema,
+  runDetailSchema,
   trimAssessmentSchema,
+  warmCheckSchema,
   type Run,
   type RunDetail,
   type StoredProcedure,
@@ -13,6 +15,7 @@ import {
   type WarningLogEntry,
 } from '../../shared/ipc/contract.ts';
 import { procedureSchema, type Procedure } from '../../shared/procedures/procedure.ts';
+import { thdDbFromHarmonics } from '../../shared/records/reading-check.ts';
 import { checkSerial } from '../../shared/records/serial.ts';
 import { whyNotRecordable, type StimulusSetting } from '../../shared/records/stimulus-check.ts';
 import { judgeTrimRun } from '../../shared/records/verdict.ts';
@@ -285,6 +288,22 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
     return row;
   }
 
+  /**
+   * The run this station has open: the one openRun last gave the page (resumed or started). A call
+   * that changes a run acts only on it, so a stale page or a guessed id cannot touch another unit's.
+   */
+  let stationOpenRunId: number | null = null;
+
+  /** The run to change, refused unless it is unfinished and the one the station has open. */
+  function openRunRow(runId: number, finishedMessage: (id: number) => string): RunRow {
+    const row = runRow(runId);
+    if (row.finished_at) throw new ExpectedFailure(finishedMessage(row.id));
+    if (row.id !== stationOpenRunId) {
+      throw new ExpectedFailure(`Run ${row.id} is not the run open at this station: open the unit (serial and operator) again, then retry.`);
+    }
+    return row;
+  }
+
   function runDetail(runId: number): RunDetail {
     const row = runRow(runId);
     const assessments = assessmentsOf(runId);
@@ -357,7 +376,9 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
         );
         return Number(info.lastInsertRowid);
       }).immediate();
-      return runDetail(runId);
+      const detail = runDetail(runId);
+      stationOpenRunId = runId;
+      return detail;
     },
 
     getRun: runDetail,
@@ -375,8 +396,7 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
       stimulus: StimulusSetting;
       unsettled?: 'refuse' | 'record-marked';
     }): RecordedPoint {
-      const row = runRow(request.runId);
-      if (row.finished_at) throw new ExpectedFailure(`Run ${row.id} is finished; start a retest to record more trim points.`);
+      const row = openRunRow(request.runId, (id) => `Run ${id} is finished; start a retest to record more trim points.`);
       const { trim } = parseProcedure(row.definition_json);
       const { position, reading, stimulus } = request;
       if (position < trim.positionMin || position > trim.positionMax) {
@@ -419,8 +439,7 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
 
     /** The technician confirms an unsettled point: it joins the fit and the verdict, re-assessed and logged. */
     includeUnsettledPoint(request: { runId: number; pointId: number }): RecordedPoint {
-      const row = runRow(request.runId);
-      if (row.finished_at) throw new ExpectedFailure(`Run ${row.id} is finished; its points can no longer change.`);
+      const row = openRunRow(request.runId, (id) => `Run ${id} is finished; its points can no longer change.`);
       const { trim } = parseProcedure(row.definition_json);
       const points = trimPoints(row.id);
       const point = points.find((p) => p.id === request.pointId);
@@ -439,8 +458,7 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
 
     /** Warning changes the page's live watch saw between points, logged with main's time. */
     logWarningChanges(request: { runId: number; changes: readonly ReportedWarningChange[] }): { warningLog: WarningLogEntry[] } {
-      const row = runRow(request.runId);
-      if (row.finished_at) throw new ExpectedFailure(`Run ${row.id} is finished; its warning log is closed.`);
+      const row = openRunRow(request.runId, (id) => `Run ${id} is finished; its warning log is closed.`);
       const { trim } = parseProcedure(row.definition_json);
       for (const change of request.changes) {
         if (change.position < trim.positionMin || change.position > trim.positionMax) {
@@ -470,8 +488,7 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
       reading: Reading;
       stimulus: StimulusSetting;
     }): WarmCheck {
-      const row = runRow(request.runId);
-      if (row.finished_at) throw new ExpectedFailure(`Run ${row.id} is finished; the warm re-check belongs before finishing.`);
+      const row = openRunRow(request.runId, (id) => `Run ${id} is finished; the warm re-check belongs before finishing.`);
       const { trim } = parseProcedure(row.definition_json);
       const points = trimPoints(row.id);
       const last = points.at(-1);
@@ -490,7 +507,7 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
         { levelDbc: warm.levelDbc, phaseDeg: warm.phaseDeg, temperatureC: request.warmTemperatureC },
         safeEnd.levelDbc,
       );
-      const result: WarmCheck = {
+      const computed: WarmCheck = {
         recordedAt: timestamp(),
         position: last.position,
         coldTemperatureC: request.coldTemperatureC,
@@ -501,6 +518,15 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
         measuredDrift: check.measuredDrift,
         untrackedDrift: check.untrackedDrift,
       };
+      // Checked before it is written: a non-finite drift would be stored as null and leave the run
+      // unreadable from then on.
+      const checked = warmCheckSchema.safeParse(computed);
+      if (!checked.success) {
+        throw new ExpectedFailure(
+          `The warm re-check of H${order} gives no finite result (cold ${cold.levelDbc} dBc, warm ${warm.levelDbc} dBc): nothing was stored. Take the warm reading again.`,
+        );
+      }
+      const result = checked.data;
       statements.insertWarmCheck.run(
         row.id,
         result.recordedAt,
@@ -518,12 +544,18 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
      * reasons, unless the technician asks to finish it as FAIL with them.
      */
     finishRun(request: { runId: number; asFailure?: boolean }): RunDetail {
-      const row = runRow(request.runId);
-      if (row.finished_at) return runDetail(row.id);
+      const finished = runRow(request.runId);
+      if (finished.finished_at) return runDetail(finished.id);
+      const row = openRunRow(request.runId, (id) => `Run ${id} is finished.`);
       const { trim } = parseProcedure(row.definition_json);
       const detail = runDetail(row.id);
       const watched = new Set(statements.trimPoints.all(row.id).filter((p) => p.live_json !== null).map((p) => p.id));
-      const judgedPoints = detail.trimPoints.map((p) => ({ ...p, liveWatched: watched.has(p.id) }));
+      // Judged on THD recomputed from the stored harmonics: the page's own thdDb figure is never the verdict.
+      const judgedPoints = detail.trimPoints.map((p) => ({
+        ...p,
+        reading: { ...p.reading, thdDb: thdDbFromHarmonics(p.reading.harmonics) },
+        liveWatched: watched.has(p.id),
+      }));
       const judged = judgeTrimRun(
         { trimPoints: judgedPoints, assessment: detail.assessment, openLiveWarnings: openLiveWarnings(detail.warningLog) },
         trim,
@@ -538,9 +570,22 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
           ? ['Finished as FAIL by the technician, although the trim met every condition for a pass.']
           : judged.reasons;
       const verdict = reasons.length === 0 ? 'pass' : 'fail';
-      const finalThdDb = detail.trimPoints.at(-1)?.reading.thdDb ?? null;
-      statements.finishRun.run(timestamp(), verdict, reasons.join(' ') || null, JSON.stringify(reasons), finalThdDb, row.id);
-      return runDetail(row.id);
+      const finalThdDb = judgedPoints.at(-1)?.reading.thdDb ?? null;
+      // The verdict commits only with a run record that validates whole; otherwise nothing is written.
+      return db.transaction(() => {
+        statements.finishRun.run(timestamp(), verdict, reasons.join(' ') || null, JSON.stringify(reasons), finalThdDb, row.id);
+        let stored;
+        try {
+          stored = runDetailSchema.safeParse(runDetail(row.id));
+        } catch {
+          stored = null;
+        }
+        if (!stored?.success) {
+          const where = stored?.error.issues[0]?.path.join('.') || 'run';
+          throw new ExpectedFailure(`Run ${row.id}'s stored record does not validate (${where}): it was not finished. Report it to the station's maintainer.`);
+        }
+        return stored.data;
+      })();
     },
 
     setSheetPath(runId: number, path: string): void {

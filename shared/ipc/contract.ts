@@ -12,49 +12,157 @@ const rowId = z.number().int().positive();
 
 const dbLevel = finite;
 
-export const readingSchema = z
+// Bounds on what a reading from the page may hold. Every number has a physical range, so a value
+// outside it was not produced by the meter; a list or text has a length, so one payload cannot make
+// main parse megabytes. Stored readings are read back with the lenient readingSchema below.
+/** Sample rates an audio interface offers: 8 kHz telephony to 768 kHz (common practice). */
+export const SAMPLE_RATE_MIN_HZ = 8_000;
+export const SAMPLE_RATE_MAX_HZ = 768_000;
+/** Longest analysis frame: 2^24 samples is 35 min at 8 kHz, far beyond a 10 Hz frame's needs. */
+export const FRAME_SIZE_MAX = 2 ** 24;
+/** Harmonic orders counted (THD to H64 at most; the default is H10). */
+export const HARMONIC_ORDER_MAX = 64;
+/** The fundamental may sit above the AES17 full-scale sine (0 dBFS) only by a square wave's +3 dB and a margin. */
+export const FUNDAMENTAL_MAX_DBFS = 6;
+/** Level range: below the meter's −300 dB floor with margin, above any unit's distortion by far. */
+export const LEVEL_MIN_DB = -400;
+export const DBC_MAX = 40;
+/** A THD of +40 dB is 10 000 %: harmonics 100 times the fundamental, nothing a meter reports for a stage. */
+export const THD_MAX_DB = DBC_MAX;
+export const THD_MAX_PERCENT = 100 * 10 ** (THD_MAX_DB / 20);
+export const MAX_READING_FLAGS = 8;
+export const MAX_OPERATOR_CHARS = 60;
+
+const dbfs = finite.min(LEVEL_MIN_DB).max(FUNDAMENTAL_MAX_DBFS);
+const dbc = finite.min(LEVEL_MIN_DB).max(DBC_MAX);
+/** A phase relative to the fundamental, wrapped to (−180°, 180°] as the meter reports it. */
+const phaseDeg = finite.gt(-180).lte(180);
+const frequencyHz = finite.nonnegative().max(SAMPLE_RATE_MAX_HZ / 2);
+const harmonicOrder = z.number().int().min(2).max(HARMONIC_ORDER_MAX);
+
+/** Nothing a terminal or a bidi-aware renderer would act on: C0/C1 controls (ESC, NUL …) and bidi overrides. */
+const CONTROL_OR_BIDI = /[\p{Cc}\u061C\u200E\u200F\u202A-\u202E\u2066-\u2069]/u;
+/** Spaces, zero-width and other invisible format characters: a name of only these shows as blank. */
+const INVISIBLE = /^[\p{Z}\s\p{Cf}\u115F\u1160\u3164\uFFA0]*$/u;
+
+/** A short text shown to people (operator, warning description): printable, and not blank to the eye. */
+function plainText(field: string, maxChars: number) {
+  return z
+    .string()
+    .max(maxChars, `The ${field} is longer than ${maxChars} characters: shorten it.`)
+    .refine((text) => !CONTROL_OR_BIDI.test(text), `The ${field} holds control or text-direction characters: type it again in plain text.`)
+    .refine((text) => !INVISIBLE.test(text), `Enter the ${field}: it is empty or only spaces.`);
+}
+
+const unique = <T>(items: readonly T[]) => new Set(items).size === items.length;
+
+const fields = {
+  sequence: z.number().int().nonnegative(),
+  sampleRateHz: finite.positive(),
+  frameSize: z.number().int().positive(),
+  discontinuities: z.number().int().nonnegative(),
+  settled: z.boolean(),
+  settleProgress: finite.min(0).max(1),
+  // Readings stored before these fields existed parse with what they would have said.
+  settleRemainingS: finite.nonnegative().nullable().default(null),
+  subAudioDbfs: dbLevel.nullable(),
+  mode: z.enum(['coherent', 'windowed']),
+  fundamental: z.object({ frequencyHz: finite.nonnegative(), levelDbfs: dbLevel, phaseDeg: finite }),
+  measuredFundamentalHz: finite.nonnegative().optional(),
+  harmonics: z
+    .array(z.object({ order: z.number().int().min(2), frequencyHz: finite.nonnegative(), levelDbc: dbLevel, phaseDeg: finite }))
+    .max(64),
+  harmonicsAboveNyquist: z.array(z.number().int().min(2)).max(64),
+  thdPercent: finite.nonnegative(),
+  thdDb: dbLevel,
+  thdnPercent: finite.nonnegative(),
+  thdnDb: dbLevel,
+  sinadDb: finite,
+  enob: finite,
+  noiseDbfs: dbLevel,
+  noiseAWeightedDbfs: dbLevel,
+  hum: z
+    .object({
+      frequencyHz: finite.nonnegative(),
+      levelDbfs: dbLevel,
+      components: z.array(z.object({ order: z.number().int().min(1), frequencyHz: finite.nonnegative(), levelDbfs: dbLevel })).max(8),
+    })
+    .nullable(),
+  mainsCoincidentOrders: z.array(z.number().int().min(2)).max(64).default([]),
+  flags: z.array(z.enum(['no-signal', 'clipping', 'at-floor', 'mains-coincident'])),
+};
+
+// Readings stored before the frequency found was kept apart: their fundamental's is all there is.
+const withMeasuredFundamental = <R extends { measuredFundamentalHz?: number; fundamental: { frequencyHz: number } }>({
+  measuredFundamentalHz,
+  ...reading
+}: R) => ({ ...reading, measuredFundamentalHz: measuredFundamentalHz ?? reading.fundamental.frequencyHz });
+
+/** A reading as stored: read back leniently, so a record written under older rules still opens. */
+export const readingSchema = z.object(fields).transform(withMeasuredFundamental);
+
+/** A reading as the page sends it: every field bounded, checked before main stores or judges anything. */
+export const boundedReadingSchema = z
   .object({
-    sequence: z.number().int().nonnegative(),
-    sampleRateHz: finite.positive(),
-    frameSize: z.number().int().positive(),
-    discontinuities: z.number().int().nonnegative(),
-    settled: z.boolean(),
-    settleProgress: finite.min(0).max(1),
-    // Readings stored before these fields existed parse with what they would have said.
-    settleRemainingS: finite.nonnegative().nullable().default(null),
-    subAudioDbfs: dbLevel.nullable(),
-    mode: z.enum(['coherent', 'windowed']),
-    fundamental: z.object({ frequencyHz: finite.nonnegative(), levelDbfs: dbLevel, phaseDeg: finite }),
-    measuredFundamentalHz: finite.nonnegative().optional(),
+    ...fields,
+    sampleRateHz: finite.min(SAMPLE_RATE_MIN_HZ).max(SAMPLE_RATE_MAX_HZ),
+    frameSize: z.number().int().min(16).max(FRAME_SIZE_MAX),
+    discontinuities: z.number().int().nonnegative().max(1_000_000),
+    settleRemainingS: finite.nonnegative().max(3600).nullable().default(null),
+    subAudioDbfs: dbfs.nullable(),
+    fundamental: z.object({ frequencyHz, levelDbfs: dbfs, phaseDeg }).strict(),
+    measuredFundamentalHz: frequencyHz.optional(),
     harmonics: z
-      .array(z.object({ order: z.number().int().min(2), frequencyHz: finite.nonnegative(), levelDbc: dbLevel, phaseDeg: finite }))
-      .max(64),
-    harmonicsAboveNyquist: z.array(z.number().int().min(2)).max(64),
-    thdPercent: finite.nonnegative(),
-    thdDb: dbLevel,
-    thdnPercent: finite.nonnegative(),
-    thdnDb: dbLevel,
-    sinadDb: finite,
-    enob: finite,
-    noiseDbfs: dbLevel,
-    noiseAWeightedDbfs: dbLevel,
+      .array(z.object({ order: harmonicOrder, frequencyHz, levelDbc: dbc, phaseDeg }).strict())
+      .max(HARMONIC_ORDER_MAX - 1)
+      .refine((hs) => unique(hs.map((h) => h.order)), 'Each harmonic order may appear once.'),
+    harmonicsAboveNyquist: z
+      .array(harmonicOrder)
+      .max(HARMONIC_ORDER_MAX - 1)
+      .refine(unique, 'Each harmonic order may appear once.'),
+    thdPercent: finite.nonnegative().max(THD_MAX_PERCENT),
+    thdDb: dbc.max(THD_MAX_DB),
+    thdnPercent: finite.nonnegative().max(THD_MAX_PERCENT),
+    thdnDb: dbc.max(THD_MAX_DB),
+    sinadDb: finite.min(-THD_MAX_DB).max(-LEVEL_MIN_DB),
+    enob: finite.min(-100).max(100),
+    noiseDbfs: dbfs,
+    noiseAWeightedDbfs: dbfs,
     hum: z
       .object({
-        frequencyHz: finite.nonnegative(),
-        levelDbfs: dbLevel,
-        components: z.array(z.object({ order: z.number().int().min(1), frequencyHz: finite.nonnegative(), levelDbfs: dbLevel })).max(8),
+        frequencyHz,
+        levelDbfs: dbfs,
+        components: z.array(z.object({ order: z.number().int().min(1).max(HARMONIC_ORDER_MAX), frequencyHz, levelDbfs: dbfs }).strict()).max(8),
       })
+      .strict()
       .nullable(),
-    mainsCoincidentOrders: z.array(z.number().int().min(2)).max(64).default([]),
-    flags: z.array(z.enum(['no-signal', 'clipping', 'at-floor', 'mains-coincident'])),
+    mainsCoincidentOrders: z
+      .array(harmonicOrder)
+      .max(HARMONIC_ORDER_MAX - 1)
+      .refine(unique, 'Each harmonic order may appear once.')
+      .default([]),
+    flags: fields.flags.max(MAX_READING_FLAGS).refine(unique, 'Each flag may appear once.'),
   })
-  // Readings stored before the frequency found was kept apart: their fundamental's is all there is.
-  .transform(({ measuredFundamentalHz, ...reading }) => ({
-    ...reading,
-    measuredFundamentalHz: measuredFundamentalHz ?? reading.fundamental.frequencyHz,
-  }));
+  .strict()
+  // Nyquist: a tone at or above half the sample rate cannot have been measured at that rate.
+  .superRefine((reading, ctx) => {
+    const nyquistHz = reading.sampleRateHz / 2;
+    const above = (hz: number) => hz >= nyquistHz;
+    if (above(reading.fundamental.frequencyHz) || (reading.measuredFundamentalHz !== undefined && above(reading.measuredFundamentalHz))) {
+      ctx.addIssue({ code: 'custom', path: ['fundamental', 'frequencyHz'], message: `The fundamental is at or above Nyquist (${nyquistHz} Hz).` });
+    }
+    const harmonic = reading.harmonics.find((h) => above(h.frequencyHz));
+    if (harmonic) {
+      ctx.addIssue({ code: 'custom', path: ['harmonics'], message: `H${harmonic.order} is at or above Nyquist (${nyquistHz} Hz): list it as above Nyquist.` });
+    }
+    if (reading.hum?.components.some((c) => above(c.frequencyHz))) {
+      ctx.addIssue({ code: 'custom', path: ['hum', 'components'], message: `A hum component is at or above Nyquist (${nyquistHz} Hz).` });
+    }
+  })
+  .transform(withMeasuredFundamental);
 // The schema must describe exactly what the worker produces.
 readingSchema satisfies z.ZodType<Reading>;
+boundedReadingSchema satisfies z.ZodType<Reading>;
 
 export const stationSchema = z.object({
   stationName: z.string(),
@@ -189,7 +297,7 @@ const warningChangeSchema = z
     id: warningIdSchema,
     change: z.enum(['raised', 'cleared']),
     position: finite.min(-1e6).max(1e6),
-    seen: z.string().min(1).max(MAX_WARNING_SEEN_CHARS),
+    seen: z.string().min(1).pipe(plainText('warning description', MAX_WARNING_SEEN_CHARS)),
   })
   .strict();
 
@@ -208,7 +316,7 @@ export const contract = {
       .object({
         serial: z.string().min(1).max(64),
         procedureId: rowId,
-        operator: z.string().trim().min(1, 'Enter the operator name.').max(60),
+        operator: z.string().max(MAX_OPERATOR_CHARS * 4, `The operator name is longer than ${MAX_OPERATOR_CHARS} characters: shorten it.`).trim().min(1, 'Enter the operator name.').pipe(plainText('operator name', MAX_OPERATOR_CHARS)),
       })
       .strict(),
     response: runDetailSchema,
@@ -217,10 +325,10 @@ export const contract = {
     request: z
       .object({
         runId: rowId,
-        position: finite,
-        reading: readingSchema,
+        position: finite.min(-1e6).max(1e6),
+        reading: boundedReadingSchema,
         /** Live readings since the trimmer last moved, for the warnings that need a series. */
-        live: z.object({ levelsDbfs: z.array(finite).max(600), lfDbfs: z.array(finite).max(600) }).strict().nullable(),
+        live: z.object({ levelsDbfs: z.array(dbfs).max(600), lfDbfs: z.array(dbfs).max(600) }).strict().nullable(),
         stimulus: stimulusSettingSchema,
         /** 'record-marked' is the deliberate, distinct action for a reading that has not settled. */
         unsettled: z.enum(['refuse', 'record-marked']).default('refuse'),
@@ -242,7 +350,7 @@ export const contract = {
         runId: rowId,
         coldTemperatureC: finite.min(-40).max(150),
         warmTemperatureC: finite.min(-40).max(150),
-        reading: readingSchema,
+        reading: boundedReadingSchema,
         /** The generator when the warm reading was taken: judged as for a trim point. */
         stimulus: stimulusSettingSchema,
       })

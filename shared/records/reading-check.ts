@@ -43,3 +43,14 @@ export function whyReadingInconsistent(reading: Reading): string | null {
   }
   return null;
 }
+
+/**
+ * THD in dB from the harmonics alone (RSS over the fundamental, as whyReadingInconsistent reads it).
+ * A harmonic at the floor counts at the floor: the upper bound, so a verdict judged from it never
+ * rests on a harmonic smaller than it could have been. Main judges with this, not with the page's thdDb.
+ */
+export function thdDbFromHarmonics(harmonics: Reading['harmonics']): number {
+  let power = 0;
+  for (const harmonic of harmonics) power += 10 ** (harmonic.levelDbc / 10);
+  return flooredDb(Math.sqrt(power));
+}

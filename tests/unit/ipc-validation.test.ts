@@ -140,3 +140,133 @@ describe('IPC validation in main', () => {
     expect(result).toEqual({ ok: false, error: { name: 'ExpectedFailure', message: 'There is no run with id 999.' } });
   });
 });
+
+describe('main judges only numbers it has checked (issue 8)', () => {
+  const recordPoint = (runId: number, position: number, reading: unknown) =>
+    dispatch(station.handlers, 'recordTrimPoint', { runId, position, reading, live: null, stimulus: STIMULUS }, noCaller);
+
+  it('refuses H3 at −50 dBc with 0.316 % but thdDb −999, and stores nothing', async () => {
+    const runId = await openDemoRun();
+    // 0.316 % = 20·log10(0.00316) = −50 dB: the honest figure; −999 dB is below any physical level.
+    const forged = readingWithThd(-50, { thdPercent: 0.316, thdDb: -999 });
+    const result = await recordPoint(runId, 1, forged);
+    expect(result.ok).toBe(false);
+    expect(count('trim_points')).toBe(0);
+  });
+
+  it('judges the verdict from the stored harmonics, not the stored thdDb', async () => {
+    const runId = await openDemoRun();
+    // Four points on a constructed phasor line H3(p) = 0.01·(1 − p/5) + j·0.0003 (null −70.5 dBc at 5 turns).
+    const onLine = (p: number) => {
+      const re = 0.01 * (1 - p / 5);
+      const levelDbc = 20 * Math.log10(Math.hypot(re, 0.0003));
+      return readingWithThd(levelDbc, { harmonics: [{ order: 3, frequencyHz: 42, levelDbc, phaseDeg: (Math.atan2(0.0003, re) * 180) / Math.PI }] });
+    };
+    const live = { levelsDbfs: Array<number>(12).fill(-12), lfDbfs: Array<number>(12).fill(-110) };
+    for (const p of [0, 2.5, 4, 4.5]) station.records.recordTrimPoint({ runId, position: p, reading: onLine(p), live, stimulus: STIMULUS });
+    const recommended = station.records.getRun(runId).assessment!.recommendedPosition!;
+    station.records.recordTrimPoint({ runId, position: recommended, reading: onLine(recommended), live, stimulus: STIMULUS });
+    // A record written under older rules: the final point's H3 is −50 dBc while its thdDb says −999.
+    const last = station.db.prepare('SELECT id, reading_json FROM trim_points WHERE run_id = ? ORDER BY sequence DESC LIMIT 1').get(runId) as { id: number; reading_json: string };
+    const stored = JSON.parse(last.reading_json);
+    stored.harmonics[0].levelDbc = -50;
+    stored.thdDb = -999;
+    // Written around the no-edit trigger, as only a record from before the checks could be.
+    station.db.exec('DROP TRIGGER trim_points_never_change');
+    station.db.prepare('UPDATE trim_points SET reading_json = ? WHERE id = ?').run(JSON.stringify(stored), last.id);
+    const result = await dispatch(station.handlers, 'finishRun', { runId }, noCaller);
+    // −50 dB from the harmonic is above the demo procedure's −60 dB limit: no PASS.
+    expect(result.ok && (result.value as { run: { verdict: string } }).run.verdict).not.toBe('pass');
+  });
+
+  const base = readingWithThd(-40);
+  const outOfBounds: [string, unknown][] = [
+    ['a sample rate below 8 kHz', { ...base, sampleRateHz: 7999 }],
+    ['a sample rate above 768 kHz', { ...base, sampleRateHz: 768_001 }],
+    ['a harmonic at Nyquist', { ...base, sampleRateHz: 8000, harmonics: [{ order: 3, frequencyHz: 4000, levelDbc: -40, phaseDeg: 0 }] }],
+    ['a repeated harmonic order', { ...base, harmonics: [...base.harmonics, ...base.harmonics] }],
+    ['a harmonic order above 64', { ...base, harmonics: [{ order: 65, frequencyHz: 910, levelDbc: -40, phaseDeg: 0 }] }],
+    ['a fundamental at +7 dBFS', { ...base, fundamental: { ...base.fundamental, levelDbfs: 7 } }],
+    ['H3 at +7000 dBc', { ...base, harmonics: [{ order: 3, frequencyHz: 42, levelDbc: 7000, phaseDeg: 0 }] }],
+    ['a phase of −180°', { ...base, harmonics: [{ ...base.harmonics[0], phaseDeg: -180 }] }],
+    ['a phase of 1e9°', { ...base, harmonics: [{ ...base.harmonics[0], phaseDeg: 1e9 }] }],
+    ['thdDb of −999', { ...base, thdDb: -999 }],
+    ['a repeated flag', { ...base, flags: ['at-floor', 'at-floor'] }],
+    ['an extra field in the reading', { ...base, verdict: 'pass' }],
+  ];
+  for (const [what, reading] of outOfBounds) {
+    it(`refuses a reading with ${what} before anything is written`, async () => {
+      const runId = await openDemoRun();
+      const result = await recordPoint(runId, 1, reading);
+      expect(!result.ok && result.error.name).toBe('InvalidRequest');
+      expect(count('trim_points')).toBe(0);
+    });
+  }
+
+  it('refuses 10⁵ flags with a short message', async () => {
+    const runId = await openDemoRun();
+    const result = await recordPoint(runId, 1, { ...base, flags: Array(100_000).fill('nonsense') });
+    expect(!result.ok && result.error.name).toBe('InvalidRequest');
+    // A message a person can read: a few lines, not one per item (the finding: 97 MB).
+    expect(!result.ok && result.error.message.length).toBeLessThan(1000);
+    expect(count('trim_points')).toBe(0);
+  });
+
+  // Unicode: Cc controls (NUL U+0000, ESC U+001B), bidi override U+202E, zero-width space U+200B (UAX #9, Unicode ch. 23).
+  for (const [what, operator] of [
+    ['NUL', 'A.\u0000Tester'],
+    ['an ESC sequence', '\u001b[31mA. Tester'],
+    ['a bidi override', 'A. \u202eretseT'],
+    ['only zero-width characters', '\u200b\u200b\u2060'],
+    ['only a no-break space and a zero-width space', '\u00a0\u200b'],
+  ] as const) {
+    it(`refuses an operator name with ${what}, naming the field`, async () => {
+      const procedureId = station.records.listProcedures()[0].id;
+      const result = await dispatch(station.handlers, 'openRun', { serial: 'MG20-2611-0042', procedureId, operator }, noCaller);
+      expect(!result.ok && result.error.message).toMatch(/operator name/);
+      expect(count('runs')).toBe(0);
+    });
+  }
+
+  it('acts only on the run the station has open', async () => {
+    const first = await openDemoRun();
+    const procedureId = station.records.listProcedures()[0].id;
+    const other = await dispatch(station.handlers, 'openRun', { serial: 'MG20-2611-0043', procedureId, operator: 'A. Tester' }, noCaller);
+    expect(other.ok).toBe(true);
+    const finished = await dispatch(station.handlers, 'finishRun', { runId: first, asFailure: true }, noCaller);
+    expect(!finished.ok && finished.error.message).toMatch(/not the run open at this station/);
+    const point = await recordPoint(first, 1, base);
+    expect(!point.ok && point.error.message).toMatch(/not the run open at this station/);
+    expect(count('trim_points')).toBe(0);
+    expect((station.db.prepare('SELECT COUNT(*) AS n FROM runs WHERE finished_at IS NOT NULL').get() as { n: number }).n).toBe(0);
+  });
+
+  it('refuses a warm re-check with no finite result, stores nothing, and the run still opens and finishes', async () => {
+    const runId = await openDemoRun();
+    station.records.recordTrimPoint({ runId, position: 0, reading: readingWithThd(-40), live: null, stimulus: STIMULUS });
+    station.records.recordTrimPoint({ runId, position: 4, reading: readingWithThd(-62), live: null, stimulus: STIMULUS });
+    // 1e308° in radians overflows a double (max ≈ 1.8e308, IEEE 754), and cos(Infinity) is NaN (ECMA-262 Math.cos).
+    const huge = readingWithThd(-62, { harmonics: [{ order: 3, frequencyHz: 42, levelDbc: -62, phaseDeg: 1e308 }] });
+    expect(() =>
+      station.records.recordWarmCheck({ runId, coldTemperatureC: 22, warmTemperatureC: 42, reading: huge, stimulus: STIMULUS }),
+    ).toThrow(/nothing was stored/);
+    expect(count('warm_checks')).toBe(0);
+    const reopened = await dispatch(station.handlers, 'openRun', { serial: 'MG20-2611-0042', procedureId: station.records.listProcedures()[0].id, operator: 'A. Tester' }, noCaller);
+    expect(reopened.ok).toBe(true);
+    const finished = await dispatch(station.handlers, 'finishRun', { runId, asFailure: true }, noCaller);
+    expect(finished.ok).toBe(true);
+  });
+
+  it('does not commit a verdict when what it stores does not validate', async () => {
+    const runId = await openDemoRun();
+    station.records.recordTrimPoint({ runId, position: 0, reading: readingWithThd(-40), live: null, stimulus: STIMULUS });
+    // A warm re-check row whose drift is not a number (JSON writes Infinity as null, ECMA-262 JSON.stringify).
+    station.db
+      .prepare('INSERT INTO warm_checks (run_id, recorded_at, position, cold_temperature_c, warm_temperature_c, reading_json, result_json) VALUES (?, ?, ?, ?, ?, ?, ?)')
+      .run(runId, '2026-01-01T00:00:00Z', 0, 22, 42, '{}', JSON.stringify({ recordedAt: 'x', position: 0, coldTemperatureC: 22, warmTemperatureC: 42, coldLevelDbc: -40, warmLevelDbc: 7000, trackingFraction: 0, measuredDrift: Infinity, untrackedDrift: 0 }));
+    const result = await dispatch(station.handlers, 'finishRun', { runId, asFailure: true }, noCaller);
+    expect(result.ok).toBe(false);
+    const run = station.db.prepare('SELECT finished_at, verdict FROM runs WHERE id = ?').get(runId) as { finished_at: string | null; verdict: string | null };
+    expect(run).toEqual({ finished_at: null, verdict: null });
+  });
+});
