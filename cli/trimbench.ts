@@ -8,11 +8,12 @@
 
 import { readFileSync } from 'node:fs';
 import { parseArgs } from 'node:util';
-import { decodeWav, WavFormatError } from '../shared/audio/wav.ts';
+import { WavFormatError } from '../shared/audio/wav.ts';
 import { DEFAULT_MAX_OFFSET_PERCENT, planTestFrequency } from '../shared/measurement/frequency-planner.ts';
-import { analyzeRecord, type RecordAnalysis } from '../shared/measurement/record-analysis.ts';
+import { analyzeRecordSource, type RecordAnalysis } from '../shared/measurement/record-analysis.ts';
 import { adviseTrim, DEFAULT_TRIM_ASSISTANT_OPTIONS, describeThermalMargin } from '../shared/trim/trim-assistant.ts';
-import { parseTrimCsv, TrimCsvError } from '../shared/trim/trim-csv.ts';
+import { parsePlainDecimal, parseTrimCsv, TrimCsvError } from '../shared/trim/trim-csv.ts';
+import { openWavFile, type WavFile, WavReadError } from './wav-file.ts';
 
 const USAGE = `usage:
   trimbench analyze FILE.wav [--channel N] [--mains 50|60] [--harmonics N] [--band LO-HI] [--fundamental HZ] [--json]
@@ -30,9 +31,33 @@ class UsageProblem extends Error {}
 
 function numberOption(name: string, text: string | undefined, check: (value: number) => boolean, expected: string): number | undefined {
   if (text === undefined) return undefined;
-  const value = Number(text);
-  if (text.trim() === '' || !Number.isFinite(value) || !check(value)) throw new UsageProblem(`--${name} must be ${expected}, got “${text}”`);
+  // Plain decimals only, as in the CSV: no hex, exponents, Infinity or blanks.
+  const value = parsePlainDecimal(text.trim());
+  if (value === null || !check(value)) throw new UsageProblem(`--${name} must be ${expected} (a plain decimal), got “${text}”`);
   return value;
+}
+
+/** The path of the first number in `value` that is NaN or infinite, or null when all are finite. */
+function firstNonFinite(value: unknown, path: string): { path: string; value: number } | null {
+  if (typeof value === 'number') return Number.isFinite(value) ? null : { path, value };
+  if (Array.isArray(value)) {
+    for (let i = 0; i < value.length; i++) {
+      const found = firstNonFinite(value[i], `${path}[${i}]`);
+      if (found) return found;
+    }
+  } else if (value !== null && typeof value === 'object') {
+    for (const [key, item] of Object.entries(value)) {
+      const found = firstNonFinite(item, path ? `${path}.${key}` : key);
+      if (found) return found;
+    }
+  }
+  return null;
+}
+
+/** Refuses to print a result holding NaN or infinity: says which value could not be computed. */
+function refuseNonFinite(file: string, result: unknown, advice: string): void {
+  const bad = firstNonFinite(result, '');
+  if (bad) throw new UsageProblem(`${file}: ${bad.path} could not be computed (it came out as ${bad.value}), so nothing is printed; ${advice}`);
 }
 
 function mainsOption(text: string | undefined): 50 | 60 {
@@ -74,25 +99,23 @@ function analyze(args: string[]): string {
   const band = bandOption(values.band);
   const fundamentalHz = numberOption('fundamental', values.fundamental, (v) => v > 0, 'a frequency in Hz above 0') ?? null;
 
-  let bytes: Uint8Array;
+  // The file is read in pieces (cli/wav-file.ts), never whole, so its size does not bound us.
+  let wav: WavFile;
   try {
-    bytes = readFileSync(file);
-  } catch (error) {
-    throw new UsageProblem(`${file}: cannot be read (${(error as NodeJS.ErrnoException).code ?? (error as Error).message})`);
-  }
-  let wav;
-  try {
-    wav = decodeWav(bytes);
+    wav = openWavFile(file);
   } catch (error) {
     if (error instanceof WavFormatError) throw new UsageProblem(`${file}: ${error.message}`);
+    const code = (error as NodeJS.ErrnoException).code;
+    if (code) throw new UsageProblem(`${file}: cannot be read (${code})`);
     throw error;
   }
-  if (channel >= wav.channels.length) throw new UsageProblem(`${file}: has ${wav.channels.length} channel(s); --channel ${channel} does not exist`);
-  const nyquist = wav.sampleRateHz / 2;
-  if (fundamentalHz !== null && fundamentalHz >= nyquist) throw new UsageProblem(`--fundamental must lie below Nyquist (${nyquist} Hz)`);
   let result: RecordAnalysis;
   try {
-    result = analyzeRecord(wav.channels[channel], wav.sampleRateHz, {
+    const { layout } = wav;
+    if (channel >= layout.channelCount) throw new UsageProblem(`${file}: has ${layout.channelCount} channel(s); --channel ${channel} does not exist`);
+    const nyquist = layout.sampleRateHz / 2;
+    if (fundamentalHz !== null && fundamentalHz >= nyquist) throw new UsageProblem(`--fundamental must lie below Nyquist (${nyquist} Hz)`);
+    result = analyzeRecordSource(wav.channel(channel), layout.sampleRateHz, {
       harmonicCount,
       mainsHz,
       bandLowHz: band?.[0],
@@ -100,9 +123,14 @@ function analyze(args: string[]): string {
       fundamentalHz,
     });
   } catch (error) {
-    if (error instanceof RangeError) throw new UsageProblem(`${file}: ${error.message}`);
+    if (error instanceof RangeError || error instanceof WavReadError) throw new UsageProblem(`${file}: ${error.message}`);
+    const code = (error as NodeJS.ErrnoException).code;
+    if (code && !code.startsWith('ERR_')) throw new UsageProblem(`${file}: cannot be read (${code})`);
     throw error;
+  } finally {
+    wav.close();
   }
+  refuseNonFinite(file, analysisJson(file, channel, result), 'check the recording holds the tone you meant to analyse');
   return values.json ? JSON.stringify(analysisJson(file, channel, result)) : analysisTable(file, channel, result);
 }
 
@@ -217,13 +245,19 @@ function fit(args: string[]): string {
     throw new UsageProblem(`${file}: ${points.length === 1 ? 'only one trim point' : 'no trim points'}; the fit needs at least two`);
   }
   const positions = points.map((p) => p.position);
-  const advice = adviseTrim(points, {
-    positionMin: Math.min(DEFAULT_TRIM_ASSISTANT_OPTIONS.positionMin, ...positions),
-    positionMax: Math.max(DEFAULT_TRIM_ASSISTANT_OPTIONS.positionMax, ...positions),
-    positionStep: step ?? DEFAULT_TRIM_ASSISTANT_OPTIONS.positionStep,
-    limitDbc: limitDbc ?? DEFAULT_TRIM_ASSISTANT_OPTIONS.limitDbc,
-    marginDb: marginDb ?? DEFAULT_TRIM_ASSISTANT_OPTIONS.marginDb,
-  });
+  let advice: ReturnType<typeof adviseTrim>;
+  try {
+    advice = adviseTrim(points, {
+      positionMin: Math.min(DEFAULT_TRIM_ASSISTANT_OPTIONS.positionMin, ...positions),
+      positionMax: Math.max(DEFAULT_TRIM_ASSISTANT_OPTIONS.positionMax, ...positions),
+      positionStep: step ?? DEFAULT_TRIM_ASSISTANT_OPTIONS.positionStep,
+      limitDbc: limitDbc ?? DEFAULT_TRIM_ASSISTANT_OPTIONS.limitDbc,
+      marginDb: marginDb ?? DEFAULT_TRIM_ASSISTANT_OPTIONS.marginDb,
+    });
+  } catch {
+    // The solver's own words (matrix algebra) mean nothing to a technician.
+    throw new UsageProblem(`${file}: the fit could not be computed from these points; check the positions and levels for typing errors`);
+  }
   // No trustworthy fit: the assistant's own words, and no numbers.
   if (!advice.fit || advice.fitProblem !== null) throw new UsageProblem(`${file}: ${advice.fitProblem ?? 'no fit'}`);
   const result = {
@@ -238,6 +272,8 @@ function fit(args: string[]): string {
     warnings: advice.warnings.map((w) => w.id),
     fitProblem: advice.fitProblem,
   };
+  const checkAdvice = 'check the points for a typing error or record more of them';
+  refuseNonFinite(file, { ...result, recommendedLevelDbc: advice.recommendedLevelDbc, thermalDeltaC: advice.thermal?.deltaTemperatureC ?? null }, checkAdvice);
   if (values.json) return JSON.stringify(result);
   const thermal = describeThermalMargin(advice.thermal?.deltaTemperatureC ?? null);
   return [

@@ -22,34 +22,56 @@ function fourCC(view: DataView, at: number): string {
   return String.fromCharCode(view.getUint8(at), view.getUint8(at + 1), view.getUint8(at + 2), view.getUint8(at + 3));
 }
 
-export function decodeWav(bytes: Uint8Array): DecodedWav {
-  if (bytes.length < 12) throw new WavFormatError('file is too short to be a WAV file');
-  const view = new DataView(bytes.buffer, bytes.byteOffset, bytes.byteLength);
-  if (fourCC(view, 0) !== 'RIFF' || fourCC(view, 8) !== 'WAVE') throw new WavFormatError('not a RIFF/WAVE file');
+/** Where a WAV file's samples lie and how they are coded: all a reader needs to take them in pieces. */
+export interface WavLayout {
+  sampleRateHz: number;
+  bitsPerSample: number;
+  encoding: 'pcm' | 'float';
+  channelCount: number;
+  /** Bytes per frame (one sample of every channel). */
+  blockAlign: number;
+  /** Byte offset of the first sample in the file. */
+  dataOffset: number;
+  frameCount: number;
+}
 
-  let format: { tag: number; channelCount: number; sampleRateHz: number; blockAlign: number; bitsPerSample: number } | null =
-    null;
+/**
+ * Walks the RIFF chunks through `readAt` (which returns up to `length` bytes at `offset`; fewer at
+ * the end of the file), so a file of any size is laid out without holding its samples: only chunk
+ * headers and the fmt body are read.
+ */
+export function readWavLayout(readAt: (offset: number, length: number) => Uint8Array, fileSize: number): WavLayout {
+  if (fileSize < 12) throw new WavFormatError('file is too short to be a WAV file');
+  const head = readAt(0, 12);
+  const headView = new DataView(head.buffer, head.byteOffset, head.byteLength);
+  if (fourCC(headView, 0) !== 'RIFF' || fourCC(headView, 8) !== 'WAVE') throw new WavFormatError('not a RIFF/WAVE file');
+
+  let format: { tag: number; channelCount: number; sampleRateHz: number; bitsPerSample: number } | null = null;
   let data: { at: number; size: number } | null = null;
-  for (let at = 12; at + 8 <= bytes.length; ) {
-    const id = fourCC(view, at);
-    const size = view.getUint32(at + 4, true);
+  for (let at = 12; at + 8 <= fileSize; ) {
+    const header = readAt(at, 8);
+    const view = new DataView(header.buffer, header.byteOffset, header.byteLength);
+    const id = fourCC(view, 0);
+    const size = view.getUint32(4, true);
     const body = at + 8;
     if (id === 'fmt ') {
-      if (size < 16 || body + size > bytes.length) throw new WavFormatError('fmt chunk is truncated');
-      let tag = view.getUint16(body, true);
+      if (size < 16 || body + size > fileSize) throw new WavFormatError('fmt chunk is truncated');
+      // Only the first 40 bytes mean anything to us; a huge declared size is not read.
+      const fmt = readAt(body, Math.min(size, 40));
+      const fmtView = new DataView(fmt.buffer, fmt.byteOffset, fmt.byteLength);
+      let tag = fmtView.getUint16(0, true);
       if (tag === FORMAT_EXTENSIBLE) {
         if (size < 40) throw new WavFormatError('extensible fmt chunk is truncated');
-        tag = view.getUint16(body + 24, true); // first two bytes of the sub-format GUID
+        tag = fmtView.getUint16(24, true); // first two bytes of the sub-format GUID
       }
       format = {
         tag,
-        channelCount: view.getUint16(body + 2, true),
-        sampleRateHz: view.getUint32(body + 4, true),
-        blockAlign: view.getUint16(body + 12, true),
-        bitsPerSample: view.getUint16(body + 14, true),
+        channelCount: fmtView.getUint16(2, true),
+        sampleRateHz: fmtView.getUint32(4, true),
+        bitsPerSample: fmtView.getUint16(14, true),
       };
     } else if (id === 'data') {
-      const available = bytes.length - body;
+      const available = fileSize - body;
       // A streaming writer that never came back to fill in the size leaves 0 or 0xFFFFFFFF: take what is there.
       const unknownSize = size === 0 || size === 0xffffffff;
       if (!unknownSize && size > available) {
@@ -68,22 +90,37 @@ export function decodeWav(bytes: Uint8Array): DecodedWav {
   if (!(sampleRateHz > 0)) throw new WavFormatError('the file declares no sample rate');
   const encoding = tag === FORMAT_PCM ? 'pcm' : tag === FORMAT_FLOAT ? 'float' : null;
   if (!encoding) throw new WavFormatError(`unsupported sample format tag ${tag} (PCM and IEEE float are supported)`);
-  const bytesPerSample = bitsPerSample / 8;
   const supported = encoding === 'pcm' ? [8, 16, 24, 32] : [32, 64];
   if (!supported.includes(bitsPerSample)) {
     throw new WavFormatError(`unsupported ${encoding} sample size ${bitsPerSample} bits`);
   }
-  const blockAlign = channelCount * bytesPerSample;
+  // Frames are packed at the sample size; the declared block align is not trusted.
+  const blockAlign = channelCount * (bitsPerSample / 8);
   const frameCount = Math.floor(data.size / blockAlign);
   if (frameCount === 0) throw new WavFormatError('the data chunk holds no samples');
+  return { sampleRateHz, bitsPerSample, encoding, channelCount, blockAlign, dataOffset: data.at, frameCount };
+}
 
-  const channels = Array.from({ length: channelCount }, () => new Float64Array(frameCount));
-  const read = sampleReader(view, encoding, bitsPerSample);
-  for (let frame = 0; frame < frameCount; frame++) {
-    const frameAt = data.at + frame * blockAlign;
-    for (let ch = 0; ch < channelCount; ch++) channels[ch][frame] = read(frameAt + ch * bytesPerSample);
-  }
-  return { sampleRateHz, bitsPerSample, encoding, channels };
+/**
+ * Decodes one channel of `frames` whole frames held in `bytes` (starting at a frame boundary) into
+ * `out` from `outOffset`, scaled to ±1 full scale.
+ */
+export function decodeChannel(bytes: Uint8Array, layout: WavLayout, channel: number, frames: number, out: Float64Array, outOffset = 0): void {
+  const view = new DataView(bytes.buffer, bytes.byteOffset, bytes.byteLength);
+  const read = sampleReader(view, layout.encoding, layout.bitsPerSample);
+  const at = channel * (layout.bitsPerSample / 8);
+  for (let frame = 0; frame < frames; frame++) out[outOffset + frame] = read(frame * layout.blockAlign + at);
+}
+
+export function decodeWav(bytes: Uint8Array): DecodedWav {
+  const layout = readWavLayout((offset, length) => bytes.subarray(offset, offset + length), bytes.length);
+  const data = bytes.subarray(layout.dataOffset, layout.dataOffset + layout.frameCount * layout.blockAlign);
+  const channels = Array.from({ length: layout.channelCount }, (_, ch) => {
+    const samples = new Float64Array(layout.frameCount);
+    decodeChannel(data, layout, ch, layout.frameCount, samples);
+    return samples;
+  });
+  return { sampleRateHz: layout.sampleRateHz, bitsPerSample: layout.bitsPerSample, encoding: layout.encoding, channels };
 }
 
 function sampleReader(view: DataView, encoding: 'pcm' | 'float', bits: number): (at: number) => number {

@@ -1,6 +1,12 @@
 // Analysis of a whole recording (the offline `analyze` command): the fundamental's frequency from
 // an IEEE 1241 four-parameter fit over the record, then the same frame analysis as the live path
 // over evenly spaced frames that together cover every sample, combined power-wise.
+//
+// The record is read through a SampleSource, a piece at a time, so a recording of any length is
+// analysed in bounded memory: one frame (at most MAX_FRAME samples), one scan block, and the
+// frequency fit's samples. The fit runs on the first MAX_FIT_SAMPLES samples only (about 87 s at
+// 48 kHz), which already pins the frequency far below any frame's resolution; it is the same
+// subset the in-memory analysis always used, so the numbers do not depend on how the record is read.
 
 import { fitSine4 } from '../dsp/sine-fit.ts';
 import { dbFromRatio, wrapDegrees } from '../levels.ts';
@@ -18,19 +24,43 @@ export interface RecordAnalysis extends HarmonicAnalysis {
   frames: number;
 }
 
+/** Samples read on demand: `read` fills `into` with the samples from `start` on. */
+export interface SampleSource {
+  readonly length: number;
+  read(start: number, into: Float64Array): void;
+}
+
+export function memorySource(samples: Float64Array): SampleSource {
+  return { length: samples.length, read: (start, into) => into.set(samples.subarray(start, start + into.length)) };
+}
+
 export const MIN_RECORD_SAMPLES = 4096;
+// Samples checked for NaN and infinity per read.
+const SCAN_BLOCK = 1 << 16;
 const MAX_FRAME = 262144;
 // The frequency fit needs no more than this many samples to be far better than any frame's.
 const MAX_FIT_SAMPLES = 1 << 22;
 
 export function analyzeRecord(samples: Float64Array, sampleRateHz: number, options: Partial<RecordAnalysisOptions> = {}): RecordAnalysis {
-  if (samples.length < MIN_RECORD_SAMPLES) {
-    throw new RangeError(`the recording holds ${samples.length} samples; at least ${MIN_RECORD_SAMPLES} are needed`);
+  return analyzeRecordSource(memorySource(samples), sampleRateHz, options);
+}
+
+export function analyzeRecordSource(source: SampleSource, sampleRateHz: number, options: Partial<RecordAnalysisOptions> = {}): RecordAnalysis {
+  const length = source.length;
+  if (length < MIN_RECORD_SAMPLES) {
+    throw new RangeError(`the recording holds ${length} samples; at least ${MIN_RECORD_SAMPLES} are needed`);
   }
-  // A NaN or infinity (a float WAV from a crashed or overflowing program) would poison every sum.
-  const bad = samples.findIndex((x) => !Number.isFinite(x));
-  if (bad >= 0) {
-    throw new RangeError(`the recording holds a non-finite sample (${samples[bad]}) at sample ${bad} (${(bad / sampleRateHz).toFixed(3)} s); nothing analysed`);
+  // A NaN or infinity (a float WAV from a crashed or overflowing program) would poison every sum,
+  // so the whole record is scanned before anything is analysed.
+  const block = new Float64Array(Math.min(SCAN_BLOCK, length));
+  for (let start = 0; start < length; start += block.length) {
+    const piece = start + block.length <= length ? block : block.subarray(0, length - start);
+    source.read(start, piece);
+    const bad = piece.findIndex((x) => !Number.isFinite(x));
+    if (bad >= 0) {
+      const at = start + bad;
+      throw new RangeError(`the recording holds a non-finite sample (${piece[bad]}) at sample ${at} (${(at / sampleRateHz).toFixed(3)} s); nothing analysed`);
+    }
   }
   const analyzerOptions = {
     harmonicCount: options.harmonicCount ?? DEFAULT_ANALYZER_OPTIONS.harmonicCount,
@@ -38,24 +68,31 @@ export function analyzeRecord(samples: Float64Array, sampleRateHz: number, optio
     bandLowHz: options.bandLowHz ?? DEFAULT_ANALYZER_OPTIONS.bandLowHz,
     bandHighHz: options.bandHighHz ?? DEFAULT_ANALYZER_OPTIONS.bandHighHz,
   };
-  const frameSize = Math.min(MAX_FRAME, 2 ** Math.floor(Math.log2(samples.length)));
+  const frameSize = Math.min(MAX_FRAME, 2 ** Math.floor(Math.log2(length)));
   const analyzer = new FrameAnalyzer(frameSize, sampleRateHz, analyzerOptions);
-  const frames = Math.ceil(samples.length / frameSize);
-  const stride = frames > 1 ? (samples.length - frameSize) / (frames - 1) : 0;
+  const frames = Math.ceil(length / frameSize);
+  const stride = frames > 1 ? (length - frameSize) / (frames - 1) : 0;
   const frameAt = (i: number) => Math.round(i * stride);
+  const frame = new Float64Array(frameSize);
 
-  // Find the fundamental on the first frame, then pin it down over the whole record.
+  // Find the fundamental on the first frame, then pin it down over the first MAX_FIT_SAMPLES.
   const scratch = createHarmonicAnalysis();
   let fundamentalHz = options.fundamentalHz ?? null;
   if (fundamentalHz === null) {
-    analyzer.analyze(samples, scratch, null, 0);
+    source.read(0, frame);
+    analyzer.analyze(frame, scratch, null, 0);
     const hasSignal = !scratch.flags.includes('no-signal');
-    fundamentalHz = hasSignal ? fitSine4(samples.subarray(0, MAX_FIT_SAMPLES), sampleRateHz, scratch.fundamental.frequencyHz).frequencyHz : null;
+    if (hasSignal) {
+      const fitSamples = new Float64Array(Math.min(length, MAX_FIT_SAMPLES));
+      source.read(0, fitSamples);
+      fundamentalHz = fitSine4(fitSamples, sampleRateHz, scratch.fundamental.frequencyHz).frequencyHz;
+    }
   }
 
   const sum = new Accumulator(analyzerOptions.harmonicCount);
   for (let i = 0; i < frames; i++) {
-    analyzer.analyze(samples, scratch, fundamentalHz, frameAt(i));
+    source.read(frameAt(i), frame);
+    analyzer.analyze(frame, scratch, fundamentalHz, 0);
     sum.add(scratch);
   }
   const combined = sum.result();

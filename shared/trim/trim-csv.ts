@@ -10,6 +10,29 @@ export class TrimCsvError extends Error {
 const REQUIRED = ['position', 'level_dbc'] as const;
 const OPTIONAL = ['phase_deg', 'gain_db', 'lf_dbfs'] as const;
 
+// A number as a person types it: digits with an optional sign and decimal point. JavaScript's
+// Number() also takes hex (0x10), binary, exponents (1e308), "Infinity" and blanks, none of which
+// a technician means in a trim sheet, and exponents let a typo overflow the fit to NaN.
+const PLAIN_DECIMAL = /^[+-]?(?:\d+(?:\.\d*)?|\.\d+)$/;
+
+/** The value of a plain decimal (“-42.5”, “3”, “.5”), or null for anything else. */
+export function parsePlainDecimal(text: string): number | null {
+  if (!PLAIN_DECIMAL.test(text)) return null;
+  const value = Number(text);
+  // Hundreds of digits still overflow to Infinity.
+  return Number.isFinite(value) ? value : null;
+}
+
+// Far wider than any bench could produce, narrow enough that the fit's squares and exponentials
+// stay finite: a trimmer position in turns or steps, levels in dB, a phase in degrees.
+const RANGE: Record<(typeof REQUIRED)[number] | (typeof OPTIONAL)[number], [number, number]> = {
+  position: [-1e6, 1e6],
+  level_dbc: [-400, 100],
+  phase_deg: [-3600, 3600],
+  gain_db: [-400, 100],
+  lf_dbfs: [-400, 100],
+};
+
 function splitLine(line: string): string[] {
   return line.split(',').map((cell) => cell.trim().replace(/^"(.*)"$/, '$1'));
 }
@@ -32,16 +55,21 @@ export function parseTrimCsv(text: string): TrimPointData[] {
     const lineNumber = i + 1;
     const cells = splitLine(lines[i]);
     if (cells.length !== header.length) throw new TrimCsvError(`line ${lineNumber}: expected ${header.length} fields, found ${cells.length}`);
-    const number = (name: string, required: boolean): number | null => {
+    const number = (name: keyof typeof RANGE, required: boolean): number | null => {
       const index = column(name);
       if (index < 0) return null;
       const cell = cells[index];
+      const where = `line ${lineNumber}, column ${index + 1} (${name})`;
+      // Echo the cell safely: short, and no control characters reaching the terminal.
+      const shown = (cell.length > 24 ? `${cell.slice(0, 20)}…` : cell).replace(/[\u0000-\u001f\u007f-\u009f]/g, '?');
       if (cell === '') {
-        if (required) throw new TrimCsvError(`line ${lineNumber}: ${name} is empty`);
+        if (required) throw new TrimCsvError(`${where} is empty; fill it in`);
         return null;
       }
-      const value = Number(cell);
-      if (!Number.isFinite(value)) throw new TrimCsvError(`line ${lineNumber}: ${name} “${cell}” is not a number`);
+      const value = parsePlainDecimal(cell);
+      if (value === null) throw new TrimCsvError(`${where}: “${shown}” is not a number; write a plain decimal such as -42.5`);
+      const [low, high] = RANGE[name];
+      if (value < low || value > high) throw new TrimCsvError(`${where}: ${shown} lies outside ${low} to ${high}; check it for a typing error`);
       return value;
     };
     points.push({

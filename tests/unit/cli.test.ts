@@ -197,7 +197,16 @@ describe('fit', () => {
   });
 
   it.each([
-    ['a bad number', 'position,level_dbc\n0,-40\n1,abc\n', /line 3: level_dbc “abc” is not a number/],
+    ['a bad number', 'position,level_dbc\n0,-40\n1,abc\n', /line 3, column 2 \(level_dbc\): “abc” is not a number/],
+    // ECMA-262 StringToNumber (what Number() does) reads hex, exponents, "Infinity" and blanks;
+    // none is a plain decimal as a trim sheet holds, and 1e308 overflows the fit's squares.
+    ['a hex position', 'position,level_dbc\n0,-40\n0x10,-45\n2,-50\n', /line 3, column 1 \(position\): “0x10” is not a number; write a plain decimal/],
+    ['an exponent', 'position,level_dbc\n0,-40\n1,-45\n2,1e308\n', /line 4, column 2 \(level_dbc\): “1e308” is not a number/],
+    ['Infinity', 'position,level_dbc,phase_deg\n0,-40,10\n1,-45,Infinity\n2,-50,30\n', /line 3, column 3 \(phase_deg\): “Infinity” is not a number/],
+    ['NaN', 'position,level_dbc\n0,-40\nNaN,-45\n2,-50\n', /line 3, column 1 \(position\): “NaN” is not a number/],
+    ['an empty level', 'position,level_dbc\n0,-40\n1, \n2,-50\n', /line 3, column 2 \(level_dbc\) is empty/],
+    // A plain decimal of 301 digits is 1e300: finite in IEEE 754, but no trimmer position.
+    ['a position of 301 digits', `position,level_dbc\n0,-40\n1,-45\n1${'0'.repeat(300)},-50\n`, /line 4, column 1 \(position\): 1000.*… lies outside/],
     ['a missing column', 'position,phase_deg\n0,10\n1,20\n', /line 1: the header has no “level_dbc” column/],
     ['a short row', 'position,level_dbc,phase_deg\n0,-40,10\n1,-42\n', /line 3: expected 3 fields, found 2/],
     ['one point', 'position,level_dbc\n0,-40\n', /only one trim point; the fit needs at least two/],
@@ -209,5 +218,14 @@ describe('fit', () => {
     expect(result.status).toBe(1);
     expect(result.stdout).toBe('');
     expect(result.stderr).toMatch(message);
+  });
+
+  it.each([['--step', '0x10'], ['--margin-db', '3e0'], ['--limit-dbc', '-Infinity']])('refuses %s %s: options are plain decimals too', (option, value) => {
+    const file = join(files.path, 'trim-options.csv');
+    writeFileSync(file, csvFor([0, 1, 2.5]));
+    const result = run('fit', file, `${option}=${value}`);
+    expect(result.status).toBe(1);
+    expect(result.stdout).toBe('');
+    expect(result.stderr).toMatch(new RegExp(`${option} must be .*plain decimal`));
   });
 });
