@@ -191,7 +191,7 @@ export function openDatabase(file: string, { busyTimeoutMs = BUSY_TIMEOUT_MS }: 
   const db = new Database(file, { timeout: busyTimeoutMs });
   try {
     refuseNewer(db, file); // before anything changes the file, even its journal mode
-    db.pragma('journal_mode = WAL');
+    enterWal(db, busyTimeoutMs);
     db.pragma('foreign_keys = ON');
     // Every write the technician has seen confirmed must survive a power cut.
     db.pragma('synchronous = FULL');
@@ -201,6 +201,26 @@ export function openDatabase(file: string, { busyTimeoutMs = BUSY_TIMEOUT_MS }: 
     db.close();
     if (isDatabaseBusy(error)) throw databaseBusyFailure(file);
     throw error;
+  }
+}
+
+/**
+ * Switching a file into WAL needs an exclusive lock, and SQLite answers SQLITE_BUSY at once
+ * rather than calling the busy handler when another connection holds a shared lock meanwhile (two
+ * processes opening one fresh file). So the switch is retried here for as long as the busy
+ * timeout allows. Once the file is in WAL mode the pragma is a no-op that never blocks.
+ */
+function enterWal(db: Db, busyTimeoutMs: number): void {
+  const pauseMs = 20;
+  const pause = new Int32Array(new SharedArrayBuffer(4));
+  for (let waitedMs = 0; ; waitedMs += pauseMs) {
+    try {
+      db.pragma('journal_mode = WAL');
+      return;
+    } catch (error) {
+      if (!isDatabaseBusy(error) || waitedMs >= busyTimeoutMs) throw error;
+      Atomics.wait(pause, 0, 0, pauseMs); // a synchronous pause, as SQLite's own busy handler sleeps
+    }
   }
 }
 
