@@ -7,6 +7,18 @@ import type { TrimAssessment } from '../trim/assessment.ts';
 import { procedureSchema } from '../procedures/procedure.ts';
 import type { IpcChannel } from './channels.ts';
 
+// zod's own message for unknown fields quotes every key in full: a payload of 10^5 long keys would
+// come back as megabytes of error. Name a few, shortened, and count the rest.
+z.config({
+  customError: (issue) => {
+    if (issue.code !== 'unrecognized_keys') return undefined;
+    const keys: string[] = issue.keys;
+    const shown = keys.slice(0, 3).map((key) => JSON.stringify(key.length > 32 ? `${key.slice(0, 32)}…` : key));
+    const more = keys.length > shown.length ? ` and ${keys.length - shown.length} more` : '';
+    return `Unexpected field${keys.length > 1 ? 's' : ''} ${shown.join(', ')}${more}: remove ${keys.length > 1 ? 'them' : 'it'}.`;
+  },
+});
+
 const finite = z.number();
 const rowId = z.number().int().positive();
 
