@@ -203,6 +203,16 @@ describe('main judges only numbers it has checked (issue 8)', () => {
     });
   }
 
+  it('refuses 10⁴ unknown long fields with a short message', async () => {
+    const runId = await openDemoRun();
+    const extra = Object.fromEntries(Array.from({ length: 10_000 }, (_, i) => [`${i}${'k'.repeat(1000)}`, 1]));
+    const result = await recordPoint(runId, 1, { ...base, ...extra });
+    expect(!result.ok && result.error.name).toBe('InvalidRequest');
+    // zod quotes each unknown key by default: here 10 MB of message.
+    expect(!result.ok && result.error.message.length).toBeLessThan(1000);
+    expect(!result.ok && result.error.message).toMatch(/Unexpected fields .* and 9997 more/);
+  });
+
   it('refuses 10⁵ flags with a short message', async () => {
     const runId = await openDemoRun();
     const result = await recordPoint(runId, 1, { ...base, flags: Array(100_000).fill('nonsense') });
