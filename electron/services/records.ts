@@ -585,7 +585,7 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
           throw new ExpectedFailure(`Run ${row.id}'s stored record does not validate (${where}): it was not finished. Report it to the station's maintainer.`);
         }
         return stored.data;
-      })();
+      }).immediate();
     },
 
     setSheetPath(runId: number, path: string): void {
