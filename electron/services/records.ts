@@ -107,8 +107,8 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
     ),
     unitBySerial: db.prepare<[string], { id: number; model_code: string }>('SELECT id, model_code FROM units WHERE serial = ?'),
     insertUnit: db.prepare('INSERT INTO units (serial, model_code, created_at) VALUES (?, ?, ?)'),
-    openRunOfUnit: db.prepare<[number, number], { id: number }>(
-      'SELECT id FROM runs WHERE unit_id = ? AND procedure_id = ? AND finished_at IS NULL ORDER BY id DESC LIMIT 1',
+    openRunOfUnit: db.prepare<[number, number], { id: number; operator: string }>(
+      'SELECT id, operator FROM runs WHERE unit_id = ? AND procedure_id = ? AND finished_at IS NULL ORDER BY id DESC LIMIT 1',
     ),
     insertRun: db.prepare(
       'INSERT INTO runs (unit_id, procedure_id, operator, station, started_at, limit_thd_db) VALUES (?, ?, ?, ?, ?, ?)',
@@ -289,6 +289,16 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
   }
 
   /**
+   * Whether two typed operator names are the same person's: the contract already trims them; case,
+   * runs of spaces and Unicode composition (NFC: "é" typed as one or two code points) are ways of
+   * typing a name, not different names.
+   */
+  function sameOperator(a: string, b: string): boolean {
+    const key = (name: string) => name.normalize('NFC').replace(/\s+/g, ' ').toLowerCase();
+    return key(a) === key(b);
+  }
+
+  /**
    * The run this station has open: the one openRun last gave the page (resumed or started). A call
    * that changes a run acts only on it, so a stale page or a guessed id cannot touch another unit's.
    */
@@ -341,6 +351,9 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
 
     /** Resumes the unit's unfinished run of this procedure, or starts a new one (a retest after a finished run). */
     openRun(request: { serial: string; procedureId: number; operator: string }): RunDetail {
+      // Opening a unit leaves whatever the page had open; until this call succeeds, no run is open
+      // here, so a refused open (another operator's run) leaves nothing for later calls to act on.
+      stationOpenRunId = null;
       const procedure = procedureById(request.procedureId);
       const serialCheck = checkSerial(request.serial, procedure);
       if (!serialCheck.ok) throw new ExpectedFailure(serialCheck.message);
@@ -356,7 +369,18 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
           );
         }
         const open = statements.openRunOfUnit.get(unit.id, request.procedureId);
-        if (open) return open.id;
+        if (open) {
+          // A run names one operator and its points carry no name of their own, so a run resumed
+          // by someone else would credit their points to the first person. Refusing is the
+          // simplest rule that keeps every point credited to whoever recorded it: a handover would
+          // need a per-point operator and a logged change, and the open run can always be ended
+          // by its operator (finished, or finished as a failure) so the next one starts a retest.
+          if (sameOperator(open.operator, request.operator)) return open.id;
+          throw new ExpectedFailure(
+            `Serial ${serial} has an unfinished run (run ${open.id}) under operator ${open.operator}. Only ${open.operator} ` +
+              `can continue it: ask them to finish it (or finish it as a failure), then open the unit under your name for a retest.`,
+          );
+        }
         // An unfinished run keeps its revision; a new one must not start on a replaced revision,
         // which may lack checks the newer one has (revision A of the demo has no level window).
         const newest = statements.newestRevisionOf.get(request.procedureId);

