@@ -24,6 +24,8 @@ const generatorOn = async (page: Page) => (await page.getByTestId('mute').textCo
 
 async function openUnitByKeyboard(page: Page, serial: string) {
   await page.getByLabel('Operator').focus();
+  // The field remembers the last operator: select it so typing replaces it, as a technician would.
+  await page.keyboard.press('Control+A');
   await page.keyboard.type('A. Tester');
   await page.getByTestId('serial-input').focus();
   await page.keyboard.type(serial);
@@ -73,15 +75,19 @@ describe('the trim from the keyboard', () => {
   });
 
   it('records an unsettled reading only through its own confirmed action, never on Enter', { timeout: 120_000 }, async () => {
-    // The unit’s answer to the demo stimulus (14 Hz, −12 dBFS: a full-scale sine is 0 dBFS, AES17) with its level swaying ±0.3 dB over
-    // the 4 s loop: well inside the procedure's window, but successive readings never agree within
-    // the 0.05 dB a settled reading needs, so it stays unsettled for as long as the test likes.
+    // The unit's answer to the demo stimulus (14 Hz, −12 dBFS: a full-scale sine is 0 dBFS, AES17)
+    // that never holds still: its level sways ±0.3 dB and its H3 ±6 dB about −50 dBc, both at
+    // 0.25 Hz but a quarter cycle apart, so whenever one is at a turning point the other changes
+    // fastest. Successive readings then never agree within the 0.05 dB (level) and 0.5 dB (THD) a
+    // settled reading needs, and the reading stays unsettled for as long as the test likes.
     const rateHz = 44100;
-    const length = 4 * rateHz; // whole cycles of both the 14 Hz tone and the 0.25 Hz sway
+    const length = 4 * rateHz; // whole cycles of the 14 Hz tone, its 42 Hz H3 and the 0.25 Hz sway
     const samples = new Float32Array(length);
     for (let i = 0; i < length; i++) {
-      const swayDb = 0.3 * Math.sin((2 * Math.PI * 0.25 * i) / rateHz);
-      samples[i] = 10 ** ((-12 + swayDb) / 20) * Math.cos((2 * Math.PI * 14 * i) / rateHz);
+      const sway = (2 * Math.PI * 0.25 * i) / rateHz;
+      const w = (2 * Math.PI * 14 * i) / rateHz;
+      const fundamental = 10 ** ((-12 + 0.3 * Math.sin(sway)) / 20);
+      samples[i] = fundamental * (Math.cos(w) + 10 ** ((-50 + 6 * Math.cos(sway)) / 20) * Math.cos(3 * w));
     }
     const wav = join(mkdtempSync(join(tmpdir(), 'trimbench-sway-')), 'sway.wav');
     writeFileSync(wav, encodeWavFloat32([samples, samples], rateHz));
