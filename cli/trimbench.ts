@@ -2,26 +2,34 @@
 // fitting, computed
 // by the same shared/ code as the live app.
 //
-//   npm run -s cli -- analyze FILE.wav [--channel N] [--mains 50|60] [--harmonics N] [--band LO-HI] [--fundamental HZ] [--json]
+//   npm run -s cli -- analyze FILE.wav [--channel N] [--mains 50|60] [--harmonics N] [--band LO-HI] [--fundamental HZ] [--input-dbu-at-0dbfs X] [--json]
 //   npm run -s cli -- plan --target HZ --rate HZ [--mains 50|60] [--harmonics N] [--max-offset HZ] [--json]
 //   npm run -s cli -- fit FILE.csv [--margin-db X] [--step X] [--limit-dbc X] [--json]
 
 import { readFileSync } from 'node:fs';
 import { parseArgs } from 'node:util';
 import { WavFormatError } from '../shared/audio/wav.ts';
+import { dbuFromDbfs, type LevelCalibration } from '../shared/levels.ts';
 import { DEFAULT_MAX_OFFSET_PERCENT, planTestFrequency } from '../shared/measurement/frequency-planner.ts';
 import { analyzeRecordSource, type RecordAnalysis } from '../shared/measurement/record-analysis.ts';
 import { adviseTrim, DEFAULT_TRIM_ASSISTANT_OPTIONS, describeThermalMargin } from '../shared/trim/trim-assistant.ts';
 import { parsePlainDecimal, parseTrimCsv, TrimCsvError } from '../shared/trim/trim-csv.ts';
 import { openWavFile, type WavFile, WavReadError } from './wav-file.ts';
 
+// Wider than any audio interface's full scale (about −20 to +30 dBu), so a recording from an
+// unusual chain can still be read; anything outside is a typing error.
+const INPUT_DBU_RANGE = { min: -40, max: 40 } as const;
+
 const USAGE = `usage:
-  trimbench analyze FILE.wav [--channel N] [--mains 50|60] [--harmonics N] [--band LO-HI] [--fundamental HZ] [--json]
+  trimbench analyze FILE.wav [--channel N] [--mains 50|60] [--harmonics N] [--band LO-HI] [--fundamental HZ]
+                            [--input-dbu-at-0dbfs X] [--json]
   trimbench plan --target HZ --rate HZ [--mains 50|60] [--harmonics N] [--max-offset HZ] [--json]
   trimbench fit FILE.csv [--margin-db X] [--step X] [--limit-dbc X] [--json]
   trimbench help
 
-  analyze   offline analysis of a WAV recording (refuses non-finite samples)
+  analyze   offline analysis of a WAV recording (refuses non-finite samples); with
+            --input-dbu-at-0dbfs X (the input's calibration: X dBu reads 0 dBFS, ${INPUT_DBU_RANGE.min} to ${INPUT_DBU_RANGE.max})
+            levels and noise are also given in dBu
   plan      the whole-cycle test frequency nearest the target, clear of mains, at most
             --max-offset Hz from it (default ${DEFAULT_MAX_OFFSET_PERCENT} % of the target)
   fit       the trim assistant on a CSV of trim points`;
@@ -88,6 +96,7 @@ function analyze(args: string[]): string {
       harmonics: { type: 'string' },
       band: { type: 'string' },
       fundamental: { type: 'string' },
+      'input-dbu-at-0dbfs': { type: 'string' },
       json: { type: 'boolean', default: false },
     },
   });
@@ -98,6 +107,13 @@ function analyze(args: string[]): string {
   const harmonicCount = numberOption('harmonics', values.harmonics, (v) => Number.isInteger(v) && v >= 2 && v <= 50, 'a whole number from 2 to 50') ?? 10;
   const band = bandOption(values.band);
   const fundamentalHz = numberOption('fundamental', values.fundamental, (v) => v > 0, 'a frequency in Hz above 0') ?? null;
+  const inputDbu = numberOption(
+    'input-dbu-at-0dbfs',
+    values['input-dbu-at-0dbfs'],
+    (v) => v >= INPUT_DBU_RANGE.min && v <= INPUT_DBU_RANGE.max,
+    `a level in dBu from ${INPUT_DBU_RANGE.min} to ${INPUT_DBU_RANGE.max}`,
+  );
+  const calibration: LevelCalibration | null = inputDbu === undefined ? null : { dbuAtFullScale: inputDbu };
 
   // The file is read in pieces (cli/wav-file.ts), never whole, so its size does not bound us.
   let wav: WavFile;
@@ -130,16 +146,24 @@ function analyze(args: string[]): string {
   } finally {
     wav.close();
   }
-  refuseNonFinite(file, analysisJson(file, channel, result), 'check the recording holds the tone you meant to analyse');
-  return values.json ? JSON.stringify(analysisJson(file, channel, result)) : analysisTable(file, channel, result);
+  const json = analysisJson(file, channel, result, calibration);
+  refuseNonFinite(file, json, 'check the recording holds the tone you meant to analyse');
+  return values.json ? JSON.stringify(json) : analysisTable(file, channel, result, calibration);
 }
 
-function analysisJson(file: string, channel: number, r: RecordAnalysis) {
+function analysisJson(file: string, channel: number, r: RecordAnalysis, calibration: LevelCalibration | null) {
+  // dBu figures only with a calibration: without one, a dBu field would be a guess.
+  const dbu = (dbfs: number) => dbuFromDbfs(dbfs, calibration!);
   return {
     file,
     sampleRateHz: r.sampleRateHz,
     channel,
-    fundamental: { frequencyHz: r.fundamental.frequencyHz, levelDbfs: r.fundamental.levelDbfs, phaseDeg: r.fundamental.phaseDeg },
+    fundamental: {
+      frequencyHz: r.fundamental.frequencyHz,
+      levelDbfs: r.fundamental.levelDbfs,
+      ...(calibration ? { levelDbu: dbu(r.fundamental.levelDbfs) } : {}),
+      phaseDeg: r.fundamental.phaseDeg,
+    },
     harmonics: r.harmonics.map(({ order, frequencyHz, levelDbc, phaseDeg }) => ({ order, frequencyHz, levelDbc, phaseDeg })),
     harmonicsAboveNyquist: r.harmonicsAboveNyquist,
     thdPercent: r.thdPercent,
@@ -150,22 +174,37 @@ function analysisJson(file: string, channel: number, r: RecordAnalysis) {
     enob: r.enob,
     noiseDbfs: r.noiseDbfs,
     noiseAWeightedDbfs: r.noiseAWeightedDbfs,
-    hum: r.hum ? { frequencyHz: r.hum.frequencyHz, levelDbfs: r.hum.levelDbfs, components: r.hum.components } : null,
+    ...(calibration ? { noiseDbu: dbu(r.noiseDbfs), noiseAWeightedDbu: dbu(r.noiseAWeightedDbfs) } : {}),
+    hum: r.hum
+      ? {
+          frequencyHz: r.hum.frequencyHz,
+          levelDbfs: r.hum.levelDbfs,
+          ...(calibration ? { levelDbu: dbu(r.hum.levelDbfs) } : {}),
+          components: r.hum.components,
+        }
+      : null,
     mainsCoincidentOrders: r.mainsCoincidentOrders,
     flags: r.flags,
   };
 }
 
-function analysisTable(file: string, channel: number, r: RecordAnalysis): string {
+function analysisTable(file: string, channel: number, r: RecordAnalysis, calibration: LevelCalibration | null): string {
   const f = (value: number, decimals: number) => value.toFixed(decimals).padStart(9);
+  // The dBu figure beside a dBFS one, when the input's calibration was given.
+  const beside = (dbfs: number, decimals: number) => {
+    if (!calibration) return '';
+    const dbu = dbuFromDbfs(dbfs, calibration);
+    return ` (${dbu > 0 ? '+' : ''}${dbu.toFixed(decimals)} dBu)`;
+  };
   const lines = [
     `${file} — channel ${channel}, ${r.sampleRateHz} Hz, ${r.frames} frame(s) of ${r.frameSize}, ${r.mode}`,
-    `fundamental   ${r.fundamental.frequencyHz.toFixed(4)} Hz   ${r.fundamental.levelDbfs.toFixed(3)} dBFS   phase ${r.fundamental.phaseDeg.toFixed(2)}°`,
+    ...(calibration ? [`calibration   input ${calibration.dbuAtFullScale} dBu at 0 dBFS`] : []),
+    `fundamental   ${r.fundamental.frequencyHz.toFixed(4)} Hz   ${r.fundamental.levelDbfs.toFixed(3)} dBFS${beside(r.fundamental.levelDbfs, 3)}   phase ${r.fundamental.phaseDeg.toFixed(2)}°`,
     `THD           ${r.thdPercent.toPrecision(4)} %   ${r.thdDb.toFixed(2)} dB`,
     `THD+N         ${r.thdnPercent.toPrecision(4)} %   ${r.thdnDb.toFixed(2)} dB   SINAD ${r.sinadDb.toFixed(2)} dB   ENOB ${r.enob.toFixed(2)}`,
-    `noise         ${r.noiseDbfs.toFixed(2)} dBFS   A-weighted ${r.noiseAWeightedDbfs.toFixed(2)} dBFS`,
+    `noise         ${r.noiseDbfs.toFixed(2)} dBFS${beside(r.noiseDbfs, 2)}   A-weighted ${r.noiseAWeightedDbfs.toFixed(2)} dBFS${beside(r.noiseAWeightedDbfs, 2)}`,
     r.hum
-      ? `hum           ${r.hum.frequencyHz.toFixed(3)} Hz ${r.hum.levelDbfs.toFixed(2)} dBFS; ${r.hum.components.map((c) => `×${c.order} ${c.levelDbfs.toFixed(1)}`).join(', ')} dBFS`
+      ? `hum           ${r.hum.frequencyHz.toFixed(3)} Hz ${r.hum.levelDbfs.toFixed(2)} dBFS${beside(r.hum.levelDbfs, 2)}; ${r.hum.components.map((c) => `×${c.order} ${c.levelDbfs.toFixed(1)}`).join(', ')} dBFS`
       : 'hum           none above the noise',
     '',
     'order   frequency Hz   level dBc   phase °',
@@ -299,8 +338,16 @@ function main(argv: string[]): number {
     return 0;
   } catch (error) {
     const expected = error instanceof UsageProblem || (error as { code?: string }).code?.startsWith('ERR_PARSE_ARGS');
-    process.stderr.write(`trimbench ${command ?? ''}: ${expected ? (error as Error).message : `internal error: ${(error as Error).stack}`}\n`.replace(/^trimbench : /, 'trimbench: '));
-    return expected ? 1 : 2;
+    const prefix = `trimbench ${command ?? ''}: `.replace(/^trimbench : /, 'trimbench: ');
+    if (expected) {
+      process.stderr.write(`${prefix}${(error as Error).message}\n`);
+      return 1;
+    }
+    // A bug, not the user's input: one line they can report; the stack only on request.
+    const message = (error instanceof Error ? error.message : String(error)).split('\n')[0].replace(/\.$/, '');
+    process.stderr.write(`${prefix}internal error: ${message}. Run again with TRIMBENCH_DEBUG=1 for details.\n`);
+    if (process.env.TRIMBENCH_DEBUG === '1') process.stderr.write(`${error instanceof Error ? error.stack : String(error)}\n`);
+    return 2;
   }
 }
 

@@ -8,6 +8,7 @@ import { fileURLToPath } from 'node:url';
 import { encodeWavFloat32 } from '../../shared/audio/wav.ts';
 import { tempDir } from '../support/station.ts';
 import { encodePcm24 } from '../support/wav-files.ts';
+import { gaussian, seededRandom } from '../support/random.ts';
 import { tone } from '../support/signals.ts';
 
 const CLI = fileURLToPath(new URL('../../cli/trimbench.ts', import.meta.url));
@@ -227,5 +228,95 @@ describe('fit', () => {
     expect(result.status).toBe(1);
     expect(result.stdout).toBe('');
     expect(result.stderr).toMatch(new RegExp(`${option} must be .*plain decimal`));
+  });
+});
+
+describe('analyze --input-dbu-at-0dbfs', () => {
+  // 997 Hz at −20 dBFS, 50 Hz hum at −60 dBFS and white noise of σ = 1e-4, so on an input where
+  // +18 dBu reads 0 dBFS the tone is −20 + 18 = −2 dBu and the hum −42 dBu (dBFS is relative to
+  // full scale, so a calibration adds its dBu at 0 dBFS to every level and noise figure).
+  const rate = 48000;
+  const sigma = 1e-4;
+  function writeCalibrationWav(): string {
+    const length = rate * 4;
+    const x = tone(length, rate, 997, 10 ** (-20 / 20));
+    const hum = tone(length, rate, 50, 10 ** (-60 / 20));
+    const normal = gaussian(seededRandom(42));
+    const file = join(files.path, 'calibrated.wav');
+    writeFileSync(file, encodeWavFloat32([x.map((v, i) => v + hum[i] + sigma * normal())], rate));
+    return file;
+  }
+
+  it('adds levelDbu, noiseDbu, noiseAWeightedDbu and hum.levelDbu; they are absent without the option', () => {
+    const file = writeCalibrationWav();
+    const calibrated = run('analyze', file, '--input-dbu-at-0dbfs', '18', '--json');
+    expect(calibrated.stderr).toBe('');
+    expect(calibrated.status).toBe(0);
+    const json = JSON.parse(calibrated.stdout);
+    expect(Math.abs(json.fundamental.levelDbu - (-20 + 18))).toBeLessThan(0.02);
+    expect(Math.abs(json.hum.levelDbu - (-60 + 18))).toBeLessThan(0.2);
+    // White noise of variance σ² over 20 Hz–20 kHz, referred to a full-scale sine's mean square
+    // of 0.5 (AES17): 10·log10(σ² · 19 980 / 24 000 / 0.5) dBFS; about 150 000 bins in the band
+    // make 0.2 dB several standard deviations.
+    const noiseDbfs = 10 * Math.log10((sigma * sigma * (20000 - 20)) / (rate / 2) / 0.5);
+    expect(Math.abs(json.noiseDbu - (noiseDbfs + 18))).toBeLessThan(0.2);
+    expect(json.noiseAWeightedDbu - json.noiseAWeightedDbfs).toBeCloseTo(18, 9);
+    // A-weighting of white noise over this band reads about 2 dB under the flat figure (the
+    // integral of IEC 61672-1's curve, see dbu.test.ts); the point here is that it is in dBu too.
+    expect(json.noiseAWeightedDbu).toBeLessThan(json.noiseDbu);
+
+    const plain = JSON.parse(run('analyze', file, '--json').stdout);
+    expect(plain.fundamental).not.toHaveProperty('levelDbu');
+    expect(plain).not.toHaveProperty('noiseDbu');
+    expect(plain).not.toHaveProperty('noiseAWeightedDbu');
+    expect(plain.hum).not.toBeNull();
+    expect(plain.hum).not.toHaveProperty('levelDbu');
+    expect(plain.fundamental.levelDbfs).toBe(json.fundamental.levelDbfs);
+  });
+
+  it('shows dBu beside dBFS in the table', () => {
+    const file = writeCalibrationWav();
+    const table = run('analyze', file, '--input-dbu-at-0dbfs', '18').stdout;
+    expect(table).toMatch(/calibration\s+input 18 dBu at 0 dBFS/);
+    const fundamental = /fundamental\s+997\.\d+ Hz\s+(-\d+\.\d{3}) dBFS \((-\d+\.\d{3}) dBu\)/.exec(table);
+    expect(fundamental).not.toBeNull();
+    expect(Math.abs(Number(fundamental![2]) - (-20 + 18))).toBeLessThan(0.02);
+    expect(Number(fundamental![2]) - Number(fundamental![1])).toBeCloseTo(18, 2);
+    expect(table).toMatch(/noise\s+-?\d+\.\d\d dBFS \(-\d+\.\d\d dBu\)\s+A-weighted -?\d+\.\d\d dBFS \(-\d+\.\d\d dBu\)/);
+    expect(table).toMatch(/hum\s+50\.\d+ Hz -60\.\d\d dBFS \(-4[12]\.\d\d dBu\)/);
+    expect(run('analyze', file).stdout).not.toMatch(/dBu/);
+  });
+
+  it.each([['1e1'], ['abc'], ['99'], ['-41'], ['0x10'], ['']])('refuses --input-dbu-at-0dbfs “%s”, naming the option', (value) => {
+    const file = join(files.path, 'tone-level.wav');
+    writeFileSync(file, encodePcm24(tone(48000, 48000, 1000, 0.5), 48000));
+    const result = run('analyze', file, `--input-dbu-at-0dbfs=${value}`);
+    expect(result.status).toBe(1);
+    expect(result.stdout).toBe('');
+    expect(result.stderr.trim().split('\n')).toHaveLength(1);
+    expect(result.stderr).toMatch(/--input-dbu-at-0dbfs must be a level in dBu from -40 to 40 \(a plain decimal\)/);
+  });
+});
+
+describe('internal errors', () => {
+  // A bug is forced from outside: a preloaded module makes the sample scan throw a plain Error,
+  // which no input check anticipates (Node's --import runs an ES module before the entry point).
+  const breakScan = `data:text/javascript,${encodeURIComponent('Float64Array.prototype.findIndex = function () { throw new Error("scan exploded."); };')}`;
+  const runBroken = (env: NodeJS.ProcessEnv, ...args: string[]) =>
+    spawnSync(process.execPath, ['--import', breakScan, CLI, ...args], { encoding: 'utf8', timeout: 60_000, env: { ...process.env, ...env } });
+
+  it('prints one short line and the stack only with TRIMBENCH_DEBUG=1', () => {
+    const file = join(files.path, 'tone-internal.wav');
+    writeFileSync(file, encodePcm24(tone(48000, 48000, 1000, 0.5), 48000));
+    const quiet = runBroken({ TRIMBENCH_DEBUG: '' }, 'analyze', file);
+    expect(quiet.status).toBe(2);
+    expect(quiet.stdout).toBe('');
+    expect(quiet.stderr).toBe('trimbench analyze: internal error: scan exploded. Run again with TRIMBENCH_DEBUG=1 for details.\n');
+    const debug = runBroken({ TRIMBENCH_DEBUG: '1' }, 'analyze', file);
+    expect(debug.status).toBe(2);
+    const lines = debug.stderr.trim().split('\n');
+    expect(lines[0]).toBe('trimbench analyze: internal error: scan exploded. Run again with TRIMBENCH_DEBUG=1 for details.');
+    expect(lines.length).toBeGreaterThan(2);
+    expect(debug.stderr).toMatch(/\n\s+at /);
   });
 });
