@@ -6,6 +6,8 @@ import { hostname } from 'node:os';
 import { join, normalize, sep } from 'node:path';
 import { fileURLToPath, pathToFileURL } from 'node:url';
 import { IPC_CHANNELS, ipcChannelName } from '../../shared/ipc/channels.ts';
+import { openErrorLog, type ErrorLog } from '../services/error-log.ts';
+import { ExpectedFailure } from '../services/expected-failure.ts';
 import { dispatch, type CallerContext } from '../services/handlers.ts';
 import { openStation } from '../services/station.ts';
 import { securityPolicy } from './security-policy.ts';
@@ -76,14 +78,14 @@ function callerContext(sender: WebContents): CallerContext {
   };
 }
 
-function registerIpc(handlers: ReturnType<typeof openStation>['handlers']): void {
+function registerIpc(handlers: ReturnType<typeof openStation>['handlers'], errorLog: ErrorLog): void {
   for (const channel of IPC_CHANNELS) {
     ipcMain.handle(ipcChannelName(channel), (event: IpcMainInvokeEvent, payload: unknown) => {
       // Only our own page's top frame may call; an injected frame or foreign page may not.
       if (!policy.allowIpcSender(event.senderFrame?.url, event.senderFrame === event.sender.mainFrame)) {
         return { ok: false, error: { name: 'Forbidden', message: 'Request from outside the Trimbench page refused.' } };
       }
-      return dispatch(handlers, channel, payload, callerContext(event.sender));
+      return dispatch(handlers, channel, payload, callerContext(event.sender), errorLog);
     });
   }
 }
@@ -115,22 +117,32 @@ app.on('second-instance', () => {
   window?.focus();
 });
 
+// The error log lives in the data folder, so it is there even when the station cannot open.
+const dataDir = app.getPath('userData');
+const errorLog = openErrorLog(dataDir);
+
 app
   .whenReady()
   .then(() => {
-    const station = openStation({ dataDir: app.getPath('userData'), stationName: hostname() });
+    const station = openStation({ dataDir, stationName: hostname() });
     app.on('will-quit', () => station.close());
     serveRenderer();
     lockDownSessions();
-    registerIpc(station.handlers);
+    registerIpc(station.handlers, errorLog);
     createWindow();
     app.on('activate', () => {
       if (BrowserWindow.getAllWindows().length === 0) createWindow();
     });
   })
-  .catch((error: Error) => {
-    // Nothing runs without the records (a newer or locked database, a failed migration): say why and stop.
-    dialog.showErrorBox('Trimbench cannot start', error.message);
+  .catch((error: unknown) => {
+    // Nothing runs without the records (a newer or locked database, a failed migration): say why and
+    // stop. An expected failure already tells the technician what to do; anything else is a bug whose
+    // raw text goes to the log.
+    const message =
+      error instanceof ExpectedFailure
+        ? error.message
+        : `Trimbench met an unexpected problem while starting and has stopped. Start it again; if it stops again, report it. Details are in ${errorLog.path} (reference ${errorLog.record('startup failed', error)}).`;
+    dialog.showErrorBox('Trimbench cannot start', message);
     app.quit();
   });
 

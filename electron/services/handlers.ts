@@ -5,6 +5,7 @@
 import { z } from 'zod';
 import { IPC_CHANNELS, type IpcChannel } from '../../shared/ipc/channels.ts';
 import { contract, type IpcResponse, type IpcResult } from '../../shared/ipc/contract.ts';
+import type { ErrorLog } from './error-log.ts';
 import { ExpectedFailure } from './expected-failure.ts';
 import type { Records } from './records.ts';
 import type { createSheets } from './sheets.ts';
@@ -46,20 +47,74 @@ export function createHandlers({ records, sheets, station }: Services): Handlers
 
 const isChannel = (name: string): name is IpcChannel => (IPC_CHANNELS as readonly string[]).includes(name);
 
-/** Validates, runs and wraps one call. Never throws: errors come back as `{ ok: false, error }`. */
+/** What each call does, in the words a message to the technician uses. */
+export const CHANNEL_ACTIONS: Record<IpcChannel, string> = {
+  describeStation: 'describe this station',
+  listProcedures: 'list the procedures',
+  openRun: 'open the run',
+  recordTrimPoint: 'record the trim point',
+  includeUnsettledPoint: 'include the unsettled point',
+  logWarningChanges: 'log the warning changes',
+  recordWarmCheck: 'record the warm re-check',
+  finishRun: 'finish the run',
+  saveSheetPdf: 'save the unit sheet as PDF',
+  printSheet: 'print the unit sheet',
+};
+
+/** Issues kept in the log for one refused call: enough to see the pattern, never a 10^6-item dump. */
+const LOGGED_ISSUES_MAX = 20;
+const FIELD_PATH_MAX_CHARS = 80;
+const ISSUE_MESSAGE_MAX_CHARS = 200;
+
+const shorten = (text: string, max: number) => (text.length > max ? `${text.slice(0, max - 1)}…` : text);
+
+/** A field path as a person reads it: reading.harmonics[0].levelDbc. */
+function fieldPath(path: readonly PropertyKey[]): string {
+  if (path.length === 0) return 'the request';
+  let out = '';
+  for (const key of path) {
+    if (typeof key === 'number') out += `[${key}]`;
+    else out += `${out ? '.' : ''}${shorten(String(key), 32)}`;
+  }
+  return shorten(out, FIELD_PATH_MAX_CHARS);
+}
+
+/** One line for the technician: the first problem, named by its field, and how many more there are. */
+function refusal(channel: IpcChannel, error: z.ZodError): string {
+  const [first] = error.issues;
+  const more = error.issues.length - 1;
+  const problem = first ? `${fieldPath(first.path)}: ${shorten(first.message, ISSUE_MESSAGE_MAX_CHARS)}` : 'the request is not valid';
+  // The issue's own message may end a sentence; this one ends it once.
+  return `The request to ${CHANNEL_ACTIONS[channel]} was refused: ${problem.replace(/\.$/, '')}${more > 0 ? ` (and ${more} more problem${more > 1 ? 's' : ''})` : ''}.`;
+}
+
+function loggedIssues(error: z.ZodError): unknown {
+  const issues = error.issues.slice(0, LOGGED_ISSUES_MAX).map((issue) => ({
+    code: issue.code,
+    path: fieldPath(issue.path),
+    message: shorten(issue.message, ISSUE_MESSAGE_MAX_CHARS),
+  }));
+  return { issueCount: error.issues.length, issues };
+}
+
+/**
+ * Validates, runs and wraps one call. Never throws: errors come back as `{ ok: false, error }`.
+ * An expected failure's message goes to the technician as is; anything else is a bug whose raw
+ * message (SQLite, JSON.parse, a numeric routine) means nothing at the bench: it goes to the log,
+ * and the technician gets what failed, what to do and where the details are.
+ */
 export async function dispatch(
   handlers: Handlers,
   channel: string,
   payload: unknown,
   caller: CallerContext,
+  log?: ErrorLog,
 ): Promise<IpcResult<unknown>> {
-  if (!isChannel(channel)) return { ok: false, error: { name: 'InvalidRequest', message: `Unknown request “${channel}”.` } };
+  if (!isChannel(channel)) return { ok: false, error: { name: 'InvalidRequest', message: `Unknown request “${shorten(channel, 60)}”.` } };
   const parsed = contract[channel].request.safeParse(payload);
   if (!parsed.success) {
-    return {
-      ok: false,
-      error: { name: 'InvalidRequest', message: `Rejected ${channel}: ${z.prettifyError(parsed.error)}` },
-    };
+    log?.record(`${channel}: request refused`, new Error('The request did not match the contract'), loggedIssues(parsed.error));
+    return { ok: false, error: { name: 'InvalidRequest', message: refusal(channel, parsed.error) } };
   }
   try {
     const handler = handlers[channel] as (request: unknown, caller: CallerContext) => Promise<unknown>;
@@ -67,9 +122,15 @@ export async function dispatch(
     return { ok: true, value };
   } catch (error) {
     if (error instanceof ExpectedFailure) return { ok: false, error: { name: error.name, message: error.message } };
-    console.error(`[trimbench] ${channel} failed`, error);
-    const message = error instanceof Error ? error.message : String(error);
-    return { ok: false, error: { name: 'InternalError', message: `Internal error in ${channel}: ${message}` } };
+    const where = log
+      ? `Details are in ${log.path} (reference ${log.record(`${channel} failed`, error)}).`
+      : (console.error(`[trimbench] ${channel} failed`, error), 'Details were written to the console.');
+    return {
+      ok: false,
+      error: {
+        name: 'InternalError',
+        message: `Trimbench could not ${CHANNEL_ACTIONS[channel]} because of an unexpected problem in Trimbench itself, not in the unit. Check what the screen shows as saved, then try again; if it happens again, report it. ${where}`,
+      },
+    };
   }
 }
-

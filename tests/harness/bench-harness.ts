@@ -11,6 +11,7 @@ import { extname, join, normalize, resolve, sep } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { chromium, type BrowserContext, type Page } from 'playwright-core';
 import { IPC_CHANNELS } from '../../shared/ipc/channels.ts';
+import { openErrorLog } from '../../electron/services/error-log.ts';
 import { dispatch, type CallerContext } from '../../electron/services/handlers.ts';
 import { openStation } from '../../electron/services/station.ts';
 import { SHEET_PDF } from '../../electron/main/sheet-pdf.ts';
@@ -129,8 +130,10 @@ export async function openBench({ captureWav, dataDir, microphone = 'granted' }:
       }),
     print: async () => false, // no printer here: reported to the page as cancelled
   };
+  // The same error log in the data folder as the app, so browser tests see the technician's messages.
+  const errorLog = openErrorLog(data);
   await context.exposeBinding('__trimbenchCall', (_source, channel: string, payload: unknown) =>
-    dispatch(station.handlers, channel, payload, caller),
+    dispatch(station.handlers, channel, payload, caller, errorLog),
   );
   await context.addInitScript((channels: readonly string[]) => {
     const call = (window as unknown as { __trimbenchCall: (c: string, p: unknown) => Promise<unknown> }).__trimbenchCall;
