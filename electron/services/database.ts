@@ -1,6 +1,7 @@
 // The station's SQLite file: WAL journal, foreign keys on, numbered forward-only migrations.
 // A finished run is frozen by triggers, so no code path (or bug) can edit one afterwards.
 
+import { readFileSync } from 'node:fs';
 import Database from 'better-sqlite3';
 import { ExpectedFailure } from './expected-failure.ts';
 
@@ -160,6 +161,18 @@ export const MIGRATIONS: readonly string[] = [
   `
   ALTER TABLE trim_points ADD COLUMN live_json TEXT;
   `,
+  // Issue 8: each row's check value (stored-record.ts), so a changed byte inside a record is noticed
+  // when it is read. Rows written before stay NULL: there is nothing to check them against.
+  `
+  ALTER TABLE procedures ADD COLUMN crc INTEGER;
+  ALTER TABLE units ADD COLUMN crc INTEGER;
+  ALTER TABLE runs ADD COLUMN crc INTEGER;
+  ALTER TABLE trim_points ADD COLUMN crc INTEGER;
+  ALTER TABLE trim_assessments ADD COLUMN crc INTEGER;
+  ALTER TABLE point_confirmations ADD COLUMN crc INTEGER;
+  ALTER TABLE warning_changes ADD COLUMN crc INTEGER;
+  ALTER TABLE warm_checks ADD COLUMN crc INTEGER;
+  `,
 ];
 
 /**
@@ -176,6 +189,38 @@ export function isDatabaseBusy(error: unknown): boolean {
   return typeof code === 'string' && code.startsWith('SQLITE_BUSY');
 }
 
+/** True for SQLite's answers that the file is not a sound database (SQLITE_CORRUPT, SQLITE_NOTADB). */
+export function isDatabaseDamaged(error: unknown): boolean {
+  const code = (error as { code?: unknown } | null)?.code;
+  return typeof code === 'string' && (code.startsWith('SQLITE_CORRUPT') || code === 'SQLITE_NOTADB');
+}
+
+/** A database that failed its check at start: never written to again by this station. */
+export class DamagedDatabase extends ExpectedFailure {
+  override name = 'DamagedDatabase';
+  /** What SQLite reported, for the log. */
+  readonly problems: string[];
+  constructor(file: string, problems: string[]) {
+    super(`The records database ${file} is damaged.`);
+    this.problems = problems;
+  }
+}
+
+/**
+ * Above this size the start-up check is quick_check (pages and b-trees, in about linear time)
+ * instead of integrity_check (which also matches every index against its table and takes longer
+ * as the file grows): a start must stay within seconds on a station with years of records.
+ */
+export const FULL_CHECK_MAX_BYTES = 256 * 1024 * 1024;
+
+/** SQLite's own check of the file; returns what it found wrong, or an empty list. */
+export function checkDatabase(db: Db, { full }: { full: boolean }): string[] {
+  // At most 20 problems: enough to log, and a badly broken file does not make a huge message.
+  const rows = db.pragma(full ? 'integrity_check(20)' : 'quick_check(20)') as Record<string, string>[];
+  const found = rows.map((row) => Object.values(row)[0]);
+  return found.length === 1 && found[0] === 'ok' ? [] : found;
+}
+
 /** The technician's message for a database that stayed busy past the timeout. */
 export function databaseBusyFailure(file: string): ExpectedFailure {
   return new ExpectedFailure(
@@ -190,7 +235,10 @@ export function databaseBusyFailure(file: string): ExpectedFailure {
 export function openDatabase(file: string, { busyTimeoutMs = BUSY_TIMEOUT_MS }: { busyTimeoutMs?: number } = {}): Db {
   const db = new Database(file, { timeout: busyTimeoutMs });
   try {
-    refuseNewer(db, file); // before anything changes the file, even its journal mode
+    // Both before anything changes the file, even its journal mode: a damaged or newer file is
+    // left exactly as it was found.
+    refuseNewer(db, file);
+    refuseDamaged(db, file);
     enterWal(db, busyTimeoutMs);
     db.pragma('foreign_keys = ON');
     // Every write the technician has seen confirmed must survive a power cut.
@@ -200,8 +248,68 @@ export function openDatabase(file: string, { busyTimeoutMs = BUSY_TIMEOUT_MS }: 
   } catch (error) {
     db.close();
     if (isDatabaseBusy(error)) throw databaseBusyFailure(file);
+    if (isDatabaseDamaged(error)) throw new DamagedDatabase(file, [`${(error as Error).message}`]);
     throw error;
   }
+}
+
+function refuseDamaged(db: Db, file: string): void {
+  // A file still empty (just created) has nothing to check.
+  const pages = db.pragma('page_count', { simple: true }) as number;
+  if (pages === 0) return;
+  const pageSize = db.pragma('page_size', { simple: true }) as number;
+  const problems = checkDatabase(db, { full: pages * pageSize <= FULL_CHECK_MAX_BYTES });
+  if (problems.length > 0) throw new DamagedDatabase(file, problems);
+}
+
+/**
+ * Opens a file that must not be written (damaged, read-only) for reading what can be read. When
+ * its schema is older than this Trimbench's, the records code cannot query it as it is, so the
+ * readable image (the file with its write-ahead log) is copied into memory and brought up to date
+ * there; the file itself is never touched.
+ */
+export function openForReading(file: string): Db {
+  let db: Db;
+  try {
+    db = new Database(file, { readonly: true, fileMustExist: true });
+    db.pragma('user_version');
+  } catch {
+    // A file in write-ahead-log mode on read-only media cannot be opened in place without its
+    // shared-memory file; its bytes can still be read into memory (what the log held is lost).
+    db = new Database(asMemoryImage(readFileSync(file)));
+  }
+  try {
+    refuseNewer(db, file);
+    if (schemaVersion(db) === MIGRATIONS.length) return db;
+    const image = db.serialize();
+    db.close();
+    const copy = new Database(asMemoryImage(image));
+    copy.pragma('foreign_keys = ON');
+    for (let version = schemaVersion(copy) + 1; version <= MIGRATIONS.length; version++) copy.exec(MIGRATIONS[version - 1]);
+    copy.pragma(`user_version = ${MIGRATIONS.length}`);
+    return copy;
+  } catch (error) {
+    if (db.open) db.close();
+    throw error;
+  }
+}
+
+/**
+ * Header bytes 18 and 19 are 2 in a WAL file and 1 in a rollback-journal one
+ * (sqlite.org/fileformat2.html §1.3.3); a database in memory cannot use WAL, so its image is marked
+ * as the latter, or SQLite refuses to read it.
+ */
+function asMemoryImage(image: Buffer): Buffer {
+  if (image.length >= 20) image[18] = image[19] = 1;
+  return image;
+}
+
+/** An empty database of today's schema in memory: what a station reads when its file cannot be read at all. */
+export function openEmptyInMemory(): Db {
+  const db = new Database(':memory:');
+  for (const migration of MIGRATIONS) db.exec(migration);
+  db.pragma(`user_version = ${MIGRATIONS.length}`);
+  return db;
 }
 
 /**

@@ -1,6 +1,7 @@
 // Units, runs and trim points. Every method takes already-validated input (main parses each
 // payload with the IPC contract first) and checks what only the database knows.
 
+import { z } from 'zod';
 import type { Reading } from '../../shared/measurement/reading.ts';
 import {
   readingSchema,
@@ -21,13 +22,59 @@ import { whyNotRecordable, type StimulusSetting } from '../../shared/records/sti
 import { judgeTrimRun } from '../../shared/records/verdict.ts';
 import { assessTrim, type TrimAssessment } from '../../shared/trim/assessment.ts';
 import { warmRecheck, type LiveSeries } from '../../shared/trim/trim-assistant.ts';
-import type { Db } from './database.ts';
+import { isDatabaseDamaged, type Db } from './database.ts';
 import { ExpectedFailure } from './expected-failure.ts';
+import { checkRow, fromStoredJson, sealRow, toStoredJson, UnreadableRecord } from './stored-record.ts';
+
+/**
+ * The sealed columns of each table, in the order their check value is computed: everything a row
+ * holds except its id and the check value itself. Never reorder a shipped list; rows already
+ * written were sealed in this order.
+ */
+const SEALED_COLUMNS = {
+  procedures: ['code', 'revision', 'definition_json'],
+  units: ['serial', 'model_code', 'created_at'],
+  runs: [
+    'unit_id', 'procedure_id', 'operator', 'station', 'started_at', 'finished_at', 'verdict', 'verdict_reason',
+    'verdict_reasons_json', 'final_thd_db', 'limit_thd_db', 'sheet_pdf_path',
+  ],
+  trim_points: [
+    'run_id', 'sequence', 'position', 'recorded_at', 'settled', 'in_fit', 'stimulus_hz', 'stimulus_level_dbfs', 'thd_db',
+    'reading_json', 'live_json',
+  ],
+  trim_assessments: ['run_id', 'after_sequence', 'assessed_at', 'assessment_json'],
+  point_confirmations: ['run_id', 'point_id', 'after_sequence', 'confirmed_at', 'assessment_json'],
+  warning_changes: ['run_id', 'warning_id', 'change', 'at', 'position', 'after_sequence', 'seen', 'source'],
+  warm_checks: ['run_id', 'recorded_at', 'position', 'cold_temperature_c', 'warm_temperature_c', 'reading_json', 'result_json'],
+} as const;
+
+type SealedTable = keyof typeof SEALED_COLUMNS;
+type SealedRow<T extends SealedTable> = { [C in (typeof SEALED_COLUMNS)[T][number]]: string | number | null };
+
+type HoldsColumns<T extends SealedTable> = { readonly [C in (typeof SEALED_COLUMNS)[T][number]]: unknown };
+
+const valuesOf = <T extends SealedTable>(table: T, row: HoldsColumns<T>) =>
+  SEALED_COLUMNS[table].map((column) => (row as Record<string, unknown>)[column] ?? null);
+
+/** Refuses a row whose values changed since they were written (see stored-record.ts). */
+function checkSealed<T extends SealedTable>(table: T, row: HoldsColumns<T> & { crc: number | null }, what: string): void {
+  checkRow(table, row.crc, valuesOf(table, row), what);
+}
+
+const liveSeriesSchema = z.object({ levelsDbfs: z.array(z.number()), lfDbfs: z.array(z.number()) });
+const reasonsSchema = z.array(z.string());
 
 interface RunRow {
   id: number;
+  crc: number | null;
   serial: string;
+  unit_model_code: string;
+  unit_created_at: string;
+  unit_crc: number | null;
   procedure_id: number;
+  procedure_code: string;
+  procedure_revision: string;
+  procedure_crc: number | null;
   definition_json: string;
   operator: string;
   station: string;
@@ -44,18 +91,24 @@ interface RunRow {
 
 interface TrimPointRow {
   id: number;
+  crc: number | null;
+  run_id: number;
   sequence: number;
   position: number;
   recorded_at: string;
   settled: number;
   in_fit: number;
   stimulus_hz: number | null;
+  stimulus_level_dbfs: number | null;
+  thd_db: number;
   reading_json: string;
   /** The live series sent with the point; null when none was (and for points stored before it was kept). */
   live_json: string | null;
 }
 
 interface WarningChangeRow {
+  crc: number | null;
+  run_id: number;
   warning_id: WarningLogEntry['id'];
   change: WarningLogEntry['change'];
   at: string;
@@ -63,6 +116,45 @@ interface WarningChangeRow {
   after_sequence: number;
   seen: string;
   source: WarningLogEntry['source'];
+}
+
+interface ProcedureRow {
+  id: number;
+  crc: number | null;
+  code: string;
+  revision: string;
+  definition_json: string;
+}
+
+interface AssessmentRow {
+  id: number;
+  crc: number | null;
+  run_id: number;
+  after_sequence: number;
+  assessed_at: string;
+  assessment_json: string;
+}
+
+interface ConfirmationRow {
+  id: number;
+  crc: number | null;
+  run_id: number;
+  point_id: number;
+  after_sequence: number;
+  confirmed_at: string;
+  assessment_json: string;
+}
+
+interface WarmCheckRow {
+  id: number;
+  crc: number | null;
+  run_id: number;
+  recorded_at: string;
+  position: number;
+  cold_temperature_c: number;
+  warm_temperature_c: number;
+  reading_json: string;
+  result_json: string;
 }
 
 /** A warning change as the page's live watch reports it. */
@@ -82,36 +174,45 @@ export interface RecordedPoint {
 export interface RecordsOptions {
   stationName: string;
   now?: () => Date;
+  /** Told of every stored record found unreadable, with the detail the technician is not shown. */
+  onUnreadable?: (record: UnreadableRecord) => void;
+  /** Why the records cannot be written now (the station decides), or null while they can. */
+  whyNotWritable?: () => string | null;
 }
 
 export type Records = ReturnType<typeof createRecords>;
 
-export function createRecords(db: Db, { stationName, now = () => new Date() }: RecordsOptions) {
+export function createRecords(
+  db: Db,
+  { stationName, now = () => new Date(), onUnreadable = () => {}, whyNotWritable = () => null }: RecordsOptions,
+) {
   const timestamp = () => now().toISOString();
 
+  /** Every write asks first: a station whose file is damaged or unwritable records nothing. */
+  function refuseUnlessWritable(): void {
+    const refusal = whyNotWritable();
+    if (refusal !== null) throw new ExpectedFailure(refusal);
+  }
+
   const runSelect = `
-    SELECT runs.*, units.serial, procedures.definition_json
+    SELECT runs.*, units.serial, units.model_code AS unit_model_code, units.created_at AS unit_created_at, units.crc AS unit_crc,
+      procedures.code AS procedure_code, procedures.revision AS procedure_revision, procedures.definition_json,
+      procedures.crc AS procedure_crc
     FROM runs JOIN units ON units.id = runs.unit_id JOIN procedures ON procedures.id = runs.procedure_id`;
   const statements = {
     procedureByKey: db.prepare<[string, string], { id: number }>('SELECT id FROM procedures WHERE code = ? AND revision = ?'),
-    insertProcedure: db.prepare('INSERT INTO procedures (code, revision, definition_json) VALUES (?, ?, ?)'),
     // The newest revision of each procedure: new runs use it; older runs keep naming their own.
-    procedures: db.prepare<[], { id: number; definition_json: string }>(
-      'SELECT id, definition_json FROM procedures WHERE id IN (SELECT MAX(id) FROM procedures GROUP BY code) ORDER BY id',
+    procedures: db.prepare<[], ProcedureRow>(
+      'SELECT * FROM procedures WHERE id IN (SELECT MAX(id) FROM procedures GROUP BY code) ORDER BY id',
     ),
-    procedureById: db.prepare<[number], { id: number; definition_json: string }>(
-      'SELECT id, definition_json FROM procedures WHERE id = ?',
-    ),
+    procedureById: db.prepare<[number], ProcedureRow>('SELECT * FROM procedures WHERE id = ?'),
     newestRevisionOf: db.prepare<[number], { id: number; revision: string }>(
       'SELECT id, revision FROM procedures WHERE id = (SELECT MAX(id) FROM procedures WHERE code = (SELECT code FROM procedures WHERE id = ?))',
     ),
     unitBySerial: db.prepare<[string], { id: number; model_code: string }>('SELECT id, model_code FROM units WHERE serial = ?'),
-    insertUnit: db.prepare('INSERT INTO units (serial, model_code, created_at) VALUES (?, ?, ?)'),
+    latestRunOfUnit: db.prepare<[number], { id: number }>('SELECT id FROM runs WHERE unit_id = ? ORDER BY id DESC LIMIT 1'),
     openRunOfUnit: db.prepare<[number, number], { id: number; operator: string }>(
       'SELECT id, operator FROM runs WHERE unit_id = ? AND procedure_id = ? AND finished_at IS NULL ORDER BY id DESC LIMIT 1',
-    ),
-    insertRun: db.prepare(
-      'INSERT INTO runs (unit_id, procedure_id, operator, station, started_at, limit_thd_db) VALUES (?, ?, ?, ?, ?, ?)',
     ),
     runById: db.prepare<[number], RunRow>(`${runSelect} WHERE runs.id = ?`),
     earlierRuns: db.prepare<[number, number], { count: number }>(
@@ -121,55 +222,56 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
     nextSequence: db.prepare<[number], { next: number }>(
       'SELECT COALESCE(MAX(sequence), 0) + 1 AS next FROM trim_points WHERE run_id = ?',
     ),
-    insertTrimPoint: db.prepare(
-      `INSERT INTO trim_points (run_id, sequence, position, recorded_at, settled, in_fit, stimulus_hz, stimulus_level_dbfs, thd_db, reading_json, live_json)
-       VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`,
-    ),
     trimPointById: db.prepare<[number | bigint], TrimPointRow>('SELECT * FROM trim_points WHERE id = ?'),
     finishRun: db.prepare(
-      'UPDATE runs SET finished_at = ?, verdict = ?, verdict_reason = ?, verdict_reasons_json = ?, final_thd_db = ? WHERE id = ?',
+      `UPDATE runs SET finished_at = @finished_at, verdict = @verdict, verdict_reason = @verdict_reason,
+         verdict_reasons_json = @verdict_reasons_json, final_thd_db = @final_thd_db, crc = @crc WHERE id = @id`,
     ),
-    insertAssessment: db.prepare('INSERT INTO trim_assessments (run_id, after_sequence, assessed_at, assessment_json) VALUES (?, ?, ?, ?)'),
     // Assessments after points and after confirmations, in the order they were made: a confirmation
     // always follows the assessment of the point it came after.
-    assessments: db.prepare<[number, number], { after_sequence: number; assessment_json: string }>(
-      `SELECT after_sequence, assessment_json FROM (
-         SELECT after_sequence, 0 AS kind, id, assessment_json FROM trim_assessments WHERE run_id = ?
-         UNION ALL
-         SELECT after_sequence, 1 AS kind, id, assessment_json FROM point_confirmations WHERE run_id = ?)
-       ORDER BY after_sequence, kind, id`,
-    ),
-    confirmations: db.prepare<[number], { point_id: number; confirmed_at: string }>(
-      'SELECT point_id, confirmed_at FROM point_confirmations WHERE run_id = ?',
-    ),
-    insertConfirmation: db.prepare(
-      'INSERT INTO point_confirmations (run_id, point_id, after_sequence, confirmed_at, assessment_json) VALUES (?, ?, ?, ?, ?)',
-    ),
+    assessments: db.prepare<[number], AssessmentRow>('SELECT * FROM trim_assessments WHERE run_id = ?'),
+    confirmations: db.prepare<[number], ConfirmationRow>('SELECT * FROM point_confirmations WHERE run_id = ?'),
     warningLog: db.prepare<[number], WarningChangeRow>('SELECT * FROM warning_changes WHERE run_id = ? ORDER BY id'),
-    insertWarningChange: db.prepare(
-      `INSERT INTO warning_changes (run_id, warning_id, change, at, position, after_sequence, seen, source)
-       VALUES (?, ?, ?, ?, ?, ?, ?, ?)`,
-    ),
-    insertWarmCheck: db.prepare(
-      `INSERT INTO warm_checks (run_id, recorded_at, position, cold_temperature_c, warm_temperature_c, reading_json, result_json)
-       VALUES (?, ?, ?, ?, ?, ?, ?)`,
-    ),
-    latestWarmCheck: db.prepare<[number], { result_json: string }>('SELECT result_json FROM warm_checks WHERE run_id = ? ORDER BY id DESC LIMIT 1'),
-    setSheetPath: db.prepare('UPDATE runs SET sheet_pdf_path = ? WHERE id = ? AND sheet_pdf_path IS NULL'),
+    latestWarmCheck: db.prepare<[number], WarmCheckRow>('SELECT * FROM warm_checks WHERE run_id = ? ORDER BY id DESC LIMIT 1'),
+    setSheetPath: db.prepare('UPDATE runs SET sheet_pdf_path = ?, crc = ? WHERE id = ? AND sheet_pdf_path IS NULL'),
   };
 
-  function parseProcedure(json: string): Procedure {
-    return procedureSchema.parse(JSON.parse(json));
+  const inserts = Object.fromEntries(
+    (Object.keys(SEALED_COLUMNS) as SealedTable[]).map((table) => {
+      const columns = SEALED_COLUMNS[table];
+      const sql = `INSERT INTO ${table} (${columns.join(', ')}, crc) VALUES (${columns.map((c) => `@${c}`).join(', ')}, @crc)`;
+      return [table, db.prepare(sql)];
+    }),
+  ) as Record<SealedTable, ReturnType<Db['prepare']>>;
+
+  /** Inserts a row with its check value; returns its id. */
+  function insertSealed<T extends SealedTable>(table: T, row: SealedRow<T>): number {
+    const values = valuesOf(table, row);
+    const named = Object.fromEntries(SEALED_COLUMNS[table].map((column, i) => [column, values[i]]));
+    return Number(inserts[table].run({ ...named, crc: sealRow(table, values) }).lastInsertRowid);
+  }
+
+  function readProcedure(row: ProcedureRow): Procedure {
+    const what = `procedure ${row.code} revision ${row.revision}`;
+    checkSealed('procedures', row, what);
+    return fromStoredJson(row.definition_json, procedureSchema, what);
   }
 
   function procedureById(id: number): Procedure {
     const row = statements.procedureById.get(id);
     if (!row) throw new ExpectedFailure(`There is no procedure with id ${id}.`);
-    return parseProcedure(row.definition_json);
+    return readProcedure(row);
+  }
+
+  /** The run's procedure, its row and the run's unit checked against their check values. */
+  function runProcedure(row: RunRow): Procedure {
+    checkSealed('runs', row, `run ${row.id}`);
+    checkSealed('units', { serial: row.serial, model_code: row.unit_model_code, created_at: row.unit_created_at, crc: row.unit_crc }, `unit ${row.serial}`);
+    return readProcedure({ id: row.procedure_id, crc: row.procedure_crc, code: row.procedure_code, revision: row.procedure_revision, definition_json: row.definition_json });
   }
 
   function toRun(row: RunRow): Run {
-    const procedure = parseProcedure(row.definition_json);
+    const procedure = runProcedure(row);
     return {
       id: row.id,
       serial: row.serial,
@@ -187,7 +289,7 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
       verdict: row.verdict,
       verdictReason: row.verdict_reason,
       verdictReasons: row.verdict_reasons_json
-        ? (JSON.parse(row.verdict_reasons_json) as string[])
+        ? fromStoredJson(row.verdict_reasons_json, reasonsSchema, `verdict of run ${row.id}`)
         : row.verdict_reason
           ? [row.verdict_reason]
           : [],
@@ -198,6 +300,8 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
   }
 
   function toTrimPoint(row: TrimPointRow, confirmed: ReadonlyMap<number, string>): TrimPoint {
+    const what = `trim point ${row.sequence} of run ${row.run_id}`;
+    checkSealed('trim_points', row, what);
     return {
       id: row.id,
       sequence: row.sequence,
@@ -208,24 +312,43 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
       confirmedAt: confirmed.get(row.id) ?? null,
       stimulusHz: row.stimulus_hz,
       // Through the schema: readings stored before a field existed get its default, never undefined.
-      reading: readingSchema.parse(JSON.parse(row.reading_json)),
+      reading: fromStoredJson(row.reading_json, readingSchema, what),
     };
   }
 
+  function confirmations(runId: number): ConfirmationRow[] {
+    const rows = statements.confirmations.all(runId);
+    for (const row of rows) checkSealed('point_confirmations', row, `confirmation of a point of run ${runId}`);
+    return rows;
+  }
+
   function trimPoints(runId: number): TrimPoint[] {
-    const confirmed = new Map(statements.confirmations.all(runId).map((c) => [c.point_id, c.confirmed_at]));
+    const confirmed = new Map(confirmations(runId).map((c) => [c.point_id, c.confirmed_at]));
     return statements.trimPoints.all(runId).map((row) => toTrimPoint(row, confirmed));
   }
 
-  function assessmentsOf(runId: number) {
-    return statements.assessments.all(runId, runId).map((a) => ({
-      afterSequence: a.after_sequence,
-      assessment: JSON.parse(a.assessment_json) as TrimAssessment,
+  /**
+   * Assessments after points and after confirmations, in the order they were made: a confirmation
+   * always follows the assessment of the point it came after.
+   */
+  function assessmentsOf(runId: number): { afterSequence: number; assessment: TrimAssessment }[] {
+    const made = [
+      ...statements.assessments.all(runId).map((row) => {
+        checkSealed('trim_assessments', row, `assessment after point ${row.after_sequence} of run ${runId}`);
+        return { row, kind: 0 };
+      }),
+      ...confirmations(runId).map((row) => ({ row, kind: 1 })),
+    ].sort((a, b) => a.row.after_sequence - b.row.after_sequence || a.kind - b.kind || a.row.id - b.row.id);
+    return made.map(({ row }) => ({
+      afterSequence: row.after_sequence,
+      assessment: fromStoredJson(row.assessment_json, trimAssessmentSchema, `assessment after point ${row.after_sequence} of run ${runId}`),
     }));
   }
 
   function warningLog(runId: number): WarningLogEntry[] {
-    return statements.warningLog.all(runId).map((row) => ({
+    return statements.warningLog.all(runId).map((row) => {
+      checkSealed('warning_changes', row, `warning log of run ${runId}`);
+      return {
       id: row.warning_id,
       change: row.change,
       at: row.at,
@@ -233,7 +356,8 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
       afterSequence: row.after_sequence,
       seen: row.seen,
       source: row.source,
-    }));
+      };
+    });
   }
 
   /**
@@ -250,7 +374,7 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
     // and confirming an earlier one does not make the final point's vanish.
     const latest = inFit.at(-1);
     const liveJson = latest ? (statements.trimPointById.get(latest.id)?.live_json ?? null) : null;
-    const live = liveJson === null ? null : (JSON.parse(liveJson) as LiveSeries);
+    const live: LiveSeries | null = liveJson === null ? null : fromStoredJson(liveJson, liveSeriesSchema, `live readings of point ${latest!.sequence} of run ${runId}`);
     return trimAssessmentSchema.parse(assessTrim(points, trim, live));
   }
 
@@ -264,15 +388,33 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
     const previous = before?.warnings ?? [];
     for (const warning of after.warnings) {
       if (!previous.some((w) => w.id === warning.id)) {
-        statements.insertWarningChange.run(runId, warning.id, 'raised', at.time, at.position, at.afterSequence, warning.seen, 'assessment');
+        logChange(runId, { id: warning.id, change: 'raised', position: at.position, seen: warning.seen }, at, 'assessment');
       }
     }
     for (const warning of previous) {
       if (!after.warnings.some((w) => w.id === warning.id)) {
         const seen = `no longer seen (was: ${warning.seen})`;
-        statements.insertWarningChange.run(runId, warning.id, 'cleared', at.time, at.position, at.afterSequence, seen, 'assessment');
+        logChange(runId, { id: warning.id, change: 'cleared', position: at.position, seen }, at, 'assessment');
       }
     }
+  }
+
+  function logChange(
+    runId: number,
+    change: ReportedWarningChange,
+    at: { time: string; afterSequence: number },
+    source: WarningLogEntry['source'],
+  ): void {
+    insertSealed('warning_changes', {
+      run_id: runId,
+      warning_id: change.id,
+      change: change.change,
+      at: at.time,
+      position: change.position,
+      after_sequence: at.afterSequence,
+      seen: change.seen,
+      source,
+    });
   }
 
   /** Warnings the live watch raised and has not reported cleared. */
@@ -314,8 +456,38 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
     return row;
   }
 
+  /**
+   * Reads a run whole or not at all: a record in it that fails its checks makes the run unreadable,
+   * said in words with the serial, while every other run still opens. The detail goes to the log.
+   */
+  /** While nothing can be written, opening a unit shows its latest run to read, and starts none. */
+  function latestRunToRead(serial: string, refusal: string): RunDetail {
+    const unit = statements.unitBySerial.get(serial);
+    const latest = unit ? statements.latestRunOfUnit.get(unit.id) : undefined;
+    if (!latest) throw new ExpectedFailure(`${refusal} No record of serial ${serial} could be read.`);
+    return runDetail(latest.id);
+  }
+
   function runDetail(runId: number): RunDetail {
-    const row = runRow(runId);
+    let row: RunRow | undefined;
+    try {
+      row = runRow(runId);
+      return readRunDetail(row);
+    } catch (caught) {
+      // SQLite's own answer that a page of this run is damaged makes the run unreadable, as a
+      // record that fails its checks does; the station stops writing to the file.
+      const error = isDatabaseDamaged(caught) ? new UnreadableRecord(`run ${runId}`, String(caught), { inFile: true }) : caught;
+      if (!(error instanceof UnreadableRecord)) throw error;
+      onUnreadable(error);
+      throw new ExpectedFailure(
+        `Run ${runId}${row ? ` (serial ${row.serial})` : ''} cannot be read: ${error.message} Other units' records are not affected. ` +
+          `Record nothing more on this unit and tell the station's maintainer; the details are in the log file.`,
+      );
+    }
+  }
+
+  function readRunDetail(row: RunRow): RunDetail {
+    const runId = row.id;
     const assessments = assessmentsOf(runId);
     // Each warning as first raised: the record of what the technician was told, and when.
     const warningsRaised: RunDetail['warningsRaised'] = [];
@@ -325,13 +497,14 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
       }
     }
     const warm = statements.latestWarmCheck.get(runId);
+    if (warm) checkSealed('warm_checks', warm, `warm re-check of run ${runId}`);
     return {
       run: toRun(row),
       trimPoints: trimPoints(runId),
       assessment: assessments.at(-1)?.assessment ?? null,
       warningsRaised,
       warningLog: warningLog(runId),
-      warmCheck: warm ? (JSON.parse(warm.result_json) as WarmCheck) : null,
+      warmCheck: warm ? fromStoredJson(warm.result_json, warmCheckSchema, `warm re-check of run ${runId}`) : null,
       earlierRuns: statements.earlierRuns.get(row.unit_id, runId)?.count ?? 0,
     };
   }
@@ -339,14 +512,32 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
   return {
     /** Stores a procedure revision once; returns its id. A revision, once stored, never changes. */
     ensureProcedure(definition: Procedure): number {
+      refuseUnlessWritable();
       const existing = statements.procedureByKey.get(definition.code, definition.revision);
       if (existing) return existing.id;
-      const info = statements.insertProcedure.run(definition.code, definition.revision, JSON.stringify(definition));
-      return Number(info.lastInsertRowid);
+      return insertSealed('procedures', { code: definition.code, revision: definition.revision, definition_json: toStoredJson(definition) });
     },
 
+    /** The newest revision of each procedure; an unreadable one is left out (and logged), never guessed at. */
     listProcedures(): StoredProcedure[] {
-      return statements.procedures.all().map((row) => ({ id: row.id, definition: parseProcedure(row.definition_json) }));
+      const readable: StoredProcedure[] = [];
+      let rows: ProcedureRow[];
+      try {
+        rows = statements.procedures.all();
+      } catch (error) {
+        if (!isDatabaseDamaged(error)) throw error;
+        onUnreadable(new UnreadableRecord('list of procedures', String(error), { inFile: true }));
+        return [];
+      }
+      for (const row of rows) {
+        try {
+          readable.push({ id: row.id, definition: readProcedure(row) });
+        } catch (error) {
+          if (!(error instanceof UnreadableRecord)) throw error;
+          onUnreadable(error);
+        }
+      }
+      return readable;
     },
 
     /** Resumes the unit's unfinished run of this procedure, or starts a new one (a retest after a finished run). */
@@ -358,11 +549,13 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
       const serialCheck = checkSerial(request.serial, procedure);
       if (!serialCheck.ok) throw new ExpectedFailure(serialCheck.message);
       const serial = serialCheck.serial;
+      const refusal = whyNotWritable();
+      if (refusal !== null) return latestRunToRead(serial, refusal);
       const runId = db.transaction(() => {
         let unit = statements.unitBySerial.get(serial);
         if (!unit) {
-          const info = statements.insertUnit.run(serial, procedure.model.code, timestamp());
-          unit = { id: Number(info.lastInsertRowid), model_code: procedure.model.code };
+          const id = insertSealed('units', { serial, model_code: procedure.model.code, created_at: timestamp() });
+          unit = { id, model_code: procedure.model.code };
         } else if (unit.model_code !== procedure.model.code) {
           throw new ExpectedFailure(
             `Serial ${serial} is recorded as a ${unit.model_code}, not a ${procedure.model.code}. Check the unit and the procedure.`,
@@ -390,15 +583,20 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
               `new runs use revision ${newest.revision}. Choose it to start testing ${serial}.`,
           );
         }
-        const info = statements.insertRun.run(
-          unit.id,
-          request.procedureId,
-          request.operator,
-          stationName,
-          timestamp(),
-          procedure.trim.limitThdDb,
-        );
-        return Number(info.lastInsertRowid);
+        return insertSealed('runs', {
+          unit_id: unit.id,
+          procedure_id: request.procedureId,
+          operator: request.operator,
+          station: stationName,
+          started_at: timestamp(),
+          finished_at: null,
+          verdict: null,
+          verdict_reason: null,
+          verdict_reasons_json: null,
+          final_thd_db: null,
+          limit_thd_db: procedure.trim.limitThdDb,
+          sheet_pdf_path: null,
+        });
       }).immediate();
       const detail = runDetail(runId);
       stationOpenRunId = runId;
@@ -406,6 +604,8 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
     },
 
     getRun: runDetail,
+
+    whyNotWritable,
 
     /**
      * Writes the point, the assistant's assessment after it and the warnings that changed, in one
@@ -420,8 +620,9 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
       stimulus: StimulusSetting;
       unsettled?: 'refuse' | 'record-marked';
     }): RecordedPoint {
+      refuseUnlessWritable();
       const row = openRunRow(request.runId, (id) => `Run ${id} is finished; start a retest to record more trim points.`);
-      const { trim } = parseProcedure(row.definition_json);
+      const { trim } = runProcedure(row);
       const { position, reading, stimulus } = request;
       if (position < trim.positionMin || position > trim.positionMax) {
         throw new ExpectedFailure(
@@ -432,7 +633,7 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
       if (refusal) throw new ExpectedFailure(`This reading cannot be recorded. ${refusal}`);
       // A second point where the last one is adds nothing but a repeated Enter's copy, and would let
       // a later reading at an unchanged trimmer stand in for the one the fit already has.
-      const last = statements.trimPoints.all(row.id).at(-1);
+      const last = trimPoints(row.id).at(-1);
       if (last && last.position === position) {
         throw new ExpectedFailure(`Point ${last.sequence} is already at ${position} ${trim.positionUnit}: move the trimmer before recording another.`);
       }
@@ -440,21 +641,21 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
         const before = assessmentsOf(row.id).at(-1)?.assessment ?? null;
         const sequence = statements.nextSequence.get(row.id)?.next ?? 1;
         const recordedAt = timestamp();
-        const id = statements.insertTrimPoint.run(
-          row.id,
+        const id = insertSealed('trim_points', {
+          run_id: row.id,
           sequence,
           position,
-          recordedAt,
-          reading.settled ? 1 : 0,
-          reading.settled ? 1 : 0, // an unsettled point joins the fit only when the technician confirms it
-          stimulus.frequencyHz,
-          stimulus.levelDbfs,
-          reading.thdDb,
-          JSON.stringify(reading),
-          request.live === null ? null : JSON.stringify(request.live),
-        ).lastInsertRowid;
+          recorded_at: recordedAt,
+          settled: reading.settled ? 1 : 0,
+          in_fit: reading.settled ? 1 : 0, // an unsettled point joins the fit only when the technician confirms it
+          stimulus_hz: stimulus.frequencyHz,
+          stimulus_level_dbfs: stimulus.levelDbfs,
+          thd_db: reading.thdDb,
+          reading_json: toStoredJson(reading),
+          live_json: request.live === null ? null : toStoredJson(request.live),
+        });
         const assessment = assess(row.id, trim);
-        statements.insertAssessment.run(row.id, sequence, recordedAt, JSON.stringify(assessment));
+        insertSealed('trim_assessments', { run_id: row.id, after_sequence: sequence, assessed_at: recordedAt, assessment_json: toStoredJson(assessment) });
         logAssessedChanges(row.id, before, assessment, { time: recordedAt, position, afterSequence: sequence });
         const point = trimPoints(row.id).find((p) => p.id === Number(id))!;
         return { point, assessment, warningLog: warningLog(row.id) };
@@ -463,8 +664,9 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
 
     /** The technician confirms an unsettled point: it joins the fit and the verdict, re-assessed and logged. */
     includeUnsettledPoint(request: { runId: number; pointId: number }): RecordedPoint {
+      refuseUnlessWritable();
       const row = openRunRow(request.runId, (id) => `Run ${id} is finished; its points can no longer change.`);
-      const { trim } = parseProcedure(row.definition_json);
+      const { trim } = runProcedure(row);
       const points = trimPoints(row.id);
       const point = points.find((p) => p.id === request.pointId);
       if (!point) throw new ExpectedFailure(`Run ${row.id} has no trim point with id ${request.pointId}.`);
@@ -474,7 +676,13 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
         const before = assessmentsOf(row.id).at(-1)?.assessment ?? null;
         const confirmedAt = timestamp();
         const assessment = assess(row.id, trim, point.id);
-        statements.insertConfirmation.run(row.id, point.id, latest.sequence, confirmedAt, JSON.stringify(assessment));
+        insertSealed('point_confirmations', {
+          run_id: row.id,
+          point_id: point.id,
+          after_sequence: latest.sequence,
+          confirmed_at: confirmedAt,
+          assessment_json: toStoredJson(assessment),
+        });
         logAssessedChanges(row.id, before, assessment, { time: confirmedAt, position: latest.position, afterSequence: latest.sequence });
         return { point: trimPoints(row.id).find((p) => p.id === point.id)!, assessment, warningLog: warningLog(row.id) };
       }).immediate();
@@ -482,8 +690,9 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
 
     /** Warning changes the page's live watch saw between points, logged with main's time. */
     logWarningChanges(request: { runId: number; changes: readonly ReportedWarningChange[] }): { warningLog: WarningLogEntry[] } {
+      refuseUnlessWritable();
       const row = openRunRow(request.runId, (id) => `Run ${id} is finished; its warning log is closed.`);
-      const { trim } = parseProcedure(row.definition_json);
+      const { trim } = runProcedure(row);
       for (const change of request.changes) {
         if (change.position < trim.positionMin || change.position > trim.positionMax) {
           throw new ExpectedFailure(
@@ -494,9 +703,7 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
       const afterSequence = (statements.nextSequence.get(row.id)?.next ?? 1) - 1;
       const at = timestamp();
       db.transaction(() => {
-        for (const change of request.changes) {
-          statements.insertWarningChange.run(row.id, change.id, change.change, at, change.position, afterSequence, change.seen, 'live');
-        }
+        for (const change of request.changes) logChange(row.id, change, { time: at, afterSequence }, 'live');
       }).immediate();
       return { warningLog: warningLog(row.id) };
     },
@@ -512,8 +719,9 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
       reading: Reading;
       stimulus: StimulusSetting;
     }): WarmCheck {
+      refuseUnlessWritable();
       const row = openRunRow(request.runId, (id) => `Run ${id} is finished; the warm re-check belongs before finishing.`);
-      const { trim } = parseProcedure(row.definition_json);
+      const { trim } = runProcedure(row);
       const points = trimPoints(row.id);
       const last = points.at(-1);
       if (!last || points.length < 2) throw new ExpectedFailure('Record the trim (at least two points) before the warm re-check.');
@@ -551,15 +759,15 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
         );
       }
       const result = checked.data;
-      statements.insertWarmCheck.run(
-        row.id,
-        result.recordedAt,
-        last.position,
-        request.coldTemperatureC,
-        request.warmTemperatureC,
-        JSON.stringify(request.reading),
-        JSON.stringify(result),
-      );
+      insertSealed('warm_checks', {
+        run_id: row.id,
+        recorded_at: result.recordedAt,
+        position: last.position,
+        cold_temperature_c: request.coldTemperatureC,
+        warm_temperature_c: request.warmTemperatureC,
+        reading_json: toStoredJson(request.reading),
+        result_json: toStoredJson(result),
+      });
       return result;
     },
 
@@ -570,8 +778,9 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
     finishRun(request: { runId: number; asFailure?: boolean }): RunDetail {
       const finished = runRow(request.runId);
       if (finished.finished_at) return runDetail(finished.id);
+      refuseUnlessWritable();
       const row = openRunRow(request.runId, (id) => `Run ${id} is finished.`);
-      const { trim } = parseProcedure(row.definition_json);
+      const { trim } = runProcedure(row);
       const detail = runDetail(row.id);
       const watched = new Set(statements.trimPoints.all(row.id).filter((p) => p.live_json !== null).map((p) => p.id));
       // Judged on THD recomputed from the stored harmonics: the page's own thdDb figure is never the verdict.
@@ -597,7 +806,14 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
       const finalThdDb = judgedPoints.at(-1)?.reading.thdDb ?? null;
       // The verdict commits only with a run record that validates whole; otherwise nothing is written.
       return db.transaction(() => {
-        statements.finishRun.run(timestamp(), verdict, reasons.join(' ') || null, JSON.stringify(reasons), finalThdDb, row.id);
+        const finish = {
+          finished_at: timestamp(),
+          verdict,
+          verdict_reason: reasons.join(' ') || null,
+          verdict_reasons_json: toStoredJson(reasons),
+          final_thd_db: finalThdDb,
+        };
+        statements.finishRun.run({ ...finish, id: row.id, crc: sealRow('runs', valuesOf('runs', { ...row, ...finish })) });
         let stored;
         try {
           stored = runDetailSchema.safeParse(runDetail(row.id));
@@ -613,7 +829,10 @@ export function createRecords(db: Db, { stationName, now = () => new Date() }: R
     },
 
     setSheetPath(runId: number, path: string): void {
-      statements.setSheetPath.run(path, runId);
+      refuseUnlessWritable();
+      const row = runRow(runId);
+      runProcedure(row); // a damaged run's record is not resealed as if whole
+      statements.setSheetPath.run(path, sealRow('runs', valuesOf('runs', { ...row, sheet_pdf_path: path })), runId);
     },
   };
 }

@@ -64,7 +64,7 @@ function fileLooksLikePdf(path: string): boolean {
  * does not cover the directory entry that names it (Linux fsync(2), NOTES); the directory has to
  * be opened and fsynced itself.
  */
-function fsyncFolder(folder: string): void {
+export function fsyncFolder(folder: string): void {
   // Windows cannot open a directory as a file to flush it (and NTFS journals its metadata), so
   // there is nothing to do there.
   if (process.platform === 'win32') return;
@@ -86,6 +86,8 @@ export function createSheets(records: Records, folder: string) {
     const { run } = records.getRun(runId);
     if (!run.finishedAt) throw new ExpectedFailure('Finish the run before saving its unit sheet.');
     if (run.sheetPdfPath) return { path: run.sheetPdfPath, alreadySaved: true };
+    const refusal = records.whyNotWritable();
+    if (refusal !== null) throw new ExpectedFailure(`The sheet was not saved. ${refusal}`);
     // A new sheets folder is itself an entry in the data folder: flush that too.
     if (mkdirSync(folder, { recursive: true }) !== undefined) fsyncFolder(dirname(folder));
 

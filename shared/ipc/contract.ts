@@ -180,6 +180,8 @@ export const stationSchema = z.object({
   stationName: z.string(),
   databasePath: z.string(),
   sheetsFolder: z.string(),
+  /** Why nothing can be recorded at this station (a damaged or unwritable database), or null. */
+  recordsProblem: z.string().nullable(),
 });
 
 export const storedProcedureSchema = z.object({ id: rowId, definition: procedureSchema });

@@ -168,12 +168,13 @@ describe('main judges only numbers it has checked (issue 8)', () => {
     station.records.recordTrimPoint({ runId, position: recommended, reading: onLine(recommended), live, stimulus: STIMULUS });
     // A record written under older rules: the final point's H3 is −50 dBc while its thdDb says −999.
     const last = station.db.prepare('SELECT id, reading_json FROM trim_points WHERE run_id = ? ORDER BY sequence DESC LIMIT 1').get(runId) as { id: number; reading_json: string };
-    const stored = JSON.parse(last.reading_json);
+    const stored = JSON.parse(last.reading_json).value;
     stored.harmonics[0].levelDbc = -50;
     stored.thdDb = -999;
     // Written around the no-edit trigger, as only a record from before the checks could be.
     station.db.exec('DROP TRIGGER trim_points_never_change');
-    station.db.prepare('UPDATE trim_points SET reading_json = ? WHERE id = ?').run(JSON.stringify(stored), last.id);
+    // Stored as before values carried a version and rows a check value, so it reads as whole.
+    station.db.prepare('UPDATE trim_points SET reading_json = ?, crc = NULL WHERE id = ?').run(JSON.stringify(stored), last.id);
     const result = await dispatch(station.handlers, 'finishRun', { runId }, noCaller);
     // −50 dB from the harmonic is above the demo procedure's −60 dB limit: no PASS.
     expect(result.ok && (result.value as { run: { verdict: string } }).run.verdict).not.toBe('pass');

@@ -213,7 +213,7 @@ describe('records on a real database file', () => {
     const stored = station.db.prepare('SELECT assessment_json FROM trim_assessments WHERE run_id = ? AND after_sequence = 3').get(run.id) as {
       assessment_json: string;
     };
-    for (const assessment of [detail.assessment!, JSON.parse(stored.assessment_json)]) {
+    for (const assessment of [detail.assessment!, JSON.parse(stored.assessment_json).value]) {
       expect(assessment.nullPosition).toBeNull();
       expect(assessment.nullPositionPlusMinus).toBeNull();
       expect(assessment.nullLevelDbc).toBeNull();
