@@ -7,6 +7,7 @@ import type { GeneratorCommand } from '../worker/messages.ts';
 import generatorWorkletUrl from '../worklets/generator.worklet.ts?worker&url';
 import captureWorkletUrl from '../worklets/capture.worklet.ts?worker&url';
 import type { FromWorker, MeterSettings, ToWorker } from '../worker/messages.ts';
+import { problemText } from '../problem-text.ts';
 
 export class AudioProblem extends Error {
   override name = 'AudioProblem';
@@ -75,7 +76,10 @@ function describeOpenFailure(error: unknown): AudioProblem {
     case 'AbortError':
       return new AudioProblem('The audio input could not be opened: another program may be using it, or the device stopped responding.');
     default:
-      return new AudioProblem(`The audio input could not be opened: ${(error as Error)?.message ?? String(error)}`);
+      // Anything else is unexpected: its name is worth reporting, its raw text is not for the bench.
+      return new AudioProblem(
+        problemText(error, 'The audio input could not be opened', 'Check that no other program uses the interface, then press Start capture again.'),
+      );
   }
 }
 
@@ -195,7 +199,9 @@ export class BenchAudio {
       worker.terminate();
       void context.close();
       stream.getTracks().forEach((t) => t.stop());
-      throw error instanceof AudioProblem ? error : new AudioProblem(`The audio path could not be set up: ${(error as Error).message}`);
+      throw error instanceof AudioProblem
+        ? error
+        : new AudioProblem(problemText(error, 'The audio path could not be set up', 'Check the input, output and sample rate chosen, then press Start capture again.'));
     }
   }
 
@@ -209,7 +215,11 @@ export class BenchAudio {
       else if (message.type === 'capture-ended') this.fail('The capture stream ended: the input device may have been unplugged.');
       else this.fail(message.message);
     };
-    this.worker.onerror = (event) => this.fail(`The analysis worker stopped: ${event.message}`);
+    this.worker.onerror = (event) => {
+      // A crash in the worker is a bug: the details go to the console, the bench gets what to do.
+      console.error('[trimbench] analysis worker stopped', event.message, event.filename, event.lineno);
+      this.fail('The analysis stopped unexpectedly. The generator is stopped; recorded trim points are kept. Press Start capture again.');
+    };
     if (!track) return;
     track.addEventListener('ended', () =>
       this.fail('The input device was disconnected. The generator is stopped; recorded trim points are kept. Reconnect it and start capture again.'),

@@ -2,11 +2,12 @@ import { useCallback, useEffect, useMemo, useRef, useState } from 'react';
 import type { RunDetail, Station, StoredProcedure } from '../../shared/ipc/contract.ts';
 import type { Reading } from '../../shared/measurement/reading.ts';
 import type { LiveSeries } from '../../shared/trim/trim-assistant.ts';
-import { planTestFrequency } from '../../shared/measurement/frequency-planner.ts';
+import { NoCoherentFrequency, planTestFrequency } from '../../shared/measurement/frequency-planner.ts';
 import { checkStimulus } from '../../shared/records/stimulus-check.ts';
 import type { WarningChange } from '../../shared/trim/warning-tracker.ts';
-import { call } from '../api.ts';
-import { AudioProblem, BenchAudio, DEMO_INPUT, listDevices, type AudioDevices } from '../audio/bench-audio.ts';
+import { ApiError, call } from '../api.ts';
+import { BenchAudio, DEMO_INPUT, listDevices, type AudioDevices } from '../audio/bench-audio.ts';
+import { problemText } from '../problem-text.ts';
 import type { GeneratorCommand, MeterSettings } from '../worker/messages.ts';
 import { AudioSetup, type AudioChoice } from './AudioSetup.tsx';
 import { GeneratorControls } from './GeneratorControls.tsx';
@@ -75,7 +76,9 @@ export function App() {
         setStation(stationInfo);
         setProcedures(list);
       })
-      .catch((error: Error) => setRecordsProblem(error.message));
+      .catch((error: unknown) =>
+        setRecordsProblem(problemText(error, 'The station and its procedures could not be loaded', 'Restart Trimbench; if this stays, report it.')),
+      );
     void refreshDevices();
   }, []);
 
@@ -86,7 +89,7 @@ export function App() {
       // With no interface set up the demo bench is the input, so the whole trim can be shown.
       if (listed.inputs.length === 0) setChoice((current) => (current.inputDeviceId === '' ? { ...current, inputDeviceId: DEMO_INPUT } : current));
     } catch (error) {
-      setAudioProblem((error as Error).message);
+      setAudioProblem(problemText(error, 'The audio devices could not be listed', 'The demo bench is chosen instead; reconnect the interface, then choose it under Input.'));
       setChoice((current) => ({ ...current, inputDeviceId: DEMO_INPUT }));
     }
   }
@@ -183,7 +186,7 @@ export function App() {
       instance.setGenerator(generatorRef.current);
       void refreshDevices(); // labels appear once permission is granted
     } catch (error) {
-      setAudioProblem(error instanceof AudioProblem ? error.message : `Capture failed: ${(error as Error).message}`);
+      setAudioProblem(problemText(error, 'Capture could not start', 'Check the input and output choices, then press Start capture again.'));
     } finally {
       setStarting(false);
     }
@@ -253,7 +256,7 @@ export function App() {
   }
 
   async function recordWarmCheck(request: { coldTemperatureC: number; warmTemperatureC: number; reading: Reading }) {
-    if (!detail) throw new Error('No unit is open.');
+    if (!detail) throw new ApiError('No unit is open. Open a unit first.');
     const warmCheck = await call('recordWarmCheck', { runId: detail.run.id, ...request, stimulus: generatorRef.current });
     setDetail((d) => (d ? { ...d, warmCheck } : d));
     return warmCheck;
@@ -300,7 +303,9 @@ export function App() {
       if (generatorRef.current.frequencyHz !== plan.frequencyHz) applyGenerator({ ...generatorRef.current, frequencyHz: plan.frequencyHz });
     } catch (error) {
       // Nothing coherent lies close enough to the procedure's frequency: play it exactly, analysed windowed.
-      setStimulusNote(`Playing the procedure's ${stimulusHz} Hz exactly, analysed windowed: ${(error as Error).message}`);
+      // The planner's NoCoherentFrequency explains itself; any other throw is a bug, kept off the bench.
+      const why = error instanceof NoCoherentFrequency ? error.message : problemText(error, 'no coherent frequency was planned', 'Nothing to do.');
+      setStimulusNote(`Playing the procedure's ${stimulusHz} Hz exactly, analysed windowed: ${why}`);
       if (generatorRef.current.frequencyHz !== stimulusHz) applyGenerator({ ...generatorRef.current, frequencyHz: stimulusHz });
     }
   }, [openProcedure, choice.sharedClock, choice.mainsHz, choice.sampleRateHz, captureRateHz, applyGenerator]);
@@ -320,7 +325,10 @@ export function App() {
     const frame = requestAnimationFrame(() => {
       call('saveSheetPdf', { runId: detail.run.id })
         .then((saved) => !cancelled && setSheetPdfPath(saved.path))
-        .catch((error: Error) => !cancelled && setSheetMessage(`The PDF was not saved: ${error.message}`));
+        .catch(
+          (error: unknown) =>
+            !cancelled && setSheetMessage(`The PDF was not saved. ${problemText(error, 'Saving the unit sheet failed', 'Go back and open the sheet again to retry.')}`),
+        );
     });
     return () => {
       cancelled = true;
@@ -334,7 +342,7 @@ export function App() {
       const { printed } = await call('printSheet', { runId: detail.run.id });
       setSheetMessage(printed ? null : 'Printing was cancelled.');
     } catch (error) {
-      setSheetMessage((error as Error).message);
+      setSheetMessage(problemText(error, 'Printing failed', 'Save the PDF and print it from there, or try Print again.'));
     }
   }
 

@@ -6,6 +6,7 @@ import { judgeTrimRun } from '../../shared/records/verdict.ts';
 import type { LiveSeries, TrimWarning } from '../../shared/trim/trim-assistant.ts';
 import type { WarningChange } from '../../shared/trim/warning-tracker.ts';
 import { ApiError } from '../api.ts';
+import { problemText } from '../problem-text.ts';
 import { AssistantSummary } from './AssistantSummary.tsx';
 import { fixed, percent } from './format.ts';
 import { TrimPlot } from './TrimPlot.tsx';
@@ -158,7 +159,7 @@ export function TrimPanel({
       recordedReading.current = reading;
       setMessage(null);
     } catch (error) {
-      setMessage((error as Error).message);
+      setMessage(problemText(error, 'The point was not recorded', 'Press Record point (Enter) again.'));
     } finally {
       setBusy(false);
       positionInput.current?.focus();
@@ -170,7 +171,7 @@ export function TrimPanel({
     try {
       await onIncludePoint(pointId);
     } catch (error) {
-      setMessage((error as Error).message);
+      setMessage(problemText(error, 'The point was not included', 'Press Include in fit again.'));
     } finally {
       setBusy(false);
     }
@@ -189,7 +190,7 @@ export function TrimPanel({
       await onFinish(asFailure);
     } catch (error) {
       if (error instanceof ApiError && error.kind === 'ExpectedFailure' && !asFailure) setFinishRefusal((error as Error).message);
-      else setMessage((error as Error).message);
+      else setMessage(problemText(error, 'The run was not finished', 'Press Finish again; the points recorded so far are kept.'));
     } finally {
       setBusy(false);
     }
@@ -423,7 +424,7 @@ function WarmCheckForm({
       setResult(await onWarmCheck({ coldTemperatureC: coldC, warmTemperatureC: warmC, reading }));
       setMessage(null);
     } catch (error) {
-      setMessage((error as Error).message);
+      setMessage(problemText(error, 'The warm re-check was not recorded', 'Press Record warm reading again.'));
     }
   }
   return (

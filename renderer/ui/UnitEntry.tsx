@@ -1,6 +1,7 @@
 import { useRef, useState, type RefObject } from 'react';
 import type { StoredProcedure } from '../../shared/ipc/contract.ts';
 import { checkSerial } from '../../shared/records/serial.ts';
+import { problemText } from '../problem-text.ts';
 
 /**
  * Operator, procedure and serial. The serial field takes a barcode scanner as it is: the
@@ -39,7 +40,7 @@ export function UnitEntry({
       await onOpen({ serial: check.serial, procedureId: procedure.id, operator: operator.trim() });
       setSerialText('');
     } catch (error) {
-      setMessage((error as Error).message);
+      setMessage(problemText(error, 'The unit was not opened', 'Press Open unit again.'));
     } finally {
       opening.current = false;
     }

@@ -77,7 +77,14 @@ async function readTrack(readable: ReadableStream<AudioDataLike>): Promise<void>
       }
     }
   } catch (error) {
-    post({ type: 'error', message: `Capture stream failed: ${(error as Error).message}` });
+    // The raw text (a DOMException's or a bug's) is for the console; the bench gets what to do.
+    console.error('[trimbench] capture stream failed', error);
+    const name = (error as { name?: unknown } | null)?.name;
+    const kind = typeof name === 'string' && /^[A-Za-z]{1,40}$/.test(name) && name !== 'Error' ? ` (${name})` : '';
+    post({
+      type: 'error',
+      message: `The capture stream stopped unexpectedly${kind}. The generator is stopped; recorded trim points are kept. Press Start capture again.`,
+    });
   } finally {
     reader.releaseLock();
     await readable.cancel().catch(() => undefined);

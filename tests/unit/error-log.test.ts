@@ -17,6 +17,8 @@ import {
 } from '../../electron/services/error-log.ts';
 import { ExpectedFailure } from '../../electron/services/expected-failure.ts';
 import { dispatch, type Handlers } from '../../electron/services/handlers.ts';
+import { ApiError } from '../../renderer/api.ts';
+import { problemText } from '../../renderer/problem-text.ts';
 import { noCaller, readingWithThd, tempDir } from '../support/station.ts';
 
 let dir: ReturnType<typeof tempDir>;
@@ -165,5 +167,23 @@ describe('error log and technician messages', () => {
     expect(!result.ok && result.error.name).toBe('InternalError');
     expect(!result.ok && result.error.message).not.toContain(sqliteError.message);
     expect(consoleError).toHaveBeenCalled();
+  });
+});
+
+describe('page messages for unexpected errors', () => {
+  it('shows main’s message as it is', () => {
+    const message = 'There is no run with id 999.';
+    expect(problemText(new ApiError(message, 'ExpectedFailure'), 'The run was not finished', 'Press Finish again.')).toBe(message);
+  });
+
+  it('turns a DOMException or a bug into what failed and what to do, naming the kind but not the raw text', () => {
+    vi.spyOn(console, 'error').mockImplementation(() => undefined);
+    // WebIDL: DOMException(message, name); getUserMedia rejects with NotReadableError when the device is busy (Media Capture and Streams §9.2).
+    const busy = new DOMException('Could not start audio source', 'NotReadableError');
+    const text = problemText(busy, 'The audio input could not be opened', 'Press Start capture again.');
+    expect(text).toContain('NotReadableError');
+    expect(text).not.toContain(busy.message);
+    expect(text).toMatch(/^The audio input could not be opened: .*Press Start capture again\.$/);
+    expect(problemText(jsonError, 'The unit was not opened', 'Press Open unit again.')).not.toContain(jsonError.message);
   });
 });
