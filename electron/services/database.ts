@@ -173,6 +173,48 @@ export const MIGRATIONS: readonly string[] = [
   ALTER TABLE warning_changes ADD COLUMN crc INTEGER;
   ALTER TABLE warm_checks ADD COLUMN crc INTEGER;
   `,
+  // Issue 9: the station's level calibrations and chain checks, never edited, and the calibration
+  // each run was measured with.
+  `
+  CREATE TABLE calibrations (
+    id INTEGER PRIMARY KEY,
+    made_at TEXT NOT NULL,
+    operator TEXT NOT NULL,
+    station TEXT NOT NULL,
+    setup_json TEXT NOT NULL,
+    output_dbu_at_fs REAL NOT NULL,
+    input_dbu_at_fs REAL NOT NULL,
+    detail_json TEXT NOT NULL,
+    crc INTEGER
+  );
+  CREATE TABLE chain_checks (
+    id INTEGER PRIMARY KEY,
+    calibration_id INTEGER NOT NULL REFERENCES calibrations(id),
+    measured_at TEXT NOT NULL,
+    operator TEXT NOT NULL,
+    result_json TEXT NOT NULL,
+    judgement_json TEXT NOT NULL,
+    pass INTEGER NOT NULL CHECK (pass IN (0, 1)),
+    crc INTEGER
+  );
+  CREATE INDEX chain_checks_by_calibration ON chain_checks (calibration_id);
+  CREATE TRIGGER calibrations_never_change BEFORE UPDATE ON calibrations
+    BEGIN SELECT RAISE(ABORT, 'a recorded calibration is never edited'); END;
+  CREATE TRIGGER calibrations_never_deleted BEFORE DELETE ON calibrations
+    BEGIN SELECT RAISE(ABORT, 'calibrations are never deleted'); END;
+  CREATE TRIGGER chain_checks_never_change BEFORE UPDATE ON chain_checks
+    BEGIN SELECT RAISE(ABORT, 'a recorded chain check is never edited'); END;
+  CREATE TRIGGER chain_checks_never_deleted BEFORE DELETE ON chain_checks
+    BEGIN SELECT RAISE(ABORT, 'chain checks are never deleted'); END;
+  ALTER TABLE runs ADD COLUMN calibration_id INTEGER REFERENCES calibrations(id);
+  ALTER TABLE runs ADD COLUMN chain_check_id INTEGER REFERENCES chain_checks(id);
+  ALTER TABLE runs ADD COLUMN calibration_expires_at TEXT;
+  DROP TRIGGER finished_runs_frozen;
+  CREATE TRIGGER finished_runs_frozen
+    BEFORE UPDATE OF unit_id, procedure_id, operator, station, started_at, finished_at, verdict, verdict_reason, verdict_reasons_json, final_thd_db, limit_thd_db, calibration_id, chain_check_id, calibration_expires_at ON runs
+    WHEN OLD.finished_at IS NOT NULL
+    BEGIN SELECT RAISE(ABORT, 'a finished run is never edited'); END;
+  `,
 ];
 
 /**

@@ -7,7 +7,9 @@ import { IPC_CHANNELS, type IpcChannel } from '../../shared/ipc/channels.ts';
 import { contract, type IpcResponse, type IpcResult } from '../../shared/ipc/contract.ts';
 import type { ErrorLog } from './error-log.ts';
 import { ExpectedFailure } from './expected-failure.ts';
+import type { Calibrations } from './calibrations.ts';
 import type { Records } from './records.ts';
+import type { StationSettingsStore } from './station-settings.ts';
 import type { createSheets } from './sheets.ts';
 
 /** What a handler may ask of the window that called it (the sheet view must be showing for PDF). */
@@ -20,16 +22,28 @@ export interface CallerContext {
 export interface Services {
   records: Records;
   sheets: ReturnType<typeof createSheets>;
-  station: IpcResponse<'describeStation'>;
+  calibrations: Calibrations;
+  settings: StationSettingsStore;
+  station: { databasePath: string; sheetsFolder: string };
 }
 
 export type Handlers = {
   [C in IpcChannel]: (request: z.output<(typeof contract)[C]['request']>, caller: CallerContext) => Promise<IpcResponse<C>>;
 };
 
-export function createHandlers({ records, sheets, station }: Services): Handlers {
+export function createHandlers({ records, sheets, calibrations, settings, station }: Services): Handlers {
+  /** The settings, the latest calibration and its chain check, as the settings view shows them. */
+  const stationCalibration = () => {
+    const { calibration, chainCheck } = calibrations.current(settings.get(), null);
+    return { settings: settings.get(), calibration, chainCheck };
+  };
+  const refuseUnlessWritable = () => {
+    const refusal = records.whyNotWritable();
+    if (refusal !== null) throw new ExpectedFailure(refusal);
+  };
   return {
-    describeStation: async () => station,
+    // Asked afresh on each call: a name changed in the settings, or a problem found after start, shows from then on.
+    describeStation: async () => ({ ...station, stationName: settings.get().stationName, recordsProblem: records.whyNotWritable() }),
     listProcedures: async () => records.listProcedures(),
     openRun: async (request) => records.openRun(request),
     recordTrimPoint: async (request) => records.recordTrimPoint(request),
@@ -42,13 +56,32 @@ export function createHandlers({ records, sheets, station }: Services): Handlers
       if (!records.getRun(runId).run.finishedAt) throw new ExpectedFailure('Finish the run before printing its unit sheet.');
       return { printed: await caller.print() };
     },
+    getStationCalibration: async () => stationCalibration(),
+    saveStationSettings: async (request) => {
+      refuseUnlessWritable();
+      settings.save(request);
+      return stationCalibration();
+    },
+    recordCalibration: async (request) => {
+      calibrations.record(request);
+      return stationCalibration();
+    },
+    recordChainCheck: async (request) => {
+      calibrations.recordChainCheck(request, settings.get());
+      return stationCalibration();
+    },
+    listCalibrations: async () => calibrations.list(),
   };
 }
 
 const isChannel = (name: string): name is IpcChannel => (IPC_CHANNELS as readonly string[]).includes(name);
 
-/** What each call does, in the words a message to the technician uses. */
-export const CHANNEL_ACTIONS: Record<IpcChannel, string> = {
+/**
+ * What each call does, in the words a message to the technician uses. Every channel must have its
+ * words (a missing one fails to compile); the calibration channels are listed ahead of their
+ * arrival in the contract, which the open string index allows.
+ */
+export const CHANNEL_ACTIONS: Record<IpcChannel, string> & Record<string, string> = {
   describeStation: 'describe this station',
   listProcedures: 'list the procedures',
   openRun: 'open the run',
@@ -59,6 +92,11 @@ export const CHANNEL_ACTIONS: Record<IpcChannel, string> = {
   finishRun: 'finish the run',
   saveSheetPdf: 'save the unit sheet as PDF',
   printSheet: 'print the unit sheet',
+  getStationCalibration: 'read the station calibration',
+  saveStationSettings: 'save the station settings',
+  recordCalibration: 'record the calibration',
+  recordChainCheck: 'record the chain check',
+  listCalibrations: 'list the calibrations',
 };
 
 /** Issues kept in the log for one refused call: enough to see the pattern, never a 10^6-item dump. */
@@ -113,8 +151,10 @@ export async function dispatch(
   if (!isChannel(channel)) return { ok: false, error: { name: 'InvalidRequest', message: `Unknown request “${shorten(channel, 60)}”.` } };
   const parsed = contract[channel].request.safeParse(payload);
   if (!parsed.success) {
-    log?.record(`${channel}: request refused`, new Error('The request did not match the contract'), loggedIssues(parsed.error));
-    return { ok: false, error: { name: 'InvalidRequest', message: refusal(channel, parsed.error) } };
+    const message = refusal(channel, parsed.error);
+    // The log keeps what the technician read and every issue (bounded); a stack of dispatch itself would say nothing.
+    log?.record(`${channel}: request refused`, Object.assign(new Error(message), { name: 'InvalidRequest', stack: undefined }), loggedIssues(parsed.error));
+    return { ok: false, error: { name: 'InvalidRequest', message } };
   }
   try {
     const handler = handlers[channel] as (request: unknown, caller: CallerContext) => Promise<unknown>;

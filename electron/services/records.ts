@@ -15,6 +15,8 @@ import {
   type WarmCheck,
   type WarningLogEntry,
 } from '../../shared/ipc/contract.ts';
+import type { AudioSetup } from '../../shared/calibration/station-calibration.ts';
+import type { StationSettings } from '../../shared/calibration/station-settings.ts';
 import { procedureSchema, type Procedure } from '../../shared/procedures/procedure.ts';
 import { thdDbFromHarmonics } from '../../shared/records/reading-check.ts';
 import { checkSerial } from '../../shared/records/serial.ts';
@@ -22,44 +24,10 @@ import { whyNotRecordable, type StimulusSetting } from '../../shared/records/sti
 import { judgeTrimRun } from '../../shared/records/verdict.ts';
 import { assessTrim, type TrimAssessment } from '../../shared/trim/assessment.ts';
 import { warmRecheck, type LiveSeries } from '../../shared/trim/trim-assistant.ts';
+import type { Calibrations } from './calibrations.ts';
 import { isDatabaseDamaged, type Db } from './database.ts';
 import { ExpectedFailure } from './expected-failure.ts';
-import { checkRow, fromStoredJson, sealRow, toStoredJson, UnreadableRecord } from './stored-record.ts';
-
-/**
- * The sealed columns of each table, in the order their check value is computed: everything a row
- * holds except its id and the check value itself. Never reorder a shipped list; rows already
- * written were sealed in this order.
- */
-const SEALED_COLUMNS = {
-  procedures: ['code', 'revision', 'definition_json'],
-  units: ['serial', 'model_code', 'created_at'],
-  runs: [
-    'unit_id', 'procedure_id', 'operator', 'station', 'started_at', 'finished_at', 'verdict', 'verdict_reason',
-    'verdict_reasons_json', 'final_thd_db', 'limit_thd_db', 'sheet_pdf_path',
-  ],
-  trim_points: [
-    'run_id', 'sequence', 'position', 'recorded_at', 'settled', 'in_fit', 'stimulus_hz', 'stimulus_level_dbfs', 'thd_db',
-    'reading_json', 'live_json',
-  ],
-  trim_assessments: ['run_id', 'after_sequence', 'assessed_at', 'assessment_json'],
-  point_confirmations: ['run_id', 'point_id', 'after_sequence', 'confirmed_at', 'assessment_json'],
-  warning_changes: ['run_id', 'warning_id', 'change', 'at', 'position', 'after_sequence', 'seen', 'source'],
-  warm_checks: ['run_id', 'recorded_at', 'position', 'cold_temperature_c', 'warm_temperature_c', 'reading_json', 'result_json'],
-} as const;
-
-type SealedTable = keyof typeof SEALED_COLUMNS;
-type SealedRow<T extends SealedTable> = { [C in (typeof SEALED_COLUMNS)[T][number]]: string | number | null };
-
-type HoldsColumns<T extends SealedTable> = { readonly [C in (typeof SEALED_COLUMNS)[T][number]]: unknown };
-
-const valuesOf = <T extends SealedTable>(table: T, row: HoldsColumns<T>) =>
-  SEALED_COLUMNS[table].map((column) => (row as Record<string, unknown>)[column] ?? null);
-
-/** Refuses a row whose values changed since they were written (see stored-record.ts). */
-function checkSealed<T extends SealedTable>(table: T, row: HoldsColumns<T> & { crc: number | null }, what: string): void {
-  checkRow(table, row.crc, valuesOf(table, row), what);
-}
+import { checkSealed, fromStoredJson, prepareSealedInserts, sealRow, toStoredJson, UnreadableRecord, valuesOf } from './stored-record.ts';
 
 const liveSeriesSchema = z.object({ levelsDbfs: z.array(z.number()), lfDbfs: z.array(z.number()) });
 const reasonsSchema = z.array(z.string());
@@ -86,6 +54,9 @@ interface RunRow {
   final_thd_db: number | null;
   limit_thd_db: number;
   sheet_pdf_path: string | null;
+  calibration_id: number | null;
+  chain_check_id: number | null;
+  calibration_expires_at: string | null;
   unit_id: number;
 }
 
@@ -172,7 +143,11 @@ export interface RecordedPoint {
 }
 
 export interface RecordsOptions {
-  stationName: string;
+  /** The station's name as its settings hold it now (it is editable). */
+  stationName: () => string;
+  /** The station's calibrations: a run records the one it was measured with. */
+  calibrations?: Calibrations;
+  settings?: () => StationSettings;
   now?: () => Date;
   /** Told of every stored record found unreadable, with the detail the technician is not shown. */
   onUnreadable?: (record: UnreadableRecord) => void;
@@ -184,7 +159,7 @@ export type Records = ReturnType<typeof createRecords>;
 
 export function createRecords(
   db: Db,
-  { stationName, now = () => new Date(), onUnreadable = () => {}, whyNotWritable = () => null }: RecordsOptions,
+  { stationName, calibrations, settings, now = () => new Date(), onUnreadable = () => {}, whyNotWritable = () => null }: RecordsOptions,
 ) {
   const timestamp = () => now().toISOString();
 
@@ -236,20 +211,7 @@ export function createRecords(
     setSheetPath: db.prepare('UPDATE runs SET sheet_pdf_path = ?, crc = ? WHERE id = ? AND sheet_pdf_path IS NULL'),
   };
 
-  const inserts = Object.fromEntries(
-    (Object.keys(SEALED_COLUMNS) as SealedTable[]).map((table) => {
-      const columns = SEALED_COLUMNS[table];
-      const sql = `INSERT INTO ${table} (${columns.join(', ')}, crc) VALUES (${columns.map((c) => `@${c}`).join(', ')}, @crc)`;
-      return [table, db.prepare(sql)];
-    }),
-  ) as Record<SealedTable, ReturnType<Db['prepare']>>;
-
-  /** Inserts a row with its check value; returns its id. */
-  function insertSealed<T extends SealedTable>(table: T, row: SealedRow<T>): number {
-    const values = valuesOf(table, row);
-    const named = Object.fromEntries(SEALED_COLUMNS[table].map((column, i) => [column, values[i]]));
-    return Number(inserts[table].run({ ...named, crc: sealRow(table, values) }).lastInsertRowid);
-  }
+  const insertSealed = prepareSealedInserts(db);
 
   function readProcedure(row: ProcedureRow): Procedure {
     const what = `procedure ${row.code} revision ${row.revision}`;
@@ -506,7 +468,29 @@ export function createRecords(
       warningLog: warningLog(runId),
       warmCheck: warm ? fromStoredJson(warm.result_json, warmCheckSchema, `warm re-check of run ${runId}`) : null,
       earlierRuns: statements.earlierRuns.get(row.unit_id, runId)?.count ?? 0,
+      calibration:
+        row.calibration_id !== null && calibrations
+          ? calibrations.used(
+              { calibrationId: row.calibration_id, chainCheckId: row.chain_check_id, expiresAt: row.calibration_expires_at ?? '' },
+              runProcedure(row).trim.stimulusHz,
+            )
+          : null,
     };
+  }
+
+  /**
+   * The calibration a new run is measured with: the station's latest, when it holds for the setup
+   * in use. A procedure that requires one refuses to start without it, saying why and what to do.
+   */
+  function calibrationForNewRun(procedure: Procedure, serial: string, setup: AudioSetup | null) {
+    if (!calibrations || !settings) return null;
+    const { calibration, chainCheck, status } = calibrations.current(settings(), setup);
+    if (procedure.requiresCalibration && (status.state !== 'valid' || setup === null)) {
+      const why = setup === null && status.state === 'valid' ? 'Start capture first, so the station can check its setup against the calibration.' : status.message;
+      throw new ExpectedFailure(`${procedure.code} requires a calibrated station, so ${serial} cannot be started. ${why}`);
+    }
+    if (status.state !== 'valid' || !calibration) return null;
+    return { calibrationId: calibration.id, chainCheckId: chainCheck?.id ?? null, expiresAt: status.expiresAt! };
   }
 
   return {
@@ -541,7 +525,7 @@ export function createRecords(
     },
 
     /** Resumes the unit's unfinished run of this procedure, or starts a new one (a retest after a finished run). */
-    openRun(request: { serial: string; procedureId: number; operator: string }): RunDetail {
+    openRun(request: { serial: string; procedureId: number; operator: string; setup?: AudioSetup | null }): RunDetail {
       // Opening a unit leaves whatever the page had open; until this call succeeds, no run is open
       // here, so a refused open (another operator's run) leaves nothing for later calls to act on.
       stationOpenRunId = null;
@@ -583,11 +567,12 @@ export function createRecords(
               `new runs use revision ${newest.revision}. Choose it to start testing ${serial}.`,
           );
         }
+        const calibration = calibrationForNewRun(procedure, serial, request.setup ?? null);
         return insertSealed('runs', {
           unit_id: unit.id,
           procedure_id: request.procedureId,
           operator: request.operator,
-          station: stationName,
+          station: stationName(),
           started_at: timestamp(),
           finished_at: null,
           verdict: null,
@@ -596,6 +581,9 @@ export function createRecords(
           final_thd_db: null,
           limit_thd_db: procedure.trim.limitThdDb,
           sheet_pdf_path: null,
+          calibration_id: calibration?.calibrationId ?? null,
+          chain_check_id: calibration?.chainCheckId ?? null,
+          calibration_expires_at: calibration?.expiresAt ?? null,
         });
       }).immediate();
       const detail = runDetail(runId);

@@ -22,7 +22,9 @@ import {
 } from './database.ts';
 import { ExpectedFailure } from './expected-failure.ts';
 import { createHandlers, type Handlers } from './handlers.ts';
+import { createCalibrations } from './calibrations.ts';
 import { createRecords } from './records.ts';
+import { openStationSettings } from './station-settings.ts';
 import { createSheets } from './sheets.ts';
 
 export const DATABASE_FILE = 'trimbench.sqlite';
@@ -151,20 +153,34 @@ export function openStation({
       }
     }
 
-    const recordsOver = (over: Db) =>
-      createRecords(over, {
-        stationName,
+    const settings = openStationSettings(dataDir, stationName, now);
+    const whyNotWritable = () => notWritable ?? (existsSync(databasePath) ? null : recordsMessages.missing(databasePath));
+    const recordsOver = (over: Db) => {
+      const calibrations = createCalibrations(over, {
+        stationName: () => settings.get().stationName,
+        now,
+        refuseUnlessWritable: () => {
+          const refusal = whyNotWritable();
+          if (refusal !== null) throw new ExpectedFailure(refusal);
+        },
+      });
+      const records = createRecords(over, {
+        stationName: () => settings.get().stationName,
+        calibrations,
+        settings: () => settings.get(),
         now,
         onUnreadable: (record) => {
           log.record(`reading ${record.what}`, record, record.detail);
           // SQLite itself found the file damaged while reading: nothing more is written to it.
           if (record.inFile) notWritable ??= recordsMessages.damaged(databasePath, dataDir);
         },
-        whyNotWritable: () => notWritable ?? (existsSync(databasePath) ? null : recordsMessages.missing(databasePath)),
+        whyNotWritable,
       });
-    let records: ReturnType<typeof createRecords>;
+      return { records, calibrations };
+    };
+    let services: ReturnType<typeof recordsOver>;
     try {
-      records = recordsOver(db);
+      services = recordsOver(db);
     } catch (error) {
       // A damaged file whose very schema cannot be read: nothing in it can be shown.
       if (notWritable === null) throw error;
@@ -172,8 +188,9 @@ export function openStation({
       db.close();
       notWritable = recordsMessages.unreadable(databasePath, dataDir);
       db = openEmptyInMemory();
-      records = recordsOver(db);
+      services = recordsOver(db);
     }
+    const { records, calibrations } = services;
     const opened = db;
     if (notWritable === null) records.ensureProcedure(DEMO_PROCEDURE);
     const sheets = createSheets(records, join(dataDir, SHEETS_FOLDER));
@@ -181,7 +198,9 @@ export function openStation({
       createHandlers({
         records,
         sheets,
-        station: { stationName, databasePath, sheetsFolder: sheets.folder, recordsProblem: null },
+        calibrations,
+        settings,
+        station: { databasePath, sheetsFolder: sheets.folder },
       }),
       databasePath,
       {
@@ -189,9 +208,6 @@ export function openStation({
         stopWriting: () => (notWritable ??= recordsMessages.damaged(databasePath, dataDir)),
       },
     );
-    // Asked afresh on each call: a problem found after start shows from then on.
-    const describe = handlers.describeStation;
-    handlers.describeStation = async (request, caller) => ({ ...(await describe(request, caller)), recordsProblem: records.whyNotWritable() });
     return {
       db: opened,
       records,

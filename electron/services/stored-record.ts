@@ -8,6 +8,7 @@
 
 import { crc32 } from 'node:zlib';
 import type { z } from 'zod';
+import type { Db } from './database.ts';
 import { ExpectedFailure } from './expected-failure.ts';
 
 /** The version of the shapes written today; a value from a newer Trimbench is not guessed at. */
@@ -78,4 +79,58 @@ export function fromStoredJson<S extends z.ZodType>(text: string, schema: S, wha
     throw new UnreadableRecord(what, `does not validate at ${issue?.path.join('.') || '(root)'}: ${issue?.message ?? 'unknown'}`);
   }
   return result.data;
+}
+
+/**
+ * The sealed columns of each table, in the order their check value is computed: everything a row
+ * holds except its id and the check value itself. Never reorder a shipped list; rows already
+ * written were sealed in this order.
+ */
+export const SEALED_COLUMNS = {
+  procedures: ['code', 'revision', 'definition_json'],
+  units: ['serial', 'model_code', 'created_at'],
+  runs: [
+    'unit_id', 'procedure_id', 'operator', 'station', 'started_at', 'finished_at', 'verdict', 'verdict_reason',
+    'verdict_reasons_json', 'final_thd_db', 'limit_thd_db', 'sheet_pdf_path', 'calibration_id',
+    'chain_check_id', 'calibration_expires_at',
+  ],
+  trim_points: [
+    'run_id', 'sequence', 'position', 'recorded_at', 'settled', 'in_fit', 'stimulus_hz', 'stimulus_level_dbfs', 'thd_db',
+    'reading_json', 'live_json',
+  ],
+  trim_assessments: ['run_id', 'after_sequence', 'assessed_at', 'assessment_json'],
+  point_confirmations: ['run_id', 'point_id', 'after_sequence', 'confirmed_at', 'assessment_json'],
+  warning_changes: ['run_id', 'warning_id', 'change', 'at', 'position', 'after_sequence', 'seen', 'source'],
+  warm_checks: ['run_id', 'recorded_at', 'position', 'cold_temperature_c', 'warm_temperature_c', 'reading_json', 'result_json'],
+  calibrations: ['made_at', 'operator', 'station', 'setup_json', 'output_dbu_at_fs', 'input_dbu_at_fs', 'detail_json'],
+  chain_checks: ['calibration_id', 'measured_at', 'operator', 'result_json', 'judgement_json', 'pass'],
+} as const;
+
+export type SealedTable = keyof typeof SEALED_COLUMNS;
+export type SealedRow<T extends SealedTable> = { [C in (typeof SEALED_COLUMNS)[T][number]]: string | number | null };
+
+type HoldsColumns<T extends SealedTable> = { readonly [C in (typeof SEALED_COLUMNS)[T][number]]: unknown };
+
+export const valuesOf = <T extends SealedTable>(table: T, row: HoldsColumns<T>) =>
+  SEALED_COLUMNS[table].map((column) => (row as Record<string, unknown>)[column] ?? null);
+
+/** Refuses a row whose values changed since they were written (see stored-record.ts). */
+export function checkSealed<T extends SealedTable>(table: T, row: HoldsColumns<T> & { crc: number | null }, what: string): void {
+  checkRow(table, row.crc, valuesOf(table, row), what);
+}
+
+/** Prepared inserts for every sealed table; the returned function inserts a row with its check value and returns its id. */
+export function prepareSealedInserts(db: Db) {
+  const inserts = Object.fromEntries(
+    (Object.keys(SEALED_COLUMNS) as SealedTable[]).map((table) => {
+      const columns = SEALED_COLUMNS[table];
+      const sql = `INSERT INTO ${table} (${columns.join(', ')}, crc) VALUES (${columns.map((c) => `@${c}`).join(', ')}, @crc)`;
+      return [table, db.prepare(sql)];
+    }),
+  ) as Record<SealedTable, ReturnType<Db['prepare']>>;
+  return function insertSealed<T extends SealedTable>(table: T, row: SealedRow<T>): number {
+    const values = valuesOf(table, row);
+    const named = Object.fromEntries(SEALED_COLUMNS[table].map((column, i) => [column, values[i]]));
+    return Number(inserts[table].run({ ...named, crc: sealRow(table, values) }).lastInsertRowid);
+  };
 }

@@ -12,6 +12,11 @@ export const IPC_CHANNELS = [
   'finishRun',
   'saveSheetPdf',
   'printSheet',
+  'getStationCalibration',
+  'saveStationSettings',
+  'recordCalibration',
+  'recordChainCheck',
+  'listCalibrations',
 ] as const;
 
 export type IpcChannel = (typeof IPC_CHANNELS)[number];

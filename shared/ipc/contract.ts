@@ -6,6 +6,17 @@ import type { Reading } from '../measurement/reading.ts';
 import type { TrimAssessment } from '../trim/assessment.ts';
 import { procedureSchema } from '../procedures/procedure.ts';
 import type { IpcChannel } from './channels.ts';
+import { plainText } from './plain-text.ts';
+import {
+  audioSetupSchema,
+  calibrationRequestSchema,
+  calibrationSchema,
+  calibrationUsedSchema,
+  chainCheckRecordSchema,
+  chainCheckResultSchema,
+  stationCalibrationSchema,
+  stationSettingsSchema,
+} from './calibration-schemas.ts';
 
 // zod's own message for unknown fields quotes every key in full: a payload of 10^5 long keys would
 // come back as megabytes of error. Name a few, shortened, and count the rest.
@@ -51,20 +62,6 @@ const dbc = finite.min(LEVEL_MIN_DB).max(DBC_MAX);
 const phaseDeg = finite.gt(-180).lte(180);
 const frequencyHz = finite.nonnegative().max(SAMPLE_RATE_MAX_HZ / 2);
 const harmonicOrder = z.number().int().min(2).max(HARMONIC_ORDER_MAX);
-
-/** Nothing a terminal or a bidi-aware renderer would act on: C0/C1 controls (ESC, NUL …) and bidi overrides. */
-const CONTROL_OR_BIDI = /[\p{Cc}\u061C\u200E\u200F\u202A-\u202E\u2066-\u2069]/u;
-/** Spaces, zero-width and other invisible format characters: a name of only these shows as blank. */
-const INVISIBLE = /^[\p{Z}\s\p{Cf}\u115F\u1160\u3164\uFFA0]*$/u;
-
-/** A short text shown to people (operator, warning description): printable, and not blank to the eye. */
-function plainText(field: string, maxChars: number) {
-  return z
-    .string()
-    .max(maxChars, `The ${field} is longer than ${maxChars} characters: shorten it.`)
-    .refine((text) => !CONTROL_OR_BIDI.test(text), `The ${field} holds control or text-direction characters: type it again in plain text.`)
-    .refine((text) => !INVISIBLE.test(text), `Enter the ${field}: it is empty or only spaces.`);
-}
 
 const unique = <T>(items: readonly T[]) => new Set(items).size === items.length;
 
@@ -293,6 +290,8 @@ export const runDetailSchema = z.object({
   warmCheck: warmCheckSchema.nullable(),
   /** Earlier finished runs of the same serial (retests are new runs). */
   earlierRuns: z.number().int().nonnegative(),
+  /** The station calibration the run was measured with; null when the station had none valid. */
+  calibration: calibrationUsedSchema.nullable(),
 });
 
 const runRef = z.object({ runId: rowId }).strict();
@@ -331,6 +330,8 @@ export const contract = {
         serial: z.string().min(1).max(64),
         procedureId: rowId,
         operator: z.string().max(MAX_OPERATOR_CHARS * 4, `The operator name is longer than ${MAX_OPERATOR_CHARS} characters: shorten it.`).trim().min(1, 'Enter the operator name.').pipe(plainText('operator name', MAX_OPERATOR_CHARS)),
+        /** The audio setup in use (null without capture): a calibration holds only for the setup it was made with. */
+        setup: audioSetupSchema.nullable().default(null),
       })
       .strict(),
     response: runDetailSchema,
@@ -377,6 +378,23 @@ export const contract = {
   },
   saveSheetPdf: { request: runRef, response: z.object({ path: z.string(), alreadySaved: z.boolean() }) },
   printSheet: { request: runRef, response: z.object({ printed: z.boolean() }) },
+  getStationCalibration: { request: nothing, response: stationCalibrationSchema },
+  saveStationSettings: { request: stationSettingsSchema, response: stationCalibrationSchema },
+  recordCalibration: { request: calibrationRequestSchema, response: stationCalibrationSchema },
+  recordChainCheck: {
+    request: z
+      .object({
+        calibrationId: rowId,
+        operator: z.string().trim().min(1, 'Enter the operator name.').pipe(plainText('operator name', MAX_OPERATOR_CHARS)),
+        result: chainCheckResultSchema,
+      })
+      .strict(),
+    response: stationCalibrationSchema,
+  },
+  listCalibrations: {
+    request: nothing,
+    response: z.array(z.object({ calibration: calibrationSchema, chainChecks: z.array(chainCheckRecordSchema) })),
+  },
 } satisfies Record<IpcChannel, { request: z.ZodType; response: z.ZodType }>;
 
 export type IpcRequest<C extends IpcChannel> = z.input<(typeof contract)[C]['request']>;
@@ -400,3 +418,4 @@ export type RunDetail = z.infer<typeof runDetailSchema>;
 export type WarmCheck = z.infer<typeof warmCheckSchema>;
 export type WarningLogEntry = z.infer<typeof warningLogEntrySchema>;
 export type StimulusSettingRequest = z.infer<typeof stimulusSettingSchema>;
+export type StationCalibration = z.infer<typeof stationCalibrationSchema>;

@@ -14,6 +14,8 @@ export const DEMO_PROCEDURE: Procedure = {
     name: 'MG-20 transformer line amplifier',
     maker: 'Marrowgate Audio Works (invented)',
   },
+  // The demo bench needs no interface, so it cannot need a calibrated one.
+  requiresCalibration: false,
   serial: { pattern: '^MG20-[0-9]{4}-[0-9]{4}$', example: 'MG20-2611-0042' },
   trim: {
     stimulusHz: 14,

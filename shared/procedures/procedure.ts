@@ -17,6 +17,8 @@ export const procedureSchema = z.object({
     name: z.string().min(1).max(200),
     maker: z.string().min(1).max(200),
   }),
+  /** A unit is started only on a station whose level calibration holds for the audio setup in use. */
+  requiresCalibration: z.boolean().default(false),
   serial: z.object({
     /** Anchored regular expression the serial must match. */
     pattern: z.string().min(1).max(200),
