@@ -82,7 +82,7 @@ function describeError(error: unknown): Record<string, unknown> {
     name: clip(String(error.name), 100),
     message: clip(String(error.message), ERROR_LOG_FIELD_MAX_CHARS),
     ...(code === undefined ? {} : { code: clip(String(code), 100) }),
-    stack: clip(String(error.stack ?? ''), ERROR_LOG_FIELD_MAX_CHARS),
+    ...(error.stack ? { stack: clip(String(error.stack), ERROR_LOG_FIELD_MAX_CHARS) } : {}),
   };
 }
 

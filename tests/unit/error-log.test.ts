@@ -120,7 +120,8 @@ describe('error log and technician messages', () => {
     const result = await dispatch({} as Handlers, 'openRun', { serial: 5, procedureId: 'one', operator: 7 }, noCaller, log);
     expect(!result.ok && result.error.message).toMatch(/^The request to open the run was refused: serial: .* \(and 2 more problems\)\.$/);
     expect(!result.ok && result.error.message).not.toMatch(/✖|→/); // z.prettifyError's markers
-    const entry = JSON.parse(logLines()[0]) as { detail: { issueCount: number; issues: { path: string }[] } };
+    const entry = JSON.parse(logLines()[0]) as { error: { name: string; message: string }; detail: { issueCount: number; issues: { path: string }[] } };
+    expect(entry.error).toMatchObject({ name: 'InvalidRequest', message: !result.ok && result.error.message });
     expect(entry.detail.issueCount).toBe(3);
     expect(entry.detail.issues.map((issue) => issue.path)).toEqual(['serial', 'procedureId', 'operator']);
   });
