@@ -20,6 +20,7 @@ import {
   openForReading,
   type Db,
 } from './database.ts';
+import { openErrorLog, type ErrorLog } from './error-log.ts';
 import { ExpectedFailure } from './expected-failure.ts';
 import { createHandlers, type Handlers } from './handlers.ts';
 import { createCalibrations } from './calibrations.ts';
@@ -30,17 +31,8 @@ import { createSheets } from './sheets.ts';
 export const DATABASE_FILE = 'trimbench.sqlite';
 export const SHEETS_FOLDER = 'sheets';
 
-/** Where problems the technician is not shown in full are written (replaced by the error log once it exists). */
-export interface ProblemLog {
-  record(context: string, error: unknown, detail?: unknown): string;
-}
-
-const consoleLog: ProblemLog = {
-  record(context, error, detail) {
-    console.error(`[trimbench] ${context}`, error, detail ?? '');
-    return '';
-  },
-};
+/** Where problems the technician is not shown in full are written: the data folder's error log. */
+export type ProblemLog = Pick<ErrorLog, 'record'>;
 
 /** The technician's message for each way the records can be unwritable; each names the file. */
 function lastBackup(dataDir: string): string {
@@ -103,16 +95,19 @@ export function openStation({
   stationName,
   now,
   busyTimeoutMs,
-  log = consoleLog,
+  log: givenLog,
 }: {
   dataDir: string;
   stationName: string;
   now?: () => Date;
   /** How long a write waits for another writer (tests shorten it); the database's default otherwise. */
   busyTimeoutMs?: number;
+  /** Where details go (tests give their own); the data folder's error log otherwise. */
   log?: ProblemLog;
 }) {
   makeDataFolder(dataDir);
+  const errorLog = openErrorLog(dataDir);
+  const log: ProblemLog = givenLog ?? errorLog;
   const databasePath = join(dataDir, DATABASE_FILE);
   /** Why the records cannot be written, in the technician's words; null while they can. */
   let notWritable: string | null = null;
@@ -210,6 +205,8 @@ export function openStation({
     );
     return {
       db: opened,
+      /** The data folder's log: the dispatcher writes each unexpected error there. */
+      errorLog,
       records,
       sheets,
       handlers,
