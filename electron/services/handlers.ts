@@ -76,12 +76,8 @@ export function createHandlers({ records, sheets, calibrations, settings, statio
 
 const isChannel = (name: string): name is IpcChannel => (IPC_CHANNELS as readonly string[]).includes(name);
 
-/**
- * What each call does, in the words a message to the technician uses. Every channel must have its
- * words (a missing one fails to compile); the calibration channels are listed ahead of their
- * arrival in the contract, which the open string index allows.
- */
-export const CHANNEL_ACTIONS: Record<IpcChannel, string> & Record<string, string> = {
+/** What each call does, in the words a message to the technician uses (a channel without words fails to compile). */
+export const CHANNEL_ACTIONS: Record<IpcChannel, string> = {
   describeStation: 'describe this station',
   listProcedures: 'list the procedures',
   openRun: 'open the run',
