@@ -12,7 +12,7 @@ declare global {
 
 export class ApiError extends Error {
   override name = 'ApiError';
-  /** The kind main gave: 'ExpectedFailure' for a refusal with what to do, 'InvalidRequest', 'InternalError'. */
+  /** The kind main gave: 'ExpectedFailure' for a refusal with what to do, 'CannotPass' for a run refused with its reasons, 'InvalidRequest', 'InternalError'. */
   readonly kind: string;
   constructor(message: string, kind = 'ApiError') {
     super(message);

@@ -3,3 +3,8 @@
 export class ExpectedFailure extends Error {
   override name = 'ExpectedFailure';
 }
+
+/** A run that cannot pass, refused with its reasons: the page offers to finish it as FAIL with them. */
+export class CannotPass extends ExpectedFailure {
+  override name = 'CannotPass';
+}

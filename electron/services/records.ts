@@ -26,7 +26,7 @@ import { assessTrim, type TrimAssessment } from '../../shared/trim/assessment.ts
 import { warmRecheck, type LiveSeries } from '../../shared/trim/trim-assistant.ts';
 import type { Calibrations } from './calibrations.ts';
 import { isDatabaseDamaged, type Db } from './database.ts';
-import { ExpectedFailure } from './expected-failure.ts';
+import { CannotPass, ExpectedFailure } from './expected-failure.ts';
 import { checkSealed, fromStoredJson, prepareSealedInserts, sealRow, toStoredJson, UnreadableRecord, valuesOf } from './stored-record.ts';
 
 const liveSeriesSchema = z.object({ levelsDbfs: z.array(z.number()), lfDbfs: z.array(z.number()) });
@@ -782,7 +782,7 @@ export function createRecords(
         trim,
       );
       if (judged.verdict === 'fail' && !request.asFailure) {
-        throw new ExpectedFailure(
+        throw new CannotPass(
           `This run cannot pass:\n${judged.reasons.map((r) => `• ${r}`).join('\n')}\nPut that right and finish again, or finish the run as FAIL.`,
         );
       }

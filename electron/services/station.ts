@@ -44,7 +44,7 @@ function lastBackup(dataDir: string): string {
 
 export const recordsMessages = {
   damaged: (file: string, dataDir: string) =>
-    `The records database ${file} is damaged, so Trimbench records nothing more in it. Units already recorded can still be opened to read. ` +
+    `The records database ${file} is damaged, so Trimbench records nothing more in it. Units already recorded can still be opened to read, but what is shown may be incomplete. ` +
     `Close Trimbench and tell the station's maintainer; keep the damaged file. ${lastBackup(dataDir)}`,
   readOnly: (file: string) =>
     `The records database ${file} cannot be written: the file or its folder is read-only. Nothing is recorded until it can be. ` +

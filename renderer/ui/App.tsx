@@ -376,9 +376,9 @@ export function App() {
         </button>
       </header>
       <SafetyNotice />
-      {recordsProblem && (
-        <p className="problem banner" role="alert">
-          Records are unavailable: {recordsProblem}
+      {(recordsProblem ?? station?.recordsProblem) && (
+        <p className="problem banner" role="alert" data-testid="records-problem">
+          {recordsProblem ?? station?.recordsProblem}
         </p>
       )}
       {audioProblem && (

@@ -189,7 +189,7 @@ export function TrimPanel({
     try {
       await onFinish(asFailure);
     } catch (error) {
-      if (error instanceof ApiError && error.kind === 'ExpectedFailure' && !asFailure) setFinishRefusal((error as Error).message);
+      if (error instanceof ApiError && error.kind === 'CannotPass' && !asFailure) setFinishRefusal((error as Error).message);
       else setMessage(problemText(error, 'The run was not finished', 'Press Finish again; the points recorded so far are kept.'));
     } finally {
       setBusy(false);
