@@ -117,9 +117,9 @@ app.on('second-instance', () => {
   window?.focus();
 });
 
-// The error log lives in the data folder, so it is there even when the station cannot open.
+// The error log lives in the data folder; opened here too for a start that fails before the station is open.
 const dataDir = app.getPath('userData');
-const errorLog = openErrorLog(dataDir);
+const startupLog = openErrorLog(dataDir);
 
 app
   .whenReady()
@@ -128,7 +128,7 @@ app
     app.on('will-quit', () => station.close());
     serveRenderer();
     lockDownSessions();
-    registerIpc(station.handlers, errorLog);
+    registerIpc(station.handlers, station.errorLog);
     createWindow();
     app.on('activate', () => {
       if (BrowserWindow.getAllWindows().length === 0) createWindow();
@@ -141,7 +141,7 @@ app
     const message =
       error instanceof ExpectedFailure
         ? error.message
-        : `Trimbench met an unexpected problem while starting and has stopped. Start it again; if it stops again, report it. Details are in ${errorLog.path} (reference ${errorLog.record('startup failed', error)}).`;
+        : `Trimbench met an unexpected problem while starting and has stopped. Start it again; if it stops again, report it. Details are in ${startupLog.path} (reference ${startupLog.record('startup failed', error)}).`;
     dialog.showErrorBox('Trimbench cannot start', message);
     app.quit();
   });

@@ -11,7 +11,6 @@ import { extname, join, normalize, resolve, sep } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { chromium, type BrowserContext, type Page } from 'playwright-core';
 import { IPC_CHANNELS } from '../../shared/ipc/channels.ts';
-import { openErrorLog } from '../../electron/services/error-log.ts';
 import { dispatch, type CallerContext } from '../../electron/services/handlers.ts';
 import { openStation } from '../../electron/services/station.ts';
 import { SHEET_PDF } from '../../electron/main/sheet-pdf.ts';
@@ -130,8 +129,8 @@ export async function openBench({ captureWav, dataDir, microphone = 'granted' }:
       }),
     print: async () => false, // no printer here: reported to the page as cancelled
   };
-  // The same error log in the data folder as the app, so browser tests see the technician's messages.
-  const errorLog = openErrorLog(data);
+  // The station's error log in the data folder, as in the app, so browser tests see the technician's messages.
+  const errorLog = station.errorLog;
   await context.exposeBinding('__trimbenchCall', (_source, channel: string, payload: unknown) =>
     dispatch(station.handlers, channel, payload, caller, errorLog),
   );
