@@ -5,12 +5,14 @@
 //   npm run -s cli -- analyze FILE.wav [--channel N] [--mains 50|60] [--harmonics N] [--band LO-HI] [--fundamental HZ] [--input-dbu-at-0dbfs X] [--json]
 //   npm run -s cli -- plan --target HZ --rate HZ [--mains 50|60] [--harmonics N] [--max-offset HZ] [--json]
 //   npm run -s cli -- fit FILE.csv [--margin-db X] [--step X] [--limit-dbc X] [--json]
+//   npm run -s cli -- procedure check FILE.json
 
 import { readFileSync } from 'node:fs';
 import { parseArgs } from 'node:util';
 import { WavFormatError } from '../shared/audio/wav.ts';
 import { dbuFromDbfs, type LevelCalibration } from '../shared/levels.ts';
 import { DEFAULT_MAX_OFFSET_PERCENT, planTestFrequency } from '../shared/measurement/frequency-planner.ts';
+import { checkProcedureFile } from '../shared/procedures/procedure-file.ts';
 import { analyzeRecordSource, type RecordAnalysis } from '../shared/measurement/record-analysis.ts';
 import { adviseTrim, DEFAULT_TRIM_ASSISTANT_OPTIONS, describeThermalMargin } from '../shared/trim/trim-assistant.ts';
 import { parsePlainDecimal, parseTrimCsv, TrimCsvError } from '../shared/trim/trim-csv.ts';
@@ -25,6 +27,7 @@ const USAGE = `usage:
                             [--input-dbu-at-0dbfs X] [--json]
   trimbench plan --target HZ --rate HZ [--mains 50|60] [--harmonics N] [--max-offset HZ] [--json]
   trimbench fit FILE.csv [--margin-db X] [--step X] [--limit-dbc X] [--json]
+  trimbench procedure check FILE.json
   trimbench help
 
   analyze   offline analysis of a WAV recording (refuses non-finite samples); with
@@ -32,10 +35,22 @@ const USAGE = `usage:
             levels and noise are also given in dBu
   plan      the whole-cycle test frequency nearest the target, clear of mains, at most
             --max-offset Hz from it (default ${DEFAULT_MAX_OFFSET_PERCENT} % of the target)
-  fit       the trim assistant on a CSV of trim points`;
+  fit       the trim assistant on a CSV of trim points
+  procedure check
+            validates a procedure file (docs/procedures.md): every problem on its own line,
+            its JSON path first, or a one-line summary when the file is good`;
 
 /** A problem with the user's input: printed as one line, exit status 1. */
 class UsageProblem extends Error {}
+
+/** Several problems with one file: printed one per line as they are, exit status 1. */
+class FileProblems extends Error {
+  readonly lines: string[];
+  constructor(lines: string[]) {
+    super(lines.join('\n'));
+    this.lines = lines;
+  }
+}
 
 function numberOption(name: string, text: string | undefined, check: (value: number) => boolean, expected: string): number | undefined {
   if (text === undefined) return undefined;
@@ -327,6 +342,24 @@ function fit(args: string[]): string {
   ].join('\n');
 }
 
+function procedure(args: string[]): string {
+  const [action, ...rest] = args;
+  if (action !== 'check') throw new UsageProblem(action ? `unknown action “${action}”; the one action is check\n${USAGE}` : `procedure needs an action: check FILE.json\n${USAGE}`);
+  const { positionals } = parseArgs({ args: rest, allowPositionals: true, strict: true, options: {} });
+  if (positionals.length !== 1) throw new UsageProblem(`procedure check takes one JSON file\n${USAGE}`);
+  const file = positionals[0];
+  let text: string;
+  try {
+    text = readFileSync(file, 'utf8');
+  } catch (error) {
+    throw new UsageProblem(`${file}: cannot be read (${(error as NodeJS.ErrnoException).code ?? (error as Error).message})`);
+  }
+  const result = checkProcedureFile(text);
+  // Path first, so the lines sort and grep like the file itself; the file name once, in the summary line.
+  if (!result.ok) throw new FileProblems([...result.problems.map((p) => `${p.path}: ${p.message}`), `${file}: ${result.problems.length} problem${result.problems.length === 1 ? '' : 's'}; fix them and check again`]);
+  return `${file}: ${result.summary}`;
+}
+
 function main(argv: string[]): number {
   const [command, ...rest] = argv;
   try {
@@ -334,9 +367,14 @@ function main(argv: string[]): number {
     else if (command === 'analyze') process.stdout.write(`${analyze(rest)}\n`);
     else if (command === 'plan') process.stdout.write(`${plan(rest)}\n`);
     else if (command === 'fit') process.stdout.write(`${fit(rest)}\n`);
+    else if (command === 'procedure') process.stdout.write(`${procedure(rest)}\n`);
     else throw new UsageProblem(command ? `unknown command “${command}”\n${USAGE}` : USAGE);
     return 0;
   } catch (error) {
+    if (error instanceof FileProblems) {
+      process.stderr.write(`${error.lines.join('\n')}\n`);
+      return 1;
+    }
     const expected = error instanceof UsageProblem || (error as { code?: string }).code?.startsWith('ERR_PARSE_ARGS');
     const prefix = `trimbench ${command ?? ''}: `.replace(/^trimbench : /, 'trimbench: ');
     if (expected) {

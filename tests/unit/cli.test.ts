@@ -117,6 +117,7 @@ describe('help', () => {
       const result = run(word);
       expect(result.status).toBe(0);
       expect(result.stdout).toMatch(/^usage:/);
+      expect(result.stdout).toMatch(/trimbench procedure check FILE\.json/);
       expect(result.stderr).toBe('');
     });
   }
@@ -318,5 +319,87 @@ describe('internal errors', () => {
     expect(lines[0]).toBe('trimbench analyze: internal error: scan exploded. Run again with TRIMBENCH_DEBUG=1 for details.');
     expect(lines.length).toBeGreaterThan(2);
     expect(debug.stderr).toMatch(/\n\s+at /);
+  });
+});
+
+describe('procedure check', () => {
+  // Hand-written files; what counts as a problem is issue 10's rule for procedure files.
+  const good = JSON.stringify({
+    schemaVersion: 2,
+    code: 'TX1-CHECK',
+    revision: 'A',
+    title: 'TX-1 line driver check',
+    invented: true,
+    model: { code: 'TX-1', name: 'TX-1 line driver', maker: 'Test Maker (invented)', channels: 1 },
+    serial: { pattern: '^TX1-[0-9]{3}$', example: 'TX1-001' },
+    requiresCalibration: false,
+    steps: [
+      { id: 'safety', title: 'Safety', kind: 'notice', instructions: ['Mute the monitors.'], acknowledgement: 'Monitors are muted.' },
+      {
+        id: 'thd-1khz',
+        title: 'THD at 1 kHz',
+        kind: 'distortion',
+        instructions: ['The generator plays 1 kHz.'],
+        frequencyHz: 1000,
+        level: { value: -12, unit: 'dBFS' },
+        limits: { thdDb: { high: -60, unit: 'dB' } },
+        onFail: 'stop',
+      },
+    ],
+  });
+
+  it('a good file prints a one-line summary (code, revision, model, steps) and exits 0', () => {
+    const file = join(files.path, 'tx1.json');
+    writeFileSync(file, good);
+    const result = run('procedure', 'check', file);
+    expect(result.stderr).toBe('');
+    expect(result.status).toBe(0);
+    const lines = result.stdout.trim().split('\n');
+    expect(lines).toHaveLength(1);
+    expect(lines[0]).toMatch(/TX1-CHECK revision A, TX-1 .*2 steps: notice, distortion/);
+  });
+
+  it('the demo resource file passes', () => {
+    const result = run('procedure', 'check', fileURLToPath(new URL('../../resources/procedures/mg20-lf-trim.json', import.meta.url)));
+    expect(result.stderr).toBe('');
+    expect(result.status).toBe(0);
+    expect(result.stdout).toMatch(/MG20-LF-TRIM revision C/);
+  });
+
+  it('a bad file prints every problem on its own line, path first, and exits non-zero', () => {
+    // Two problems written in: a limit bound as text, and an onFail that is neither stop nor continue.
+    const bad = good.replace('"high":-60', '"high":"-60"').replace('"onFail":"stop"', '"onFail":"skip"');
+    expect(bad).not.toBe(good);
+    const file = join(files.path, 'tx1-bad.json');
+    writeFileSync(file, bad);
+    const result = run('procedure', 'check', file);
+    expect(result.status).toBe(1);
+    expect(result.stdout).toBe('');
+    const lines = result.stderr.trim().split('\n');
+    expect(lines).toEqual([
+      expect.stringMatching(/^steps\[1\]\.limits\.thdDb\.high: expected a number/),
+      expect.stringMatching(/^steps\[1\]\.onFail: /),
+      expect.stringMatching(/tx1-bad\.json: 2 problems/),
+    ]);
+  });
+
+  it('a JSON syntax error names its line and column (RFC 8259: a comma may not follow the last member)', () => {
+    const file = join(files.path, 'tx1-comma.json');
+    writeFileSync(file, '{\n  "schemaVersion": 2,\n}\n');
+    const result = run('procedure', 'check', file);
+    expect(result.status).toBe(1);
+    expect(result.stderr).toMatch(/^line 3, column 1: not valid JSON/);
+  });
+
+  it.each([
+    ['a missing file', ['check', 'missing.json'], /missing\.json: cannot be read \(ENOENT\)/],
+    ['no action', [], /procedure needs an action/],
+    ['an unknown action', ['import', 'x.json'], /unknown action “import”/],
+  ])('fails on %s with a message and status 1', (_what, args, message) => {
+    const rest = args.map((a) => (a.endsWith('.json') ? join(files.path, a) : a));
+    const result = run('procedure', ...rest);
+    expect(result.status).toBe(1);
+    expect(result.stdout).toBe('');
+    expect(result.stderr).toMatch(message);
   });
 });
