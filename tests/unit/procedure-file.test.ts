@@ -232,3 +232,22 @@ describe('whole-file rules', () => {
     expect(paths(edit('"schemaVersion": 2,', ''))).toEqual(['schemaVersion']);
   });
 });
+
+describe('docs/procedures.md', () => {
+  const doc = readFileSync(fileURLToPath(new URL('../../docs/procedures.md', import.meta.url)), 'utf8');
+
+  it('has a section for every step kind (issue 10: the page documents every kind)', () => {
+    // The kinds as issue 10 lists them, written out here rather than taken from the code.
+    for (const kind of ['notice', 'trim', 'distortion', 'gain', 'noise', 'hum', 'balance', 'crosstalk']) {
+      expect(doc).toMatch(new RegExp(`^### .*\`${kind}\``, 'm'));
+    }
+  });
+
+  it('its complete example is the demo resource file, and passes the check', () => {
+    const blocks = [...doc.matchAll(/```json\n([\s\S]*?)\n```/g)].map((m) => m[1]);
+    const example = blocks.at(-1)!;
+    const resource = readFileSync(fileURLToPath(new URL('../../resources/procedures/mg20-lf-trim.json', import.meta.url)), 'utf8');
+    expect(JSON.parse(example)).toEqual(JSON.parse(resource));
+    expect(checkProcedureFile(example).ok).toBe(true);
+  });
+});
