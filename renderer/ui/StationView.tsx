@@ -145,8 +145,6 @@ export function StationView({
           {audioPanel}
           {stationCalibration && (
             <StationSettingsForm
-              // A saved file is shown as saved: the form starts again from what main returned.
-              key={JSON.stringify(stationCalibration.settings)}
               settings={stationCalibration.settings}
               currentSetup={choiceSetup}
               onSave={onSaveSettings}
