@@ -476,14 +476,12 @@ export function App() {
         <h1>Trimbench</h1>
         <span className="hint">{station ? `Station ${station.stationName}` : ''}</span>
         <CalibrationBadge status={status} onOpen={openStation} />
-        <button
-          type="button"
-          data-testid="open-station"
-          onClick={view === 'station' ? leaveStation : openStation}
-          aria-pressed={view === 'station'}
-        >
-          {view === 'station' ? 'Back to the bench' : 'Station…'}
-        </button>
+        {/* In the Station view its own "Back to the bench" takes this place. */}
+        {view !== 'station' && (
+          <button type="button" data-testid="open-station" onClick={openStation}>
+            Station…
+          </button>
+        )}
         <button type="button" className={generator.on ? 'mute live' : 'mute'} onClick={mute} data-testid="mute" disabled={!generator.on}>
           {generator.on ? 'Mute generator (Esc)' : 'Generator muted'}
         </button>

@@ -220,7 +220,7 @@ export function CalibrationWizard({
             <li>You need a true-RMS voltmeter on AC volts, and for the loopback a cable from the output to the input channel that carries units.</li>
           </ul>
           {!available && (
-            <p className="problem" data-testid="wizard-needs-capture">
+            <p className="hint" role="status" data-testid="wizard-needs-capture">
               Start capture first (Audio interface, on the left): the reference tone plays through it.
             </p>
           )}
@@ -264,7 +264,7 @@ export function CalibrationWizard({
             </p>
           )}
           <p className="hint" role="status" data-testid="wizard-tone-status">
-            {generatorOn ? `Playing ${REFERENCE_HZ} Hz at ${referenceText} dBFS.` : 'The reference is not playing.'}
+            {generatorOn && referenceDbfs !== null ? `Playing ${REFERENCE_HZ} Hz at ${signedFixed(referenceDbfs, 1)} dBFS.` : 'The reference is not playing.'}
           </p>
           <label>
             Voltmeter reading (V, mV, dBu or dBV)
@@ -309,7 +309,7 @@ export function CalibrationWizard({
             <>
               <p className="hint">
                 Connect the output to input channel {setup ? setup.inputChannel + 1 : '—'}, with no unit in between, then play the reference at{' '}
-                {referenceText} dBFS and wait for a settled reading.
+                {referenceDbfs === null ? '—' : signedFixed(referenceDbfs, 1)} dBFS and wait for a settled reading.
               </p>
               <div className="row">
                 {generatorOn ? (
@@ -368,11 +368,11 @@ export function CalibrationWizard({
             void record();
           }}
         >
-          <dl className="facts">
+          <dl className="facts wizard-summary">
             <dt>Setup</dt>
-            <dd>{setup ? `${setup.inputDeviceLabel} (channel ${setup.inputChannel + 1}) → ${setup.outputDeviceLabel}, ${setup.sampleRateHz} Hz` : 'capture is not running'}</dd>
+            <dd>{setup ? `${setup.inputDeviceLabel} (channel ${setup.inputChannel + 1}) → ${setup.outputDeviceLabel}, ${setup.sampleRateHz / 1000} kHz` : 'capture is not running'}</dd>
             <dt>Output</dt>
-            <dd>{outputDbu !== null ? `${dbu(outputDbu)} at 0 dBFS (meter ${meterText.trim()} at ${referenceText} dBFS)` : '—'}</dd>
+            <dd>{outputDbu !== null ? `${dbu(outputDbu)} at 0 dBFS (meter ${meterText.trim()} at ${signedFixed(referenceDbfs ?? 0, 1)} dBFS)` : '—'}</dd>
             <dt>Input</dt>
             <dd>{inputResult?.ok ? `${dbu(inputResult.dbuAtFullScale)} at 0 dBFS (${method === 'loopback' ? 'loopback' : `stated ${statedText.trim()}`})` : '—'}</dd>
           </dl>

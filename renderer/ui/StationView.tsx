@@ -26,15 +26,15 @@ function CalibrationHistory({ history, problem }: { history: History | null; pro
       {history && history.length === 0 && <p className="hint">No calibration has been recorded on this station.</p>}
       {history && history.length > 0 && (
         <div className="table-scroll">
-          <table data-testid="calibration-history">
+          <table className="history" data-testid="calibration-history">
             <thead>
               <tr>
                 <th>Made</th>
                 <th>By</th>
                 <th>Input → output</th>
                 <th>Rate</th>
-                <th>In, dBu at 0 dBFS</th>
-                <th>Out, dBu at 0 dBFS</th>
+                <th className="number">In, dBu at 0 dBFS</th>
+                <th className="number">Out, dBu at 0 dBFS</th>
                 <th>Chain check</th>
               </tr>
             </thead>
@@ -49,11 +49,11 @@ function CalibrationHistory({ history, problem }: { history: History | null; pro
                       {calibration.setup.inputDeviceLabel} (ch {calibration.setup.inputChannel + 1}) → {calibration.setup.outputDeviceLabel}
                     </td>
                     <td>{calibration.setup.sampleRateHz / 1000} kHz</td>
-                    <td>
+                    <td className="number">
                       {signedFixed(calibration.input.dbuAtFullScale, 2)}
                       {calibration.input.method === 'stated' ? ' (stated)' : ''}
                     </td>
-                    <td>{signedFixed(calibration.output.dbuAtFullScale, 2)}</td>
+                    <td className="number">{signedFixed(calibration.output.dbuAtFullScale, 2)}</td>
                     <td className={latest ? (latest.judgement.pass ? 'pass' : 'fail') : ''}>
                       {latest ? (latest.judgement.pass ? 'PASS' : 'FAIL') : 'not run'}
                       {chainChecks.length > 1 ? ` (${chainChecks.length} runs)` : ''}
