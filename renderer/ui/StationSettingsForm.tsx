@@ -113,7 +113,7 @@ export function StationSettingsForm({
           <input data-testid="station-name" value={stationName} onChange={(e) => setStationName(e.target.value)} maxLength={64} autoComplete="off" />
         </label>
         <label>
-          Mains frequency (for hum)
+          Mains frequency at this station (the bench starts with it)
           <select data-testid="station-mains" value={mainsHz} onChange={(e) => setMainsHz(Number(e.target.value) as 50 | 60)}>
             <option value={50}>50 Hz</option>
             <option value={60}>60 Hz</option>

@@ -159,6 +159,14 @@ describe('level calibration in the Station view', () => {
     await page.getByTestId('station-back').click();
     await expect.poll(() => page.getByTestId('serial-input').isVisible(), POLL).toBe(true);
     await shot(page, 'bench-badge');
+
+    // Another input channel is another setup: the calibration no longer holds for it (the issue:
+    // a change of device or sample rate invalidates a calibration; the channel is part of the setup).
+    await page.getByRole('button', { name: 'Stop capture' }).click();
+    await page.getByLabel('Input channel carrying the unit').selectOption('1');
+    await page.getByRole('button', { name: 'Start capture' }).click();
+    await expect.poll(() => page.getByTestId('calibration-badge').getAttribute('data-state'), POLL).toBe('setup-changed');
+    await shot(page, 'bench-setup-changed');
   });
 });
 
