@@ -13,6 +13,7 @@ import { fileURLToPath } from 'node:url';
 import type { Page } from 'playwright-core';
 import { openBench, POLL, type Bench } from '../harness/bench-harness.ts';
 import { writeToneWav } from '../support/wav-files.ts';
+import { DEMO_PROCEDURE } from '../../shared/procedures/demo-procedure.ts';
 
 const benches: Bench[] = [];
 const folder = mkdtempSync(join(tmpdir(), 'trimbench-station-'));
@@ -167,6 +168,41 @@ describe('level calibration in the Station view', () => {
     await page.getByRole('button', { name: 'Start capture' }).click();
     await expect.poll(() => page.getByTestId('calibration-badge').getAttribute('data-state'), POLL).toBe('setup-changed');
     await shot(page, 'bench-setup-changed');
+  });
+});
+
+describe('a procedure that requires a calibration', () => {
+  it('refuses to start a unit on an uncalibrated station in main’s words, and starts it once the setup in use is calibrated', { timeout: 150_000 }, async () => {
+    const wav = writeToneWav(join(folder, 'tone-1k.wav'), { frequencyHz: REFERENCE_HZ, levelDbfs: CAPTURED_DBFS, seconds: 1 });
+    const bench = await benchWith(wav);
+    // The demo procedure again, as a revision that requires a valid calibration (invented, for this test).
+    bench.station.records.ensureProcedure({ ...DEMO_PROCEDURE, revision: 'CAL', requiresCalibration: true });
+    const page = await bench.openApp();
+    await page.getByRole('button', { name: 'Start capture' }).click();
+    await expect.poll(() => page.getByTestId('capture-status').isVisible(), POLL).toBe(true);
+    await page.getByLabel('Operator').fill('A. Tester');
+    await page.getByLabel('Procedure').selectOption({ label: `${DEMO_PROCEDURE.code} rev CAL` });
+    await page.getByTestId('serial-input').fill('MG20-2611-0301');
+    await page.getByTestId('serial-input').press('Enter');
+    // Main's refusal, shown as it words it: which procedure, which unit, why and what to do.
+    await expect.poll(() => page.getByTestId('serial-message').textContent(), POLL).toMatch(/requires a calibrated station.*not calibrated.*Calibrate/);
+    await shot(page, 'run-refused');
+
+    // Calibrate this very setup (fixed input, the quickest way), then the same unit starts.
+    await page.getByTestId('calibration-badge').click();
+    await page.getByTestId('wizard-begin').click();
+    await page.getByTestId('meter-entry').fill('+4 dBu');
+    await page.getByTestId('wizard-next').click();
+    await page.getByTestId('method-stated').check();
+    await page.getByTestId('stated-entry').fill('+18 dBu');
+    await page.getByTestId('wizard-next').click();
+    await page.getByTestId('record-calibration').click();
+    await expect.poll(() => page.getByTestId('calibration-done').isVisible(), POLL).toBe(true);
+    await page.getByTestId('station-back').click();
+    await page.getByLabel('Procedure').selectOption({ label: `${DEMO_PROCEDURE.code} rev CAL` });
+    await page.getByTestId('serial-input').fill('MG20-2611-0301');
+    await page.getByTestId('serial-input').press('Enter');
+    await expect.poll(() => page.getByTestId('run-serial').textContent(), POLL).toBe('MG20-2611-0301');
   });
 });
 
