@@ -1,5 +1,7 @@
 import { useCallback, useEffect, useMemo, useRef, useState } from 'react';
-import type { RunDetail, Station, StoredProcedure } from '../../shared/ipc/contract.ts';
+import type { RunDetail, Station, StationCalibration, StoredProcedure } from '../../shared/ipc/contract.ts';
+import { calibrationStatus, type AudioSetup as StationAudioSetup } from '../../shared/calibration/station-calibration.ts';
+import type { StationSettings } from '../../shared/calibration/station-settings.ts';
 import type { Reading } from '../../shared/measurement/reading.ts';
 import type { LiveSeries } from '../../shared/trim/trim-assistant.ts';
 import { NoCoherentFrequency, planTestFrequency } from '../../shared/measurement/frequency-planner.ts';
@@ -10,10 +12,12 @@ import { BenchAudio, DEMO_INPUT, listDevices, type AudioDevices } from '../audio
 import { problemText } from '../problem-text.ts';
 import type { GeneratorCommand, MeterSettings } from '../worker/messages.ts';
 import { AudioSetup, type AudioChoice } from './AudioSetup.tsx';
+import { CalibrationBadge } from './CalibrationBadge.tsx';
 import { GeneratorControls } from './GeneratorControls.tsx';
 import { LiveReadout } from './LiveReadout.tsx';
 import { SafetyNotice } from './SafetyNotice.tsx';
 import { SpectrumPlot } from './SpectrumPlot.tsx';
+import { StationView } from './StationView.tsx';
 import { TrimPanel, type UnsettledChoice } from './TrimPanel.tsx';
 import { UnitEntry } from './UnitEntry.tsx';
 import { UnitSheet } from './UnitSheet.tsx';
@@ -60,13 +64,32 @@ export function App() {
     [choice.channel, choice.mainsHz, choice.sharedClock, generator.on, generator.frequencyHz],
   );
 
+  /** The chosen audio setup in the words a calibration stores; `rateHz` is the rate it runs at. */
+  const describeChoice = useCallback(
+    (rateHz: number): StationAudioSetup => {
+      const label = (id: string, list: MediaDeviceInfo[] | undefined, fallback: string) =>
+        id === DEMO_INPUT ? 'Demo bench' : (list?.find((d) => d.deviceId === id)?.label || fallback);
+      return {
+        inputDeviceId: choice.inputDeviceId,
+        inputDeviceLabel: label(choice.inputDeviceId, devices?.inputs, choice.inputDeviceId === '' ? 'System default input' : 'Input'),
+        inputChannel: choice.channel,
+        outputDeviceId: choice.outputDeviceId,
+        outputDeviceLabel: label(choice.outputDeviceId, devices?.outputs, choice.outputDeviceId === '' ? 'System default output' : 'Output'),
+        sampleRateHz: rateHz,
+      };
+    },
+    [choice.inputDeviceId, choice.outputDeviceId, choice.channel, devices],
+  );
+
   const [reading, setReading] = useState<Reading | null>(null);
   /** When the latest reading arrived (ms): a stream that stops delivering must not leave a "settled" reading behind. */
   const [readingAt, setReadingAt] = useState(0);
   const [spectrum, setSpectrum] = useState<{ hz: Float32Array; dbfs: Float32Array } | null>(null);
 
   const [detail, setDetail] = useState<RunDetail | null>(null);
-  const [view, setView] = useState<'bench' | 'sheet'>('bench');
+  const [view, setView] = useState<'bench' | 'sheet' | 'station'>('bench');
+  /** The station's settings, latest calibration and chain check, as main holds them. */
+  const [stationCalibration, setStationCalibration] = useState<StationCalibration | null>(null);
   const [sheetPdfPath, setSheetPdfPath] = useState<string | null>(null);
   const [sheetMessage, setSheetMessage] = useState<string | null>(null);
 
@@ -79,8 +102,39 @@ export function App() {
       .catch((error: unknown) =>
         setRecordsProblem(problemText(error, 'The station and its procedures could not be loaded', 'Restart Trimbench; if this stays, report it.')),
       );
+    call('getStationCalibration', {})
+      .then(setStationCalibration)
+      .catch((error: unknown) =>
+        setRecordsProblem(problemText(error, 'The station settings could not be read', 'Correct or restore the settings file named, then restart Trimbench.')),
+      );
     void refreshDevices();
   }, []);
+
+  // At start the station's saved mains and default audio are the choice, once its devices are
+  // listed (a default whose device is not connected is left aside: the bench keeps the system's).
+  const defaultAudioApplied = useRef(false);
+  useEffect(() => {
+    if (defaultAudioApplied.current || !stationCalibration || !devices) return;
+    defaultAudioApplied.current = true;
+    const { defaultAudio, mainsHz } = stationCalibration.settings;
+    const present = (id: string, list: MediaDeviceInfo[]) => id === '' || list.some((d) => d.deviceId === id);
+    const usable =
+      defaultAudio !== null &&
+      (defaultAudio.inputDeviceId === DEMO_INPUT || present(defaultAudio.inputDeviceId, devices.inputs)) &&
+      present(defaultAudio.outputDeviceId, devices.outputs);
+    setChoice((current) => ({
+      ...current,
+      mainsHz,
+      ...(usable && defaultAudio
+        ? {
+            inputDeviceId: defaultAudio.inputDeviceId,
+            outputDeviceId: defaultAudio.outputDeviceId,
+            channel: defaultAudio.inputChannel,
+            sampleRateHz: defaultAudio.sampleRateHz,
+          }
+        : {}),
+    }));
+  }, [stationCalibration, devices]);
 
   async function refreshDevices() {
     try {
@@ -210,7 +264,8 @@ export function App() {
   }, [audio, meterSettings]);
 
   async function openRun(request: { serial: string; procedureId: number; operator: string }) {
-    const opened = await call('openRun', request);
+    // Main refuses a procedure that requires a calibration unless it holds for this setup.
+    const opened = await call('openRun', { ...request, setup });
     setDetail(opened);
     const procedure = procedures.find((p) => p.id === opened.run.procedureId)?.definition;
     if (procedure) {
@@ -348,6 +403,55 @@ export function App() {
 
   const procedure = detail ? procedures.find((p) => p.id === detail.run.procedureId)?.definition : undefined;
 
+  async function saveStationSettings(next: StationSettings) {
+    const saved = await call('saveStationSettings', next);
+    setStationCalibration(saved);
+    setChoice((current) => ({ ...current, mainsHz: saved.settings.mainsHz }));
+    // A new name shows in the top bar at once (main reads it from the settings).
+    setStation((current) => (current ? { ...current, stationName: saved.settings.stationName } : current));
+  }
+
+  // What a calibration holds for: the devices and the rate capture runs at (none without capture).
+  const captureRate = audio?.sampleRateHz ?? null;
+  const setup = useMemo(() => (captureRate === null ? null : describeChoice(captureRate)), [captureRate, describeChoice]);
+  const choiceSetup = useMemo(() => describeChoice(captureRate ?? choice.sampleRateHz), [captureRate, choice.sampleRateHz, describeChoice]);
+  const status = stationCalibration
+    ? calibrationStatus(stationCalibration.calibration, setup, new Date(), stationCalibration.settings.calibrationExpiryDays)
+    : null;
+
+  const stationHeadingFocus = useRef(false);
+  function openStation() {
+    stationHeadingFocus.current = true;
+    setView('station');
+  }
+  function leaveStation() {
+    // No reference tone outlives the view it was played from.
+    mute();
+    setView('bench');
+  }
+  useEffect(() => {
+    if (view !== 'station' || !stationHeadingFocus.current) return;
+    stationHeadingFocus.current = false;
+    // Keyboard: the view starts at its heading, so Tab runs through it from the top.
+    document.getElementById('station-heading')?.focus();
+  }, [view]);
+
+  const audioPanel = (
+    <AudioSetup
+      devices={devices}
+      choice={choice}
+      onChange={setChoice}
+      capturing={audio !== null}
+      starting={starting}
+      capturePath={audio?.capturePath ?? null}
+      sampleRateHz={audio?.sampleRateHz ?? null}
+      discontinuities={discontinuities}
+      onStart={() => void startCapture()}
+      onStop={stopCapture}
+      onRefresh={() => void refreshDevices()}
+    />
+  );
+
   if (view === 'sheet' && detail) {
     return (
       <UnitSheet
@@ -371,6 +475,13 @@ export function App() {
       <header className="topbar">
         <h1>Trimbench</h1>
         <span className="hint">{station ? `Station ${station.stationName}` : ''}</span>
+        <CalibrationBadge status={status} onOpen={openStation} />
+        {/* In the Station view its own "Back to the bench" takes this place. */}
+        {view !== 'station' && (
+          <button type="button" data-testid="open-station" onClick={openStation}>
+            Station…
+          </button>
+        )}
         <button type="button" className={generator.on ? 'mute live' : 'mute'} onClick={mute} data-testid="mute" disabled={!generator.on}>
           {generator.on ? 'Mute generator (Esc)' : 'Generator muted'}
         </button>
@@ -386,65 +497,73 @@ export function App() {
           {audioProblem}
         </p>
       )}
-      <main className="columns">
-        <div className="column">
-          <AudioSetup
-            devices={devices}
-            choice={choice}
-            onChange={setChoice}
-            capturing={audio !== null}
-            starting={starting}
-            capturePath={audio?.capturePath ?? null}
-            sampleRateHz={audio?.sampleRateHz ?? null}
-            discontinuities={discontinuities}
-            onStart={() => void startCapture()}
-            onStop={stopCapture}
-            onRefresh={() => void refreshDevices()}
-          />
-          <GeneratorControls
-            command={generator}
-            set={generatorSet}
-            onChange={applyGenerator}
-            onToggle={toggleGenerator}
-            available={audio !== null}
-            note={stimulusNote}
-          />
-        </div>
-        <div className="column wide">
-          <LiveReadout
-            reading={reading}
-            generatorOn={generator.on}
-            limitThdDb={detail && procedure ? procedure.trim.limitThdDb : null}
-            harmonicCount={HARMONIC_COUNT}
-            stimulusCheck={detail && procedure && reading ? checkStimulus(reading, generator, procedure.trim) : null}
-          />
-          <SpectrumPlot spectrumHz={spectrum?.hz ?? null} spectrumDbfs={spectrum?.dbfs ?? null} />
-        </div>
-        <div className="column">
-          {detail && procedure ? (
-            <TrimPanel
-              key={detail.run.id}
-              detail={detail}
-              procedure={procedure}
-              reading={reading}
-              readingAt={readingAt}
-              onRecord={recordPoint}
-              positionInputRef={positionInputRef}
-              generator={generator}
-              generatorAvailable={audio !== null}
-              onToggleGenerator={toggleGenerator}
-              onWarmCheck={recordWarmCheck}
-              onPositionChange={setTrimmerTurns}
-              onFinish={finishRun}
-              onIncludePoint={includePoint}
-              onWarningChanges={logWarningChanges}
-              onClose={closeUnit}
+      {view === 'station' ? (
+        <StationView
+          stationCalibration={stationCalibration}
+          status={status}
+          audioPanel={audioPanel}
+          audio={audio}
+          reading={reading}
+          readingAt={readingAt}
+          generatorOn={generator.on}
+          applyGenerator={applyGenerator}
+          mute={mute}
+          setup={setup}
+          choiceSetup={choiceSetup}
+          procedures={procedures}
+          onSaveSettings={saveStationSettings}
+          onRecorded={setStationCalibration}
+          onBack={leaveStation}
+        />
+      ) : (
+        <main className="columns">
+          <div className="column">
+            {audioPanel}
+            <GeneratorControls
+              command={generator}
+              set={generatorSet}
+              onChange={applyGenerator}
+              onToggle={toggleGenerator}
+              available={audio !== null}
+              note={stimulusNote}
             />
-          ) : (
-            <UnitEntry procedures={procedures} onOpen={openRun} busy={procedures.length === 0} serialInputRef={serialInputRef} />
-          )}
-        </div>
-      </main>
+          </div>
+          <div className="column wide">
+            <LiveReadout
+              reading={reading}
+              generatorOn={generator.on}
+              limitThdDb={detail && procedure ? procedure.trim.limitThdDb : null}
+              harmonicCount={HARMONIC_COUNT}
+              stimulusCheck={detail && procedure && reading ? checkStimulus(reading, generator, procedure.trim) : null}
+            />
+            <SpectrumPlot spectrumHz={spectrum?.hz ?? null} spectrumDbfs={spectrum?.dbfs ?? null} />
+          </div>
+          <div className="column">
+            {detail && procedure ? (
+              <TrimPanel
+                key={detail.run.id}
+                detail={detail}
+                procedure={procedure}
+                reading={reading}
+                readingAt={readingAt}
+                onRecord={recordPoint}
+                positionInputRef={positionInputRef}
+                generator={generator}
+                generatorAvailable={audio !== null}
+                onToggleGenerator={toggleGenerator}
+                onWarmCheck={recordWarmCheck}
+                onPositionChange={setTrimmerTurns}
+                onFinish={finishRun}
+                onIncludePoint={includePoint}
+                onWarningChanges={logWarningChanges}
+                onClose={closeUnit}
+              />
+            ) : (
+              <UnitEntry procedures={procedures} onOpen={openRun} busy={procedures.length === 0} serialInputRef={serialInputRef} />
+            )}
+          </div>
+        </main>
+      )}
     </div>
   );
 }
