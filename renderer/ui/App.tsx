@@ -17,6 +17,9 @@ import { SpectrumPlot } from './SpectrumPlot.tsx';
 import { TrimPanel, type UnsettledChoice } from './TrimPanel.tsx';
 import { UnitEntry } from './UnitEntry.tsx';
 import { UnitSheet } from './UnitSheet.tsx';
+// TEMPORARY (R2's worktree only): the chain check panel behind a top-bar button for testing; R1's Station view renders it at merge.
+import { ChainCheckPanel } from './ChainCheckPanel.tsx';
+import type { StationCalibration } from '../../shared/ipc/contract.ts';
 
 const HARMONIC_COUNT = 10;
 
@@ -61,6 +64,9 @@ export function App() {
   );
 
   const [reading, setReading] = useState<Reading | null>(null);
+  // TEMPORARY (R2): the chain check under test.
+  const [chainTest, setChainTest] = useState<StationCalibration | null>(null);
+  const [chainOperator, setChainOperator] = useState('');
   /** When the latest reading arrived (ms): a stream that stops delivering must not leave a "settled" reading behind. */
   const [readingAt, setReadingAt] = useState(0);
   const [spectrum, setSpectrum] = useState<{ hz: Float32Array; dbfs: Float32Array } | null>(null);
@@ -371,6 +377,16 @@ export function App() {
       <header className="topbar">
         <h1>Trimbench</h1>
         <span className="hint">{station ? `Station ${station.stationName}` : ''}</span>
+        {/* TEMPORARY (R2): opens the chain check for testing. */}
+        <button
+          type="button"
+          onClick={() => {
+            if (chainTest) return setChainTest(null);
+            void call('getStationCalibration', {}).then(setChainTest, (error: unknown) => setRecordsProblem(problemText(error, 'x', 'y')));
+          }}
+        >
+          Chain check (test)
+        </button>
         <button type="button" className={generator.on ? 'mute live' : 'mute'} onClick={mute} data-testid="mute" disabled={!generator.on}>
           {generator.on ? 'Mute generator (Esc)' : 'Generator muted'}
         </button>
@@ -385,6 +401,31 @@ export function App() {
         <p className="problem banner" role="alert" data-testid="audio-problem">
           {audioProblem}
         </p>
+      )}
+      {chainTest && (
+        <div>
+          <label>
+            Chain check operator <input value={chainOperator} onChange={(e) => setChainOperator(e.target.value)} />
+          </label>
+          <ChainCheckPanel
+            audio={audio}
+            reading={reading}
+            readingAt={readingAt}
+            applyGenerator={applyGenerator}
+            mute={mute}
+            setup={
+              audio
+                ? { inputDeviceId: choice.inputDeviceId, inputDeviceLabel: choice.inputDeviceId, inputChannel: choice.channel, outputDeviceId: choice.outputDeviceId ?? '', outputDeviceLabel: '', sampleRateHz: audio.sampleRateHz }
+                : null
+            }
+            calibration={chainTest.calibration}
+            chainCheck={chainTest.chainCheck}
+            limits={chainTest.settings.chainLimits}
+            procedures={procedures}
+            operator={chainOperator}
+            onRecorded={setChainTest}
+          />
+        </div>
       )}
       <main className="columns">
         <div className="column">
