@@ -204,25 +204,28 @@ export function useChainCheck(inputs: ChainCheckInputs) {
       const since = Date.now();
       const timeoutS = toneTimeoutS(frequencyHz);
       let lastSeen: Reading | null = null;
-      return nextReading(
-        (r) => {
-          lastSeen = r;
-          return (
-            r.settled &&
-            !r.flags.includes('no-signal') &&
-            Math.abs(r.measuredFundamentalHz - frequencyHz) <= (frequencyHz * FREQUENCY_MATCH_PERCENT) / 100
-          );
-        },
-        since,
-        timeoutS,
-        () => {
+      const accept = (r: Reading) => {
+        lastSeen = r;
+        return (
+          r.settled &&
+          !r.flags.includes('no-signal') &&
+          Math.abs(r.measuredFundamentalHz - frequencyHz) <= (frequencyHz * FREQUENCY_MATCH_PERCENT) / 100
+        );
+      };
+      const timeoutMessage = () => {
           const seen = lastSeen as Reading | null;
           const what = !seen || seen.flags.includes('no-signal')
             ? 'no signal came back'
             : `the input read ${hzText(seen.measuredFundamentalHz)}${seen.settled ? '' : ', not settled'}`;
           return `No settled reading of ${hzText(frequencyHz)} within ${timeoutS} s (${what}): check the loop cable from the output to input channel ${latest.current.channel + 1}, then run the chain check again.`;
-        },
-      );
+      };
+      const first = await nextReading(accept, since, timeoutS, timeoutMessage);
+      // The reading after the first settled one: its frame lies a hop further from whatever came
+      // before the tone (a settled trio's oldest frame may still hold a sliver of it).
+      return nextReading(accept, Date.now() - STALE_MS, 2, timeoutMessage).catch((error: unknown) => {
+        if (error instanceof StepFailed) return first;
+        throw error;
+      });
     };
 
     try {
