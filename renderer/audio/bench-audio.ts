@@ -296,6 +296,8 @@ export class BenchAudio {
   async captureRoundTrip(stimulus: Float32Array, captureFrames: number, channel: number, timeoutMs = 10_000): Promise<Float32Array> {
     if (this.stopped) throw new AudioProblem('Capture has stopped; press Start capture, then run the chain check again.');
     const samples = stimulus.slice();
+    // The burst is an intended change like any stimulus: no reading spans it.
+    this.worker.postMessage({ type: 'stimulus-changed' } satisfies ToWorker);
     const captured = new Promise<Float32Array>((resolve, reject) => {
       const timer = setTimeout(() => {
         cleanup();

@@ -15,7 +15,7 @@ import type { BenchAudio } from '../audio/bench-audio.ts';
 import { problemText } from '../problem-text.ts';
 import type { GeneratorCommand } from '../worker/messages.ts';
 import { ChainCheckPlot } from './ChainCheckPlot.tsx';
-import { hzText, responseFrequencies, useChainCheck, workingPoints, type ResponseSpacing } from './useChainCheck.ts';
+import { dbText, hzText, responseFrequencies, useChainCheck, workingPoints, type ResponseSpacing } from './useChainCheck.ts';
 import './chain-check.css';
 
 export interface ChainCheckPanelProps {
@@ -105,7 +105,7 @@ export function ChainCheckPanel(props: ChainCheckPanelProps) {
       <h2>Chain check</h2>
       <p className="chain-note">
         Loop the output to input channel {channel + 1} with a cable, and unplug speakers and headphones: the check plays tones up to{' '}
-        {Math.max(...points.map((p) => p.levelDbfs))} dBFS and a short burst of noise. Follow your site's rules and local codes for the equipment on the bench.
+        {dbText(Math.max(...points.map((p) => p.levelDbfs)))} dBFS and a short burst of noise. Follow your site's rules and local codes for the equipment on the bench.
       </p>
       {audio?.isDemo && <p className="chain-note" data-testid="chain-check-demo">{DEMO_CHAIN_LABEL}. Its figures are invented.</p>}
       {changed.length > 0 && (
@@ -130,7 +130,7 @@ export function ChainCheckPanel(props: ChainCheckPanelProps) {
                     return next;
                   })}
                 />
-                {hzText(p.frequencyHz)}, {p.levelDbfs} dBFS <span className="chain-source">({p.source})</span>
+                {hzText(p.frequencyHz)}, {dbText(p.levelDbfs)} dBFS <span className="chain-source">({p.source})</span>
               </label>
             ))}
           </div>

@@ -149,7 +149,7 @@ export function useChainCheck(inputs: ChainCheckInputs) {
     const responseHz = plan.response ? responseFrequencies(sampleRateHz, plan.response) : [];
     type Step = { label: string; estimateS: number };
     const steps: Step[] = [
-      ...plan.residuals.map((p) => ({ label: `Residual at ${hzText(p.frequencyHz)}, ${p.levelDbfs} dBFS`, estimateS: secondsForTone(sampleRateHz, p.frequencyHz) })),
+      ...plan.residuals.map((p) => ({ label: `Residual at ${hzText(p.frequencyHz)}, ${dbText(p.levelDbfs)} dBFS`, estimateS: secondsForTone(sampleRateHz, p.frequencyHz) })),
       ...responseHz.map((f) => ({ label: `Response at ${hzText(f)}`, estimateS: secondsForTone(sampleRateHz, f) })),
       ...(plan.noise ? [{ label: 'Noise floor, generator off', estimateS: 2.5 }] : []),
       ...(plan.latency ? [{ label: 'Round-trip latency', estimateS: 1.5 }] : []),
@@ -170,6 +170,13 @@ export function useChainCheck(inputs: ChainCheckInputs) {
     };
     const ticker = setInterval(report, 500);
     if (audio.isDemo) audio.setDemoMode('loopback');
+
+    // Afterwards the generator rests, muted, at 1 kHz and the working level: the next Turn on must
+    // not play the last step (a 20 kHz tone) into whatever is connected by then.
+    const restGenerator = (p: ChainCheckPlan) => {
+      const level = p.residuals.length > 0 ? Math.max(...p.residuals.map((r) => r.levelDbfs)) : DEFAULT_WORKING_DBFS;
+      latest.current.applyGenerator({ frequencyHz: RESPONSE_REFERENCE_HZ, levelDbfs: level, on: false });
+    };
 
     /** The first reading after `since` that `accept` takes, or a StepFailed naming the step after `timeoutS`. */
     const nextReading = (accept: (r: Reading) => boolean, since: number, timeoutS: number, timeoutMessage: () => string) =>
@@ -316,9 +323,11 @@ export function useChainCheck(inputs: ChainCheckInputs) {
         latencyRefusal,
       };
       latest.current.mute();
+      restGenerator(plan);
       setRun({ state: 'finished', result });
     } catch (error) {
       latest.current.mute();
+      restGenerator(plan);
       if (error instanceof Aborted) setRun({ state: 'stopped', message: error.message });
       else if (error instanceof StepFailed) setRun({ state: 'failed', message: `${error.message} Nothing was stored.` });
       else setRun({ state: 'failed', message: problemText(error, 'The chain check stopped', 'Nothing was stored; run it again.') });
@@ -357,6 +366,11 @@ function raceAbort<T>(promise: Promise<T>, signal: AbortSignal): Promise<T> {
     signal.addEventListener('abort', onAbort, { once: true });
     promise.then(resolve, reject).finally(() => signal.removeEventListener('abort', onAbort));
   });
+}
+
+/** A dB figure with a true minus sign. */
+export function dbText(db: number): string {
+  return String(db).replace('-', '−');
 }
 
 export function hzText(hz: number): string {

@@ -3,7 +3,7 @@
 // known from how it was made. Every expected figure is computed here from the construction and a
 // textbook formula; none is read from the app first.
 
-import { afterAll, describe, expect, it } from 'vitest';
+import { afterAll, afterEach, describe, expect, it } from 'vitest';
 import { join } from 'node:path';
 import type { Page } from 'playwright-core';
 import { openBench, type Bench, POLL } from '../harness/bench-harness.ts';
@@ -13,8 +13,9 @@ import { tempDir } from '../support/station.ts';
 import { CHAIN_WAV_RATE_HZ, CLEAN_TONE, NOISE_ONLY, steppedSineDeviation, writeCleanToneWav, writeNoiseWav, writeSteppedSineWav } from '../support/chain-wavs.ts';
 
 const benches: Bench[] = [];
-afterAll(async () => {
-  for (const bench of benches) await bench.close();
+// One bench at a time: an earlier one's real-time capture would slow the next test's readings.
+afterEach(async () => {
+  for (const bench of benches.splice(0)) await bench.close();
 });
 const files = tempDir();
 afterAll(() => files.remove());
@@ -63,9 +64,12 @@ async function openWith(captureWav: string | null): Promise<Page> {
   return page;
 }
 
+/** The finished run's result; a run that stopped with a message fails the test with that message. */
 async function finished(page: Page, timeoutMs: number): Promise<ChainCheckResult> {
   const result = page.getByTestId('chain-check-result');
-  await result.waitFor({ timeout: timeoutMs });
+  const problem = page.getByTestId('chain-check-problem');
+  await result.or(problem).waitFor({ timeout: timeoutMs });
+  if (await problem.isVisible()) throw new Error(`the chain check stopped: ${await problem.textContent()}`);
   return JSON.parse((await result.getAttribute('data-result'))!) as ChainCheckResult;
 }
 
@@ -106,7 +110,10 @@ describe('chain check on the demo bench as a loopback (shared/sim/demo-chain.ts)
     expect(result.residuals.length).toBeGreaterThanOrEqual(2); // the demo procedure's 14 Hz and 1 kHz
     for (const r of result.residuals) {
       const { h1, h2, h3 } = harmonics(r.generatorDbfs, r.frequencyHz);
-      expect(r.thdDb, `THD at ${r.frequencyHz} Hz`).toBeCloseTo(20 * Math.log10(Math.hypot(h2, h3) / h1), 0);
+      // Within 1 dB: the chain's noise in a harmonic's fitted bins (about 20 dB under H2 in the 8192-sample
+      // frame of a 1 kHz tone: σ²·ENBW/(fs/2) against a2·A²/2) moves one reading's THD by up to about 0.7 dB.
+      const expectedThd = 20 * Math.log10(Math.hypot(h2, h3) / h1);
+      expect(Math.abs(r.thdDb - expectedThd), `THD at ${r.frequencyHz} Hz: ${r.thdDb} dB, expected ${expectedThd} dB`).toBeLessThan(1);
       if (r.frequencyHz === 1000) {
         // THD+N adds the noise in the 20 Hz–20 kHz band (white, σ², its share of 0..24 kHz).
         const noiseMs = (p.noiseRms ** 2 * (20000 - 20)) / (rate / 2);

@@ -48,6 +48,8 @@ export const STEPPED_SINE = {
   levelDbfs: -12,
   deviationDb: { 10: -1.5, 16: -0.6, 20: -0.3, 31.5: -0.1, 16000: 0.25 } as Record<number, number>,
   firstHoldS: 12,
+  /** Below 20 Hz a frame is 1.5 s at 44.1 kHz: such a step is held longer. */
+  lowHoldS: 4,
   holdS: 3,
   gapS: 0.3,
 } as const;
@@ -59,7 +61,8 @@ export function steppedSineDeviation(hz: number): number {
 export function writeSteppedSineWav(path: string, frequencies: readonly number[]): string {
   const parts: Float32Array[] = [];
   frequencies.forEach((hz, i) => {
-    const hold = Math.round((i === 0 ? STEPPED_SINE.firstHoldS : STEPPED_SINE.holdS) * CHAIN_WAV_RATE_HZ);
+    const holdS = i === 0 ? STEPPED_SINE.firstHoldS : hz < 20 ? STEPPED_SINE.lowHoldS : STEPPED_SINE.holdS;
+    const hold = Math.round(holdS * CHAIN_WAV_RATE_HZ);
     const amplitude = 10 ** ((STEPPED_SINE.levelDbfs + steppedSineDeviation(hz)) / 20);
     parts.push(Float32Array.from(tone(hold, CHAIN_WAV_RATE_HZ, hz, amplitude, { phaseDeg: -90 })));
     parts.push(new Float32Array(Math.round(STEPPED_SINE.gapS * CHAIN_WAV_RATE_HZ)));
