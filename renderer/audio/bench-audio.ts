@@ -3,10 +3,13 @@
 // chosen output, and streams the capture to the analysis worker.
 
 import type { Reading } from '../../shared/measurement/reading.ts';
-import type { GeneratorCommand } from '../worker/messages.ts';
+import type { DemoMode, GeneratorCommand, LatencyCapture, LatencyRequest } from '../worker/messages.ts';
 import generatorWorkletUrl from '../worklets/generator.worklet.ts?worker&url';
 import captureWorkletUrl from '../worklets/capture.worklet.ts?worker&url';
+import latencyWorkletUrl from '../worklets/latency.worklet.ts?worker&url';
 import type { FromWorker, MeterSettings, ToWorker } from '../worker/messages.ts';
+
+export type { DemoMode } from '../worker/messages.ts';
 import { problemText } from '../problem-text.ts';
 
 export class AudioProblem extends Error {
@@ -85,6 +88,8 @@ function describeOpenFailure(error: unknown): AudioProblem {
 
 export class BenchAudio {
   private stopped = false;
+  /** The pending latency capture of the demo bench (answered by the worker's `demo-captured`). */
+  private demoCapture: { resolve(samples: Float32Array): void; reject(error: Error): void } | null = null;
   private generatorCommand: GeneratorCommand = { frequencyHz: 1000, levelDbfs: -20, on: false };
 
   readonly capturePath: CapturePath;
@@ -211,7 +216,12 @@ export class BenchAudio {
       if (this.stopped) return;
       const message = event.data;
       if (message.type === 'reading') this.events.onReading(message.reading, message.spectrumHz, message.spectrumDbfs);
-      else if (message.type === 'status') this.events.onStatus(message);
+      else if (message.type === 'demo-captured') {
+        const pending = this.demoCapture;
+        this.demoCapture = null;
+        if (message.samples) pending?.resolve(message.samples);
+        else pending?.reject(new AudioProblem(message.refusal ?? 'The demo bench captured nothing.'));
+      } else if (message.type === 'status') this.events.onStatus(message);
       else if (message.type === 'capture-ended') this.fail('The capture stream ended: the input device may have been unplugged.');
       else this.fail(message.message);
     };
@@ -264,6 +274,73 @@ export class BenchAudio {
     if (!this.stopped) this.worker.postMessage({ type: 'trimmer-moved', turns } satisfies ToWorker);
   }
 
+  /** True on the demo bench (no device: the unit or the loopback is simulated in the worker). */
+  get isDemo(): boolean {
+    return this.device === null;
+  }
+
+  /**
+   * The demo bench as the simulated unit ('unit', the default) or as a loopback of an invented
+   * interface chain ('loopback', shared/sim/demo-chain.ts) while a chain check or a level
+   * calibration runs on it. No reading spans the switch. Does nothing on a real device.
+   */
+  setDemoMode(mode: DemoMode): void {
+    if (!this.stopped && this.isDemo) this.worker.postMessage({ type: 'demo-mode', mode } satisfies ToWorker);
+  }
+
+  /**
+   * Plays `stimulus` once on the output and resolves with `captureFrames` samples of the input
+   * channel, sample 0 captured in the same render quantum as the stimulus's first sample (the
+   * round trip then is the delay of the stimulus inside the capture). Mute the generator first.
+   */
+  async captureRoundTrip(stimulus: Float32Array, captureFrames: number, channel: number, timeoutMs = 10_000): Promise<Float32Array> {
+    if (this.stopped) throw new AudioProblem('Capture has stopped; press Start capture, then run the chain check again.');
+    const samples = stimulus.slice();
+    // The burst is an intended change like any stimulus: no reading spans it.
+    this.worker.postMessage({ type: 'stimulus-changed' } satisfies ToWorker);
+    const captured = new Promise<Float32Array>((resolve, reject) => {
+      const timer = setTimeout(() => {
+        cleanup();
+        reject(new AudioProblem(`No capture came back within ${Math.round(timeoutMs / 1000)} s of playing the latency stimulus; check the interface is running, then try again.`));
+      }, timeoutMs);
+      let cleanup = () => clearTimeout(timer);
+      const done = (result: Float32Array) => {
+        cleanup();
+        resolve(result);
+      };
+      const fail = (error: Error) => {
+        cleanup();
+        reject(error);
+      };
+      if (!this.device) {
+        this.demoCapture = { resolve: done, reject: fail };
+        this.worker.postMessage({ type: 'demo-play-once', samples, captureFrames } satisfies ToWorker, [samples.buffer]);
+        return;
+      }
+      const { context, stream } = this.device;
+      // A probe in the same audio graph plays and captures: one frame count for both, no clocks to align.
+      void context.audioWorklet
+        .addModule(latencyWorkletUrl)
+        .then(() => {
+          const probe = new AudioWorkletNode(context, 'trimbench-latency', { numberOfInputs: 1, numberOfOutputs: 1, outputChannelCount: [2] });
+          const source = context.createMediaStreamSource(stream);
+          source.connect(probe);
+          probe.connect(context.destination);
+          const previous = cleanup;
+          cleanup = () => {
+            previous();
+            source.disconnect();
+            probe.disconnect();
+            probe.port.onmessage = null;
+          };
+          probe.port.onmessage = (event: MessageEvent<LatencyCapture>) => done(event.data.captured);
+          probe.port.postMessage({ samples, captureFrames, channel } satisfies LatencyRequest, [samples.buffer]);
+        })
+        .catch((error: unknown) => fail(new AudioProblem(problemText(error, 'The latency probe could not be started', 'Run the chain check again; if this stays, report it.'))));
+    });
+    return captured;
+  }
+
   mute(): void {
     this.setGenerator({ ...this.generatorCommand, on: false });
   }
@@ -274,6 +351,8 @@ export class BenchAudio {
 
   stop(): void {
     if (this.stopped) return;
+    this.demoCapture?.reject(new AudioProblem('Capture stopped before the latency capture came back.'));
+    this.demoCapture = null;
     this.device?.generator.port.postMessage({ ...this.generatorCommand, on: false });
     this.stopped = true;
     navigator.mediaDevices?.removeEventListener('devicechange', this.checkOutputStillThere);

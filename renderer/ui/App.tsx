@@ -424,6 +424,9 @@ export function App() {
     stationHeadingFocus.current = true;
     setView('station');
   }
+  // The demo bench stands in for a loopback while the Station view is open (calibration and chain
+  // check practice), and for the simulated unit everywhere else: one owner, the view.
+  useEffect(() => audio?.setDemoMode(view === 'station' ? 'loopback' : 'unit'), [audio, view]);
   function leaveStation() {
     // No reference tone outlives the view it was played from.
     mute();

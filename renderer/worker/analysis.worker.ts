@@ -3,8 +3,9 @@
 
 import { TimestampContinuity } from '../../shared/capture/timestamp-continuity.ts';
 import { MeterSession } from '../../shared/measurement/meter-session.ts';
+import { DemoChain } from '../../shared/sim/demo-chain.ts';
 import { DemoUnit } from '../../shared/sim/demo-unit.ts';
-import type { AudioDataLike, FromWorker, MeterSettings, ToWorker, WorkletBlock } from './messages.ts';
+import type { AudioDataLike, DemoMode, FromWorker, MeterSettings, ToWorker, WorkletBlock } from './messages.ts';
 
 declare const self: DedicatedWorkerGlobalScope;
 
@@ -19,7 +20,10 @@ let spectrumHz = new Float32Array(SPECTRUM_COLUMNS + 1);
 const spectrumDbfs = new Float32Array(SPECTRUM_COLUMNS);
 const continuity = new TimestampContinuity();
 let stopRequested = false;
-let demo: { unit: DemoUnit; timer: ReturnType<typeof setInterval> } | null = null;
+// The demo bench: the simulated unit, or the invented loopback chain while a chain check or a
+// calibration runs on it. Both hear every generator command, so switching keeps the stimulus.
+let demo: { unit: DemoUnit; chain: DemoChain; timer: ReturnType<typeof setInterval> } | null = null;
+let demoMode: DemoMode = 'unit';
 let lastStatusAt = 0;
 
 const post = (message: FromWorker) => self.postMessage(message);
@@ -103,6 +107,7 @@ function listenToWorklet(port: MessagePort, sampleRateHz: number): void {
 /** Runs the simulated unit in real time, every 20 ms, as if it were a capture device (at most 200 ms a tick). */
 function startDemo(sampleRateHz: number): void {
   const unit = new DemoUnit(sampleRateHz);
+  const chain = new DemoChain(sampleRateHz);
   const slice = new Float32Array(Math.ceil(sampleRateHz * 0.2));
   let rendered = 0;
   const startedAt = performance.now();
@@ -112,11 +117,14 @@ function startDemo(sampleRateHz: number): void {
     const due = Math.floor(((performance.now() - startedAt) / 1000) * sampleRateHz) - rendered;
     const frames = Math.min(slice.length, Math.max(0, due));
     if (frames === 0) return;
-    unit.render(slice, frames);
+    if (demoMode === 'loopback') chain.render(slice, frames);
+    else unit.render(slice, frames);
     rendered += due > slice.length ? due : frames; // skip what could not be caught up
     analyse(slice, frames, sampleRateHz, 1);
+    const captured = chain.takeCapture();
+    if (captured) self.postMessage({ type: 'demo-captured', samples: captured, refusal: null } satisfies FromWorker, [captured.buffer]);
   }, 20);
-  demo = { unit, timer };
+  demo = { unit, chain, timer };
 }
 
 self.onmessage = (event: MessageEvent<ToWorker>) => {
@@ -143,6 +151,23 @@ self.onmessage = (event: MessageEvent<ToWorker>) => {
       break;
     case 'demo-stimulus':
       demo?.unit.setStimulus(message.setting);
+      demo?.chain.setStimulus(message.setting);
+      break;
+    case 'demo-mode':
+      if (demoMode !== message.mode) {
+        demoMode = message.mode;
+        // Another source from here on: no frame may span the switch.
+        session?.stimulusChanged();
+      }
+      break;
+    case 'demo-play-once':
+      if (!demo) {
+        post({ type: 'demo-captured', samples: null, refusal: 'The demo bench is not running, so nothing can be played through it. Press Start capture.' });
+      } else if (demoMode !== 'loopback') {
+        post({ type: 'demo-captured', samples: null, refusal: 'The demo bench is set to the simulated unit, not the loopback; the latency is measured on the loopback only.' });
+      } else {
+        demo.chain.playOnce(message.samples, message.captureFrames);
+      }
       break;
     case 'trimmer-moved':
       session?.trimmerMoved(demo ? demo.unit.setTrimmer(message.turns) : 0);

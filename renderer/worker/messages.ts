@@ -20,6 +20,13 @@ export type ToWorker =
   /** The demo bench: the simulated unit runs here in real time and is the capture. */
   | { type: 'demo-start'; sampleRateHz: number }
   | { type: 'demo-stimulus'; setting: GeneratorCommand }
+  /** The demo bench as the simulated unit, or as a loopback (an invented interface chain) for a chain check or calibration. */
+  | { type: 'demo-mode'; mode: DemoMode }
+  /**
+   * The demo bench plays `samples` once through its current mode and answers `demo-captured` with
+   * `captureFrames` samples captured from the burst's first sample on (the latency measurement).
+   */
+  | { type: 'demo-play-once'; samples: Float32Array; captureFrames: number }
   /**
    * The technician moved the trimmer (an intended break for any input, like a stimulus change);
    * the demo unit's virtual trimmer turns there.
@@ -31,6 +38,8 @@ export type FromWorker =
   | { type: 'reading'; reading: Reading; spectrumHz: Float32Array; spectrumDbfs: Float32Array }
   | { type: 'status'; discontinuities: number; channelCount: number; sampleRateHz: number }
   | { type: 'capture-ended' }
+  /** The answer to `demo-play-once`: the capture, or why there is none. */
+  | { type: 'demo-captured'; samples: Float32Array | null; refusal: string | null }
   | { type: 'error'; message: string };
 
 /** A captured block from the worklet: samples of the chosen channel, handed back after use. */
@@ -47,6 +56,20 @@ export interface AudioDataLike {
   readonly sampleRate: number;
   copyTo(destination: Float32Array, options: { planeIndex: number; format: 'f32-planar' }): void;
   close(): void;
+}
+
+export type DemoMode = 'unit' | 'loopback';
+
+/** Page → latency worklet: play these once and capture the input channel from the same frame on. */
+export interface LatencyRequest {
+  samples: Float32Array;
+  captureFrames: number;
+  channel: number;
+}
+
+/** Latency worklet → page: the capture, sample 0 at the stimulus's first sample. */
+export interface LatencyCapture {
+  captured: Float32Array;
 }
 
 /** What the page tells the generator worklet (or the demo unit). */
