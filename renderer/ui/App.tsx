@@ -1,5 +1,7 @@
 import { useCallback, useEffect, useMemo, useRef, useState } from 'react';
-import type { RunDetail, Station, StoredProcedure } from '../../shared/ipc/contract.ts';
+import type { RunDetail, Station, StationCalibration, StoredProcedure } from '../../shared/ipc/contract.ts';
+import { calibrationStatus, residualNear } from '../../shared/calibration/station-calibration.ts';
+import type { LevelCalibration } from '../../shared/levels.ts';
 import type { Reading } from '../../shared/measurement/reading.ts';
 import type { LiveSeries } from '../../shared/trim/trim-assistant.ts';
 import { NoCoherentFrequency, planTestFrequency } from '../../shared/measurement/frequency-planner.ts';
@@ -34,7 +36,6 @@ export function App() {
     mainsHz: 50,
     sharedClock: false,
   });
-  const [audio, setAudio] = useState<BenchAudio | null>(null);
   const audioRef = useRef<BenchAudio | null>(null);
   const [audioProblem, setAudioProblem] = useState<string | null>(null);
   const [discontinuities, setDiscontinuities] = useState(0);
@@ -49,6 +50,37 @@ export function App() {
   /** The position typed in the trim step; on the demo bench it turns the virtual trimmer. */
   const [trimmerTurns, setTrimmerTurns] = useState(0);
 
+  const [stationCalibration, setStationCalibration] = useState<StationCalibration | null>(null);
+  const [audio, setAudio] = useState<BenchAudio | null>(null);
+  // Levels are shown in dBu only while the station's calibration holds for the setup in use
+  // (judged on age alone until capture runs), and the chain's floor flags readings only then.
+  const captureSampleRateHz = audio?.sampleRateHz ?? null;
+  type InUse = { inputCalibration: LevelCalibration | null; outputCalibration: LevelCalibration | null; chainFloorThdDb: number | null };
+  const { inputCalibration, outputCalibration, chainFloorThdDb } = useMemo((): InUse => {
+    const none: InUse = { inputCalibration: null, outputCalibration: null, chainFloorThdDb: null };
+    const calibration = stationCalibration?.calibration ?? null;
+    if (!stationCalibration || !calibration) return none;
+    const setup =
+      captureSampleRateHz === null
+        ? null
+        : {
+            inputDeviceId: choice.inputDeviceId,
+            inputDeviceLabel: '',
+            inputChannel: choice.channel,
+            outputDeviceId: choice.outputDeviceId,
+            outputDeviceLabel: '',
+            sampleRateHz: captureSampleRateHz,
+          };
+    const status = calibrationStatus(calibration, setup, new Date(), stationCalibration.settings.calibrationExpiryDays);
+    if (status.state !== 'valid') return none;
+    const check = stationCalibration.chainCheck?.calibrationId === calibration.id ? stationCalibration.chainCheck : null;
+    return {
+      inputCalibration: { dbuAtFullScale: calibration.input.dbuAtFullScale },
+      outputCalibration: { dbuAtFullScale: calibration.output.dbuAtFullScale },
+      chainFloorThdDb: check ? (residualNear(check.result, generator.frequencyHz)?.thdDb ?? null) : null,
+    };
+  }, [stationCalibration, choice.inputDeviceId, choice.channel, choice.outputDeviceId, captureSampleRateHz, generator.frequencyHz]);
+
   const meterSettings = useMemo<MeterSettings>(
     () => ({
       channel: choice.channel,
@@ -56,8 +88,9 @@ export function App() {
       harmonicCount: HARMONIC_COUNT,
       mainsHz: choice.mainsHz,
       stimulusLocked: choice.sharedClock,
+      chainFloorThdDb,
     }),
-    [choice.channel, choice.mainsHz, choice.sharedClock, generator.on, generator.frequencyHz],
+    [choice.channel, choice.mainsHz, choice.sharedClock, generator.on, generator.frequencyHz, chainFloorThdDb],
   );
 
   const [reading, setReading] = useState<Reading | null>(null);
@@ -78,6 +111,11 @@ export function App() {
       })
       .catch((error: unknown) =>
         setRecordsProblem(problemText(error, 'The station and its procedures could not be loaded', 'Restart Trimbench; if this stays, report it.')),
+      );
+    call('getStationCalibration', {})
+      .then(setStationCalibration)
+      .catch((error: unknown) =>
+        setRecordsProblem(problemText(error, 'The station calibration could not be loaded', 'Levels are shown in dBFS only; restart Trimbench to try again.')),
       );
     void refreshDevices();
   }, []);
@@ -416,6 +454,7 @@ export function App() {
             generatorOn={generator.on}
             limitThdDb={detail && procedure ? procedure.trim.limitThdDb : null}
             harmonicCount={HARMONIC_COUNT}
+            inputCalibration={inputCalibration}
             stimulusCheck={detail && procedure && reading ? checkStimulus(reading, generator, procedure.trim) : null}
           />
           <SpectrumPlot spectrumHz={spectrum?.hz ?? null} spectrumDbfs={spectrum?.dbfs ?? null} />
@@ -428,6 +467,8 @@ export function App() {
               procedure={procedure}
               reading={reading}
               readingAt={readingAt}
+              inputCalibration={inputCalibration}
+              outputCalibration={outputCalibration}
               onRecord={recordPoint}
               positionInputRef={positionInputRef}
               generator={generator}

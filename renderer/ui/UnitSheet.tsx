@@ -4,6 +4,8 @@ import { fixed, localDateTime, localTime, percent, zoneLabel } from './format.ts
 import { TrimPlot } from './TrimPlot.tsx';
 import { WARNING_TITLES } from './TrimPanel.tsx';
 import { describeThermalMargin } from '../../shared/trim/trim-assistant.ts';
+import { AT_FLOOR_MARGIN_DB, type CalibrationUsed } from '../../shared/calibration/station-calibration.ts';
+import { dbuFromDbfs, formatLevel, signedFixed, type LevelCalibration } from '../../shared/levels.ts';
 
 export function UnitSheet({
   detail,
@@ -29,6 +31,12 @@ export function UnitSheet({
   const anyUnsettled = trimPoints.some((p) => !p.settled);
   const zone = zoneLabel(new Date(trimPoints[0]?.recordedAt ?? run.finishedAt ?? Date.now()));
   const printButton = useRef<HTMLButtonElement>(null);
+  // Levels in dBu with the calibration the run was measured with (stored with the run, not today's).
+  const used = detail.calibration;
+  const input: LevelCalibration | null = used ? { dbuAtFullScale: used.inputDbuAtFullScale } : null;
+  const output: LevelCalibration | null = used ? { dbuAtFullScale: used.outputDbuAtFullScale } : null;
+  const atFloor = (p: (typeof trimPoints)[number]) => p.reading.flags.includes('at-floor');
+  const anyAtFloor = trimPoints.some(atFloor);
 
   // The PDF's running header prints the page title on every page, so the title carries the serial.
   useEffect(() => {
@@ -92,14 +100,14 @@ export function UnitSheet({
           <dt>Stimulus</dt>
           <dd data-testid="sheet-stimulus">
             {final?.stimulusHz != null ? `${fixed(final.stimulusHz, 3)} Hz` : '—'}
-            {procedure && ` at ${fixed(procedure.trim.stimulusLevelDbfs, 1)} dBFS (procedure: ${procedure.trim.stimulusHz} Hz)`}
+            {procedure && ` at ${formatLevel(procedure.trim.stimulusLevelDbfs, output)} (procedure: ${procedure.trim.stimulusHz} Hz)`}
           </dd>
           <dt>Limit</dt>
           <dd>THD ≤ {fixed(run.limitThdDb, 1)} dB at the final trim point</dd>
           <dt>Final reading</dt>
           <dd>
             {final
-              ? `THD ${fixed(final.reading.thdDb, 1)} dB (${percent(final.reading.thdPercent)}) at ${fixed(final.reading.fundamental.frequencyHz, 2)} Hz, ${fixed(final.reading.fundamental.levelDbfs, 2)} dBFS, trimmer at ${fixed(final.position, 2)} ${unit}${final.settled ? '' : ' (unsettled)'}`
+              ? `THD ${fixed(final.reading.thdDb, 1)} dB (${percent(final.reading.thdPercent)}) at ${fixed(final.reading.fundamental.frequencyHz, 2)} Hz, ${formatLevel(final.reading.fundamental.levelDbfs, input, 2)}, trimmer at ${fixed(final.position, 2)} ${unit}${final.settled ? '' : ' (unsettled)'}${atFloor(final) ? ' (at the station’s floor †)' : ''}`
               : '—'}
           </dd>
         </dl>
@@ -124,6 +132,7 @@ export function UnitSheet({
           <dt>Station</dt>
           <dd>{run.station}</dd>
         </dl>
+        <CalibrationFacts used={used} />
         <h2>Trim points</h2>
         <table className="points">
           <thead>
@@ -133,7 +142,7 @@ export function UnitSheet({
               <th scope="col">H{order}, dBc</th>
               <th scope="col">THD, dB</th>
               <th scope="col">THD, %</th>
-              <th scope="col">Fundamental, dBFS</th>
+              <th scope="col">{input ? 'Fundamental, dBu (dBFS)' : 'Fundamental, dBFS'}</th>
               <th scope="col">Settled</th>
               <th scope="col">Recorded ({zone})</th>
             </tr>
@@ -144,15 +153,29 @@ export function UnitSheet({
                 <td>{p.sequence}</td>
                 <td>{fixed(p.position, 2)}</td>
                 <td>{fixed(p.reading.harmonics.find((h) => h.order === order)?.levelDbc, 1)}</td>
-                <td>{fixed(p.reading.thdDb, 1)}</td>
+                <td>
+                  {fixed(p.reading.thdDb, 1)}
+                  {atFloor(p) && ' †'}
+                </td>
                 <td>{percent(p.reading.thdPercent).replace(' %', '')}</td>
-                <td>{fixed(p.reading.fundamental.levelDbfs, 2)}</td>
+                <td>
+                  {input
+                    ? `${signedFixed(dbuFromDbfs(p.reading.fundamental.levelDbfs, input), 2)} (${fixed(p.reading.fundamental.levelDbfs, 2)})`
+                    : fixed(p.reading.fundamental.levelDbfs, 2)}
+                </td>
                 <td className={p.inFit ? undefined : 'unsettled'}>{p.settled ? 'yes' : p.inFit ? 'no, confirmed *' : 'no *'}</td>
                 <td>{localTime(p.recordedAt)}</td>
               </tr>
             ))}
           </tbody>
         </table>
+        {anyAtFloor && (
+          <p className="note" data-testid="sheet-at-floor-note">
+            † At the station’s floor: THD within {AT_FLOOR_MARGIN_DB} dB of the chain’s own residual
+            {used?.chainFloor?.residualThdDb != null ? ` (${fixed(used.chainFloor.residualThdDb, 1)} dB)` : ''}, so the unit may be better
+            than this reading.
+          </p>
+        )}
         {anyUnsettled && (
           <p className="note" data-testid="sheet-unsettled-note">
             * Unsettled: recorded deliberately before the reading had settled, so its value may still have been changing. An unsettled
@@ -242,5 +265,39 @@ export function UnitSheet({
         </footer>
       </article>
     </div>
+  );
+}
+
+/** The calibration the run was measured with and the chain's floor, or plainly that there was none. */
+function CalibrationFacts({ used }: { used: CalibrationUsed | null }) {
+  if (!used) {
+    return (
+      <p className="note calibration-none" data-testid="sheet-calibration">
+        Station not calibrated: levels in dBFS only.
+      </p>
+    );
+  }
+  const floor = used.chainFloor;
+  return (
+    <dl className="facts calibration" data-testid="sheet-calibration">
+      <dt>Calibration</dt>
+      <dd>
+        No. {used.id}, made {localDateTime(used.madeAt)} by {used.operator}, valid until {localDateTime(used.expiresAt)} · input{' '}
+        {signedFixed(used.inputDbuAtFullScale, 2)} dBu at 0 dBFS, output {signedFixed(used.outputDbuAtFullScale, 2)} dBu at 0 dBFS
+      </dd>
+      <dt>Chain floor</dt>
+      <dd data-testid="sheet-chain-floor">
+        {floor
+          ? [
+              floor.residualThdDb !== null && floor.residualAtHz !== null
+                ? `residual THD ${fixed(floor.residualThdDb, 1)} dB at ${fixed(floor.residualAtHz, 0)} Hz`
+                : 'no residual THD measured',
+              floor.noiseAWeightedDbu !== null ? `noise ${signedFixed(floor.noiseAWeightedDbu, 1)} dBu A-weighted` : 'noise not measured in dBu',
+              `checked ${localDateTime(floor.checkedAt)}`,
+              floor.pass ? 'PASS' : 'FAIL against the station’s limits',
+            ].join(' · ')
+          : 'not checked: no chain check with this calibration'}
+      </dd>
+    </dl>
   );
 }
