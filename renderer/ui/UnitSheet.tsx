@@ -131,8 +131,8 @@ export function UnitSheet({
           <dd>{run.operator}</dd>
           <dt>Station</dt>
           <dd>{run.station}</dd>
+          <CalibrationFacts used={used} />
         </dl>
-        <CalibrationFacts used={used} />
         <h2>Trim points</h2>
         <table className="points">
           <thead>
@@ -171,9 +171,8 @@ export function UnitSheet({
         </table>
         {anyAtFloor && (
           <p className="note" data-testid="sheet-at-floor-note">
-            † At the station’s floor: THD within {AT_FLOOR_MARGIN_DB} dB of the chain’s own residual
-            {used?.chainFloor?.residualThdDb != null ? ` (${fixed(used.chainFloor.residualThdDb, 1)} dB)` : ''}, so the unit may be better
-            than this reading.
+            † At the station’s floor: THD within {AT_FLOOR_MARGIN_DB} dB of the chain’s residual
+            {used?.chainFloor?.residualThdDb != null ? ` (${fixed(used.chainFloor.residualThdDb, 1)} dB)` : ''}; the unit may be better than it reads.
           </p>
         )}
         {anyUnsettled && (
@@ -193,7 +192,8 @@ export function UnitSheet({
                 positionMin={procedure.trim.positionMin}
                 positionMax={procedure.trim.positionMax}
                 positionUnit={unit}
-                height={190}
+                // 172 px (was 190) leaves room for the calibration rows: a ten-point run still fits one A4 page.
+                height={172}
               />
             )}
           </div>
@@ -268,36 +268,41 @@ export function UnitSheet({
   );
 }
 
-/** The calibration the run was measured with and the chain's floor, or plainly that there was none. */
+/**
+ * The calibration the run was measured with and the chain's floor, or plainly that there was none:
+ * rows of the facts grid, one line each, so a ten-point run still fits one A4 page.
+ */
 function CalibrationFacts({ used }: { used: CalibrationUsed | null }) {
   if (!used) {
     return (
-      <p className="note calibration-none" data-testid="sheet-calibration">
-        Station not calibrated: levels in dBFS only.
-      </p>
+      <>
+        <dt className="wide">Calibration</dt>
+        <dd className="wide" data-testid="sheet-calibration">
+          Station not calibrated: levels in dBFS only.
+        </dd>
+      </>
     );
   }
   const floor = used.chainFloor;
   return (
-    <dl className="facts calibration" data-testid="sheet-calibration">
-      <dt>Calibration</dt>
-      <dd>
-        No. {used.id}, made {localDateTime(used.madeAt)} by {used.operator}, valid until {localDateTime(used.expiresAt)} · input{' '}
-        {signedFixed(used.inputDbuAtFullScale, 2)} dBu at 0 dBFS, output {signedFixed(used.outputDbuAtFullScale, 2)} dBu at 0 dBFS
+    <>
+      <dt className="wide">Calibration</dt>
+      <dd className="wide" data-testid="sheet-calibration">
+        No. {used.id} by {used.operator} on {localDateTime(used.madeAt).slice(0, 10)}, expires {localDateTime(used.expiresAt).slice(0, 10)} · 0 dBFS ={' '}
+        {signedFixed(used.inputDbuAtFullScale, 1)} dBu in, {signedFixed(used.outputDbuAtFullScale, 1)} dBu out
       </dd>
-      <dt>Chain floor</dt>
-      <dd data-testid="sheet-chain-floor">
+      <dt className="wide">Chain floor</dt>
+      <dd className="wide" data-testid="sheet-chain-floor">
         {floor
           ? [
               floor.residualThdDb !== null && floor.residualAtHz !== null
                 ? `residual THD ${fixed(floor.residualThdDb, 1)} dB at ${fixed(floor.residualAtHz, 0)} Hz`
                 : 'no residual THD measured',
               floor.noiseAWeightedDbu !== null ? `noise ${signedFixed(floor.noiseAWeightedDbu, 1)} dBu A-weighted` : 'noise not measured in dBu',
-              `checked ${localDateTime(floor.checkedAt)}`,
-              floor.pass ? 'PASS' : 'FAIL against the station’s limits',
+              `chain check ${localDateTime(floor.checkedAt).slice(0, 10)}: ${floor.pass ? 'PASS' : 'FAIL'}`,
             ].join(' · ')
           : 'not checked: no chain check with this calibration'}
       </dd>
-    </dl>
+    </>
   );
 }

@@ -12,6 +12,7 @@ import { dispatch, type CallerContext } from '../../electron/services/handlers.t
 import { CHAIN_CHECK_SCHEMA_VERSION } from '../../shared/calibration/chain-check.ts';
 import { DEMO_PROCEDURE } from '../../shared/procedures/demo-procedure.ts';
 import { openBench, type Bench, POLL } from '../harness/bench-harness.ts';
+import { readingWithThd } from '../support/station.ts';
 
 const SHOTS = join(process.cwd(), 'out', 'screenshots');
 
@@ -132,6 +133,10 @@ describe('levels in dBu on a calibrated station', () => {
       if (sawAtFloorNote) break;
     }
     expect(sawAtFloorNote).toBe(true);
+    // The trim step's table: levels in dBu (dBFS) and the at-floor mark on the point just recorded.
+    expect(await page.getByTestId('trim-points').locator('thead').textContent()).toContain('Level, dBu (dBFS)');
+    expect(await page.getByTestId('trim-at-floor-note').isVisible()).toBe(true);
+    await page.locator('section.trim').screenshot({ path: join(SHOTS, 'levels-trim-step.png') });
 
     // Main kept each recorded point's flag as the meter set it.
     const stored = bench.station.db.prepare('SELECT reading_json FROM trim_points ORDER BY sequence').all() as { reading_json: string }[];
@@ -160,8 +165,8 @@ describe('levels in dBu on a calibrated station', () => {
     // Labels and values come out in separate runs of text: each checked on its own.
     expect(text).toContain('Calibration');
     expect(text).toContain('Chain floor');
-    expect(text).toMatch(new RegExp(`No\\. 1, made \\d{4}-\\d\\d-\\d\\d \\d\\d:\\d\\d UTC[−+]\\d\\d:\\d\\d by ${OPERATOR.replace('.', '\\.')}, valid until \\d{4}-`));
-    expect(text).toContain(`+${EXPECTED_INPUT_DBU_AT_FULL_SCALE.toFixed(2)} dBu at 0 dBFS`);
+    expect(text).toMatch(new RegExp(`No\\. 1 by ${OPERATOR.replace('.', '\\.')} on \\d{4}-\\d\\d-\\d\\d, expires \\d{4}-\\d\\d-\\d\\d`));
+    expect(text).toContain(`0 dBFS = +${EXPECTED_INPUT_DBU_AT_FULL_SCALE.toFixed(1)} dBu in, +${EXPECTED_OUTPUT_DBU_AT_FULL_SCALE.toFixed(1)} dBu out`);
     expect(text).toContain('residual THD −70.0 dB at 14 Hz');
     // The chain's A-weighted noise in dBu: −112 dBFS captured + 22 dBu at 0 dBFS = −90 dBu.
     expect(text).toContain('noise −90.0 dBu A-weighted');
@@ -170,5 +175,36 @@ describe('levels in dBu on a calibrated station', () => {
     // Still one A4 page with the calibration added.
     const pages = execFileSync('pdfinfo', [pdfPath], { encoding: 'utf8' });
     expect(pages).toMatch(/Pages:\s+1\n/);
+  });
+
+  it('keeps a ten-point calibrated run, every point marked at the floor, on one A4 page', { timeout: 90_000 }, async () => {
+    // Points on the phasor model of design §5 (H3 = s·(p − p0) + j·f): null at 5 turns, −40 dBc at
+    // the safe end, −75 dBc at the null; each marked at-floor for the longest sheet (the note and the marks).
+    const serial = 'MG20-2611-0124';
+    const procedureId = bench.station.records.listProcedures()[0]!.id;
+    const { run } = bench.station.records.openRun({ serial, procedureId, operator: 'A. Tester' });
+    for (const position of [0, 0.5, 1, 1.5, 2, 2.5, 3, 3.5, 4, 4.5]) {
+      const re = (10 ** (-40 / 20) / 5) * (position - 5);
+      const f = 10 ** (-75 / 20);
+      const levelDbc = 20 * Math.log10(Math.hypot(re, f));
+      const reading = readingWithThd(levelDbc, { flags: ['at-floor'] });
+      reading.harmonics = [{ order: 3, frequencyHz: 42, levelDbc, phaseDeg: (Math.atan2(f, re) * 180) / Math.PI }];
+      bench.station.records.recordTrimPoint({ runId: run.id, position, reading, live: null, stimulus: { on: true, frequencyHz: 14, levelDbfs: -12 } });
+    }
+    const page = await bench.openApp();
+    await page.getByLabel('Operator').fill('A. Tester');
+    await page.getByTestId('serial-input').fill(serial);
+    await page.getByTestId('serial-input').press('Enter');
+    await expect.poll(() => page.getByTestId('trim-points').locator('tbody tr').count(), POLL).toBe(10);
+    await page.getByTestId('finish-run').click();
+    await page.getByTestId('finish-as-fail').click(); // all short of the null: no recommendation, no pass
+    await expect.poll(() => page.getByTestId('sheet-pdf-path').textContent(), { timeout: 20_000 }).toMatch(/^Saved as /);
+    const pdfPath = (await page.getByTestId('sheet-pdf-path').textContent())!.replace(/^Saved as /, '');
+    copyFileSync(pdfPath, join(SHOTS, 'levels-sheet-ten-points.pdf'));
+    execFileSync('pdftoppm', ['-png', '-r', '70', pdfPath, join(SHOTS, 'levels-sheet-ten-points')]);
+    expect(execFileSync('pdfinfo', [pdfPath], { encoding: 'utf8' })).toMatch(/Pages:\s+1\n/);
+    const text = execFileSync('pdftotext', [pdfPath, '-'], { encoding: 'utf8' }).replace(/\s+/g, ' ');
+    expect(text).toContain('No. 1 by C. Calibrator');
+    expect(text.match(/ †/g)?.length).toBe(10 + 1 + 1); // ten marked points, the final reading's line and the note
   });
 });
