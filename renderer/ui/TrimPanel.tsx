@@ -337,7 +337,7 @@ export function TrimPanel({
             <th scope="col">{harmonic}, dBc</th>
             <th scope="col">THD, dB</th>
             <th scope="col">THD, %</th>
-            <th scope="col">{inputCalibration ? 'Level, dBu (dBFS)' : 'Level, dBFS'}</th>
+            <th scope="col">{inputCalibration ? 'Level, dBu / dBFS' : 'Level, dBFS'}</th>
             <th scope="col">Settled</th>
           </tr>
         </thead>
@@ -353,9 +353,15 @@ export function TrimPanel({
               </td>
               <td>{percent(p.reading.thdPercent).replace(' %', '')}</td>
               <td>
-                {inputCalibration
-                  ? `${signedFixed(dbuFromDbfs(p.reading.fundamental.levelDbfs, inputCalibration), 2)} (${fixed(p.reading.fundamental.levelDbfs, 2)})`
-                  : fixed(p.reading.fundamental.levelDbfs, 2)}
+                {inputCalibration ? (
+                  // Stacked: the narrow column keeps every column in view (Settled included).
+                  <>
+                    {signedFixed(dbuFromDbfs(p.reading.fundamental.levelDbfs, inputCalibration), 2)}
+                    <span className="level-dbfs">{fixed(p.reading.fundamental.levelDbfs, 2)}</span>
+                  </>
+                ) : (
+                  fixed(p.reading.fundamental.levelDbfs, 2)
+                )}
               </td>
               <td className={p.inFit ? undefined : 'unsettled'}>
                 {p.settled ? 'yes' : p.inFit ? 'no, included' : 'unsettled'}

@@ -134,7 +134,7 @@ describe('levels in dBu on a calibrated station', () => {
     }
     expect(sawAtFloorNote).toBe(true);
     // The trim step's table: levels in dBu (dBFS) and the at-floor mark on the point just recorded.
-    expect(await page.getByTestId('trim-points').locator('thead').textContent()).toContain('Level, dBu (dBFS)');
+    expect(await page.getByTestId('trim-points').locator('thead').textContent()).toContain('Level, dBu / dBFS');
     expect(await page.getByTestId('trim-at-floor-note').isVisible()).toBe(true);
     await page.locator('section.trim').screenshot({ path: join(SHOTS, 'levels-trim-step.png') });
 
