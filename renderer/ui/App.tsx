@@ -1,6 +1,7 @@
 import { useCallback, useEffect, useMemo, useRef, useState } from 'react';
 import type { RunDetail, Station, StationCalibration, StoredProcedure } from '../../shared/ipc/contract.ts';
-import { calibrationStatus, type AudioSetup as StationAudioSetup } from '../../shared/calibration/station-calibration.ts';
+import { calibrationStatus, residualNear, type AudioSetup as StationAudioSetup } from '../../shared/calibration/station-calibration.ts';
+import type { LevelCalibration } from '../../shared/levels.ts';
 import type { StationSettings } from '../../shared/calibration/station-settings.ts';
 import type { Reading } from '../../shared/measurement/reading.ts';
 import type { LiveSeries } from '../../shared/trim/trim-assistant.ts';
@@ -52,17 +53,6 @@ export function App() {
   const serialInputRef = useRef<HTMLInputElement>(null);
   /** The position typed in the trim step; on the demo bench it turns the virtual trimmer. */
   const [trimmerTurns, setTrimmerTurns] = useState(0);
-
-  const meterSettings = useMemo<MeterSettings>(
-    () => ({
-      channel: choice.channel,
-      expectedFundamentalHz: generator.on ? generator.frequencyHz : null,
-      harmonicCount: HARMONIC_COUNT,
-      mainsHz: choice.mainsHz,
-      stimulusLocked: choice.sharedClock,
-    }),
-    [choice.channel, choice.mainsHz, choice.sharedClock, generator.on, generator.frequencyHz],
-  );
 
   /** The chosen audio setup in the words a calibration stores; `rateHz` is the rate it runs at. */
   const describeChoice = useCallback(
@@ -258,11 +248,6 @@ export function App() {
     audio?.trimmerMoved(trimmerTurns);
   }, [audio, trimmerTurns]);
 
-  // The meter follows the stimulus (long frames for low tones) and the station's mains and clocking.
-  useEffect(() => {
-    audio?.configureMeter(meterSettings);
-  }, [audio, meterSettings]);
-
   async function openRun(request: { serial: string; procedureId: number; operator: string }) {
     // Main refuses a procedure that requires a calibration unless it holds for this setup.
     const opened = await call('openRun', { ...request, setup });
@@ -419,6 +404,38 @@ export function App() {
     ? calibrationStatus(stationCalibration.calibration, setup, new Date(), stationCalibration.settings.calibrationExpiryDays)
     : null;
 
+  // Levels in dBu, and the chain's floor for the at-floor flag, only while the calibration holds for
+  // the setup in use; its chain check counts only when it was made with that calibration.
+  const calibrationInUse = status?.state === 'valid' ? (stationCalibration?.calibration ?? null) : null;
+  const inputCalibration = useMemo<LevelCalibration | null>(
+    () => (calibrationInUse ? { dbuAtFullScale: calibrationInUse.input.dbuAtFullScale } : null),
+    [calibrationInUse],
+  );
+  const outputCalibration = useMemo<LevelCalibration | null>(
+    () => (calibrationInUse ? { dbuAtFullScale: calibrationInUse.output.dbuAtFullScale } : null),
+    [calibrationInUse],
+  );
+  const chainCheckInUse = calibrationInUse && stationCalibration?.chainCheck?.calibrationId === calibrationInUse.id ? stationCalibration.chainCheck : null;
+  const chainFloorThdDb = chainCheckInUse ? (residualNear(chainCheckInUse.result, generator.frequencyHz)?.thdDb ?? null) : null;
+
+  const meterSettings = useMemo<MeterSettings>(
+    () => ({
+      channel: choice.channel,
+      expectedFundamentalHz: generator.on ? generator.frequencyHz : null,
+      harmonicCount: HARMONIC_COUNT,
+      mainsHz: choice.mainsHz,
+      stimulusLocked: choice.sharedClock,
+      chainFloorThdDb,
+    }),
+    [choice.channel, choice.mainsHz, choice.sharedClock, generator.on, generator.frequencyHz, chainFloorThdDb],
+  );
+
+  // The meter follows the stimulus (long frames for low tones) and the station's mains and clocking.
+  useEffect(() => {
+    audio?.configureMeter(meterSettings);
+  }, [audio, meterSettings]);
+
+
   const stationHeadingFocus = useRef(false);
   function openStation() {
     stationHeadingFocus.current = true;
@@ -537,6 +554,7 @@ export function App() {
               generatorOn={generator.on}
               limitThdDb={detail && procedure ? procedure.trim.limitThdDb : null}
               harmonicCount={HARMONIC_COUNT}
+              inputCalibration={inputCalibration}
               stimulusCheck={detail && procedure && reading ? checkStimulus(reading, generator, procedure.trim) : null}
             />
             <SpectrumPlot spectrumHz={spectrum?.hz ?? null} spectrumDbfs={spectrum?.dbfs ?? null} />
@@ -549,6 +567,8 @@ export function App() {
                 procedure={procedure}
                 reading={reading}
                 readingAt={readingAt}
+                inputCalibration={inputCalibration}
+                outputCalibration={outputCalibration}
                 onRecord={recordPoint}
                 positionInputRef={positionInputRef}
                 generator={generator}

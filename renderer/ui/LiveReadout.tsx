@@ -1,3 +1,5 @@
+import { AT_FLOOR_MARGIN_DB } from '../../shared/calibration/station-calibration.ts';
+import { dbuFromDbfs, formatLevel, signedFixed, type LevelCalibration } from '../../shared/levels.ts';
 import type { Reading } from '../../shared/measurement/reading.ts';
 import type { StimulusCheck } from '../../shared/records/stimulus-check.ts';
 import { judgeThd } from '../../shared/records/verdict.ts';
@@ -22,8 +24,11 @@ export function LiveReadout({
   limitThdDb,
   harmonicCount,
   stimulusCheck,
+  inputCalibration = null,
 }: {
   reading: Reading | null;
+  /** The station's input calibration while it holds; null shows levels in dBFS only. */
+  inputCalibration?: LevelCalibration | null;
   generatorOn: boolean;
   /** Whether the reading is the open unit's answer to the stimulus playing; null with no unit open. */
   stimulusCheck: StimulusCheck | null;
@@ -61,11 +66,23 @@ export function LiveReadout({
       </p>
       <progress max={1} value={reading.settleProgress} aria-label="Progress toward a settled reading" />
       <div className="big-numbers">
-        <div>
-          <Big value={noSignal ? null : fixed(reading.fundamental.levelDbfs, 2)} testId="fundamental-level" />
-          {!noSignal && <span className="unit">dBFS</span>}
-          <div className="caption">fundamental{noSignal ? '' : ` at ${fixed(reading.fundamental.frequencyHz, 2)} Hz`}</div>
-        </div>
+        {inputCalibration && !noSignal ? (
+          // Calibrated: the level at the unit's terminals is the big number, the interface's dBFS beside it.
+          <div>
+            <Big value={signedFixed(dbuFromDbfs(reading.fundamental.levelDbfs, inputCalibration), 2)} testId="fundamental-dbu" />
+            <span className="unit">dBu</span>
+            <div className="caption">
+              <span data-testid="fundamental-level">{fixed(reading.fundamental.levelDbfs, 2)}</span> dBFS · fundamental at{' '}
+              {fixed(reading.fundamental.frequencyHz, 2)} Hz
+            </div>
+          </div>
+        ) : (
+          <div>
+            <Big value={noSignal ? null : fixed(reading.fundamental.levelDbfs, 2)} testId="fundamental-level" />
+            {!noSignal && <span className="unit">dBFS</span>}
+            <div className="caption">fundamental{noSignal ? '' : ` at ${fixed(reading.fundamental.frequencyHz, 2)} Hz`}</div>
+          </div>
+        )}
         <div>
           <Big value={noSignal ? null : fixed(reading.thdDb, 1)} testId="thd-db" />
           {!noSignal && <span className="unit">dB THD</span>}
@@ -96,9 +113,10 @@ export function LiveReadout({
           </p>
         )
       )}
-      {reading.flags.includes('at-floor') && (
-        <p className="hint" role="status">
-          This reading is within 3 dB of the chain’s own floor: the unit may be better than it reads.
+      {reading.flags.includes('at-floor') && !noSignal && (
+        <p className="hint at-floor" role="status" data-testid="at-floor-note">
+          At the station’s floor: this THD is within {AT_FLOOR_MARGIN_DB} dB of the chain’s own residual, so the unit may be better than
+          this reading.
         </p>
       )}
       {reading.mainsCoincidentOrders.length > 0 && (
@@ -117,21 +135,27 @@ export function LiveReadout({
         <dt>THD+N (band)</dt>
         <dd>{noSignal ? '—' : `${fixed(reading.thdnDb, 1)} dB · ${percent(reading.thdnPercent)} · SINAD ${fixed(reading.sinadDb, 1)} dB`}</dd>
         <dt>Noise</dt>
-        <dd>
-          {fixed(reading.noiseDbfs, 1)} dBFS · A-weighted {fixed(reading.noiseAWeightedDbfs, 1)} dBFS
+        <dd data-testid="noise">
+          {formatLevel(reading.noiseDbfs, inputCalibration)} · A-weighted {formatLevel(reading.noiseAWeightedDbfs, inputCalibration)}
         </dd>
         <dt>Hum</dt>
         <dd data-testid="hum">
           {reading.hum
-            ? `${fixed(reading.hum.frequencyHz, 2)} Hz at ${fixed(reading.hum.levelDbfs, 1)} dBFS` +
+            ? `${fixed(reading.hum.frequencyHz, 2)} Hz at ${formatLevel(reading.hum.levelDbfs, inputCalibration)}` +
               reading.hum.components
                 .filter((c) => c.order > 1)
-                .map((c) => ` · ×${c.order} ${fixed(c.levelDbfs, 1)}`)
+                .map((c) => ` · ×${c.order} ${inputCalibration ? formatLevel(c.levelDbfs, inputCalibration) : fixed(c.levelDbfs, 1)}`)
                 .join('')
             : 'none above the noise'}
         </dd>
         <dt>Sub-audio</dt>
-        <dd>{reading.subAudioDbfs === null ? (generatorOn ? '— (measured after about 6 s of a steady tone)' : '— (needs the generator on)') : `${fixed(reading.subAudioDbfs, 1)} dBFS`}</dd>
+        <dd>
+          {reading.subAudioDbfs === null
+            ? generatorOn
+              ? '— (measured after about 6 s of a steady tone)'
+              : '— (needs the generator on)'
+            : formatLevel(reading.subAudioDbfs, inputCalibration)}
+        </dd>
         <dt>Analysis</dt>
         <dd>
           {reading.mode === 'coherent' ? 'coherent, in step with the generator' : 'windowed'}

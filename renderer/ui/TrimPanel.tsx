@@ -1,5 +1,7 @@
 import { useEffect, useRef, useState, type RefObject } from 'react';
 import type { RunDetail, StoredProcedure, WarmCheck } from '../../shared/ipc/contract.ts';
+import { AT_FLOOR_MARGIN_DB } from '../../shared/calibration/station-calibration.ts';
+import { dbuFromDbfs, formatLevel, signedFixed, type LevelCalibration } from '../../shared/levels.ts';
 import type { Reading } from '../../shared/measurement/reading.ts';
 import { whyNotRecordable } from '../../shared/records/stimulus-check.ts';
 import { judgeTrimRun } from '../../shared/records/verdict.ts';
@@ -39,7 +41,13 @@ export function TrimPanel({
   onIncludePoint,
   onWarningChanges,
   onClose,
+  inputCalibration = null,
+  outputCalibration = null,
 }: {
+  /** The station's input calibration while it holds: recorded levels in dBu beside dBFS. Null: dBFS only. */
+  inputCalibration?: LevelCalibration | null;
+  /** The station's output calibration while it holds: the stimulus in dBu beside dBFS. Null: dBFS only. */
+  outputCalibration?: LevelCalibration | null;
   detail: RunDetail;
   procedure: StoredProcedure['definition'];
   reading: Reading | null;
@@ -234,13 +242,13 @@ export function TrimPanel({
         </ol>
       </details>
       <p className="hint">
-        Procedure: {trim.stimulusHz} Hz at {trim.stimulusLevelDbfs} dBFS · trims {harmonic} · limit THD ≤ {trim.limitThdDb} dB at the
+        Procedure: {trim.stimulusHz} Hz at {formatLevel(trim.stimulusLevelDbfs, outputCalibration)} · trims {harmonic} · limit THD ≤ {trim.limitThdDb} dB at the
         final point
       </p>
       <div className="row generator-row" data-testid="trim-generator">
         <span className={generator.on ? 'badge live' : 'badge'}>{generator.on ? 'Generator ON' : 'Generator off'}</span>
         <span className="hint">
-          {generator.on ? `${fixed(generator.frequencyHz, 3)} Hz at ${fixed(generator.levelDbfs, 1)} dBFS` : 'Turn it on to measure.'}
+          {generator.on ? `${fixed(generator.frequencyHz, 3)} Hz at ${formatLevel(generator.levelDbfs, outputCalibration)}` : 'Turn it on to measure.'}
         </span>
         <button type="button" onClick={onToggleGenerator} disabled={!generatorAvailable} data-testid="trim-generator-toggle">
           {generator.on ? 'Turn off (G)' : 'Turn on (G)'}
@@ -329,7 +337,7 @@ export function TrimPanel({
             <th scope="col">{harmonic}, dBc</th>
             <th scope="col">THD, dB</th>
             <th scope="col">THD, %</th>
-            <th scope="col">Level, dBFS</th>
+            <th scope="col">{inputCalibration ? 'Level, dBu / dBFS' : 'Level, dBFS'}</th>
             <th scope="col">Settled</th>
           </tr>
         </thead>
@@ -339,9 +347,22 @@ export function TrimPanel({
               <td>{p.sequence}</td>
               <td>{fixed(p.position, 2)}</td>
               <td>{fixed(p.reading.harmonics.find((h) => h.order === trim.harmonicOrder)?.levelDbc, 1)}</td>
-              <td>{fixed(p.reading.thdDb, 1)}</td>
+              <td className={p.reading.flags.includes('at-floor') ? 'at-floor' : undefined}>
+                {fixed(p.reading.thdDb, 1)}
+                {p.reading.flags.includes('at-floor') && ' †'}
+              </td>
               <td>{percent(p.reading.thdPercent).replace(' %', '')}</td>
-              <td>{fixed(p.reading.fundamental.levelDbfs, 2)}</td>
+              <td>
+                {inputCalibration ? (
+                  // Stacked: the narrow column keeps every column in view (Settled included).
+                  <>
+                    {signedFixed(dbuFromDbfs(p.reading.fundamental.levelDbfs, inputCalibration), 2)}
+                    <span className="level-dbfs">{fixed(p.reading.fundamental.levelDbfs, 2)}</span>
+                  </>
+                ) : (
+                  fixed(p.reading.fundamental.levelDbfs, 2)
+                )}
+              </td>
               <td className={p.inFit ? undefined : 'unsettled'}>
                 {p.settled ? 'yes' : p.inFit ? 'no, included' : 'unsettled'}
                 {!p.inFit && (
@@ -355,6 +376,11 @@ export function TrimPanel({
         </tbody>
       </table>
       </div>
+      {trimPoints.some((p) => p.reading.flags.includes('at-floor')) && (
+        <p className="hint" data-testid="trim-at-floor-note">
+          † At the station’s floor: THD within {AT_FLOOR_MARGIN_DB} dB of the chain’s own residual; the unit may be better than it reads.
+        </p>
+      )}
       {trimPoints.some((p) => !p.inFit) && (
         <p className="hint">Unsettled points are marked in red: they stay out of the curve fit and the verdict unless you include them.</p>
       )}

@@ -4,6 +4,8 @@ import { fixed, localDateTime, localTime, percent, zoneLabel } from './format.ts
 import { TrimPlot } from './TrimPlot.tsx';
 import { WARNING_TITLES } from './TrimPanel.tsx';
 import { describeThermalMargin } from '../../shared/trim/trim-assistant.ts';
+import { AT_FLOOR_MARGIN_DB, type CalibrationUsed } from '../../shared/calibration/station-calibration.ts';
+import { dbuFromDbfs, formatLevel, signedFixed, type LevelCalibration } from '../../shared/levels.ts';
 
 export function UnitSheet({
   detail,
@@ -29,6 +31,12 @@ export function UnitSheet({
   const anyUnsettled = trimPoints.some((p) => !p.settled);
   const zone = zoneLabel(new Date(trimPoints[0]?.recordedAt ?? run.finishedAt ?? Date.now()));
   const printButton = useRef<HTMLButtonElement>(null);
+  // Levels in dBu with the calibration the run was measured with (stored with the run, not today's).
+  const used = detail.calibration;
+  const input: LevelCalibration | null = used ? { dbuAtFullScale: used.inputDbuAtFullScale } : null;
+  const output: LevelCalibration | null = used ? { dbuAtFullScale: used.outputDbuAtFullScale } : null;
+  const atFloor = (p: (typeof trimPoints)[number]) => p.reading.flags.includes('at-floor');
+  const anyAtFloor = trimPoints.some(atFloor);
 
   // The PDF's running header prints the page title on every page, so the title carries the serial.
   useEffect(() => {
@@ -92,14 +100,14 @@ export function UnitSheet({
           <dt>Stimulus</dt>
           <dd data-testid="sheet-stimulus">
             {final?.stimulusHz != null ? `${fixed(final.stimulusHz, 3)} Hz` : '—'}
-            {procedure && ` at ${fixed(procedure.trim.stimulusLevelDbfs, 1)} dBFS (procedure: ${procedure.trim.stimulusHz} Hz)`}
+            {procedure && ` at ${formatLevel(procedure.trim.stimulusLevelDbfs, output)} (procedure: ${procedure.trim.stimulusHz} Hz)`}
           </dd>
           <dt>Limit</dt>
           <dd>THD ≤ {fixed(run.limitThdDb, 1)} dB at the final trim point</dd>
           <dt>Final reading</dt>
           <dd>
             {final
-              ? `THD ${fixed(final.reading.thdDb, 1)} dB (${percent(final.reading.thdPercent)}) at ${fixed(final.reading.fundamental.frequencyHz, 2)} Hz, ${fixed(final.reading.fundamental.levelDbfs, 2)} dBFS, trimmer at ${fixed(final.position, 2)} ${unit}${final.settled ? '' : ' (unsettled)'}`
+              ? `THD ${fixed(final.reading.thdDb, 1)} dB (${percent(final.reading.thdPercent)}) at ${fixed(final.reading.fundamental.frequencyHz, 2)} Hz, ${formatLevel(final.reading.fundamental.levelDbfs, input, 2)}, trimmer at ${fixed(final.position, 2)} ${unit}${final.settled ? '' : ' (unsettled)'}${atFloor(final) ? ' (at the station’s floor †)' : ''}`
               : '—'}
           </dd>
         </dl>
@@ -123,6 +131,7 @@ export function UnitSheet({
           <dd>{run.operator}</dd>
           <dt>Station</dt>
           <dd>{run.station}</dd>
+          <CalibrationFacts used={used} />
         </dl>
         <h2>Trim points</h2>
         <table className="points">
@@ -133,7 +142,7 @@ export function UnitSheet({
               <th scope="col">H{order}, dBc</th>
               <th scope="col">THD, dB</th>
               <th scope="col">THD, %</th>
-              <th scope="col">Fundamental, dBFS</th>
+              <th scope="col">{input ? 'Fundamental, dBu (dBFS)' : 'Fundamental, dBFS'}</th>
               <th scope="col">Settled</th>
               <th scope="col">Recorded ({zone})</th>
             </tr>
@@ -144,15 +153,28 @@ export function UnitSheet({
                 <td>{p.sequence}</td>
                 <td>{fixed(p.position, 2)}</td>
                 <td>{fixed(p.reading.harmonics.find((h) => h.order === order)?.levelDbc, 1)}</td>
-                <td>{fixed(p.reading.thdDb, 1)}</td>
+                <td>
+                  {fixed(p.reading.thdDb, 1)}
+                  {atFloor(p) && ' †'}
+                </td>
                 <td>{percent(p.reading.thdPercent).replace(' %', '')}</td>
-                <td>{fixed(p.reading.fundamental.levelDbfs, 2)}</td>
+                <td>
+                  {input
+                    ? `${signedFixed(dbuFromDbfs(p.reading.fundamental.levelDbfs, input), 2)} (${fixed(p.reading.fundamental.levelDbfs, 2)})`
+                    : fixed(p.reading.fundamental.levelDbfs, 2)}
+                </td>
                 <td className={p.inFit ? undefined : 'unsettled'}>{p.settled ? 'yes' : p.inFit ? 'no, confirmed *' : 'no *'}</td>
                 <td>{localTime(p.recordedAt)}</td>
               </tr>
             ))}
           </tbody>
         </table>
+        {anyAtFloor && (
+          <p className="note" data-testid="sheet-at-floor-note">
+            † At the station’s floor: THD within {AT_FLOOR_MARGIN_DB} dB of the chain’s residual
+            {used?.chainFloor?.residualThdDb != null ? ` (${fixed(used.chainFloor.residualThdDb, 1)} dB)` : ''}; the unit may be better than it reads.
+          </p>
+        )}
         {anyUnsettled && (
           <p className="note" data-testid="sheet-unsettled-note">
             * Unsettled: recorded deliberately before the reading had settled, so its value may still have been changing. An unsettled
@@ -170,7 +192,8 @@ export function UnitSheet({
                 positionMin={procedure.trim.positionMin}
                 positionMax={procedure.trim.positionMax}
                 positionUnit={unit}
-                height={190}
+                // 172 px (was 190) leaves room for the calibration rows: a ten-point run still fits one A4 page.
+                height={172}
               />
             )}
           </div>
@@ -242,5 +265,44 @@ export function UnitSheet({
         </footer>
       </article>
     </div>
+  );
+}
+
+/**
+ * The calibration the run was measured with and the chain's floor, or plainly that there was none:
+ * rows of the facts grid, one line each, so a ten-point run still fits one A4 page.
+ */
+function CalibrationFacts({ used }: { used: CalibrationUsed | null }) {
+  if (!used) {
+    return (
+      <>
+        <dt className="wide">Calibration</dt>
+        <dd className="wide" data-testid="sheet-calibration">
+          Station not calibrated: levels in dBFS only.
+        </dd>
+      </>
+    );
+  }
+  const floor = used.chainFloor;
+  return (
+    <>
+      <dt className="wide">Calibration</dt>
+      <dd className="wide" data-testid="sheet-calibration">
+        No. {used.id} by {used.operator} on {localDateTime(used.madeAt).slice(0, 10)}, expires {localDateTime(used.expiresAt).slice(0, 10)} · 0 dBFS ={' '}
+        {signedFixed(used.inputDbuAtFullScale, 1)} dBu in, {signedFixed(used.outputDbuAtFullScale, 1)} dBu out
+      </dd>
+      <dt className="wide">Chain floor</dt>
+      <dd className="wide" data-testid="sheet-chain-floor">
+        {floor
+          ? [
+              floor.residualThdDb !== null && floor.residualAtHz !== null
+                ? `residual THD ${fixed(floor.residualThdDb, 1)} dB at ${fixed(floor.residualAtHz, 0)} Hz`
+                : 'no residual THD measured',
+              floor.noiseAWeightedDbu !== null ? `noise ${signedFixed(floor.noiseAWeightedDbu, 1)} dBu A-weighted` : 'noise not measured in dBu',
+              `chain check ${localDateTime(floor.checkedAt).slice(0, 10)}: ${floor.pass ? 'PASS' : 'FAIL'}`,
+            ].join(' · ')
+          : 'not checked: no chain check with this calibration'}
+      </dd>
+    </>
   );
 }

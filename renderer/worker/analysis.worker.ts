@@ -12,7 +12,7 @@ declare const self: DedicatedWorkerGlobalScope;
 const SPECTRUM_COLUMNS = 480;
 const SPECTRUM_LOW_HZ = 5;
 
-let settings: MeterSettings = { channel: 0, expectedFundamentalHz: null, harmonicCount: 10, mainsHz: 50, stimulusLocked: false };
+let settings: MeterSettings = { channel: 0, expectedFundamentalHz: null, harmonicCount: 10, mainsHz: 50, stimulusLocked: false, chainFloorThdDb: null };
 let session: MeterSession | null = null;
 let spectrumRateHz = 0;
 let block = new Float32Array(4096);

@@ -5,6 +5,7 @@
 // taken out. One analyzer per frame size owns every buffer; analyze() allocates nothing.
 
 import FFT from 'fft.js';
+import { isAtChainFloor } from '../calibration/station-calibration.ts';
 import { aWeightingGain } from '../dsp/a-weighting.ts';
 import { ComplexSolver } from '../dsp/complex-solve.ts';
 import { BLACKMAN_HARRIS_7, fillWindow, WindowKernel, windowProperties, type CosineSumWindow } from '../dsp/windows.ts';
@@ -22,7 +23,7 @@ export interface AnalyzerOptions {
   noSignalDbfs: number;
   /** Samples at or above this magnitude count as clipped. */
   clipThreshold: number;
-  /** The chain's own THD floor, dBc; readings within 3 dB of it are flagged at-floor. */
+  /** The chain's own residual THD, dB; a reading within AT_FLOOR_MARGIN_DB of it is flagged at-floor. */
   chainFloorDbc: number | null;
   window: CosineSumWindow;
 }
@@ -48,7 +49,6 @@ const HUM_ORDERS = 3;
 const HUM_PRESENT_DB = 10;
 /** and above this absolute level, near the analysis floor, so float rounding never reads as hum. */
 const HUM_FLOOR_DBFS = -150;
-const AT_FLOOR_MARGIN_DB = 3;
 /**
  * Two tones closer than this (bins) cannot be told apart by the joint kernel fit; from about 2.5
  * bins apart it separates them cleanly (a 12 Hz tone's H4 at 48 Hz beside 50 Hz hum, 2.7 bins at
@@ -190,7 +190,8 @@ export class FrameAnalyzer {
       out.flags.push('clipping');
     }
     const floor = this.options.chainFloorDbc;
-    if (hasSignal && floor !== null && out.thdDb <= floor + AT_FLOOR_MARGIN_DB) out.flags.push('at-floor');
+    // The same rule the station's calibration states (one margin for the page, main and the sheet).
+    if (hasSignal && floor !== null && isAtChainFloor(out.thdDb, floor)) out.flags.push('at-floor');
     if (out.mainsCoincidentOrders.length > 0) out.flags.push('mains-coincident');
     return out;
   }

@@ -31,6 +31,11 @@ export interface LiveMeterConfig {
    * like a stream of capture breaks.
    */
   sampleGuard: boolean;
+  /**
+   * The station's chain check: the loopback's own residual THD near the test frequency, dB, or null
+   * when the station has none. A reading this close to it is flagged at-floor.
+   */
+  chainFloorThdDb: number | null;
 }
 
 export const DEFAULT_LIVE_METER_CONFIG: Omit<LiveMeterConfig, 'sampleRateHz'> = {
@@ -43,6 +48,7 @@ export const DEFAULT_LIVE_METER_CONFIG: Omit<LiveMeterConfig, 'sampleRateHz'> = 
   stimulusLocked: false,
   synchronousAverages: 4,
   sampleGuard: true,
+  chainFloorThdDb: null,
 };
 
 // Cycles of the fundamental per frame: the 7-term window's main lobe spans ±7 bins and each
@@ -94,6 +100,7 @@ export class LiveMeter {
       mainsHz: this.config.mainsHz,
       bandLowHz: this.config.bandLowHz,
       bandHighHz: this.config.bandHighHz,
+      chainFloorDbc: this.config.chainFloorThdDb,
     });
     this.guard = new GlitchGuard(sampleRateHz);
     if (expectedFundamentalHz) this.guard.setToneHz(expectedFundamentalHz);

@@ -6,7 +6,7 @@
 
 import { LiveMeter, type LiveMeterConfig } from './live-meter.ts';
 
-export type MeterSessionSettings = Pick<LiveMeterConfig, 'expectedFundamentalHz' | 'harmonicCount' | 'mainsHz' | 'stimulusLocked'>;
+export type MeterSessionSettings = Pick<LiveMeterConfig, 'expectedFundamentalHz' | 'harmonicCount' | 'mainsHz' | 'stimulusLocked' | 'chainFloorThdDb'>;
 
 /**
  * A stimulus change reaches the input only after the interface's output and input latency (and
@@ -41,6 +41,7 @@ export class MeterSession {
       harmonicCount: settings.harmonicCount,
       mainsHz: settings.mainsHz,
       stimulusLocked: settings.stimulusLocked,
+      chainFloorThdDb: settings.chainFloorThdDb,
     };
     if (JSON.stringify(next) === JSON.stringify(this.settings)) return;
     this.settings = next;

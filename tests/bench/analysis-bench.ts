@@ -110,7 +110,7 @@ function settleAfterMove(fromTurns: number, toTurns: number): number | null {
   const { stimulusHz, stimulusLevelDbfs } = DEMO_PROCEDURE.trim;
   unit.setStimulus({ frequencyHz: stimulusHz, levelDbfs: stimulusLevelDbfs, on: true });
   unit.setTrimmer(fromTurns);
-  const session = new MeterSession({ expectedFundamentalHz: stimulusHz, harmonicCount: 10, mainsHz: 50, stimulusLocked: false }, { sampleGuard: false });
+  const session = new MeterSession({ expectedFundamentalHz: stimulusHz, harmonicCount: 10, mainsHz: 50, stimulusLocked: false, chainFloorThdDb: null }, { sampleGuard: false });
   let samples = 0;
   for (; samples < 12 * rate; samples += block.length) {
     unit.render(block);

@@ -22,7 +22,7 @@ function demoBench(startTurns: number) {
   unit.setStimulus({ frequencyHz: DEMO_PROCEDURE.trim.stimulusHz, levelDbfs: DEMO_PROCEDURE.trim.stimulusLevelDbfs, on: true });
   unit.setTrimmer(startTurns);
   const session = new MeterSession(
-    { expectedFundamentalHz: DEMO_PROCEDURE.trim.stimulusHz, harmonicCount: 10, mainsHz: 50, stimulusLocked: false },
+    { expectedFundamentalHz: DEMO_PROCEDURE.trim.stimulusHz, harmonicCount: 10, mainsHz: 50, stimulusLocked: false, chainFloorThdDb: null },
     { sampleGuard: false },
   );
   const block = new Float32Array(BLOCK);
@@ -91,7 +91,7 @@ describe('settling ignores the sub-audio level', () => {
 });
 
 describe('the worker message sequence (MeterSession)', () => {
-  const before: MeterSessionSettings = { expectedFundamentalHz: 997, harmonicCount: 10, mainsHz: 50, stimulusLocked: false };
+  const before: MeterSessionSettings = { expectedFundamentalHz: 997, harmonicCount: 10, mainsHz: 50, stimulusLocked: false, chainFloorThdDb: null };
   const after: MeterSessionSettings = { ...before, expectedFundamentalHz: 1000 };
 
   it('stimulus-changed, then configure from the effect: no frame spans the change that reaches the input 0.1 s later', () => {
