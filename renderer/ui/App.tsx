@@ -440,6 +440,10 @@ export function App() {
   function openStation() {
     stationHeadingFocus.current = true;
     setView('station');
+    // Read afresh: the view shows the station as main holds it now (its expiry moves with the clock).
+    call('getStationCalibration', {}).then(setStationCalibration, (error: unknown) =>
+      setRecordsProblem(problemText(error, 'The station settings could not be read', 'Correct or restore the settings file named, then restart Trimbench.')),
+    );
   }
   // The demo bench stands in for a loopback while the Station view is open (calibration and chain
   // check practice), and for the simulated unit everywhere else: one owner, the view.

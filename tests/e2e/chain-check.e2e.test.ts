@@ -82,9 +82,11 @@ async function choose(page: Page, plan: { residuals: RegExp | null; response: 't
     const wanted = plan.residuals !== null && plan.residuals.test((await box.textContent()) ?? '');
     await box.locator('input').setChecked(wanted);
   }
-  await page.getByLabel('Response steps').selectOption(plan.response);
-  await page.getByLabel('Noise floor with the generator off').setChecked(plan.noise);
-  await page.getByLabel('Round-trip latency').setChecked(plan.latency);
+  // Within the panel: the station's limits beside it name some of the same quantities.
+  const panel = page.locator('section.chain-check');
+  await panel.getByLabel('Response steps').selectOption(plan.response);
+  await panel.getByLabel('Noise floor with the generator off').setChecked(plan.noise);
+  await panel.getByLabel('Round-trip latency').setChecked(plan.latency);
 }
 
 const shots = process.env['TRIMBENCH_SHOTS'];
