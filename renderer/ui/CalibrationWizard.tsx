@@ -8,8 +8,9 @@ import {
 } from '../../shared/calibration/voltmeter-entry.ts';
 import type { AudioSetup } from '../../shared/calibration/station-calibration.ts';
 import type { StationCalibration } from '../../shared/ipc/contract.ts';
-import { signedFixed } from '../../shared/levels.ts';
+import { signedFixed, vRmsFromDbu } from '../../shared/levels.ts';
 import type { Reading } from '../../shared/measurement/reading.ts';
+import { DEMO_INTERFACE_DBU_AT_FULL_SCALE } from '../../shared/sim/demo-chain.ts';
 import { call } from '../api.ts';
 import { DEMO_INPUT } from '../audio/bench-audio.ts';
 import { problemText } from '../problem-text.ts';
@@ -236,6 +237,12 @@ export function CalibrationWizard({
             <li>Connect the voltmeter across the interface's output terminals (balanced: between hot and cold).</li>
             <li>Play the {REFERENCE_HZ / 1000} kHz reference and type what the meter shows, with its unit.</li>
           </ol>
+          {demo && referenceDbfs !== null && (
+            <p className="invented" data-testid="demo-meter">
+              Demo bench: an invented meter on the invented interface would read {vRmsFromDbu(referenceDbfs + DEMO_INTERFACE_DBU_AT_FULL_SCALE).toFixed(3)} V at this
+              reference.
+            </p>
+          )}
           <div className="row">
             <label>
               Reference level (dBFS, {REFERENCE_DBFS_RANGE.min} to {REFERENCE_DBFS_RANGE.max})

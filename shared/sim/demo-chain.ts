@@ -35,6 +35,13 @@ export const DEMO_CHAIN_PARAMETERS: DemoChainParameters = {
   latencySamples: 517,
 };
 
+/**
+ * The invented interface's output at 0 dBFS, for practising the voltmeter step on the demo bench
+ * (a figure typical of studio interfaces, from memory; invented here). The loop has unity gain, so
+ * its input reads the same level at the same dBFS.
+ */
+export const DEMO_INTERFACE_DBU_AT_FULL_SCALE = 18;
+
 export const DEMO_CHAIN_LABEL = 'Demo loopback: an invented interface chain (no real product)';
 
 export class DemoChain {
