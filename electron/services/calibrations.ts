@@ -4,6 +4,7 @@
 
 import { z } from 'zod';
 import { chainNoiseFloor, judgeChainCheck, type ChainCheckResult } from '../../shared/calibration/chain-check.ts';
+import { checkChainFloorDbu } from '../../shared/calibration/chain-floor.ts';
 import { chainResponse } from '../../shared/calibration/chain-response.ts';
 import {
   calibrationExpiresAt,
@@ -209,6 +210,12 @@ export function createCalibrations(
         response,
         responseRefusal,
       };
+      // A floor below the thermal noise of a 150 Ω source cannot be real: the input calibration is wrong.
+      const floorDbu = checked.noiseFloor?.unweightedDbu ?? null;
+      if (floorDbu !== null && checked.noiseFloor) {
+        const thermal = checkChainFloorDbu(floorDbu, { bandwidthHz: checked.noiseFloor.bandHighHz - checked.noiseFloor.bandLowHz });
+        if (!thermal.ok) throw new ExpectedFailure(`The chain check was not stored: ${thermal.message}`);
+      }
       const judgement = judgeChainCheck(checked, settings.chainLimits);
       const id = insertSealed('chain_checks', {
         calibration_id: calibration.id,

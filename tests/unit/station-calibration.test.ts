@@ -139,6 +139,19 @@ describe('the chain check, judged in main', () => {
     expect(stored.chainCheck.judgement.pass).toBe(false);
   });
 
+  it('refuses a noise floor below the thermal noise of a 150 Ω source, which no chain can beat (Johnson–Nyquist)', async () => {
+    const { calibration } = await calibrate();
+    // v = √(4kTRB): k = 1.380649e-23 J/K (SI 2019, exact), T = 290 K, R = 150 Ω, B = 19 980 Hz.
+    const thermalDbu = dbuOfVolts(Math.sqrt(4 * 1.380649e-23 * 290 * 150 * 19_980));
+    // An unweighted floor 3 dB under it, in dBFS at this calibration's input.
+    const belowDbfs = thermalDbu - 3 - calibration.input.dbuAtFullScale;
+    const floor = { bandLowHz: 20, bandHighHz: 20000, unweightedDbfs: belowDbfs, aWeightedDbfs: belowDbfs - 2, unweightedDbu: null, aWeightedDbu: null };
+    const message = await refused('recordChainCheck', { calibrationId: calibration.id, operator: 'A. Tester', result: result({ noiseFloor: floor }) });
+    expect(message).toMatch(/below the thermal noise of a 150 Ω source/);
+    const above = { ...floor, unweightedDbfs: belowDbfs + 6, aWeightedDbfs: belowDbfs + 4 };
+    await ok('recordChainCheck', { calibrationId: calibration.id, operator: 'A. Tester', result: result({ noiseFloor: above }) });
+  });
+
   it('refuses a chain check of a calibration that is no longer the latest, or at another sample rate', async () => {
     const first = await calibrate();
     await calibrate();
