@@ -102,7 +102,12 @@ export function App() {
 
   // At start the station's saved mains and default audio are the choice, once its devices are
   // listed (a default whose device is not connected is left aside: the bench keeps the system's).
+  // A choice the technician made before the settings arrived is theirs: the defaults never replace it.
   const defaultAudioApplied = useRef(false);
+  const chooseAudio = useCallback((next: AudioChoice) => {
+    defaultAudioApplied.current = true;
+    setChoice(next);
+  }, []);
   useEffect(() => {
     if (defaultAudioApplied.current || !stationCalibration || !devices) return;
     defaultAudioApplied.current = true;
@@ -464,7 +469,7 @@ export function App() {
     <AudioSetup
       devices={devices}
       choice={choice}
-      onChange={setChoice}
+      onChange={chooseAudio}
       capturing={audio !== null}
       starting={starting}
       capturePath={audio?.capturePath ?? null}
