@@ -9,9 +9,11 @@ import { FLOOR_DB, type Reading } from '../measurement/reading.ts';
 import type { StimulusSetting } from '../dsp/sine-source.ts';
 import { whyReadingInconsistent, thdDbFromHarmonics } from '../records/reading-check.ts';
 import { whyNotRecordable } from '../records/stimulus-check.ts';
+import type { Verdict } from '../records/verdict.ts';
 import type { CheckStep, Limit, ProcedureStep } from './procedure-file.ts';
 
-export type Verdict = 'pass' | 'fail';
+// One verdict type for the trim and the checks, so a step result is judged alike wherever it comes from.
+export type { Verdict };
 
 /**
  * The station's level calibration as a run uses it: the dBu of a full-scale sine at the generator's
