@@ -1,0 +1,371 @@
+// The decision logic of a procedure's check steps (schema 2): what a step asks of the generator,
+// whether a settled reading may be judged as the step's measurement, and the measurements with
+// their limits and verdicts. Pure: the page, main and the headless demo line all call it, so a
+// number is judged the same way wherever it is measured.
+//
+// Only types come from procedure-file.ts: the page uses this module and must not pull zod in.
+
+import { FLOOR_DB, type Reading } from '../measurement/reading.ts';
+import type { StimulusSetting } from '../dsp/sine-source.ts';
+import { whyReadingInconsistent, thdDbFromHarmonics } from '../records/reading-check.ts';
+import { whyNotRecordable } from '../records/stimulus-check.ts';
+import type { Verdict } from '../records/verdict.ts';
+import type { CheckStep, Limit, ProcedureStep } from './procedure-file.ts';
+
+// One verdict type for the trim and the checks, so a step result is judged alike wherever it comes from.
+export type { Verdict };
+
+/**
+ * The station's level calibration as a run uses it: the dBu of a full-scale sine at the generator's
+ * output and at the capture input. Null when the station has no calibration that holds now (the
+ * caller decides that with calibrationStatus).
+ */
+export interface StationLevels {
+  outputDbuAtFullScale: number;
+  inputDbuAtFullScale: number;
+}
+
+/**
+ * One measured quantity of a step, with the limits as they were when it was judged (a snapshot: a
+ * later revision of the procedure never changes a stored measurement). `quantity` is the limit's
+ * key in the step ("thdDb", "harmonicsDbc.H3", "gainDb", …). `value` is null when the quantity
+ * could not be measured; it then fails, because an unmeasured limit is not a met one.
+ */
+export interface Measurement {
+  quantity: string;
+  value: number | null;
+  unit: string;
+  low: number | null;
+  high: number | null;
+  verdict: Verdict;
+  /** What a reader of the sheet must know about this value (a bound, a caveat), or null. */
+  note: string | null;
+}
+
+export interface CheckResult {
+  stepId: string;
+  kind: CheckStep['kind'];
+  verdict: Verdict;
+  measurements: Measurement[];
+  /** Why the step failed, one plain sentence each; empty on a pass. */
+  reasons: string[];
+}
+
+/** The step's measurement, or why the reading(s) may not be judged as it (nothing is stored then). */
+export type CheckOutcome = { ok: true; result: CheckResult } | { ok: false; refusal: string };
+
+/**
+ * How far the tone found in the signal may lie from the generator's frequency, percent: the demo
+ * trim's own tolerance, which holds at 14 Hz, the lowest frequency a step may ask of the meter.
+ */
+export const CHECK_FREQUENCY_TOLERANCE_PERCENT = 1;
+
+const round = (value: number, decimals = 1) => value.toFixed(decimals).replace('-', '−');
+const hz = (value: number) => `${value.toFixed(value < 100 ? 2 : value < 1000 ? 1 : 0)} Hz`;
+
+// ---- limits ----------------------------------------------------------------------------------
+
+/**
+ * A value against its limit. Limits are inclusive, as docs/procedures.md states: the value passes
+ * when low ≤ value ≤ high, so a reading exactly at a bound passes. No value, no pass.
+ */
+export function judgeLimit(value: number | null, limit: Pick<Limit, 'low' | 'high'>): Verdict {
+  if (value === null || !Number.isFinite(value)) return 'fail';
+  if (limit.low !== undefined && !(value >= limit.low)) return 'fail';
+  if (limit.high !== undefined && !(value <= limit.high)) return 'fail';
+  return 'pass';
+}
+
+export function measurement(quantity: string, value: number | null, limit: Limit, note: string | null = null): Measurement {
+  return { quantity, value, unit: limit.unit, low: limit.low ?? null, high: limit.high ?? null, verdict: judgeLimit(value, limit), note };
+}
+
+/** "−52.0 dBc is above the high limit of −55 dBc" and the like, for a step's reasons. */
+function whyOutside(m: Measurement, label: string): string {
+  if (m.value === null) return `${label} was not measured${m.note ? `: ${m.note}` : '.'}`;
+  const value = `${round(m.value)} ${m.unit}`;
+  if (m.high !== null && m.value > m.high) return `${label} ${value} is above the high limit of ${round(m.high)} ${m.unit}.`;
+  if (m.low !== null && m.value < m.low) return `${label} ${value} is below the low limit of ${round(m.low)} ${m.unit}.`;
+  return `${label} ${value} is outside its limits.`;
+}
+
+function result(step: CheckStep, measured: { m: Measurement; label: string }[]): CheckResult {
+  const reasons = measured.filter(({ m }) => m.verdict === 'fail').map(({ m, label }) => whyOutside(m, label));
+  return { stepId: step.id, kind: step.kind, verdict: reasons.length === 0 ? 'pass' : 'fail', measurements: measured.map(({ m }) => m), reasons };
+}
+
+// ---- the level of harmonic n -------------------------------------------------------------------
+
+export type HarmonicLevelResult =
+  | { measured: true; order: number; frequencyHz: number; levelDbc: number; note: string | null }
+  | { measured: false; order: number; reason: 'above-nyquist' | 'not-measured'; message: string };
+
+/**
+ * The level of harmonic `order` in a reading, the one place that answers it. Policy when it is
+ * missing: say why (it lies above Nyquist, or the meter did not count it) and give no number; a
+ * caller never substitutes the floor or zero. A level the meter stored at its floor is returned as
+ * it is (the meter's own "below anything measurable"), with a note saying so.
+ */
+export function harmonicLevel(reading: Pick<Reading, 'harmonics' | 'harmonicsAboveNyquist' | 'mainsCoincidentOrders' | 'sampleRateHz' | 'fundamental'>, order: number): HarmonicLevelResult {
+  const harmonic = reading.harmonics.find((h) => h.order === order);
+  if (harmonic) {
+    const notes: string[] = [];
+    if (harmonic.levelDbc <= FLOOR_DB) notes.push('at the analysis floor: below anything the meter can measure');
+    if (reading.mainsCoincidentOrders.includes(order)) notes.push('lies on mains or one of its multiples, so its level may hold hum');
+    return { measured: true, order, frequencyHz: harmonic.frequencyHz, levelDbc: harmonic.levelDbc, note: notes.length > 0 ? notes.join('; ') : null };
+  }
+  const nyquist = reading.sampleRateHz / 2;
+  if (reading.harmonicsAboveNyquist.includes(order) || order * reading.fundamental.frequencyHz >= nyquist) {
+    return {
+      measured: false,
+      order,
+      reason: 'above-nyquist',
+      message: `H${order} (${hz(order * reading.fundamental.frequencyHz)}) lies at or above Nyquist (${hz(nyquist)}) at ${reading.sampleRateHz} Hz sampling: it cannot be measured; use a higher sample rate`,
+    };
+  }
+  return { measured: false, order, reason: 'not-measured', message: `H${order} was not measured by the meter (it counts fewer harmonics)` };
+}
+
+// ---- what a step asks of the generator --------------------------------------------------------
+
+export type GeneratorRequest =
+  | { on: false }
+  | {
+      on: true;
+      /** The step's frequency; the planner may move it by a little (see plannedStimulus in run-plan.ts). */
+      frequencyHz: number;
+      levelDbfs: number;
+      /** The level at the output terminals, when the station is calibrated. */
+      levelDbu: number | null;
+    };
+
+export type GeneratorOutcome = { ok: true; request: GeneratorRequest } | { ok: false; refusal: string };
+
+/** The check kinds that play a tone. */
+type StimulusStep = Exclude<CheckStep, { kind: 'noise' | 'hum' }>;
+
+/**
+ * What the step asks of the generator: off for noise and hum; otherwise its frequency and its level
+ * in dBFS, converted from dBu with the output calibration (dBFS = dBu − the output's dBu at full
+ * scale). A dBu level on an uncalibrated station, or one the output cannot reach, is refused.
+ */
+export function generatorFor(step: CheckStep, levels: StationLevels | null): GeneratorOutcome {
+  if (step.kind === 'noise' || step.kind === 'hum') return { ok: true, request: { on: false } };
+  const level = step.level;
+  if (level.unit === 'dBFS') {
+    return {
+      ok: true,
+      request: { on: true, frequencyHz: step.frequencyHz, levelDbfs: level.value, levelDbu: levels ? level.value + levels.outputDbuAtFullScale : null },
+    };
+  }
+  if (!levels) {
+    return {
+      ok: false,
+      refusal: `Step “${step.id}” plays ${round(level.value)} dBu, and this station has no calibration that holds: calibrate it in Station settings, then run the step.`,
+    };
+  }
+  const levelDbfs = level.value - levels.outputDbuAtFullScale;
+  if (levelDbfs > 0) {
+    return {
+      ok: false,
+      refusal: `Step “${step.id}” plays ${round(level.value)} dBu, above the ${round(levels.outputDbuAtFullScale)} dBu this station's output reaches at full scale: use an interface with more output level.`,
+    };
+  }
+  return { ok: true, request: { on: true, frequencyHz: step.frequencyHz, levelDbfs, levelDbu: level.value } };
+}
+
+/** Why the step cannot be run on this station at all, or null when it can. */
+export function whyStepCannotRun(step: CheckStep, levels: StationLevels | null): string | null {
+  const generator = generatorFor(step, levels);
+  if (!generator.ok) return generator.refusal;
+  if (levels) return null;
+  // These report a level at the unit's terminals (or a gain between two of them): only a calibrated
+  // input can say it.
+  if (step.kind === 'gain') return `Step “${step.id}” measures gain from the calibrated output and input levels, and this station has no calibration that holds: calibrate it in Station settings.`;
+  if (step.kind === 'noise' || step.kind === 'hum') return `Step “${step.id}” measures ${step.kind} in dBu, and this station has no calibration that holds: calibrate it in Station settings.`;
+  return null;
+}
+
+// ---- may the reading be judged ---------------------------------------------------------------
+
+/** Why a reading with the generator playing may not be judged as this step's, or null when it may. */
+function whyNotOfStimulus(reading: Reading, stimulus: StimulusSetting, step: StimulusStep, requested: GeneratorRequest & { on: true }): string | null {
+  // The same rules as a trim point: a consistent, settled reading of the tone at the step's frequency
+  // and level. The check steps state no expected level window: their limits judge the level.
+  return whyNotRecordable(
+    reading,
+    stimulus,
+    { stimulusHz: step.frequencyHz, stimulusLevelDbfs: requested.levelDbfs, expectedLevelDbfs: null, frequencyTolerancePercent: CHECK_FREQUENCY_TOLERANCE_PERCENT },
+    'refuse',
+  );
+}
+
+/** Why a reading with the generator off may not be judged as a noise or hum measurement. */
+function whyNotQuiet(reading: Reading, stimulus: StimulusSetting): string | null {
+  if (stimulus.on) return 'The generator is on: this step measures the unit with it off. Turn it off.';
+  const inconsistent = whyReadingInconsistent(reading);
+  if (inconsistent) return inconsistent;
+  if (reading.flags.includes('clipping')) return 'The input is clipping with the generator off: the unit is oscillating or something else feeds the input. Check the termination plug and the capture channel.';
+  if (!reading.settled) return 'The reading has not settled: wait for it.';
+  return null;
+}
+
+// ---- the measurements ------------------------------------------------------------------------
+
+/** A settled reading of one of the unit's channels, with that capture channel's input calibration. */
+export interface ChannelReading {
+  /** The unit's channel, numbered from 1 as in the step's `channels`. */
+  channel: number;
+  reading: Reading;
+  /** dBu of a full-scale sine at this capture input; null when this input is not calibrated. */
+  inputDbuAtFullScale: number | null;
+}
+
+export interface CheckInput {
+  /** What the generator was set to while the reading(s) were taken. */
+  stimulus: StimulusSetting;
+  /** The station's calibration in use, or null. */
+  levels: StationLevels | null;
+  /** One settled reading for a one-channel step; for balance and crosstalk, one per channel of the step. */
+  readings: ChannelReading[];
+}
+
+const dbuOf = (levelDbfs: number, dbuAtFullScale: number) => (levelDbfs <= FLOOR_DB ? FLOOR_DB : levelDbfs + dbuAtFullScale);
+
+/** Power sum of levels in dB (uncorrelated tones add in power). */
+const powerSumDb = (levelsDb: readonly number[]) => 10 * Math.log10(levelsDb.reduce((sum, l) => sum + 10 ** (l / 10), 0));
+
+/** Judges a check step from its settled reading(s). Refuses readings that are not of the step's stimulus. */
+export function measureCheckStep(step: CheckStep, input: CheckInput): CheckOutcome {
+  const generator = generatorFor(step, input.levels);
+  if (!generator.ok) return { ok: false, refusal: generator.refusal };
+  const cannot = whyStepCannotRun(step, input.levels);
+  if (cannot) return { ok: false, refusal: cannot };
+
+  const channelsWanted = step.kind === 'balance' || step.kind === 'crosstalk' ? step.channels : [1];
+  const readings = channelsWanted.map((channel) => input.readings.find((r) => r.channel === channel) ?? null);
+  const missing = channelsWanted.filter((_, i) => readings[i] === null);
+  if (missing.length > 0) return { ok: false, refusal: `Step “${step.id}” needs a reading of channel ${missing.join(' and ')}: take it before judging the step.` };
+  const [first, second] = readings as ChannelReading[];
+
+  const request = generator.request;
+  if (!request.on) {
+    const why = whyNotQuiet(first.reading, input.stimulus);
+    if (why) return { ok: false, refusal: why };
+    // whyStepCannotRun has made sure the station is calibrated.
+    const levels = input.levels as StationLevels;
+    if (step.kind === 'noise') return { ok: true, result: measureNoise(step, first.reading, levels) };
+    if (step.kind === 'hum') return { ok: true, result: measureHum(step, first.reading, levels) };
+    return { ok: false, refusal: `Step “${step.id}” (${step.kind}) cannot be measured with the generator off.` };
+  }
+
+  if (step.kind === 'noise' || step.kind === 'hum') return { ok: false, refusal: `Step “${step.id}” (${step.kind}) needs the generator off.` };
+  const levelled: StimulusStep = step;
+  // The driven channel's reading must be the unit's answer to the tone playing.
+  const why = whyNotOfStimulus(first.reading, input.stimulus, levelled, request);
+  if (why) return { ok: false, refusal: step.kind === 'balance' || step.kind === 'crosstalk' ? `Channel ${first.channel}: ${why}` : why };
+
+  switch (step.kind) {
+    case 'distortion':
+      return { ok: true, result: measureDistortion(step, first.reading) };
+    case 'gain':
+      return { ok: true, result: measureGain(step, first.reading, input.stimulus, input.levels as StationLevels) };
+    case 'balance': {
+      const whySecond = whyNotOfStimulus(second.reading, input.stimulus, levelled, request);
+      if (whySecond) return { ok: false, refusal: `Channel ${second.channel}: ${whySecond}` };
+      return twoChannel(step, first, second, 'balanceDb', step.limits.balanceDb, 'Balance', null);
+    }
+    case 'crosstalk': {
+      // The undriven channel is quiet by design: only that it is a consistent, settled reading of
+      // the tone's frequency (not of hum or another tone) and not clipping is asked of it.
+      const other = second.reading;
+      const inconsistent = whyReadingInconsistent(other);
+      if (inconsistent) return { ok: false, refusal: `Channel ${second.channel}: ${inconsistent}` };
+      if (!other.settled) return { ok: false, refusal: `Channel ${second.channel}: the reading has not settled: wait for it.` };
+      if (other.flags.includes('clipping')) return { ok: false, refusal: `Channel ${second.channel}: the input is clipping: it is not the undriven channel, or it oscillates.` };
+      const offPercent = (100 * Math.abs(other.fundamental.frequencyHz - input.stimulus.frequencyHz)) / input.stimulus.frequencyHz;
+      if (!(offPercent <= CHECK_FREQUENCY_TOLERANCE_PERCENT)) {
+        return { ok: false, refusal: `Channel ${second.channel}: its level was read at ${hz(other.fundamental.frequencyHz)}, not at the generator's ${hz(input.stimulus.frequencyHz)}: give the meter the generator's frequency.` };
+      }
+      const note = other.flags.includes('no-signal')
+        ? 'the undriven channel reads below the meter’s signal threshold: the value holds its noise at that frequency too, so the crosstalk is at most this'
+        : null;
+      return twoChannel(step, first, second, 'crosstalkDb', step.limits.crosstalkDb, 'Crosstalk', note);
+    }
+  }
+}
+
+function measureDistortion(step: Extract<CheckStep, { kind: 'distortion' }>, reading: Reading): CheckResult {
+  const measured: { m: Measurement; label: string }[] = [];
+  const above = reading.harmonicsAboveNyquist;
+  const counted = reading.harmonics.map((h) => h.order);
+  const sumNote = above.length > 0 && counted.length > 0 ? `the sum of H${Math.min(...counted)}–H${Math.max(...counted)}; H${above.join(', H')} lie above Nyquist and are not in it` : null;
+  const atFloor = reading.flags.includes('at-floor') ? 'within 6 dB of the station chain’s own residual: the value may be the station’s, not the unit’s' : null;
+  const notes = (...parts: (string | null)[]) => parts.filter((p): p is string => p !== null).join('; ') || null;
+  const { thdDb, thdnDb, harmonicsDbc } = step.limits;
+  // THD from the harmonics themselves (RSS over the fundamental): the rule main judges the trim by.
+  if (thdDb) measured.push({ m: measurement('thdDb', thdDbFromHarmonics(reading.harmonics), thdDb, notes(sumNote, atFloor)), label: 'THD' });
+  if (thdnDb) measured.push({ m: measurement('thdnDb', reading.thdnDb, thdnDb, atFloor), label: 'THD+N' });
+  for (const [name, limit] of Object.entries(harmonicsDbc ?? {})) {
+    if (!limit) continue;
+    const level = harmonicLevel(reading, Number(name.slice(1)));
+    measured.push({
+      m: level.measured ? measurement(`harmonicsDbc.${name}`, level.levelDbc, limit, level.note) : measurement(`harmonicsDbc.${name}`, null, limit, level.message),
+      label: name,
+    });
+  }
+  return result(step, measured);
+}
+
+function measureGain(step: Extract<CheckStep, { kind: 'gain' }>, reading: Reading, stimulus: StimulusSetting, levels: StationLevels): CheckResult {
+  // Gain is the level at the unit's output over the level at its input, both in dBu (0 dBu = √0.6 V
+  // RMS): the generator's dBFS lifted by the output calibration, the reading's by the input's.
+  const inputDbu = stimulus.levelDbfs + levels.outputDbuAtFullScale;
+  const outputDbu = reading.fundamental.levelDbfs + levels.inputDbuAtFullScale;
+  const note = `${round(outputDbu, 2)} dBu out for ${round(inputDbu, 2)} dBu in`;
+  return result(step, [{ m: measurement('gainDb', outputDbu - inputDbu, step.limits.gainDb, note), label: 'Gain' }]);
+}
+
+function measureNoise(step: Extract<CheckStep, { kind: 'noise' }>, reading: Reading, levels: StationLevels): CheckResult {
+  // The meter states noise in dBFS referred to a full-scale sine (AES17), so the input's dBu at full
+  // scale carries it to dBu unchanged.
+  const dbfs = step.weighting === 'A' ? reading.noiseAWeightedDbfs : reading.noiseDbfs;
+  const note = `${step.weighting === 'A' ? 'A-weighted (IEC 61672)' : 'unweighted'}, in the meter's band; tones (mains hum, any stray tone) are taken out of it`;
+  return result(step, [{ m: measurement('noiseDbu', dbuOf(dbfs, levels.inputDbuAtFullScale), step.limits.noiseDbu, note), label: step.weighting === 'A' ? 'Noise (A-weighted)' : 'Noise' }]);
+}
+
+function measureHum(step: Extract<CheckStep, { kind: 'hum' }>, reading: Reading, levels: StationLevels): CheckResult {
+  const limit = step.limits.humDbu;
+  if (reading.hum === null) {
+    // No hum component stands 10 dB above the noise in its own bandwidth; the noise over the whole
+    // band holds thousands of such bandwidths, so it bounds the hum from above.
+    const bound = dbuOf(reading.noiseDbfs, levels.inputDbuAtFullScale);
+    const note = `no hum stands above the noise: the value is the unweighted noise in the band, an upper bound for the hum`;
+    return result(step, [{ m: measurement('humDbu', bound, limit, note), label: 'Hum (upper bound)' }]);
+  }
+  const components = reading.hum.components.filter((c) => c.order <= step.mainsHarmonics);
+  const readOrders = new Set(reading.hum.components.map((c) => c.order));
+  const unread = Array.from({ length: step.mainsHarmonics }, (_, i) => i + 1).filter((order) => !readOrders.has(order));
+  const value = components.length > 0 ? dbuOf(powerSumDb(components.map((c) => c.levelDbfs)), levels.inputDbuAtFullScale) : null;
+  const notes = [`${hz(reading.hum.frequencyHz)} mains; the power sum of ${components.map((c) => (c.order === 1 ? 'the fundamental' : `harmonic ${c.order}`)).join(', ') || 'no component'}`];
+  if (unread.length > 0) notes.push(`mains harmonic${unread.length === 1 ? '' : 's'} ${unread.join(', ')} not read by the meter and not in the sum`);
+  return result(step, [{ m: measurement('humDbu', value, limit, notes.join('; ')), label: 'Hum' }]);
+}
+
+function twoChannel(step: Extract<CheckStep, { kind: 'balance' | 'crosstalk' }>, first: ChannelReading, second: ChannelReading, quantity: string, limit: Limit, label: string, extraNote: string | null): CheckOutcome {
+  const bothCalibrated = first.inputDbuAtFullScale !== null && second.inputDbuAtFullScale !== null;
+  if (!bothCalibrated && (first.inputDbuAtFullScale !== null || second.inputDbuAtFullScale !== null)) {
+    return { ok: false, refusal: `Step “${step.id}”: only one of channels ${first.channel} and ${second.channel} has a calibrated input, so their levels cannot be compared. Calibrate both inputs, or neither.` };
+  }
+  // Both channels see the same drive, so the difference of their output levels is the difference of
+  // their gains (balance), or the undriven channel's level relative to the driven one (crosstalk).
+  const a = bothCalibrated ? first.reading.fundamental.levelDbfs + (first.inputDbuAtFullScale as number) : first.reading.fundamental.levelDbfs;
+  const b = bothCalibrated ? second.reading.fundamental.levelDbfs + (second.inputDbuAtFullScale as number) : second.reading.fundamental.levelDbfs;
+  const notes = [bothCalibrated ? null : 'the capture inputs are not calibrated: assumes both have the same gain', extraNote].filter((n): n is string => n !== null);
+  return { ok: true, result: result(step, [{ m: measurement(quantity, b - a, limit, notes.join('; ') || null), label }]) };
+}
+
+/** Check steps are the kinds with limits; notice and trim are judged elsewhere. */
+export function isCheckStep(step: ProcedureStep): step is CheckStep {
+  return step.kind !== 'notice' && step.kind !== 'trim';
+}

@@ -1,0 +1,105 @@
+// The run plan: the steps a run walks, in the procedure's order, and what each needs before it can
+// be judged (an acknowledgement, the trim, or a generator setting and settled readings). The page,
+// main and the headless demo line walk the same plan, so none of them decides the order or the
+// stimulus on its own.
+
+import type { StimulusSetting } from '../dsp/sine-source.ts';
+import { NoCoherentFrequency, planTestFrequency } from '../measurement/frequency-planner.ts';
+import { generatorFor, whyStepCannotRun, type GeneratorRequest, type StationLevels } from './check-steps.ts';
+import type { ProcedureFile, ProcedureStep } from './procedure-file.ts';
+
+export type StepNeeds =
+  | { kind: 'acknowledge'; acknowledgement: string }
+  | {
+      kind: 'trim';
+      /** The trim's stimulus as the procedure states it (the planner may move the frequency a little). */
+      generator: { on: true; frequencyHz: number; levelDbfs: number };
+      limitThdDb: number;
+    }
+  | {
+      kind: 'measure';
+      /** Null when the step cannot be run on this station (see `blocked`). */
+      generator: GeneratorRequest | null;
+      /** One settled reading per entry, all taken with the generator as above. */
+      readings: { channel: number; driven: boolean }[];
+      /** For noise and hum: how the technician terminates the unit's input; null otherwise. */
+      inputTermination: string | null;
+      /** For noise: the band and weighting the meter must measure over; null otherwise. */
+      band: { lowHz: number; highHz: number; weighting: 'unweighted' | 'A' } | null;
+    };
+
+export interface PlannedStep {
+  index: number;
+  stepId: string;
+  title: string;
+  kind: ProcedureStep['kind'];
+  instructions: readonly string[];
+  /** What a failure does; null for a notice (nothing goes on until it is acknowledged). */
+  onFail: 'stop' | 'continue' | null;
+  needs: StepNeeds;
+  /** Why the step cannot be run on this station now (a dBu level without calibration), or null. */
+  blocked: string | null;
+}
+
+/** The ordered steps of a run of `procedure` on a station with these levels (null: uncalibrated). */
+export function runPlan(procedure: Pick<ProcedureFile, 'steps'>, levels: StationLevels | null): PlannedStep[] {
+  return procedure.steps.map((step, index) => {
+    const base = { index, stepId: step.id, title: step.title, kind: step.kind, instructions: step.instructions };
+    switch (step.kind) {
+      case 'notice':
+        return { ...base, onFail: null, needs: { kind: 'acknowledge', acknowledgement: step.acknowledgement }, blocked: null };
+      case 'trim':
+        return {
+          ...base,
+          onFail: step.onFail,
+          needs: { kind: 'trim', generator: { on: true, frequencyHz: step.stimulusHz, levelDbfs: step.stimulusLevelDbfs }, limitThdDb: step.limitThdDb },
+          blocked: null,
+        };
+      default: {
+        const generator = generatorFor(step, levels);
+        const twoChannels = step.kind === 'balance' || step.kind === 'crosstalk';
+        const readings = twoChannels
+          ? [
+              { channel: step.channels[0], driven: true },
+              // Balance drives both channels alike; crosstalk drives the first only.
+              { channel: step.channels[1], driven: step.kind === 'balance' },
+            ]
+          : [{ channel: 1, driven: generator.ok && generator.request.on }];
+        return {
+          ...base,
+          onFail: step.onFail,
+          needs: {
+            kind: 'measure',
+            generator: generator.ok ? generator.request : null,
+            readings,
+            inputTermination: step.kind === 'noise' || step.kind === 'hum' ? step.inputTermination : null,
+            band: step.kind === 'noise' ? { ...step.band, weighting: step.weighting } : null,
+          },
+          blocked: whyStepCannotRun(step, levels),
+        };
+      }
+    }
+  });
+}
+
+export interface PlannedStimulus extends StimulusSetting {
+  /** Why this frequency: the planner's reason, or why the step's own frequency is used as it is. */
+  reason: string;
+}
+
+/**
+ * The generator setting for a step on this station: the step's frequency moved by the planner to a
+ * whole number of cycles clear of mains (within the planner's default 1 %, well inside what the
+ * stimulus check allows), or the step's own frequency, analysed windowed, when no such frequency
+ * exists. Off stays off.
+ */
+export function plannedStimulus(request: GeneratorRequest, station: { sampleRateHz: number; mainsHz: 50 | 60; harmonicCount: number }): PlannedStimulus {
+  if (!request.on) return { on: false, frequencyHz: 1000, levelDbfs: -120, reason: 'The generator is off for this step.' };
+  try {
+    const plan = planTestFrequency({ targetHz: request.frequencyHz, sampleRateHz: station.sampleRateHz, mainsHz: station.mainsHz, harmonicCount: station.harmonicCount });
+    return { on: true, frequencyHz: plan.frequencyHz, levelDbfs: request.levelDbfs, reason: plan.reason };
+  } catch (error) {
+    if (!(error instanceof NoCoherentFrequency)) throw error;
+    return { on: true, frequencyHz: request.frequencyHz, levelDbfs: request.levelDbfs, reason: error.message };
+  }
+}

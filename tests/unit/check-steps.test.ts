@@ -1,0 +1,346 @@
+// The check steps' decision logic against values that come from outside the code: Fourier series
+// whose coefficients give THD (THD = √(Σ aₙ²)/a₁, the ratio of RMS values, IEEE 1241), the dBu
+// definition (0 dBu = √0.6 V RMS, 1 mW in 600 Ω), the AES17 convention that noise is referred to a
+// full-scale sine, the Nyquist limit (fs/2), and the limit and onFail rules as docs/procedures.md
+// states them. Every expected number is derived here from the construction, never read back from
+// the code.
+
+import { readFileSync } from 'node:fs';
+import { describe, expect, it } from 'vitest';
+import { FrameAnalyzer } from '../../shared/measurement/frame-analyzer.ts';
+import { createHarmonicAnalysis, FLOOR_DB, type HarmonicAnalysis, type Reading } from '../../shared/measurement/reading.ts';
+import {
+  generatorFor,
+  harmonicLevel,
+  judgeLimit,
+  measureCheckStep,
+  type CheckOutcome,
+  type CheckResult,
+  type StationLevels,
+} from '../../shared/procedures/check-steps.ts';
+import { checkProcedureFile, type CheckStep, type ProcedureFile } from '../../shared/procedures/procedure-file.ts';
+import { runPlan } from '../../shared/procedures/run-plan.ts';
+import { judgeUnit, type StepOutcome } from '../../shared/procedures/unit-verdict.ts';
+
+// ---- construction helpers ---------------------------------------------------------------------
+
+/** dBu of an RMS voltage, from the definition: 0 dBu = √0.6 V (1 mW into 600 Ω). */
+const dbuOfVolts = (vRms: number) => 20 * Math.log10(vRms / Math.sqrt(0.6));
+
+const RATE = 48000;
+const FRAME = 16384;
+
+/** Σ aₖ·sin(2π·k·f·n/fs): a Fourier series with amplitude aₖ at harmonic k (a₁ the fundamental). */
+function fourierSeries(cycles: number, amplitudes: Record<number, number>): { samples: Float64Array; frequencyHz: number } {
+  const samples = new Float64Array(FRAME);
+  for (let n = 0; n < FRAME; n++) {
+    let x = 0;
+    for (const [k, a] of Object.entries(amplitudes)) x += a * Math.sin((2 * Math.PI * Number(k) * cycles * n) / FRAME);
+    samples[n] = x;
+  }
+  return { samples, frequencyHz: (cycles * RATE) / FRAME };
+}
+
+/** A settled reading around an analysis, as the live meter reports it once it agrees with itself. */
+function settled(analysis: HarmonicAnalysis): Reading {
+  return { ...analysis, sequence: 7, sampleRateHz: RATE, frameSize: FRAME, discontinuities: 0, settled: true, settleProgress: 1, settleRemainingS: 0, subAudioDbfs: null };
+}
+
+/** The real analyzer on a Fourier series, the fundamental's frequency known (coherent, whole cycles). */
+function analysed(cycles: number, amplitudes: Record<number, number>, harmonicCount = 10): Reading {
+  const { samples, frequencyHz } = fourierSeries(cycles, amplitudes);
+  const analysis = new FrameAnalyzer(FRAME, RATE, { harmonicCount }).analyze(samples, createHarmonicAnalysis(), frequencyHz);
+  // The analyzer reuses its objects; the step keeps what it is given.
+  return settled(structuredClone(analysis));
+}
+
+/** A reading built by hand: a tone at `levelDbfs` and nothing else measured (no harmonics). */
+function handReading(frequencyHz: number, levelDbfs: number, overrides: Partial<Reading> = {}): Reading {
+  return settled({
+    ...createHarmonicAnalysis(),
+    mode: 'coherent',
+    fundamental: { frequencyHz, levelDbfs, phaseDeg: 0 },
+    measuredFundamentalHz: frequencyHz,
+    flags: levelDbfs < -80 ? ['no-signal'] : [],
+    ...overrides,
+  });
+}
+
+const expectMeasured = (outcome: CheckOutcome): CheckResult => {
+  if (!outcome.ok) throw new Error(`refused: ${outcome.refusal}`);
+  return outcome.result;
+};
+
+const distortion = (frequencyHz: number, levelDbfs: number, limits: Extract<CheckStep, { kind: 'distortion' }>['limits']): CheckStep => ({
+  id: 'thd',
+  title: 'Distortion',
+  kind: 'distortion',
+  instructions: ['The generator plays the tone.'],
+  frequencyHz,
+  level: { value: levelDbfs, unit: 'dBFS' },
+  limits,
+  onFail: 'continue',
+});
+
+const on = (frequencyHz: number, levelDbfs: number) => ({ on: true, frequencyHz, levelDbfs });
+const OFF = { on: false, frequencyHz: 1000, levelDbfs: -120 };
+
+// The demo procedure file, checked as the app checks it.
+const demoCheck = checkProcedureFile(readFileSync(new URL('../../resources/procedures/mg20-lf-trim.json', import.meta.url), 'utf8'));
+if (!demoCheck.ok) throw new Error('the demo procedure file does not validate');
+const DEMO: ProcedureFile = demoCheck.procedure;
+const demoStep = (id: string) => DEMO.steps.find((s) => s.id === id) as CheckStep;
+
+// ---- distortion ------------------------------------------------------------------------------
+
+describe('distortion: THD and harmonics of a Fourier series (THD = √(Σ aₙ²)/a₁, IEEE 1241)', () => {
+  const cycles = 341; // odd, whole cycles in the frame: 999.02 Hz at 48 kHz, coherent
+  const frequencyHz = (cycles * RATE) / FRAME;
+  const a1 = 10 ** (-12 / 20); // −12 dBFS peak (AES17: a full-scale sine is 0 dBFS)
+
+  it('H3 at 1 % of the fundamental is THD −40 dB and H3 −40 dBc', () => {
+    const reading = analysed(cycles, { 1: a1, 3: 0.01 * a1 });
+    const expected = 20 * Math.log10(0.01); // −40 dB
+    const step = distortion(1000, -12, { thdDb: { high: -30, unit: 'dB' }, harmonicsDbc: { H3: { high: -30, unit: 'dBc' } } });
+    const result = expectMeasured(measureCheckStep(step, { stimulus: on(frequencyHz, -12), levels: null, readings: [{ channel: 1, reading, inputDbuAtFullScale: null }] }));
+    const thd = result.measurements.find((m) => m.quantity === 'thdDb')!;
+    const h3 = result.measurements.find((m) => m.quantity === 'harmonicsDbc.H3')!;
+    expect(thd.value).toBeCloseTo(expected, 2);
+    expect(h3.value).toBeCloseTo(expected, 2);
+    // The limits are stored as they were, with the verdict against them.
+    expect(thd).toMatchObject({ unit: 'dB', low: null, high: -30, verdict: 'pass' });
+    expect(result.verdict).toBe('pass');
+  });
+
+  it('H2 at 0.5 % and H3 at 0.5 % is THD 20·log10(√(0.005² + 0.005²)) ≈ −43.01 dB', () => {
+    const reading = analysed(cycles, { 1: a1, 2: 0.005 * a1, 3: 0.005 * a1 });
+    const expected = 20 * Math.log10(Math.sqrt(0.005 ** 2 + 0.005 ** 2));
+    // A limit 0.5 dB under the true THD: a THD read as H3 alone (−46 dB) would pass it.
+    const step = distortion(1000, -12, { thdDb: { high: expected - 0.5, unit: 'dB' } });
+    const result = expectMeasured(measureCheckStep(step, { stimulus: on(frequencyHz, -12), levels: null, readings: [{ channel: 1, reading, inputDbuAtFullScale: null }] }));
+    expect(result.measurements[0].value).toBeCloseTo(expected, 2);
+    expect(result.verdict).toBe('fail');
+    expect(result.reasons[0]).toMatch(/THD −43\.0 dB is above the high limit of −43\.5 dB/);
+  });
+
+  it('refuses a reading that is not of the stimulus (a 50 Hz tone while the generator plays 1 kHz)', () => {
+    const reading = handReading(50, -12);
+    const step = distortion(1000, -12, { thdDb: { high: -60, unit: 'dB' } });
+    const outcome = measureCheckStep(step, { stimulus: on(1000, -12), levels: null, readings: [{ channel: 1, reading, inputDbuAtFullScale: null }] });
+    expect(outcome.ok).toBe(false);
+    if (!outcome.ok) expect(outcome.refusal).toMatch(/50\.00 Hz, not the generator's 1000\.0 Hz/);
+  });
+
+  it('refuses a generator that is not at the step level', () => {
+    const reading = handReading(1000, -6);
+    const outcome = measureCheckStep(distortion(1000, -12, { thdDb: { high: -60, unit: 'dB' } }), { stimulus: on(1000, -6), levels: null, readings: [{ channel: 1, reading, inputDbuAtFullScale: null }] });
+    expect(outcome.ok).toBe(false);
+  });
+});
+
+describe('the level of harmonic n: one policy when it is missing', () => {
+  it('H3 of a 10 kHz tone at 48 kHz lies above Nyquist (30 kHz > fs/2 = 24 kHz): said, never a number', () => {
+    const cycles = 3413; // 9998.4 Hz, whole cycles
+    const reading = analysed(cycles, { 1: 0.25 });
+    const level = harmonicLevel(reading, 3);
+    expect(level).toMatchObject({ measured: false, reason: 'above-nyquist' });
+    const step = distortion(10000, -12, { harmonicsDbc: { H3: { high: -60, unit: 'dBc' } } });
+    const result = expectMeasured(measureCheckStep(step, { stimulus: on((cycles * RATE) / FRAME, -12), levels: null, readings: [{ channel: 1, reading, inputDbuAtFullScale: null }] }));
+    // No value is invented for it, and an unmeasured limit is not a met one.
+    expect(result.measurements[0]).toMatchObject({ quantity: 'harmonicsDbc.H3', value: null, verdict: 'fail' });
+    expect(result.measurements[0].note).toMatch(/Nyquist/);
+  });
+
+  it('a harmonic the meter did not count is "not measured" (meter counting H2–H3, H5 asked)', () => {
+    const reading = analysed(341, { 1: 0.25, 5: 0.0025 }, 3);
+    expect(harmonicLevel(reading, 5)).toMatchObject({ measured: false, reason: 'not-measured' });
+    // The one counted is read: H2 absent from the series lies at the floor of the analysis, far below −100 dBc.
+    const h2 = harmonicLevel(reading, 2);
+    expect(h2.measured && h2.levelDbc < -100).toBe(true);
+  });
+});
+
+// ---- levels in dBu -----------------------------------------------------------------------------
+
+describe('levels from the station calibration (dBu definition: 0 dBu = √0.6 V RMS)', () => {
+  // Output: a full-scale sine is 1.0 V RMS at the generator's terminals; input: 2.0 V RMS reads full scale.
+  const levels: StationLevels = { outputDbuAtFullScale: dbuOfVolts(1.0), inputDbuAtFullScale: dbuOfVolts(2.0) };
+
+  it('a dBu level becomes the dBFS that gives that voltage: +4 dBu on a 4.0 V full scale', () => {
+    // +4 dBu is √0.6·10^(4/20) ≈ 1.228 V; its ratio to the 4.0 V of full scale is its dBFS.
+    const expected = 20 * Math.log10((Math.sqrt(0.6) * 10 ** (4 / 20)) / 4.0);
+    const outcome = generatorFor(demoStep('thd-14hz'), { ...levels, outputDbuAtFullScale: dbuOfVolts(4.0) });
+    expect(outcome.ok).toBe(true);
+    expect(outcome.ok && outcome.request.on && outcome.request.levelDbfs).toBeCloseTo(expected, 9);
+  });
+
+  it('gain of a ×2 voltage stage is 20·log10(2) dB from the calibrated output and input levels', () => {
+    // Generator at −20 dBFS: 0.1 V into the unit; the unit gives 0.2 V, which reads 20·log10(0.2/2.0) dBFS.
+    const step: CheckStep = { ...demoStep('gain-1khz'), level: { value: -20, unit: 'dBFS' }, limits: { gainDb: { low: 5.5, high: 6.5, unit: 'dB' } } } as CheckStep;
+    const reading = handReading(1000, 20 * Math.log10(0.2 / 2.0));
+    const result = expectMeasured(measureCheckStep(step, { stimulus: on(1000, -20), levels, readings: [{ channel: 1, reading, inputDbuAtFullScale: levels.inputDbuAtFullScale }] }));
+    expect(result.measurements[0].value).toBeCloseTo(20 * Math.log10(2), 9);
+    expect(result.measurements[0]).toMatchObject({ quantity: 'gainDb', unit: 'dB', low: 5.5, high: 6.5, verdict: 'pass' });
+    // The demo's own limits (unity ± 0.5 dB) fail it.
+    const demo = expectMeasured(measureCheckStep({ ...step, limits: demoStep('gain-1khz').limits } as CheckStep, { stimulus: on(1000, -20), levels, readings: [{ channel: 1, reading, inputDbuAtFullScale: levels.inputDbuAtFullScale }] }));
+    expect(demo.verdict).toBe('fail');
+  });
+
+  it('A-weighted noise in dBu is the dBFS figure (AES17: referred to a full-scale sine) on the input calibration', () => {
+    // −100 dBFS of a 2.0 V RMS full-scale sine is 2.0·10^(−100/20) V RMS of noise.
+    const expected = dbuOfVolts(2.0 * 10 ** (-100 / 20));
+    // The unweighted figure is different, so a step reading the wrong one is caught.
+    const reading = handReading(0, FLOOR_DB, { noiseAWeightedDbfs: -100, noiseDbfs: -94 });
+    const result = expectMeasured(measureCheckStep(demoStep('noise-a'), { stimulus: OFF, levels, readings: [{ channel: 1, reading, inputDbuAtFullScale: levels.inputDbuAtFullScale }] }));
+    expect(result.measurements[0].value).toBeCloseTo(expected, 9);
+    // The demo limit is −85 dBu; −100 dBFS on 2.0 V is about −91.8 dBu.
+    expect(result.measurements[0]).toMatchObject({ quantity: 'noiseDbu', unit: 'dBu', high: -85, verdict: 'pass' });
+  });
+
+  it('refuses a noise reading taken with the generator on', () => {
+    const outcome = measureCheckStep(demoStep('noise-a'), { stimulus: on(1000, -12), levels, readings: [{ channel: 1, reading: handReading(1000, -12), inputDbuAtFullScale: levels.inputDbuAtFullScale }] });
+    expect(outcome.ok).toBe(false);
+  });
+
+  it('hum is the power sum of the mains components the step counts, in dBu, against its limit', () => {
+    const components = [
+      { order: 1, frequencyHz: 50, levelDbfs: -80 },
+      { order: 2, frequencyHz: 100, levelDbfs: -83 },
+      { order: 3, frequencyHz: 150, levelDbfs: -90 },
+    ];
+    const reading = handReading(50, -80, { hum: { frequencyHz: 50, levelDbfs: -80, components }, flags: ['no-signal'] });
+    const hum = { ...(demoStep('hum') as Extract<CheckStep, { kind: 'hum' }>), mainsHarmonics: 2 };
+    // Uncorrelated tones add in power: 10·log10(10^(−8) + 10^(−8.3)) dBFS, then + the input's dBu at full scale.
+    const expected = 10 * Math.log10(10 ** (-80 / 10) + 10 ** (-83 / 10)) + dbuOfVolts(2.0);
+    const result = expectMeasured(measureCheckStep({ ...hum, limits: { humDbu: { high: expected + 0.1, unit: 'dBu' } } }, { stimulus: OFF, levels, readings: [{ channel: 1, reading, inputDbuAtFullScale: levels.inputDbuAtFullScale }] }));
+    expect(result.measurements[0].value).toBeCloseTo(expected, 9);
+    expect(result.verdict).toBe('pass');
+    const over = expectMeasured(measureCheckStep({ ...hum, limits: { humDbu: { high: expected - 0.1, unit: 'dBu' } } }, { stimulus: OFF, levels, readings: [{ channel: 1, reading, inputDbuAtFullScale: levels.inputDbuAtFullScale }] }));
+    expect(over.verdict).toBe('fail');
+    // Asked for five components, the meter's three are summed and the two missing are said.
+    const five = expectMeasured(measureCheckStep({ ...hum, mainsHarmonics: 5 }, { stimulus: OFF, levels, readings: [{ channel: 1, reading, inputDbuAtFullScale: levels.inputDbuAtFullScale }] }));
+    expect(five.measurements[0].note).toMatch(/harmonics 4, 5 not read/);
+  });
+
+  it('with no hum above the noise, the band noise in dBu stands as an upper bound, and says so', () => {
+    const reading = handReading(0, FLOOR_DB, { hum: null, noiseDbfs: -110, noiseAWeightedDbfs: -113 });
+    const result = expectMeasured(measureCheckStep(demoStep('hum'), { stimulus: OFF, levels, readings: [{ channel: 1, reading, inputDbuAtFullScale: levels.inputDbuAtFullScale }] }));
+    expect(result.measurements[0].value).toBeCloseTo(dbuOfVolts(2.0 * 10 ** (-110 / 20)), 9);
+    expect(result.measurements[0].note).toMatch(/upper bound/);
+  });
+});
+
+// ---- limits, verdicts ------------------------------------------------------------------------
+
+describe('limits are inclusive: low ≤ value ≤ high passes (docs/procedures.md, "Limits")', () => {
+  it('a value exactly at the high bound passes, and one just above fails', () => {
+    expect(judgeLimit(-60, { high: -60 })).toBe('pass');
+    expect(judgeLimit(-59.99, { high: -60 })).toBe('fail');
+  });
+  it('a value exactly at the low bound passes, and one just below fails', () => {
+    expect(judgeLimit(-0.5, { low: -0.5, high: 0.5 })).toBe('pass');
+    expect(judgeLimit(-0.51, { low: -0.5, high: 0.5 })).toBe('fail');
+  });
+  it('no value is never a pass', () => {
+    expect(judgeLimit(null, { high: 0 })).toBe('fail');
+    expect(judgeLimit(Number.NaN, { high: 0 })).toBe('fail');
+  });
+});
+
+describe('judgeUnit: PASS only when every step passed; "stop" ends the run (docs/procedures.md, "onFail")', () => {
+  const pass = (stepId: string): StepOutcome => ({ stepId, verdict: 'pass', reasons: [] });
+  const fail = (stepId: string, why: string): StepOutcome => ({ stepId, verdict: 'fail', reasons: [why] });
+  const all = DEMO.steps.map((s) => pass(s.id));
+
+  it('passes a unit whose every step passed', () => {
+    expect(judgeUnit(DEMO, all)).toMatchObject({ verdict: 'pass', finished: true, stoppedAt: null, reasons: [] });
+  });
+
+  it('a failed "continue" step fails the unit, and the run goes on to its end', () => {
+    const results = all.map((r) => (r.stepId === 'thd-20hz' ? fail('thd-20hz', 'THD −50.0 dB is above the high limit of −55.0 dB.') : r));
+    const judged = judgeUnit(DEMO, results);
+    expect(judged).toMatchObject({ verdict: 'fail', finished: true, stoppedAt: null });
+    expect(judged.reasons).toEqual(['Step “thd-20hz” (Distortion at 20 Hz, working level (invented limits)) failed: THD −50.0 dB is above the high limit of −55.0 dB.']);
+    expect(judged.steps.filter((s) => s.status === 'pass')).toHaveLength(DEMO.steps.length - 1);
+  });
+
+  it('a failed "stop" step ends the run as FAIL with its reason; the steps after it are not run', () => {
+    const upTo = DEMO.steps.findIndex((s) => s.id === 'thd-14hz');
+    const results = [...all.slice(0, upTo), fail('thd-14hz', 'THD −45.0 dB is above the high limit of −50.0 dB.')];
+    const judged = judgeUnit(DEMO, results);
+    expect(judged).toMatchObject({ verdict: 'fail', finished: true, stoppedAt: 'thd-14hz', nextStepId: null });
+    expect(judged.reasons).toHaveLength(1);
+    expect(judged.reasons[0]).toMatch(/thd-14hz.*stops the run: THD −45\.0 dB/);
+    expect(judged.steps.slice(upTo + 1).every((s) => s.status === 'not-run')).toBe(true);
+  });
+
+  it('a step not run is not a pass, and the run is not finished', () => {
+    const judged = judgeUnit(DEMO, all.filter((r) => r.stepId !== 'hum'));
+    expect(judged).toMatchObject({ verdict: 'fail', finished: false, nextStepId: 'hum' });
+    expect(judged.reasons).toEqual(['Step “hum” (Hum (invented limit)) was not run.']);
+  });
+
+  it('a repeated step counts by its latest result', () => {
+    expect(judgeUnit(DEMO, [...all, fail('gain-1khz', 'low'), pass('gain-1khz')]).verdict).toBe('pass');
+    expect(judgeUnit(DEMO, [...all, fail('gain-1khz', 'Gain 1.0 dB is above the high limit of 0.5 dB.')]).verdict).toBe('fail');
+  });
+});
+
+// ---- calibration, two channels, the plan -------------------------------------------------------
+
+describe('a step needing dBu on an uncalibrated station is refused (docs/procedures.md, requiresCalibration)', () => {
+  it('refuses the generator for a dBu level, in words naming the step and what to do', () => {
+    const outcome = generatorFor(demoStep('thd-14hz'), null);
+    expect(outcome.ok).toBe(false);
+    if (!outcome.ok) expect(outcome.refusal).toMatch(/“thd-14hz”.*4\.0 dBu.*calibrate it in Station settings/);
+  });
+  it('refuses to judge a noise step without a calibration, and the plan marks such steps blocked', () => {
+    const outcome = measureCheckStep(demoStep('noise-a'), { stimulus: OFF, levels: null, readings: [{ channel: 1, reading: handReading(0, FLOOR_DB), inputDbuAtFullScale: null }] });
+    expect(outcome.ok).toBe(false);
+    const blocked = runPlan(DEMO, null).filter((s) => s.blocked !== null).map((s) => s.stepId);
+    // Every step of the demo that plays or reads a dBu level, or measures gain.
+    expect(blocked).toEqual(['thd-14hz', 'thd-20hz', 'thd-50hz', 'thd-1khz', 'thd-10khz', 'gain-1khz', 'noise-a', 'hum']);
+  });
+  it('refuses a dBu level above what the calibrated output reaches at full scale', () => {
+    // +4 dBu asked of an output whose full scale is 0.5 V RMS (about −3.8 dBu).
+    expect(generatorFor(demoStep('thd-14hz'), { outputDbuAtFullScale: dbuOfVolts(0.5), inputDbuAtFullScale: 0 }).ok).toBe(false);
+  });
+});
+
+describe('two channels: balance and crosstalk from the same drive', () => {
+  const base = { title: 'Two channels', instructions: ['Both channels connected.'], frequencyHz: 1000, level: { value: -12, unit: 'dBFS' as const }, onFail: 'continue' as const, channels: [1, 2] as [number, number] };
+  const stimulus = on(1000, -12);
+
+  it('crosstalk is the undriven channel level relative to the driven one: 1 mV beside 1 V is −60 dB', () => {
+    const step: CheckStep = { ...base, id: 'xtalk', kind: 'crosstalk', limits: { crosstalkDb: { high: -50, unit: 'dB' } } };
+    const driven = handReading(1000, 20 * Math.log10(1.0));
+    const quiet = handReading(1000, 20 * Math.log10(0.001), { measuredFundamentalHz: 50 });
+    const result = expectMeasured(measureCheckStep(step, { stimulus, levels: null, readings: [{ channel: 1, reading: driven, inputDbuAtFullScale: null }, { channel: 2, reading: quiet, inputDbuAtFullScale: null }] }));
+    expect(result.measurements[0].value).toBeCloseTo(-60, 9);
+    expect(result.verdict).toBe('pass');
+  });
+
+  it('balance is the second channel gain minus the first; inputs calibrated differently are taken into account', () => {
+    const step: CheckStep = { ...base, id: 'bal', kind: 'balance', limits: { balanceDb: { low: -0.5, high: 0.5, unit: 'dB' } } };
+    // Both outputs are 1.0 V RMS; input 1 reads full scale at 2.0 V, input 2 at 4.0 V.
+    const one = handReading(1000, 20 * Math.log10(1.0 / 2.0));
+    const two = handReading(1000, 20 * Math.log10(1.0 / 4.0));
+    const result = expectMeasured(measureCheckStep(step, { stimulus, levels: null, readings: [{ channel: 1, reading: one, inputDbuAtFullScale: dbuOfVolts(2.0) }, { channel: 2, reading: two, inputDbuAtFullScale: dbuOfVolts(4.0) }] }));
+    expect(result.measurements[0].value).toBeCloseTo(0, 9);
+    // Only one input calibrated: the levels cannot be compared.
+    expect(measureCheckStep(step, { stimulus, levels: null, readings: [{ channel: 1, reading: one, inputDbuAtFullScale: dbuOfVolts(2.0) }, { channel: 2, reading: two, inputDbuAtFullScale: null }] }).ok).toBe(false);
+  });
+});
+
+describe('runPlan: the ordered steps and what each needs', () => {
+  it('walks the demo notice → trim → checks in file order, the generator off for noise and hum', () => {
+    const plan = runPlan(DEMO, { outputDbuAtFullScale: 18, inputDbuAtFullScale: 18 });
+    expect(plan.map((s) => s.stepId)).toEqual(DEMO.steps.map((s) => s.id));
+    expect(plan.map((s) => s.needs.kind)).toEqual(['acknowledge', 'trim', 'measure', 'measure', 'measure', 'measure', 'measure', 'measure', 'measure', 'measure']);
+    const noise = plan.find((s) => s.stepId === 'noise-a')!.needs;
+    expect(noise).toMatchObject({ kind: 'measure', generator: { on: false }, band: { lowHz: 22, highHz: 22000, weighting: 'A' } });
+    // +4 dBu on an output whose full scale is +18 dBu: −14 dBFS (dBu and dBFS differ by a constant).
+    expect(plan.find((s) => s.stepId === 'thd-14hz')!.needs).toMatchObject({ generator: { on: true, frequencyHz: 14, levelDbfs: -14, levelDbu: 4 } });
+    expect(plan.every((s) => s.blocked === null)).toBe(true);
+  });
+});
