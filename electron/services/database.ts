@@ -215,6 +215,16 @@ export const MIGRATIONS: readonly string[] = [
     WHEN OLD.finished_at IS NOT NULL
     BEGIN SELECT RAISE(ABORT, 'a finished run is never edited'); END;
   `,
+  // Issue 10: a retest names the run it repeats and why.
+  `
+  ALTER TABLE runs ADD COLUMN retest_of INTEGER REFERENCES runs(id);
+  ALTER TABLE runs ADD COLUMN retest_reason TEXT;
+  DROP TRIGGER finished_runs_frozen;
+  CREATE TRIGGER finished_runs_frozen
+    BEFORE UPDATE OF unit_id, procedure_id, operator, station, started_at, finished_at, verdict, verdict_reason, verdict_reasons_json, final_thd_db, limit_thd_db, calibration_id, chain_check_id, calibration_expires_at, retest_of, retest_reason ON runs
+    WHEN OLD.finished_at IS NOT NULL
+    BEGIN SELECT RAISE(ABORT, 'a finished run is never edited'); END;
+  `,
 ];
 
 /**

@@ -8,3 +8,8 @@ export class ExpectedFailure extends Error {
 export class CannotPass extends ExpectedFailure {
   override name = 'CannotPass';
 }
+
+/** A unit tested before: a new run is a retest and needs its reason (the page asks for it). */
+export class RetestNeedsReason extends ExpectedFailure {
+  override name = 'RetestNeedsReason';
+}

@@ -26,7 +26,7 @@ import { assessTrim, type TrimAssessment } from '../../shared/trim/assessment.ts
 import { warmRecheck, type LiveSeries } from '../../shared/trim/trim-assistant.ts';
 import type { Calibrations } from './calibrations.ts';
 import { isDatabaseDamaged, type Db } from './database.ts';
-import { CannotPass, ExpectedFailure } from './expected-failure.ts';
+import { CannotPass, ExpectedFailure, RetestNeedsReason } from './expected-failure.ts';
 import { checkSealed, fromStoredJson, prepareSealedInserts, sealRow, toStoredJson, UnreadableRecord, valuesOf } from './stored-record.ts';
 
 const liveSeriesSchema = z.object({ levelsDbfs: z.array(z.number()), lfDbfs: z.array(z.number()) });
@@ -57,6 +57,8 @@ interface RunRow {
   calibration_id: number | null;
   chain_check_id: number | null;
   calibration_expires_at: string | null;
+  retest_of: number | null;
+  retest_reason: string | null;
   unit_id: number;
 }
 
@@ -136,6 +138,12 @@ export interface ReportedWarningChange {
   seen: string;
 }
 
+export interface UnitHistory {
+  serial: string;
+  modelCode: string;
+  runs: ({ run: Run; runId?: undefined; finalPosition: number | null; points: number; unreadable: null } | { run: null; runId: number; finalPosition: null; points: 0; unreadable: string })[];
+}
+
 export interface RecordedPoint {
   point: TrimPoint;
   assessment: TrimAssessment;
@@ -186,6 +194,10 @@ export function createRecords(
     ),
     unitBySerial: db.prepare<[string], { id: number; model_code: string }>('SELECT id, model_code FROM units WHERE serial = ?'),
     latestRunOfUnit: db.prepare<[number], { id: number }>('SELECT id FROM runs WHERE unit_id = ? ORDER BY id DESC LIMIT 1'),
+    runsOfUnit: db.prepare<[number], { id: number }>('SELECT id FROM runs WHERE unit_id = ? ORDER BY id'),
+    latestFinishedRunOf: db.prepare<[number, number], RunRow>(
+      `${runSelect} WHERE runs.unit_id = ? AND procedures.code = (SELECT code FROM procedures WHERE id = ?) AND runs.finished_at IS NOT NULL ORDER BY runs.id DESC LIMIT 1`,
+    ),
     openRunOfUnit: db.prepare<[number, number], { id: number; operator: string }>(
       'SELECT id, operator FROM runs WHERE unit_id = ? AND procedure_id = ? AND finished_at IS NULL ORDER BY id DESC LIMIT 1',
     ),
@@ -258,6 +270,8 @@ export function createRecords(
       finalThdDb: row.final_thd_db,
       limitThdDb: row.limit_thd_db,
       sheetPdfPath: row.sheet_pdf_path,
+      retestOf: row.retest_of,
+      retestReason: row.retest_reason,
     };
   }
 
@@ -525,7 +539,7 @@ export function createRecords(
     },
 
     /** Resumes the unit's unfinished run of this procedure, or starts a new one (a retest after a finished run). */
-    openRun(request: { serial: string; procedureId: number; operator: string; setup?: AudioSetup | null }): RunDetail {
+    openRun(request: { serial: string; procedureId: number; operator: string; setup?: AudioSetup | null; retestReason?: string }): RunDetail {
       // Opening a unit leaves whatever the page had open; until this call succeeds, no run is open
       // here, so a refused open (another operator's run) leaves nothing for later calls to act on.
       stationOpenRunId = null;
@@ -567,6 +581,14 @@ export function createRecords(
               `new runs use revision ${newest.revision}. Choose it to start testing ${serial}.`,
           );
         }
+        // A unit tested before under this procedure gets a retest: linked to the run it repeats, with the reason.
+        const earlier = statements.latestFinishedRunOf.get(unit.id, request.procedureId);
+        if (earlier && !request.retestReason) {
+          throw new RetestNeedsReason(
+            `${serial} was tested before: run ${earlier.id}, ${earlier.verdict === 'pass' ? 'PASS' : 'FAIL'} on ${earlier.finished_at!.slice(0, 10)} ` +
+              `by ${earlier.operator}. Give the reason for the retest to start run ${earlier.id}'s repeat.`,
+          );
+        }
         const calibration = calibrationForNewRun(procedure, serial, request.setup ?? null);
         return insertSealed('runs', {
           unit_id: unit.id,
@@ -584,6 +606,8 @@ export function createRecords(
           calibration_id: calibration?.calibrationId ?? null,
           chain_check_id: calibration?.chainCheckId ?? null,
           calibration_expires_at: calibration?.expiresAt ?? null,
+          retest_of: earlier ? earlier.id : null,
+          retest_reason: earlier ? request.retestReason! : null,
         });
       }).immediate();
       const detail = runDetail(runId);
@@ -592,6 +616,30 @@ export function createRecords(
     },
 
     getRun: runDetail,
+
+    /**
+     * A unit's history by serial, creating nothing: every run with its verdict, who, when, the final
+     * trimmer position and the sheet. A run that cannot be read is listed as such; the others still are.
+     */
+    lookUpUnit(serial: string): UnitHistory | null {
+      const unit = statements.unitBySerial.get(serial);
+      if (!unit) return null;
+      const runs = statements.runsOfUnit.all(unit.id).map(({ id }): UnitHistory['runs'][number] => {
+        try {
+          const detail = runDetail(id);
+          return {
+            run: detail.run,
+            finalPosition: detail.trimPoints.at(-1)?.position ?? null,
+            points: detail.trimPoints.length,
+            unreadable: null,
+          };
+        } catch (error) {
+          if (!(error instanceof ExpectedFailure)) throw error;
+          return { run: null, runId: id, finalPosition: null, points: 0, unreadable: error.message };
+        }
+      });
+      return { serial, modelCode: unit.model_code, runs };
+    },
 
     whyNotWritable,
 

@@ -98,7 +98,7 @@ export const SEALED_COLUMNS = {
   runs: [
     'unit_id', 'procedure_id', 'operator', 'station', 'started_at', 'finished_at', 'verdict', 'verdict_reason',
     'verdict_reasons_json', 'final_thd_db', 'limit_thd_db', 'sheet_pdf_path', 'calibration_id',
-    'chain_check_id', 'calibration_expires_at',
+    'chain_check_id', 'calibration_expires_at', 'retest_of', 'retest_reason',
   ],
   trim_points: [
     'run_id', 'sequence', 'position', 'recorded_at', 'settled', 'in_fit', 'stimulus_hz', 'stimulus_level_dbfs', 'thd_db',

@@ -253,7 +253,7 @@ export function App() {
     audio?.trimmerMoved(trimmerTurns);
   }, [audio, trimmerTurns]);
 
-  async function openRun(request: { serial: string; procedureId: number; operator: string }) {
+  async function openRun(request: { serial: string; procedureId: number; operator: string; retestReason?: string }) {
     // Main refuses a procedure that requires a calibration unless it holds for this setup.
     const opened = await call('openRun', { ...request, setup });
     setDetail(opened);

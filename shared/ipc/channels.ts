@@ -5,6 +5,7 @@ export const IPC_CHANNELS = [
   'describeStation',
   'listProcedures',
   'openRun',
+  'lookUpUnit',
   'recordTrimPoint',
   'includeUnsettledPoint',
   'logWarningChanges',

@@ -205,6 +205,9 @@ export const runSchema = z.object({
   finalThdDb: finite.nullable(),
   limitThdDb: finite,
   sheetPdfPath: z.string().nullable(),
+  /** The run this one repeats (a retest), and why; null for a first test. */
+  retestOf: rowId.nullable().default(null),
+  retestReason: z.string().nullable().default(null),
 });
 
 export const trimPointSchema = z.object({
@@ -332,9 +335,26 @@ export const contract = {
         operator: z.string().max(MAX_OPERATOR_CHARS * 4, `The operator name is longer than ${MAX_OPERATOR_CHARS} characters: shorten it.`).trim().min(1, 'Enter the operator name.').pipe(plainText('operator name', MAX_OPERATOR_CHARS)),
         /** The audio setup in use (null without capture): a calibration holds only for the setup it was made with. */
         setup: audioSetupSchema.nullable().default(null),
+        /** Required when the unit was tested before under this procedure: why it is tested again. */
+        retestReason: z.string().trim().min(1, 'Give the reason for the retest.').pipe(plainText('retest reason', 200)).optional(),
       })
       .strict(),
     response: runDetailSchema,
+  },
+  lookUpUnit: {
+    request: z.object({ serial: z.string().trim().min(1, 'Enter a serial number.').max(64) }).strict(),
+    response: z
+      .object({
+        serial: z.string(),
+        modelCode: z.string(),
+        runs: z.array(
+          z.union([
+            z.object({ run: runSchema, finalPosition: finite.nullable(), points: z.number().int().nonnegative(), unreadable: z.null() }),
+            z.object({ run: z.null(), runId: rowId, finalPosition: z.null(), points: z.literal(0), unreadable: z.string() }),
+          ]),
+        ),
+      })
+      .nullable(),
   },
   recordTrimPoint: {
     request: z

@@ -63,10 +63,24 @@ describe('records on a real database file', () => {
     expect(() => station.db.prepare("UPDATE runs SET verdict = 'fail' WHERE id = ?").run(run.id)).toThrow(/never edited/);
     expect(() => station.db.prepare('DELETE FROM trim_points').run()).toThrow(/never deleted/);
 
-    const retest = station.records.openRun({ serial: 'MG20-2611-0043', procedureId, operator: 'A. Tester' });
+    // A retest needs its reason (issue 10: "start a retest with a reason, linked to the run it repeats").
+    expect(() => station.records.openRun({ serial: 'MG20-2611-0043', procedureId, operator: 'A. Tester' })).toThrow(
+      new RegExp(`was tested before: run ${run.id}, FAIL.*Give the reason for the retest`),
+    );
+    const retest = station.records.openRun({ serial: 'MG20-2611-0043', procedureId, operator: 'A. Tester', retestReason: 'Trimmer replaced' });
     expect(retest.run.id).not.toBe(run.id);
+    expect(retest.run.retestOf).toBe(run.id);
+    expect(retest.run.retestReason).toBe('Trimmer replaced');
     expect(retest.earlierRuns).toBe(1);
     expect(retest.trimPoints).toEqual([]);
+    // Looking the serial up creates nothing and lists both runs, oldest first.
+    const runsBefore = (station.db.prepare('SELECT COUNT(*) AS n FROM runs').get() as { n: number }).n;
+    const history = station.records.lookUpUnit('MG20-2611-0043')!;
+    expect(history.runs.map((r) => r.run?.id)).toEqual([run.id, retest.run.id]);
+    expect(history.runs[0].run?.verdict).toBe('fail');
+    expect(history.runs[1].run?.retestOf).toBe(run.id);
+    expect(station.records.lookUpUnit('MG20-2611-9999')).toBeNull();
+    expect((station.db.prepare('SELECT COUNT(*) AS n FROM runs').get() as { n: number }).n).toBe(runsBefore);
     station.close();
   });
 

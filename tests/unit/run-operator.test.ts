@@ -24,7 +24,8 @@ afterEach(() => {
   dir.remove();
 });
 
-const open = (operator: string, serial = SERIAL) => dispatch(station.handlers, 'openRun', { serial, procedureId, operator }, noCaller);
+const open = (operator: string, serial = SERIAL, retestReason?: string) =>
+  dispatch(station.handlers, 'openRun', { serial, procedureId, operator, ...(retestReason ? { retestReason } : {}) }, noCaller);
 const record = (runId: number, position: number, thdDb: number) =>
   dispatch(station.handlers, 'recordTrimPoint', { runId, position, reading: readingWithThd(thdDb), live: null, stimulus: STIMULUS }, noCaller);
 
@@ -85,7 +86,7 @@ describe('who may continue an unfinished run', () => {
     await record(first, 3, -60);
     expect(await dispatch(station.handlers, 'finishRun', { runId: first, asFailure: true }, noCaller)).toMatchObject({ ok: true });
 
-    const opened = await open('B. Other');
+    const opened = await open('B. Other', SERIAL, 'Re-trimmed after a failed first trim');
     expect(opened.ok).toBe(true);
     if (!opened.ok) return;
     const second = opened.value as { run: { id: number; operator: string }; earlierRuns: number };
