@@ -75,6 +75,13 @@ function callerContext(sender: WebContents): CallerContext {
         },
       }),
     print: () => new Promise((resolve) => sender.print({ silent: false, printBackground: true }, (success) => resolve(success))),
+    // The file is chosen in main's own dialog: the page never names a path main would read.
+    chooseProcedureFile: async () => {
+      const window = BrowserWindow.fromWebContents(sender);
+      const options = { title: 'Import a procedure', filters: [{ name: 'Procedure (JSON)', extensions: ['json'] }], properties: ['openFile' as const] };
+      const chosen = window ? await dialog.showOpenDialog(window, options) : await dialog.showOpenDialog(options);
+      return chosen.canceled || chosen.filePaths.length === 0 ? null : chosen.filePaths[0];
+    },
   };
 }
 

@@ -2,6 +2,8 @@
 // dispatcher that validates every payload against the contract before a handler sees it.
 // Electron registers these with ipcMain.handle; the test harness calls the same object.
 
+import { readFileSync, statSync } from 'node:fs';
+import { basename } from 'node:path';
 import { z } from 'zod';
 import { IPC_CHANNELS, type IpcChannel } from '../../shared/ipc/channels.ts';
 import { contract, type IpcResponse, type IpcResult } from '../../shared/ipc/contract.ts';
@@ -17,6 +19,8 @@ export interface CallerContext {
   printToPdf(): Promise<Uint8Array>;
   /** Opens the print dialog; resolves false when the technician cancels. */
   print(): Promise<boolean>;
+  /** Asks the technician for a procedure file to import (main's own file dialog); null when cancelled. */
+  chooseProcedureFile(): Promise<string | null>;
 }
 
 export interface Services {
@@ -72,7 +76,28 @@ export function createHandlers({ records, sheets, calibrations, settings, statio
       return stationCalibration();
     },
     listCalibrations: async () => calibrations.list(),
+    importProcedure: async (_request, caller) => {
+      const path = await caller.chooseProcedureFile();
+      if (path === null) return { outcome: 'cancelled' as const, code: null, revision: null, summary: null };
+      return records.importProcedure(readProcedureText(path), basename(path));
+    },
   };
+}
+
+/** A procedure file is a few kilobytes; anything far larger is not one, and is not read whole. */
+const PROCEDURE_FILE_MAX_BYTES = 512 * 1024;
+
+function readProcedureText(path: string): string {
+  let size: number;
+  try {
+    size = statSync(path).size;
+  } catch (error) {
+    throw new ExpectedFailure(`${path} cannot be read (${(error as NodeJS.ErrnoException).code ?? 'unknown error'}). Choose the file again.`);
+  }
+  if (size > PROCEDURE_FILE_MAX_BYTES) {
+    throw new ExpectedFailure(`${basename(path)} is ${(size / 1024).toFixed(0)} KiB, too large for a procedure file (at most 512 KiB). Choose the procedure's JSON file.`);
+  }
+  return readFileSync(path, 'utf8');
 }
 
 const isChannel = (name: string): name is IpcChannel => (IPC_CHANNELS as readonly string[]).includes(name);
@@ -95,6 +120,7 @@ export const CHANNEL_ACTIONS: Record<IpcChannel, string> = {
   recordCalibration: 'record the calibration',
   recordChainCheck: 'record the chain check',
   listCalibrations: 'list the calibrations',
+  importProcedure: 'import the procedure',
 };
 
 /** Issues kept in the log for one refused call: enough to see the pattern, never a 10^6-item dump. */

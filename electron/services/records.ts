@@ -18,6 +18,8 @@ import {
 import type { AudioSetup } from '../../shared/calibration/station-calibration.ts';
 import type { StationSettings } from '../../shared/calibration/station-settings.ts';
 import { procedureSchema, type Procedure } from '../../shared/procedures/procedure.ts';
+import { checkProcedureFile, procedureFileSchema } from '../../shared/procedures/procedure-file.ts';
+import { trimView } from '../../shared/procedures/trim-view.ts';
 import { thdDbFromHarmonics } from '../../shared/records/reading-check.ts';
 import { checkSerial } from '../../shared/records/serial.ts';
 import { whyNotRecordable, type StimulusSetting } from '../../shared/records/stimulus-check.ts';
@@ -28,6 +30,9 @@ import type { Calibrations } from './calibrations.ts';
 import { isDatabaseDamaged, type Db } from './database.ts';
 import { CannotPass, ExpectedFailure, RetestNeedsReason } from './expected-failure.ts';
 import { checkSealed, fromStoredJson, prepareSealedInserts, sealRow, toStoredJson, UnreadableRecord, valuesOf } from './stored-record.ts';
+
+/** A stored procedure: schema 1 as built in, schema 2 as imported from a file. */
+const storedProcedureDefinition = z.discriminatedUnion('schemaVersion', [procedureSchema, procedureFileSchema]);
 
 const liveSeriesSchema = z.object({ levelsDbfs: z.array(z.number()), lfDbfs: z.array(z.number()) });
 const reasonsSchema = z.array(z.string());
@@ -228,7 +233,11 @@ export function createRecords(
   function readProcedure(row: ProcedureRow): Procedure {
     const what = `procedure ${row.code} revision ${row.revision}`;
     checkSealed('procedures', row, what);
-    return fromStoredJson(row.definition_json, procedureSchema, what);
+    const stored = fromStoredJson(row.definition_json, storedProcedureDefinition, what);
+    if (stored.schemaVersion === 1) return stored;
+    const view = trimView(stored);
+    if (!view) throw new UnreadableRecord(what, 'a schema-2 procedure without a trim step');
+    return view;
   }
 
   function procedureById(id: number): Procedure {
@@ -514,6 +523,41 @@ export function createRecords(
       const existing = statements.procedureByKey.get(definition.code, definition.revision);
       if (existing) return existing.id;
       return insertSealed('procedures', { code: definition.code, revision: definition.revision, definition_json: toStoredJson(definition) });
+    },
+
+    /**
+     * Stores a procedure file the line wrote, checked whole first. A revision never changes: the
+     * same file again changes nothing; a changed file under a stored revision is refused (give it a
+     * new revision); a new revision becomes the one new runs use.
+     */
+    importProcedure(text: string, fileName: string): { outcome: 'stored' | 'unchanged'; id: number; code: string; revision: string; summary: string } {
+      refuseUnlessWritable();
+      const checked = checkProcedureFile(text);
+      if (!checked.ok) {
+        const shown = checked.problems.slice(0, 8).map((p) => `• ${p.path}: ${p.message}`);
+        const more = checked.problems.length > shown.length ? `\n…and ${checked.problems.length - shown.length} more.` : '';
+        throw new ExpectedFailure(`${fileName} was not imported; correct it and import it again:\n${shown.join('\n')}${more}`);
+      }
+      const file = checked.procedure;
+      if (!trimView(file)) {
+        throw new ExpectedFailure(`${fileName} was not imported: this Trimbench runs procedures that have a trim step, and it has none.`);
+      }
+      return db.transaction(() => {
+        const existing = statements.procedureByKey.get(file.code, file.revision);
+        if (existing) {
+          const row = statements.procedureById.get(existing.id)!;
+          const stored = fromStoredJson(row.definition_json, storedProcedureDefinition, `procedure ${file.code} revision ${file.revision}`);
+          if (stored.schemaVersion === 2 && JSON.stringify(stored) === JSON.stringify(file)) {
+            return { outcome: 'unchanged' as const, id: existing.id, code: file.code, revision: file.revision, summary: checked.summary };
+          }
+          throw new ExpectedFailure(
+            `${fileName} was not imported: ${file.code} revision ${file.revision} is already stored with other content, and a stored revision never changes. ` +
+              `Give the changed procedure a new revision in the file, then import it again.`,
+          );
+        }
+        const id = insertSealed('procedures', { code: file.code, revision: file.revision, definition_json: toStoredJson(file) });
+        return { outcome: 'stored' as const, id, code: file.code, revision: file.revision, summary: checked.summary };
+      }).immediate();
     },
 
     /** The newest revision of each procedure; an unreadable one is left out (and logged), never guessed at. */

@@ -543,6 +543,11 @@ export function App() {
           onSaveSettings={saveStationSettings}
           onRecorded={setStationCalibration}
           onBack={leaveStation}
+          onProceduresChanged={() =>
+            void call('listProcedures', {}).then(setProcedures, (error: unknown) =>
+              setRecordsProblem(problemText(error, 'The procedures could not be read', 'Open the Station view again.')),
+            )
+          }
         />
       ) : (
         <main className="columns">

@@ -1,3 +1,4 @@
+import { ProceduresPanel } from './ProceduresPanel.tsx';
 import { useEffect, useState, type ReactNode } from 'react';
 import type { AudioSetup, CalibrationStatus } from '../../shared/calibration/station-calibration.ts';
 import type { StationSettings } from '../../shared/calibration/station-settings.ts';
@@ -89,6 +90,7 @@ export function StationView({
   onSaveSettings,
   onRecorded,
   onBack,
+  onProceduresChanged,
 }: {
   stationCalibration: StationCalibration | null;
   status: CalibrationStatus | null;
@@ -107,6 +109,8 @@ export function StationView({
   onSaveSettings(next: StationSettings): Promise<void>;
   onRecorded(next: StationCalibration): void;
   onBack(): void;
+  /** A procedure was imported: the app reads the list again. */
+  onProceduresChanged(): void;
 }) {
   const [history, setHistory] = useState<History | null>(null);
   const [historyProblem, setHistoryProblem] = useState<string | null>(null);
@@ -181,6 +185,7 @@ export function StationView({
         </div>
       </div>
       <CalibrationHistory history={history} problem={historyProblem} />
+      <ProceduresPanel procedures={procedures} onImported={onProceduresChanged} />
     </div>
   );
 }

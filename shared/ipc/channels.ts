@@ -18,6 +18,7 @@ export const IPC_CHANNELS = [
   'recordCalibration',
   'recordChainCheck',
   'listCalibrations',
+  'importProcedure',
 ] as const;
 
 export type IpcChannel = (typeof IPC_CHANNELS)[number];

@@ -411,6 +411,16 @@ export const contract = {
       .strict(),
     response: stationCalibrationSchema,
   },
+  importProcedure: {
+    request: nothing,
+    response: z.object({
+      outcome: z.enum(['stored', 'unchanged', 'cancelled']),
+      id: rowId.optional(),
+      code: z.string().nullable(),
+      revision: z.string().nullable(),
+      summary: z.string().nullable(),
+    }),
+  },
   listCalibrations: {
     request: nothing,
     response: z.array(z.object({ calibration: calibrationSchema, chainChecks: z.array(chainCheckRecordSchema) })),

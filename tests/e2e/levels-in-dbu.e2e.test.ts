@@ -35,7 +35,7 @@ const EXPECTED_OUTPUT_DBU_AT_FULL_SCALE = 0 - -20;
 const RESIDUAL_THD_DB = -70;
 const OPERATOR = 'C. Calibrator';
 
-const noPrinter: CallerContext = { printToPdf: async () => new Uint8Array(), print: async () => false };
+const noPrinter: CallerContext = { printToPdf: async () => new Uint8Array(), print: async () => false, chooseProcedureFile: async () => null };
 
 let bench: Bench;
 beforeAll(async () => {

@@ -68,6 +68,8 @@ export interface BenchOptions {
 
 export interface Bench {
   page: Page;
+  /** What main's file dialog answers when the page imports a procedure (null: cancelled). */
+  procedureFileChoice: { path: string | null };
   context: BrowserContext;
   station: ReturnType<typeof openStation>;
   origin: string;
@@ -115,6 +117,7 @@ export async function openBench({ captureWav, dataDir, microphone = 'granted' }:
     throw error;
   }
   let page = context.pages()[0] ?? (await context.newPage());
+  const procedureFileChoice: { path: string | null } = { path: null };
 
   const caller: CallerContext = {
     // The same sheet view that Electron's printToPDF renders, through Chromium's own PDF path.
@@ -128,6 +131,8 @@ export async function openBench({ captureWav, dataDir, microphone = 'granted' }:
         margin: Object.fromEntries(Object.entries(SHEET_PDF.marginsMm).map(([side, mm]) => [side, `${mm}mm`])),
       }),
     print: async () => false, // no printer here: reported to the page as cancelled
+    // Stands in for main's file dialog: a test sets the file the technician "chooses" (null: cancel).
+    chooseProcedureFile: async () => procedureFileChoice.path,
   };
   // The station's error log in the data folder, as in the app, so browser tests see the technician's messages.
   const errorLog = station.errorLog;
@@ -147,6 +152,7 @@ export async function openBench({ captureWav, dataDir, microphone = 'granted' }:
     },
     context,
     station,
+    procedureFileChoice,
     origin: server.origin,
     dataDir: data,
     async openApp(beforeLoad) {

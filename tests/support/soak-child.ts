@@ -40,6 +40,7 @@ async function main() {
     const caller: CallerContext = {
       printToPdf: async () => soakSheetPdf(serial),
       print: async () => false,
+      chooseProcedureFile: async () => null,
     };
     const opened: { run: { id: number } } = await call(station, 'openRun', { serial, procedureId, operator: 'Soak Tester' }, caller);
     const runId = opened.run.id;

@@ -56,4 +56,5 @@ export const noCaller: CallerContext = {
   // The two ends every PDF has (ISO 32000-1 §7.5.2, §7.5.5); the sheet service refuses anything less.
   printToPdf: async () => new TextEncoder().encode('%PDF-1.4 test\n%%EOF\n'),
   print: async () => false,
+  chooseProcedureFile: async () => null,
 };

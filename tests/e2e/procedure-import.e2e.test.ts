@@ -1,0 +1,48 @@
+// Issue 10: importing the line's own procedure file in the real renderer, from the Station view.
+// Main opens the file dialog (stood in for by the harness) and checks the file whole; the rules of
+// docs/procedures.md apply (a new revision is stored and used by new runs; the same file again
+// changes nothing; problems are named with their place in the file).
+
+import { readFileSync, writeFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { tmpdir } from 'node:os';
+import { fileURLToPath } from 'node:url';
+import { afterAll, describe, expect, it } from 'vitest';
+import { openBench, POLL, type Bench } from '../harness/bench-harness.ts';
+
+const RESOURCE = fileURLToPath(new URL('../../resources/procedures/mg20-lf-trim.json', import.meta.url));
+let bench: Bench | null = null;
+afterAll(async () => {
+  await bench?.close();
+});
+
+describe('importing a procedure in the app', () => {
+  it('imports the demo file as revision C once, names problems of a broken file, and the bench offers the new revision', async () => {
+    bench = await openBench({ captureWav: null });
+    const page = await bench.openApp();
+    await page.getByTestId('open-station').click();
+    const message = page.getByTestId('import-message');
+
+    bench.procedureFileChoice.path = RESOURCE;
+    // Pressed twice in a hurry: one import.
+    await page.getByTestId('import-procedure').click();
+    await page.getByTestId('import-procedure').click({ force: true }).catch(() => {});
+    await expect.poll(() => message.textContent(), POLL).toMatch(/Imported MG20-LF-TRIM revision C|already stored exactly/);
+    await expect.poll(() => page.getByTestId('procedures-panel').textContent(), POLL).toMatch(/MG20-LF-TRIM\s*invented \(demo\)C/);
+    const rows = (bench.station.db.prepare("SELECT COUNT(*) AS n FROM procedures WHERE code = 'MG20-LF-TRIM'").get() as { n: number }).n;
+    expect(rows).toBe(2); // the built-in revision B and the imported C
+
+    const broken = JSON.parse(readFileSync(RESOURCE, 'utf8'));
+    broken.revision = 'E';
+    broken.steps[1].limitThdDb = 'low';
+    const brokenPath = join(tmpdir(), 'trimbench-broken-procedure.json');
+    writeFileSync(brokenPath, JSON.stringify(broken));
+    bench.procedureFileChoice.path = brokenPath;
+    await page.getByTestId('import-procedure').click();
+    await expect.poll(() => message.textContent(), POLL).toMatch(/trimbench-broken-procedure\.json was not imported.*steps\[1\]\.limitThdDb/s);
+    await page.screenshot({ path: join(tmpdir(), 'trimbench-procedures.png'), fullPage: true });
+
+    await page.getByTestId('station-back').click();
+    await expect.poll(() => page.getByLabel('Procedure').locator('option').allTextContents(), POLL).toEqual(['MG20-LF-TRIM rev C']);
+  }, 120_000);
+});

@@ -1,0 +1,108 @@
+// Issue 10, "Procedures as files the line owns": importing a procedure file through main. The
+// rules come from the issue and docs/procedures.md: a file is checked whole before anything is
+// stored; importing a changed procedure under the same code makes a new revision (the file names
+// it); a stored revision never changes; the same file again changes nothing; every run names the
+// revision it used; new runs use the newest revision.
+
+import { readFileSync, writeFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { afterEach, beforeEach, describe, expect, it } from 'vitest';
+import { dispatch, type CallerContext } from '../../electron/services/handlers.ts';
+import { openStation } from '../../electron/services/station.ts';
+import { noCaller, tempDir } from '../support/station.ts';
+
+const RESOURCE = fileURLToPath(new URL('../../resources/procedures/mg20-lf-trim.json', import.meta.url));
+
+let dir: ReturnType<typeof tempDir>;
+let station: ReturnType<typeof openStation>;
+beforeEach(() => {
+  dir = tempDir('trimbench-import-');
+  station = openStation({ dataDir: join(dir.path, 'data'), stationName: 'bench-1', log: { record: () => '' } });
+});
+afterEach(() => {
+  station.close();
+  dir.remove();
+});
+
+const choosing = (path: string | null): CallerContext => ({ ...noCaller, chooseProcedureFile: async () => path });
+async function importFile(path: string | null) {
+  return dispatch(station.handlers, 'importProcedure', {}, choosing(path));
+}
+function variant(name: string, change: (file: Record<string, any>) => void): string {
+  const file = JSON.parse(readFileSync(RESOURCE, 'utf8'));
+  change(file);
+  const path = join(dir.path, name);
+  writeFileSync(path, JSON.stringify(file, null, 2));
+  return path;
+}
+const procedureRows = () => (station.db.prepare('SELECT COUNT(*) AS n FROM procedures').get() as { n: number }).n;
+
+describe('importing a procedure file', () => {
+  it('stores the demo file as its revision, which new runs then use and name', async () => {
+    const imported = await importFile(RESOURCE);
+    expect(imported).toMatchObject({ ok: true, value: { outcome: 'stored', code: 'MG20-LF-TRIM', revision: 'C' } });
+    const newest = station.records.listProcedures().find((p) => p.definition.code === 'MG20-LF-TRIM')!;
+    expect(newest.definition.revision).toBe('C');
+    // The trim view: the file's trim step, safety notice first among the instructions.
+    const file = JSON.parse(readFileSync(RESOURCE, 'utf8'));
+    const trimStep = file.steps.find((s: { kind: string }) => s.kind === 'trim');
+    const notice = file.steps.find((s: { kind: string }) => s.kind === 'notice');
+    expect(newest.definition.trim.stimulusHz).toBe(trimStep.stimulusHz);
+    expect(newest.definition.trim.limitThdDb).toBe(trimStep.limitThdDb);
+    expect(newest.definition.trim.instructions[0]).toBe(notice.instructions[0]);
+    // The file requires a calibrated station (its dBu checks); with one it starts and names revision C.
+    const open = await dispatch(station.handlers, 'openRun', { serial: 'MG20-2611-0042', procedureId: newest.id, operator: 'A. Tester' }, noCaller);
+    expect(!open.ok && open.error.message).toMatch(/requires a calibrated station/);
+  });
+
+  it('changes nothing for the same file again, and refuses a changed file under a stored revision', async () => {
+    await importFile(RESOURCE);
+    const rows = procedureRows();
+    expect(await importFile(RESOURCE)).toMatchObject({ ok: true, value: { outcome: 'unchanged', revision: 'C' } });
+    const changed = variant('changed.json', (file) => {
+      file.steps.find((s: { kind: string }) => s.kind === 'trim').limitThdDb = -55;
+    });
+    const refused = await importFile(changed);
+    expect(!refused.ok && refused.error.message).toMatch(/MG20-LF-TRIM revision C is already stored with other content.*new revision/);
+    expect(procedureRows()).toBe(rows);
+    // Given its own revision, the changed file is stored beside the old one, which stays as it was.
+    const revised = variant('revised.json', (file) => {
+      file.revision = 'D';
+      file.steps.find((s: { kind: string }) => s.kind === 'trim').limitThdDb = -55;
+    });
+    expect(await importFile(revised)).toMatchObject({ ok: true, value: { outcome: 'stored', revision: 'D' } });
+    expect(procedureRows()).toBe(rows + 1);
+    const list = station.records.listProcedures().filter((p) => p.definition.code === 'MG20-LF-TRIM');
+    expect(list.map((p) => [p.definition.revision, p.definition.trim.limitThdDb])).toEqual([['D', -55]]);
+  });
+
+  it('refuses a file with problems, naming each with its place in the file, and stores nothing', async () => {
+    const rows = procedureRows();
+    const broken = variant('broken.json', (file) => {
+      file.steps[0].title = 42;
+      file.serial.example = 'not-a-serial';
+    });
+    const refused = await importFile(broken);
+    expect(refused.ok).toBe(false);
+    if (!refused.ok) {
+      expect(refused.error.message).toContain('broken.json was not imported');
+      expect(refused.error.message).toMatch(/steps\[0\]\.title/);
+      expect(refused.error.message).toMatch(/serial/);
+    }
+    expect(procedureRows()).toBe(rows);
+  });
+
+  it('refuses a procedure without a trim step, a file far too large, and answers a cancelled dialog with nothing', async () => {
+    const noTrim = variant('no-trim.json', (file) => {
+      file.steps = file.steps.filter((s: { kind: string }) => s.kind !== 'trim');
+    });
+    const refused = await importFile(noTrim);
+    expect(!refused.ok && refused.error.message).toMatch(/has none|trim/);
+    const huge = join(dir.path, 'huge.json');
+    writeFileSync(huge, `{"pad": "${'x'.repeat(600 * 1024)}"}`);
+    const tooBig = await importFile(huge);
+    expect(!tooBig.ok && tooBig.error.message).toMatch(/too large for a procedure file/);
+    expect(await importFile(null)).toMatchObject({ ok: true, value: { outcome: 'cancelled' } });
+  });
+});
