@@ -491,6 +491,7 @@ export function createRecords(
       warningLog: warningLog(runId),
       warmCheck: warm ? fromStoredJson(warm.result_json, warmCheckSchema, `warm re-check of run ${runId}`) : null,
       earlierRuns: statements.earlierRuns.get(row.unit_id, runId)?.count ?? 0,
+      procedure: runProcedure(row),
       calibration:
         row.calibration_id !== null && calibrations
           ? calibrations.used(

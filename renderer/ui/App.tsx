@@ -257,7 +257,7 @@ export function App() {
     // Main refuses a procedure that requires a calibration unless it holds for this setup.
     const opened = await call('openRun', { ...request, setup });
     setDetail(opened);
-    const procedure = procedures.find((p) => p.id === opened.run.procedureId)?.definition;
+    const procedure = opened.procedure;
     if (procedure) {
       // The stimulus comes from the procedure; it stays off until the technician turns it on.
       applyGenerator({ frequencyHz: procedure.trim.stimulusHz, levelDbfs: procedure.trim.stimulusLevelDbfs, on: false });
@@ -327,7 +327,7 @@ export function App() {
   // On one interface clock the stimulus is planned to whole cycles per frame, clear of mains; planned
   // again whenever the rate, the mains or the clocking changes (e.g. when capture starts at the
   // device's own rate).
-  const openProcedure = detail ? procedures.find((p) => p.id === detail.run.procedureId)?.definition : undefined;
+  const openProcedure = detail?.procedure;
   const captureRateHz = audio?.sampleRateHz ?? null;
   useEffect(() => {
     if (!openProcedure) return;
@@ -391,7 +391,7 @@ export function App() {
     }
   }
 
-  const procedure = detail ? procedures.find((p) => p.id === detail.run.procedureId)?.definition : undefined;
+  const procedure = detail?.procedure;
 
   async function saveStationSettings(next: StationSettings) {
     const saved = await call('saveStationSettings', next);
@@ -485,7 +485,7 @@ export function App() {
     return (
       <UnitSheet
         detail={detail}
-        procedure={procedures.find((p) => p.id === detail.run.procedureId)?.definition}
+        procedure={detail.procedure}
         pdfPath={sheetPdfPath}
         message={sheetMessage}
         onPrint={() => void printSheet()}

@@ -295,6 +295,8 @@ export const runDetailSchema = z.object({
   earlierRuns: z.number().int().nonnegative(),
   /** The station calibration the run was measured with; null when the station had none valid. */
   calibration: calibrationUsedSchema.nullable(),
+  /** The procedure revision the run uses, as the trim runs it: travels with the run, whichever revision is newest. */
+  procedure: procedureSchema,
 });
 
 const runRef = z.object({ runId: rowId }).strict();

@@ -106,3 +106,22 @@ describe('importing a procedure file', () => {
     expect(await importFile(null)).toMatchObject({ ok: true, value: { outcome: 'cancelled' } });
   });
 });
+
+describe('a run and its revision', () => {
+  it('carries the procedure revision it uses, also once a newer revision is stored', async () => {
+    const builtIn = station.records.listProcedures()[0];
+    const open = station.records.openRun({ serial: 'MG20-2611-0042', procedureId: builtIn.id, operator: 'A. Tester' });
+    expect(open.procedure.revision).toBe(builtIn.definition.revision);
+    const revised = variant('revised.json', (file) => {
+      file.revision = 'D';
+      file.requiresCalibration = false;
+      file.steps = file.steps.filter((s: { kind: string }) => s.kind === 'notice' || s.kind === 'trim');
+    });
+    expect(await importFile(revised)).toMatchObject({ ok: true, value: { outcome: 'stored', revision: 'D' } });
+    // The open run keeps its revision (B), and its detail says so, though new runs would use D.
+    const resumed = station.records.openRun({ serial: 'MG20-2611-0042', procedureId: builtIn.id, operator: 'A. Tester' });
+    expect(resumed.run.id).toBe(open.run.id);
+    expect(resumed.procedure.revision).toBe(builtIn.definition.revision);
+    expect(station.records.listProcedures().map((p) => p.definition.revision)).toEqual(['D']);
+  });
+});
