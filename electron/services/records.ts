@@ -170,6 +170,11 @@ export interface RecordsOptions {
 
 export type Records = ReturnType<typeof createRecords>;
 
+/** Revision labels in order: as text, with runs of digits compared as numbers (A < B, 2 < 10). */
+export function compareRevisions(a: string, b: string): number {
+  return a.localeCompare(b, 'en', { numeric: true, sensitivity: 'base' });
+}
+
 export function createRecords(
   db: Db,
   { stationName, calibrations, settings, now = () => new Date(), onUnreadable = () => {}, whyNotWritable = () => null }: RecordsOptions,
@@ -198,13 +203,18 @@ export function createRecords(
       'SELECT id, revision FROM procedures WHERE id = (SELECT MAX(id) FROM procedures WHERE code = (SELECT code FROM procedures WHERE id = ?))',
     ),
     unitBySerial: db.prepare<[string], { id: number; model_code: string }>('SELECT id, model_code FROM units WHERE serial = ?'),
+    newestRevisionOfCode: db.prepare<[string], { revision: string }>('SELECT revision FROM procedures WHERE code = ? ORDER BY id DESC LIMIT 1'),
     latestRunOfUnit: db.prepare<[number], { id: number }>('SELECT id FROM runs WHERE unit_id = ? ORDER BY id DESC LIMIT 1'),
     runsOfUnit: db.prepare<[number], { id: number }>('SELECT id FROM runs WHERE unit_id = ? ORDER BY id'),
     latestFinishedRunOf: db.prepare<[number, number], RunRow>(
       `${runSelect} WHERE runs.unit_id = ? AND procedures.code = (SELECT code FROM procedures WHERE id = ?) AND runs.finished_at IS NOT NULL ORDER BY runs.id DESC LIMIT 1`,
     ),
+    // The unit's unfinished run of this procedure, under whichever revision it was started: a newer
+    // revision imported meanwhile must not let a second run start beside it.
     openRunOfUnit: db.prepare<[number, number], { id: number; operator: string }>(
-      'SELECT id, operator FROM runs WHERE unit_id = ? AND procedure_id = ? AND finished_at IS NULL ORDER BY id DESC LIMIT 1',
+      `SELECT runs.id, runs.operator FROM runs JOIN procedures ON procedures.id = runs.procedure_id
+       WHERE runs.unit_id = ? AND runs.finished_at IS NULL AND procedures.code = (SELECT code FROM procedures WHERE id = ?)
+       ORDER BY runs.id DESC LIMIT 1`,
     ),
     runById: db.prepare<[number], RunRow>(`${runSelect} WHERE runs.id = ?`),
     earlierRuns: db.prepare<[number, number], { count: number }>(
@@ -445,6 +455,16 @@ export function createRecords(
    * Reads a run whole or not at all: a record in it that fails its checks makes the run unreadable,
    * said in words with the serial, while every other run still opens. The detail goes to the log.
    */
+  /**
+   * Why a run that needs a calibrated station no longer has one: the calibration it was started under
+   * expired since. Null when it holds, or when the run's procedure needs none.
+   */
+  function calibrationLapsed(row: RunRow): string | null {
+    if (!runProcedure(row).requiresCalibration || row.calibration_expires_at === null) return null;
+    if (now().getTime() < Date.parse(row.calibration_expires_at)) return null;
+    return `The station's calibration this run was started under expired on ${row.calibration_expires_at.slice(0, 10)}.`;
+  }
+
   /** While nothing can be written, opening a unit shows its latest run to read, and starts none. */
   function latestRunToRead(serial: string, refusal: string): RunDetail {
     const unit = statements.unitBySerial.get(serial);
@@ -543,10 +563,20 @@ export function createRecords(
       if (!trimView(file)) {
         throw new ExpectedFailure(`${fileName} was not imported: this Trimbench runs procedures that have a trim step, and it has none.`);
       }
+      // Check steps are not run by this Trimbench yet: a unit must never pass a procedure whose checks
+      // it did not measure, so such a file is refused rather than run as its trim alone.
+      const unrun = file.steps.filter((step) => step.kind !== 'notice' && step.kind !== 'trim');
+      if (unrun.length > 0) {
+        throw new ExpectedFailure(
+          `${fileName} was not imported: it has check steps (${[...new Set(unrun.map((step) => step.kind))].join(', ')}), which this version of ` +
+            `Trimbench cannot run yet, and a unit must not pass checks it was never given. Import a file with its notices and trim only.`,
+        );
+      }
       return db.transaction(() => {
         const existing = statements.procedureByKey.get(file.code, file.revision);
         if (existing) {
           const row = statements.procedureById.get(existing.id)!;
+          checkSealed('procedures', row, `procedure ${file.code} revision ${file.revision}`);
           const stored = fromStoredJson(row.definition_json, storedProcedureDefinition, `procedure ${file.code} revision ${file.revision}`);
           if (stored.schemaVersion === 2 && JSON.stringify(stored) === JSON.stringify(file)) {
             return { outcome: 'unchanged' as const, id: existing.id, code: file.code, revision: file.revision, summary: checked.summary };
@@ -554,6 +584,15 @@ export function createRecords(
           throw new ExpectedFailure(
             `${fileName} was not imported: ${file.code} revision ${file.revision} is already stored with other content, and a stored revision never changes. ` +
               `Give the changed procedure a new revision in the file, then import it again.`,
+          );
+        }
+        // New runs use the newest revision stored, so an older file imported by mistake must not
+        // take its place: revisions go forward (compared as text with numbers in order: B < C, 2 < 10).
+        const newest = statements.newestRevisionOfCode.get(file.code);
+        if (newest && compareRevisions(file.revision, newest.revision) <= 0) {
+          throw new ExpectedFailure(
+            `${fileName} was not imported: revision ${file.revision} of ${file.code} is not after revision ${newest.revision}, which new runs use now. ` +
+              `Give the file a later revision.`,
           );
         }
         const id = insertSealed('procedures', { code: file.code, revision: file.revision, definition_json: toStoredJson(file) });
@@ -628,6 +667,7 @@ export function createRecords(
         }
         // A unit tested before under this procedure gets a retest: linked to the run it repeats, with the reason.
         const earlier = statements.latestFinishedRunOf.get(unit.id, request.procedureId);
+        if (earlier) checkSealed('runs', earlier, `run ${earlier.id}`);
         if (earlier && !request.retestReason) {
           throw new RetestNeedsReason(
             `${serial} was tested before: run ${earlier.id}, ${earlier.verdict === 'pass' ? 'PASS' : 'FAIL'} on ${earlier.finished_at!.slice(0, 10)} ` +
@@ -710,6 +750,8 @@ export function createRecords(
           `Trimmer position ${position} is outside ${trim.positionMin}–${trim.positionMax} ${trim.positionUnit}.`,
         );
       }
+      const lapsed = calibrationLapsed(row);
+      if (lapsed) throw new ExpectedFailure(`This point was not recorded. ${lapsed} Finish the run as FAIL, calibrate the station, then retest the unit.`);
       const refusal = whyNotRecordable(reading, stimulus, trim, request.unsettled ?? 'refuse');
       if (refusal) throw new ExpectedFailure(`This reading cannot be recorded. ${refusal}`);
       // A second point where the last one is adds nothing but a repeated Enter's copy, and would let
@@ -870,10 +912,12 @@ export function createRecords(
         reading: { ...p.reading, thdDb: thdDbFromHarmonics(p.reading.harmonics) },
         liveWatched: watched.has(p.id),
       }));
-      const judged = judgeTrimRun(
+      const trimJudged = judgeTrimRun(
         { trimPoints: judgedPoints, assessment: detail.assessment, openLiveWarnings: openLiveWarnings(detail.warningLog) },
         trim,
       );
+      const lapsed = calibrationLapsed(row);
+      const judged = lapsed ? { verdict: 'fail' as const, reasons: [...trimJudged.reasons, lapsed] } : trimJudged;
       if (judged.verdict === 'fail' && !request.asFailure) {
         throw new CannotPass(
           `This run cannot pass:\n${judged.reasons.map((r) => `• ${r}`).join('\n')}\nPut that right and finish again, or finish the run as FAIL.`,

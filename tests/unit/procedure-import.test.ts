@@ -29,8 +29,13 @@ const choosing = (path: string | null): CallerContext => ({ ...noCaller, chooseP
 async function importFile(path: string | null) {
   return dispatch(station.handlers, 'importProcedure', {}, choosing(path));
 }
+/** The demo file with its notices and trim only: what this version can run whole. */
+function trimOnly(file: Record<string, any>): void {
+  file.steps = file.steps.filter((s: { kind: string }) => s.kind === 'notice' || s.kind === 'trim');
+}
 function variant(name: string, change: (file: Record<string, any>) => void): string {
   const file = JSON.parse(readFileSync(RESOURCE, 'utf8'));
+  trimOnly(file);
   change(file);
   const path = join(dir.path, name);
   writeFileSync(path, JSON.stringify(file, null, 2));
@@ -39,8 +44,15 @@ function variant(name: string, change: (file: Record<string, any>) => void): str
 const procedureRows = () => (station.db.prepare('SELECT COUNT(*) AS n FROM procedures').get() as { n: number }).n;
 
 describe('importing a procedure file', () => {
-  it('stores the demo file as its revision, which new runs then use and name', async () => {
-    const imported = await importFile(RESOURCE);
+  it('refuses a file with check steps, which this version cannot run: a unit must not pass checks it was never given', async () => {
+    const rows = procedureRows();
+    const refused = await importFile(RESOURCE);
+    expect(!refused.ok && refused.error.message).toMatch(/has check steps \(distortion, gain, noise, hum\).*cannot run yet/);
+    expect(procedureRows()).toBe(rows);
+  });
+
+  it('stores the demo file (notices and trim) as its revision, which new runs then use and name', async () => {
+    const imported = await importFile(variant('trim-only.json', () => {}));
     expect(imported).toMatchObject({ ok: true, value: { outcome: 'stored', code: 'MG20-LF-TRIM', revision: 'C' } });
     const newest = station.records.listProcedures().find((p) => p.definition.code === 'MG20-LF-TRIM')!;
     expect(newest.definition.revision).toBe('C');
@@ -57,9 +69,10 @@ describe('importing a procedure file', () => {
   });
 
   it('changes nothing for the same file again, and refuses a changed file under a stored revision', async () => {
-    await importFile(RESOURCE);
+    const same = variant('trim-only.json', () => {});
+    await importFile(same);
     const rows = procedureRows();
-    expect(await importFile(RESOURCE)).toMatchObject({ ok: true, value: { outcome: 'unchanged', revision: 'C' } });
+    expect(await importFile(same)).toMatchObject({ ok: true, value: { outcome: 'unchanged', revision: 'C' } });
     const changed = variant('changed.json', (file) => {
       file.steps.find((s: { kind: string }) => s.kind === 'trim').limitThdDb = -55;
     });
@@ -115,7 +128,6 @@ describe('a run and its revision', () => {
     const revised = variant('revised.json', (file) => {
       file.revision = 'D';
       file.requiresCalibration = false;
-      file.steps = file.steps.filter((s: { kind: string }) => s.kind === 'notice' || s.kind === 'trim');
     });
     expect(await importFile(revised)).toMatchObject({ ok: true, value: { outcome: 'stored', revision: 'D' } });
     // The open run keeps its revision (B), and its detail says so, though new runs would use D.
@@ -123,5 +135,29 @@ describe('a run and its revision', () => {
     expect(resumed.run.id).toBe(open.run.id);
     expect(resumed.procedure.revision).toBe(builtIn.definition.revision);
     expect(station.records.listProcedures().map((p) => p.definition.revision)).toEqual(['D']);
+  });
+});
+
+describe('revisions go forward', () => {
+  it('refuses an older revision than the one new runs use (A after D), naming both', async () => {
+    expect(await importFile(variant('d.json', (f) => ((f.revision = 'D'), (f.requiresCalibration = false))))).toMatchObject({ ok: true });
+    const older = await importFile(variant('a.json', (f) => ((f.revision = 'A'), (f.requiresCalibration = false))));
+    expect(!older.ok && older.error.message).toMatch(/revision A of MG20-LF-TRIM is not after revision D/);
+    // Numbers in revision labels count as numbers: 10 comes after 9 (a plain text order would put it before).
+    expect(await importFile(variant('9.json', (f) => ((f.code = 'MG20-NUM'), (f.revision = '9'))))).toMatchObject({ ok: true });
+    expect(await importFile(variant('10.json', (f) => ((f.code = 'MG20-NUM'), (f.revision = '10'))))).toMatchObject({ ok: true, value: { outcome: 'stored' } });
+  });
+
+  it('resumes an unfinished run on its own revision after a newer one is imported: no second run starts beside it', async () => {
+    const builtIn = station.records.listProcedures()[0];
+    const open = station.records.openRun({ serial: 'MG20-2611-0042', procedureId: builtIn.id, operator: 'A. Tester' });
+    await importFile(variant('d.json', (f) => ((f.revision = 'D'), (f.requiresCalibration = false))));
+    const newest = station.records.listProcedures()[0];
+    expect(newest.definition.revision).toBe('D');
+    // The page offers only D now; opening the serial under it finds the open run on B.
+    const again = station.records.openRun({ serial: 'MG20-2611-0042', procedureId: newest.id, operator: 'A. Tester' });
+    expect(again.run.id).toBe(open.run.id);
+    expect(again.procedure.revision).toBe(builtIn.definition.revision);
+    expect(() => station.records.openRun({ serial: 'MG20-2611-0042', procedureId: newest.id, operator: 'B. Other' })).toThrow(/Only A\. Tester can continue it/);
   });
 });

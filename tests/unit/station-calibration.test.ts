@@ -12,7 +12,7 @@ import type { AudioSetup } from '../../shared/calibration/station-calibration.ts
 import { dispatch } from '../../electron/services/handlers.ts';
 import { openStation } from '../../electron/services/station.ts';
 import { DEMO_PROCEDURE } from '../../shared/procedures/demo-procedure.ts';
-import { noCaller, tempDir } from '../support/station.ts';
+import { noCaller, readingWithThd, tempDir } from '../support/station.ts';
 
 const SETUP: AudioSetup = {
   inputDeviceId: 'in-1',
@@ -197,6 +197,25 @@ describe('a procedure that requires a calibration', () => {
     clock = T0 + 30 * DAY + 1;
     const expired = await openUnit(SETUP, 'MG20-2611-0045');
     expect(!expired.ok && expired.error.message).toMatch(/expired on 2026-12-02/);
+  });
+
+  it('a run started under a calibration that expires meanwhile records no more points and cannot pass', async () => {
+    await calibrate();
+    clock = T0 + 29 * DAY;
+    const started = await openUnit(SETUP);
+    if (!started.ok) throw new Error(started.error.message);
+    const runId = (started.value as { run: { id: number } }).run.id;
+    const stimulus = { on: true, frequencyHz: DEMO_PROCEDURE.trim.stimulusHz, levelDbfs: DEMO_PROCEDURE.trim.stimulusLevelDbfs };
+    const point = (position: number) => ({ runId, position, reading: readingWithThd(-40 - position), live: null, stimulus });
+    expect((await dispatch(station.handlers, 'recordTrimPoint', point(0), noCaller)).ok).toBe(true);
+    clock = T0 + 31 * DAY; // past the 30 days from T0
+    const refusedPoint = await dispatch(station.handlers, 'recordTrimPoint', point(1), noCaller);
+    expect(!refusedPoint.ok && refusedPoint.error.message).toMatch(/calibration this run was started under expired on 2026-12-02/);
+    const finish = await dispatch(station.handlers, 'finishRun', { runId }, noCaller);
+    expect(!finish.ok && finish.error.name).toBe('CannotPass');
+    expect(!finish.ok && finish.error.message).toMatch(/expired on 2026-12-02/);
+    const asFail = await dispatch(station.handlers, 'finishRun', { runId, asFailure: true }, noCaller);
+    expect(asFail.ok && (asFail.value as { run: { verdict: string } }).run.verdict).toBe('fail');
   });
 
   it('the demo procedure needs none: a unit starts on an uncalibrated station, naming no calibration', async () => {
