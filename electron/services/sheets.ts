@@ -1,7 +1,7 @@
 // Unit sheets as PDF files in a folder beside the database. A sheet is written once per
 // finished run and never overwritten: it is the record that left the station.
 
-import { closeSync, existsSync, fstatSync, fsyncSync, mkdirSync, openSync, readSync, renameSync, unlinkSync, writeSync } from 'node:fs';
+import { closeSync, existsSync, fsyncSync, mkdirSync, openSync, renameSync, unlinkSync, writeSync } from 'node:fs';
 import { basename, dirname, join } from 'node:path';
 import { ExpectedFailure } from './expected-failure.ts';
 import type { Records } from './records.ts';
@@ -44,21 +44,6 @@ function pdfBytesLookComplete(pdf: Uint8Array): boolean {
   return looksLikePdf(pdf.subarray(0, PDF_HEADER.length), pdf.subarray(Math.max(0, pdf.length - TAIL_BYTES)));
 }
 
-/** Reads only the two ends of a file on disk: a stray large file is not loaded to be judged. */
-function fileLooksLikePdf(path: string): boolean {
-  const fd = openSync(path, 'r');
-  try {
-    const head = new Uint8Array(PDF_HEADER.length);
-    const headRead = readSync(fd, head, 0, head.length, 0);
-    const size = fstatSync(fd).size;
-    const tail = new Uint8Array(Math.min(TAIL_BYTES, size));
-    const tailRead = readSync(fd, tail, 0, tail.length, size - tail.length);
-    return looksLikePdf(head.subarray(0, headRead), tail.subarray(0, tailRead));
-  } finally {
-    closeSync(fd);
-  }
-}
-
 /**
  * Makes a folder's entries (a rename, a new file, a new subfolder) durable. A file's own fsync
  * does not cover the directory entry that names it (Linux fsync(2), NOTES); the directory has to
@@ -91,22 +76,18 @@ export function createSheets(records: Records, folder: string) {
     // A new sheets folder is itself an entry in the data folder: flush that too.
     if (mkdirSync(folder, { recursive: true }) !== undefined) fsyncFolder(dirname(folder));
 
-    // The first free name, unless a complete PDF already holds one of the run's names: that is
-    // this run's sheet, written by an earlier attempt that stopped before recording it. A file
-    // that is not a complete PDF is someone else's (or damaged) and is left exactly as it is.
+    // The first free name. A file already there is never taken for this run's sheet, even a complete
+    // PDF: after a database is restored from a backup, run ids are handed out again, and the sheet of
+    // an earlier run with the same id (perhaps a FAIL) must not become this run's record. A file left
+    // by an attempt that stopped before recording its path stays beside the new one, harmlessly.
     let path: string | null = null;
     for (let attempt = 1; attempt <= MAX_NAME_ATTEMPTS && path === null; attempt++) {
       const candidate = join(folder, candidateName(run.serial, run.id, attempt));
-      if (!existsSync(candidate)) {
-        path = candidate;
-      } else if (fileLooksLikePdf(candidate)) {
-        records.setSheetPath(runId, candidate);
-        return { path: candidate, alreadySaved: true };
-      }
+      if (!existsSync(candidate)) path = candidate;
     }
     if (path === null) {
       throw new ExpectedFailure(
-        `The sheet for run ${run.id} was not saved: ${MAX_NAME_ATTEMPTS} files named ${sheetFileName(run.serial, run.id)} or like it, none a complete PDF, are in ${folder}. Move them out of that folder and save again.`,
+        `The sheet for run ${run.id} was not saved: ${MAX_NAME_ATTEMPTS} files named ${sheetFileName(run.serial, run.id)} or like it are in ${folder}. Move them out of that folder and save again.`,
       );
     }
 

@@ -134,6 +134,21 @@ describe('unit sheet saving', () => {
     expect(station.records.getRun(runId).run.sheetPdfPath).toBe(saved.path);
   });
 
+  it('never takes a complete PDF already under the run\'s name as its sheet (another run with the same id before a restore)', async () => {
+    const runId = finishedRun('MG20-2611-0064');
+    mkdirSync(sheetsFolder(), { recursive: true });
+    const earlier = join(sheetsFolder(), sheetFileName('MG20-2611-0064', runId));
+    const earlierSheet = pdf('an earlier run 1 of this serial: FAIL');
+    writeFileSync(earlier, earlierSheet);
+    const good = pdf('this run');
+    const saved = await station.sheets.savePdf(runId, async () => good);
+    expect(saved.path).not.toBe(earlier);
+    expect(saved.alreadySaved).toBe(false);
+    expect(new Uint8Array(readFileSync(saved.path))).toEqual(good);
+    expect(new Uint8Array(readFileSync(earlier))).toEqual(earlierSheet);
+    expect(station.records.getRun(runId).run.sheetPdfPath).toBe(saved.path);
+  });
+
   it('flushes the file, renames it, and flushes the folder before recording the path (Linux fsync(2), NOTES)', async () => {
     const runId = finishedRun('MG20-2611-0064');
     // The same service over a records object that notes when the path is recorded.
