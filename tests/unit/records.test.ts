@@ -238,7 +238,7 @@ describe('records on a real database file', () => {
     station.close();
   });
 
-  it('adopts a complete sheet file left by a crash before it was recorded', async () => {
+  it('leaves a sheet file found under the run\'s name (a crash before recording it, or another run before a restore) and saves its own', async () => {
     const station = openTestStation(dir.path);
     const procedureId = station.records.listProcedures()[0].id;
     const { run } = station.records.openRun({ serial: 'MG20-2611-0053', procedureId, operator: 'A. Tester' });
@@ -247,11 +247,14 @@ describe('records on a real database file', () => {
     const path = join(dir.path, 'sheets', sheetFileName('MG20-2611-0053', run.id));
     mkdirSync(join(dir.path, 'sheets'), { recursive: true });
     writeFileSync(path, '%PDF-1.4 written before the crash\n%%EOF\n');
-    const saved = await station.sheets.savePdf(run.id, async () => {
-      throw new Error('must not render again');
-    });
-    expect(saved).toEqual({ path, alreadySaved: true });
-    expect(station.records.getRun(run.id).run.sheetPdfPath).toBe(path);
+    // A file there cannot prove it is this run's sheet (run ids come again after a restore): it is left
+    // as it is, and this run's sheet is rendered and saved under the next free name.
+    const rendered = new TextEncoder().encode('%PDF-1.4 this run\n%%EOF\n');
+    const saved = await station.sheets.savePdf(run.id, async () => rendered);
+    expect(saved.alreadySaved).toBe(false);
+    expect(saved.path).not.toBe(path);
+    expect(readFileSync(path, 'utf8')).toBe('%PDF-1.4 written before the crash\n%%EOF\n');
+    expect(station.records.getRun(run.id).run.sheetPdfPath).toBe(saved.path);
     // Once recorded, a sheet is never replaced, and procedures never change.
     expect(() => station.db.prepare("UPDATE runs SET sheet_pdf_path = 'x' WHERE id = ?").run(run.id)).toThrow(/never replaced/);
     expect(() => station.db.prepare("UPDATE procedures SET revision = 'Z'").run()).toThrow(/never changes/);

@@ -151,7 +151,7 @@ describe('a read-only database', () => {
       // Reading what was recorded still works: opening the unit shows its run, unchanged.
       const procedureId = readOnly.records.listProcedures()[0].id;
       const opened = await dispatch(readOnly.handlers, 'openRun', { serial: 'MG20-2611-0042', procedureId, operator: 'A. Tester' }, noCaller);
-      expect(opened.ok && JSON.stringify(opened.value)).toBe(written);
+      expect(opened.ok && opened.value).toEqual(JSON.parse(written));
       const refused = await dispatch(readOnly.handlers, 'recordTrimPoint', pointAt(runId, 3), noCaller);
       expect(refused.ok).toBe(false);
       if (!refused.ok) expect(refused.error.message).toBe(problem);
