@@ -2,6 +2,7 @@
 // delay where the two line up by FFT cross-correlation. It runs once per chain check, so it
 // allocates freely.
 
+import { mulberry32 } from '../dsp/seeded-noise.ts';
 import FFT from 'fft.js';
 import { peakFromDbfs } from '../levels.ts';
 
@@ -180,14 +181,3 @@ function nextPowerOfTwo(n: number): number {
   return 2 ** Math.ceil(Math.log2(Math.max(2, n)));
 }
 
-// mulberry32 (public domain): small, seedable, and the same on every platform.
-function mulberry32(seed: number): () => number {
-  let state = seed >>> 0;
-  return () => {
-    state = (state + 0x6d2b79f5) >>> 0;
-    let t = state;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}

@@ -8,6 +8,7 @@
 // of samples (output plus input buffering). Each is simple enough that a test can compute what the
 // chain check must find from these parameters alone.
 
+import { GaussianNoise, mulberry32 } from '../dsp/seeded-noise.ts';
 import { SineSource, type StimulusSetting } from '../dsp/sine-source.ts';
 
 export interface DemoChainParameters {
@@ -56,8 +57,7 @@ export class DemoChain {
   private hpY = 0;
   private readonly delay: Float32Array;
   private delayAt = 0;
-  private random: () => number;
-  private spareGaussian: number | null = null;
+  private readonly noise: GaussianNoise;
   // A burst played once (the latency stimulus) and the capture aligned to its first sample.
   private burst: Float32Array | null = null;
   private burstAt = 0;
@@ -72,15 +72,7 @@ export class DemoChain {
     this.hpB = 1 / (1 + k);
     this.hpA = (1 - k) / (1 + k);
     this.delay = new Float32Array(Math.max(1, parameters.latencySamples));
-    let state = seed >>> 0;
-    // mulberry32: repeatable noise for tests.
-    this.random = () => {
-      state = (state + 0x6d2b79f5) >>> 0;
-      let t = state;
-      t = Math.imul(t ^ (t >>> 15), t | 1);
-      t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-      return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-    };
+    this.noise = new GaussianNoise(mulberry32(seed));
   }
 
   setStimulus(setting: StimulusSetting): void {
@@ -121,7 +113,7 @@ export class DemoChain {
         const hp = this.hpB * (x - this.hpX) + this.hpA * this.hpY;
         this.hpX = x;
         this.hpY = hp;
-        const shaped = hp + p.secondOrder * hp * hp + p.thirdOrder * hp * hp * hp + p.noiseRms * this.gaussian();
+        const shaped = hp + p.secondOrder * hp * hp + p.thirdOrder * hp * hp * hp + p.noiseRms * this.noise.next();
         // A ring of latencySamples: what leaves now went in that many samples ago.
         const y = this.delay[this.delayAt];
         this.delay[this.delayAt] = shaped;
@@ -133,15 +125,4 @@ export class DemoChain {
     }
   }
 
-  private gaussian(): number {
-    if (this.spareGaussian !== null) {
-      const value = this.spareGaussian;
-      this.spareGaussian = null;
-      return value;
-    }
-    const radius = Math.sqrt(-2 * Math.log(1 - this.random()));
-    const angle = 2 * Math.PI * this.random();
-    this.spareGaussian = radius * Math.sin(angle);
-    return radius * Math.cos(angle);
-  }
 }

@@ -13,6 +13,7 @@
 // capacitor: sub-audio noise rises, and once R is more negative than the damping network can
 // absorb, the stage oscillates slowly between the driver's rails.
 
+import { GaussianNoise, mulberry32 } from '../dsp/seeded-noise.ts';
 import { SineSource, type StimulusSetting } from '../dsp/sine-source.ts';
 
 export interface DemoUnitParameters {
@@ -69,8 +70,7 @@ export class DemoUnit {
   private flux = 0;
   private capacitorVolts = 0;
   private humPhase = 0;
-  private random: () => number;
-  private spareGaussian: number | null = null;
+  private readonly noise: GaussianNoise;
   /** Samples the driver spent at a rail: zero until the stage breaks into oscillation. */
   railSamples = 0;
 
@@ -78,15 +78,7 @@ export class DemoUnit {
     this.sampleRateHz = sampleRateHz;
     this.parameters = parameters;
     this.stimulus = new SineSource(sampleRateHz);
-    let state = seed >>> 0;
-    // mulberry32: repeatable noise for tests.
-    this.random = () => {
-      state = (state + 0x6d2b79f5) >>> 0;
-      let t = state;
-      t = Math.imul(t ^ (t >>> 15), t | 1);
-      t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-      return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-    };
+    this.noise = new GaussianNoise(mulberry32(seed));
   }
 
   /** Where the null lies: net resistance zero (first order; within 0.02 turns of the deepest H3). */
@@ -138,7 +130,7 @@ export class DemoUnit {
       const remaining = this.trimmerTarget - this.trimmerTurns;
       this.trimmerTurns = Math.abs(remaining) <= stepTurns ? this.trimmerTarget : this.trimmerTurns + Math.sign(remaining) * stepTurns;
     }
-    const drive = p.driveVoltsPerFullScale * (x - p.driverCubic * x * x * x) + p.driverNoiseVolts * this.gaussian();
+    const drive = p.driveVoltsPerFullScale * (x - p.driverCubic * x * x * x) + p.driverNoiseVolts * this.noise.next();
     // Classic fourth-order Runge-Kutta on (flux, capacitor volts); the drive is held over the step.
     const psi = this.flux;
     const vc = this.capacitorVolts;
@@ -155,7 +147,7 @@ export class DemoUnit {
     this.humPhase += p.mainsHz / this.sampleRateHz;
     if (this.humPhase >= 1) this.humPhase -= 1;
     const hum = 10 ** (p.humDbfs / 20) * Math.sin(2 * Math.PI * this.humPhase);
-    return primaryVolts / p.driveVoltsPerFullScale + hum + p.inputNoiseFullScale * this.gaussian();
+    return primaryVolts / p.driveVoltsPerFullScale + hum + p.inputNoiseFullScale * this.noise.next();
   }
 
   private atRail = false;
@@ -184,15 +176,4 @@ export class DemoUnit {
     return this.rates;
   }
 
-  private gaussian(): number {
-    if (this.spareGaussian !== null) {
-      const value = this.spareGaussian;
-      this.spareGaussian = null;
-      return value;
-    }
-    const radius = Math.sqrt(-2 * Math.log(1 - this.random()));
-    const angle = 2 * Math.PI * this.random();
-    this.spareGaussian = radius * Math.sin(angle);
-    return radius * Math.cos(angle);
-  }
 }

@@ -2,6 +2,7 @@
 // chain check must find known from its construction. Chromium's fake device plays a file at
 // 44.1 kHz and loops it, so each is built at that rate and loops without a seam where it matters.
 
+import { mulberry32 } from '../../shared/dsp/seeded-noise.ts';
 import { writeFileSync } from 'node:fs';
 import { encodeWavFloat32 } from '../../shared/audio/wav.ts';
 import { tone } from './signals.ts';
@@ -77,13 +78,3 @@ export function writeSteppedSineWav(path: string, frequencies: readonly number[]
   return path;
 }
 
-function mulberry32(seed: number): () => number {
-  let state = seed >>> 0;
-  return () => {
-    state = (state + 0x6d2b79f5) >>> 0;
-    let t = state;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
