@@ -55,6 +55,9 @@ export function createHandlers({ records, sheets, calibrations, settings, statio
     includeUnsettledPoint: async (request) => records.includeUnsettledPoint(request),
     logWarningChanges: async (request) => records.logWarningChanges(request),
     recordWarmCheck: async (request) => records.recordWarmCheck(request),
+    acknowledgeNotice: async () => notYet(),
+    completeTrim: async () => notYet(),
+    recordCheckStep: async () => notYet(),
     finishRun: async (request) => records.finishRun(request),
     saveSheetPdf: async ({ runId }, caller) => sheets.savePdf(runId, () => caller.printToPdf()),
     printSheet: async ({ runId }, caller) => {
@@ -82,6 +85,11 @@ export function createHandlers({ records, sheets, calibrations, settings, statio
       return records.importProcedure(readProcedureText(path), basename(path));
     },
   };
+}
+
+/** Step results are being wired in (issue 10): until then a step cannot be recorded. */
+function notYet(): never {
+  throw new ExpectedFailure('Recording procedure steps is not available in this build yet.');
 }
 
 /** A procedure file is a few kilobytes; anything far larger is not one, and is not read whole. */
@@ -112,6 +120,9 @@ export const CHANNEL_ACTIONS: Record<IpcChannel, string> = {
   includeUnsettledPoint: 'include the unsettled point',
   logWarningChanges: 'log the warning changes',
   recordWarmCheck: 'record the warm re-check',
+  acknowledgeNotice: 'record the acknowledged notice',
+  completeTrim: 'complete the trim step',
+  recordCheckStep: 'record the check step',
   finishRun: 'finish the run',
   saveSheetPdf: 'save the unit sheet as PDF',
   printSheet: 'print the unit sheet',

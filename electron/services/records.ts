@@ -18,7 +18,8 @@ import {
 import type { AudioSetup } from '../../shared/calibration/station-calibration.ts';
 import type { StationSettings } from '../../shared/calibration/station-settings.ts';
 import { procedureSchema, type Procedure } from '../../shared/procedures/procedure.ts';
-import { checkProcedureFile, procedureFileSchema } from '../../shared/procedures/procedure-file.ts';
+import { checkProcedureFile, procedureFileSchema, upgradeProcedure, type ProcedureFile } from '../../shared/procedures/procedure-file.ts';
+import { judgeUnit } from '../../shared/procedures/unit-verdict.ts';
 import { trimView } from '../../shared/procedures/trim-view.ts';
 import { thdDbFromHarmonics } from '../../shared/records/reading-check.ts';
 import { checkSerial } from '../../shared/records/serial.ts';
@@ -153,6 +154,8 @@ export interface RecordedPoint {
   point: TrimPoint;
   assessment: TrimAssessment;
   warningLog: WarningLogEntry[];
+  /** The run as main now holds it after the point. */
+  detail: RunDetail;
 }
 
 export interface RecordsOptions {
@@ -263,6 +266,13 @@ export function createRecords(
     return readProcedure({ id: row.procedure_id, crc: row.procedure_crc, code: row.procedure_code, revision: row.procedure_revision, definition_json: row.definition_json });
   }
 
+  /** The run's procedure revision whole: a schema-1 one as its upgrade (notice and trim steps). */
+  function runProcedureFile(row: RunRow): ProcedureFile {
+    runProcedure(row);
+    const stored = fromStoredJson(row.definition_json, storedProcedureDefinition, `procedure ${row.procedure_code} revision ${row.procedure_revision}`);
+    return stored.schemaVersion === 1 ? upgradeProcedure(stored) : stored;
+  }
+
   function toRun(row: RunRow): Run {
     const procedure = runProcedure(row);
     return {
@@ -291,6 +301,7 @@ export function createRecords(
       sheetPdfPath: row.sheet_pdf_path,
       retestOf: row.retest_of,
       retestReason: row.retest_reason,
+      lot: null,
     };
   }
 
@@ -501,6 +512,7 @@ export function createRecords(
         if (!warningsRaised.some((w) => w.id === warning.id)) warningsRaised.push({ ...warning, afterSequence });
       }
     }
+    const procedureFile = runProcedureFile(row);
     const warm = statements.latestWarmCheck.get(runId);
     if (warm) checkSealed('warm_checks', warm, `warm re-check of run ${runId}`);
     return {
@@ -512,6 +524,10 @@ export function createRecords(
       warmCheck: warm ? fromStoredJson(warm.result_json, warmCheckSchema, `warm re-check of run ${runId}`) : null,
       earlierRuns: statements.earlierRuns.get(row.unit_id, runId)?.count ?? 0,
       procedure: runProcedure(row),
+      procedureFile,
+      // Step results are recorded from the step walk (issue 10, in progress).
+      stepResults: [],
+      judgement: judgeUnit(procedureFile, []),
       calibration:
         row.calibration_id !== null && calibrations
           ? calibrations.used(
@@ -781,7 +797,7 @@ export function createRecords(
         insertSealed('trim_assessments', { run_id: row.id, after_sequence: sequence, assessed_at: recordedAt, assessment_json: toStoredJson(assessment) });
         logAssessedChanges(row.id, before, assessment, { time: recordedAt, position, afterSequence: sequence });
         const point = trimPoints(row.id).find((p) => p.id === Number(id))!;
-        return { point, assessment, warningLog: warningLog(row.id) };
+        return { point, assessment, warningLog: warningLog(row.id), detail: runDetail(row.id) };
       }).immediate();
     },
 
@@ -807,7 +823,7 @@ export function createRecords(
           assessment_json: toStoredJson(assessment),
         });
         logAssessedChanges(row.id, before, assessment, { time: confirmedAt, position: latest.position, afterSequence: latest.sequence });
-        return { point: trimPoints(row.id).find((p) => p.id === point.id)!, assessment, warningLog: warningLog(row.id) };
+        return { point: trimPoints(row.id).find((p) => p.id === point.id)!, assessment, warningLog: warningLog(row.id), detail: runDetail(row.id) };
       }).immediate();
     },
 

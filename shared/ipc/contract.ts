@@ -5,6 +5,9 @@ import { z } from 'zod';
 import type { Reading } from '../measurement/reading.ts';
 import type { TrimAssessment } from '../trim/assessment.ts';
 import { procedureSchema } from '../procedures/procedure.ts';
+import { procedureFileSchema, STEP_KINDS } from '../procedures/procedure-file.ts';
+import type { Measurement } from '../procedures/check-steps.ts';
+import type { UnitJudgement } from '../procedures/unit-verdict.ts';
 import type { IpcChannel } from './channels.ts';
 import { plainText } from './plain-text.ts';
 import {
@@ -208,6 +211,8 @@ export const runSchema = z.object({
   /** The run this one repeats (a retest), and why; null for a first test. */
   retestOf: rowId.nullable().default(null),
   retestReason: z.string().nullable().default(null),
+  /** The lot or work order the unit was built under, as the technician entered it; null when none. */
+  lot: z.string().nullable().default(null),
 });
 
 export const trimPointSchema = z.object({
@@ -281,6 +286,53 @@ export const warningLogEntrySchema = z.object({
   source: z.enum(['assessment', 'live']),
 });
 
+/** One measured quantity of a step with the limits as they were when it was judged (check-steps.ts). */
+export const measurementSchema = z.object({
+  quantity: z.string(),
+  value: finite.nullable(),
+  unit: z.string(),
+  low: finite.nullable(),
+  high: finite.nullable(),
+  verdict: z.enum(['pass', 'fail']),
+  note: z.string().nullable(),
+});
+measurementSchema satisfies z.ZodType<Measurement>;
+
+/** The generator as it was when the reading was taken (the page holds it; main judges it). */
+const stimulusSettingSchema = z
+  .object({ on: z.boolean(), frequencyHz: finite.positive().max(200_000), levelDbfs: finite.min(-200).max(0) })
+  .strict();
+
+/**
+ * One recorded result of a procedure step in a run: an acknowledged notice, the trim as judged when
+ * the technician completed it, or a check step's measurements. A step repeated before the run is
+ * finished has several; the latest counts (unit-verdict.ts).
+ */
+export const stepResultSchema = z.object({
+  id: rowId,
+  stepId: z.string(),
+  kind: z.enum(STEP_KINDS),
+  /** 1 the first time the step was recorded in the run, 2 for its first repeat, and so on. */
+  attempt: z.number().int().positive(),
+  recordedAt: z.string(),
+  verdict: z.enum(['pass', 'fail']),
+  /** Why it failed, one plain sentence each; empty on a pass. */
+  reasons: z.array(z.string()),
+  measurements: z.array(measurementSchema),
+  /** The generator while a check step was measured; null for a notice and the trim. */
+  stimulus: stimulusSettingSchema.nullable(),
+});
+
+export const unitJudgementSchema = z.object({
+  verdict: z.enum(['pass', 'fail']),
+  finished: z.boolean(),
+  stoppedAt: z.string().nullable(),
+  nextStepId: z.string().nullable(),
+  steps: z.array(z.object({ stepId: z.string(), title: z.string(), kind: z.enum(STEP_KINDS), status: z.enum(['pass', 'fail', 'not-run']) })),
+  reasons: z.array(z.string()),
+});
+unitJudgementSchema satisfies z.ZodType<UnitJudgement>;
+
 export const runDetailSchema = z.object({
   run: runSchema,
   trimPoints: z.array(trimPointSchema),
@@ -297,14 +349,18 @@ export const runDetailSchema = z.object({
   calibration: calibrationUsedSchema.nullable(),
   /** The procedure revision the run uses, as the trim runs it: travels with the run, whichever revision is newest. */
   procedure: procedureSchema,
+  /** The same revision whole, every step (a schema-1 procedure upgraded to its notice and trim steps). */
+  procedureFile: procedureFileSchema,
+  /** Every step result recorded in the run, in the order recorded. */
+  stepResults: z.array(stepResultSchema),
+  /** The unit's verdict over the steps as main judges it now from the stored results (judgeUnit). */
+  judgement: unitJudgementSchema,
 });
 
 const runRef = z.object({ runId: rowId }).strict();
-
-/** The generator as it was when the reading was taken (the page holds it; main judges it). */
-const stimulusSettingSchema = z
-  .object({ on: z.boolean(), frequencyHz: finite.positive().max(200_000), levelDbfs: finite.min(-200).max(0) })
-  .strict();
+/** A step of the run's procedure, by its id (procedure-file.ts allows at most 40 characters). */
+const stepRef = z.object({ runId: rowId, stepId: z.string().min(1).max(40) }).strict();
+export const MAX_LOT_CHARS = 40;
 
 /** Bounds on what the page may report at once: a burst of changes, each with a short description. */
 export const MAX_WARNING_CHANGES_PER_CALL = 32;
@@ -323,6 +379,8 @@ const recordedPointResponse = z.object({
   point: trimPointSchema,
   assessment: trimAssessmentSchema,
   warningLog: z.array(warningLogEntrySchema),
+  /** The run as main now holds it after the point: the page keeps no copy of its own. */
+  detail: runDetailSchema,
 });
 const nothing = z.object({}).strict();
 
@@ -339,6 +397,8 @@ export const contract = {
         setup: audioSetupSchema.nullable().default(null),
         /** Required when the unit was tested before under this procedure: why it is tested again. */
         retestReason: z.string().trim().min(1, 'Give the reason for the retest.').pipe(plainText('retest reason', 200)).optional(),
+        /** The lot or work order the unit was built under; optional. */
+        lot: z.string().trim().pipe(plainText('lot or work order', MAX_LOT_CHARS)).optional(),
       })
       .strict(),
     response: runDetailSchema,
@@ -393,6 +453,27 @@ export const contract = {
       })
       .strict(),
     response: warmCheckSchema,
+  },
+  /** The technician acknowledged a notice step (safety first): its result is a pass. */
+  acknowledgeNotice: { request: stepRef, response: runDetailSchema },
+  /** The technician is done trimming: main judges the trim from the stored points (judgeTrimRun) as the trim step's result. */
+  completeTrim: { request: stepRef, response: runDetailSchema },
+  /** A check step's settled reading(s): main judges them with measureCheckStep against the stored revision's limits. */
+  recordCheckStep: {
+    request: z
+      .object({
+        runId: rowId,
+        stepId: z.string().min(1).max(40),
+        stimulus: stimulusSettingSchema,
+        /** One reading for a one-channel step; one per channel for balance and crosstalk. */
+        readings: z
+          .array(z.object({ channel: z.number().int().min(1).max(16), reading: boundedReadingSchema }).strict())
+          .min(1)
+          .max(2)
+          .refine((rs) => unique(rs.map((r) => r.channel)), 'Each channel may appear once.'),
+      })
+      .strict(),
+    response: runDetailSchema,
   },
   finishRun: {
     request: z.object({ runId: rowId, asFailure: z.boolean().optional() }).strict(),
@@ -451,3 +532,5 @@ export type WarmCheck = z.infer<typeof warmCheckSchema>;
 export type WarningLogEntry = z.infer<typeof warningLogEntrySchema>;
 export type StimulusSettingRequest = z.infer<typeof stimulusSettingSchema>;
 export type StationCalibration = z.infer<typeof stationCalibrationSchema>;
+export type StepResult = z.infer<typeof stepResultSchema>;
+export type StoredMeasurement = z.infer<typeof measurementSchema>;
