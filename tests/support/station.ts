@@ -46,6 +46,7 @@ export function readingWithThd(thdDb: number, overrides: Partial<Reading> = {}):
     noiseDbfs: -120,
     noiseAWeightedDbfs: -122,
     hum: null,
+    bandHz: { lowHz: 20, highHz: 20000 },
     mainsCoincidentOrders: [],
     flags: [],
     ...overrides,
