@@ -12,6 +12,7 @@ import { fixed, percent } from '../format.ts';
 import type { RunDetail, StepResult, StoredMeasurement, TrimPoint } from '../ipc/contract.ts';
 import { dbuFromDbfs, formatLevel, signedFixed, type LevelCalibration } from '../levels.ts';
 import type { ProcedureStep } from '../procedures/procedure-file.ts';
+import { limitText, quantityDecimals, quantityLabel, stepConditions } from '../procedures/step-text.ts';
 import type { StepStatus } from '../procedures/unit-verdict.ts';
 import { describeThermalMargin } from '../trim/trim-assistant.ts';
 import { WARNING_TITLES } from '../trim/warning-titles.ts';
@@ -132,37 +133,11 @@ export interface SheetModel {
 
 const INVENTED_LABEL = 'Demo procedure — the maker, product, limits and values on this sheet are invented for practice.';
 
-const QUANTITY_LABELS: Record<string, string> = {
-  thdDb: 'THD',
-  thdnDb: 'THD+N',
-  gainDb: 'Gain',
-  noiseDbu: 'Noise',
-  humDbu: 'Hum',
-  balanceDb: 'Balance',
-  crosstalkDb: 'Crosstalk',
-};
-
-/** Gain and balance limits are fractions of a dB wide: they need the hundredths. */
-const decimalsOf = (quantity: string) => (quantity === 'gainDb' || quantity === 'balanceDb' ? 2 : 1);
-
-function labelOf(quantity: string): string {
-  if (quantity.startsWith('harmonicsDbc.')) return quantity.slice('harmonicsDbc.'.length);
-  return QUANTITY_LABELS[quantity] ?? quantity;
-}
-
-function limitText(m: Pick<StoredMeasurement, 'low' | 'high' | 'unit'>, decimals: number): string {
-  const f = (v: number) => signedFixed(v, decimals);
-  if (m.low !== null && m.high !== null) return `${f(m.low)} to ${f(m.high)} ${m.unit}`;
-  if (m.high !== null) return `≤ ${f(m.high)} ${m.unit}`;
-  if (m.low !== null) return `≥ ${f(m.low)} ${m.unit}`;
-  return 'no limit';
-}
-
 function sheetMeasurement(m: StoredMeasurement): SheetMeasurement {
-  const decimals = decimalsOf(m.quantity);
+  const decimals = quantityDecimals(m.quantity);
   return {
     quantity: m.quantity,
-    label: labelOf(m.quantity),
+    label: quantityLabel(m.quantity),
     value: m.value,
     unit: m.unit,
     low: m.low,
@@ -175,33 +150,14 @@ function sheetMeasurement(m: StoredMeasurement): SheetMeasurement {
   };
 }
 
-const hz = (value: number) => (value >= 1000 ? `${fixed(value / 1000, value % 1000 === 0 ? 0 : 2)} kHz` : `${fixed(value, value < 100 && !Number.isInteger(value) ? 2 : 0)} Hz`);
-
 function conditionsOf(step: ProcedureStep, result: StepResult | undefined): string {
+  const conditions = step.kind === 'trim' ? `${stepConditions(step)}; the trim is below` : stepConditions(step);
   // The planner may move a step's frequency a little off mains: the frequency played is said too.
-  const played = (nominalHz: number) => {
-    const actual = result?.stimulus?.frequencyHz;
-    return actual !== undefined && Math.abs(actual - nominalHz) > 1e-6 * nominalHz ? ` (played ${fixed(actual, 2)} Hz)` : '';
-  };
-  switch (step.kind) {
-    case 'notice':
-      return `Acknowledged: “${step.acknowledgement}”`;
-    case 'trim':
-      return `${hz(step.stimulusHz)} at ${signedFixed(step.stimulusLevelDbfs, 1)} dBFS; the trim is below`;
-    case 'distortion':
-    case 'gain':
-      return `${hz(step.frequencyHz)}${played(step.frequencyHz)} at ${signedFixed(step.level.value, 1)} ${step.level.unit}`;
-    case 'balance':
-    case 'crosstalk':
-      return `channels ${step.channels[0]} and ${step.channels[1]}, ${hz(step.frequencyHz)}${played(step.frequencyHz)} at ${signedFixed(step.level.value, 1)} ${step.level.unit}`;
-    case 'noise':
-      return `generator off, input terminated; ${step.weighting === 'A' ? 'A-weighted' : 'unweighted'}, ${hz(step.band.lowHz)} to ${hz(step.band.highHz)}`;
-    case 'hum':
-      return `generator off, input terminated; mains${step.mainsHarmonics > 1 ? ` and its harmonics to the ${ordinal(step.mainsHarmonics)}` : ' fundamental'}`;
-  }
+  const nominal = 'frequencyHz' in step ? step.frequencyHz : null;
+  const played = result?.stimulus?.frequencyHz;
+  if (nominal === null || played === undefined || Math.abs(played - nominal) <= 1e-6 * nominal) return conditions;
+  return `${conditions} (played ${fixed(played, 2)} Hz)`;
 }
-
-const ordinal = (n: number) => `${n}${n % 10 === 1 && n !== 11 ? 'st' : n % 10 === 2 && n !== 12 ? 'nd' : n % 10 === 3 && n !== 13 ? 'rd' : 'th'}`;
 
 const STATUS_TEXT: Record<SheetStep['status'], string> = { pass: 'PASS', fail: 'FAIL', 'not-run': 'not run', 'not-recorded': 'not recorded' };
 
