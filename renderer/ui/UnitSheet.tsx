@@ -97,14 +97,6 @@ export function UnitSheet({
         {trim && (
           <>
             <h2>Trim</h2>
-            <dl className="facts trim-facts">
-              <dt>Stimulus</dt>
-              <dd data-testid="sheet-stimulus">{trim.stimulus}</dd>
-              <dt>Limit</dt>
-              <dd>{trim.limit}</dd>
-              <dt>Final reading</dt>
-              <dd>{trim.finalReading}</dd>
-            </dl>
             <table className="points">
               <thead>
                 <tr>
@@ -146,22 +138,18 @@ export function UnitSheet({
                 {trim.unsettledNote}
               </p>
             )}
-            <div className="sheet-curve">
-              <div>
-                {detail.trimPoints.length > 0 && (
-                  <TrimPlot
-                    points={detail.trimPoints}
-                    assessment={detail.assessment}
-                    harmonicOrder={trim.harmonicOrder}
-                    positionMin={trim.positionMin}
-                    positionMax={trim.positionMax}
-                    positionUnit={trim.positionUnit}
-                    // Low enough that the demo procedure's steps and a ten-point trim share one A4 page.
-                    height={150}
-                  />
+            <div className="sheet-trim">
+              <dl className="facts trim-facts">
+                <dt>Stimulus</dt>
+                <dd data-testid="sheet-stimulus">{trim.stimulus}</dd>
+                {trim.limit && (
+                  <>
+                    <dt>Limit</dt>
+                    <dd>{trim.limit}</dd>
+                  </>
                 )}
-              </div>
-              <dl className="facts">
+                <dt>Final reading</dt>
+                <dd>{trim.finalReading}</dd>
                 <dt>Curve fit</dt>
                 <dd>{trim.curveFit}</dd>
                 <dt>Null</dt>
@@ -171,14 +159,37 @@ export function UnitSheet({
                 <dt>Thermal margin</dt>
                 <dd>{trim.thermalMargin}</dd>
                 <dt>Warm re-check</dt>
-                <dd data-testid="sheet-warm-check">{trim.warmCheck}</dd>
+                <dd data-testid="sheet-warm-check">
+                  {trim.warmCheck}
+                </dd>
+                {trim.warnings.length === 0 && (
+                  <>
+                    <dt>Warnings raised</dt>
+                    <dd data-testid="sheet-warnings">
+                      None.
+                    </dd>
+                  </>
+                )}
               </dl>
+              <div className="sheet-curve">
+                <h3>Trim curve</h3>
+                {detail.trimPoints.length > 0 && (
+                  <TrimPlot
+                    points={detail.trimPoints}
+                    assessment={detail.assessment}
+                    harmonicOrder={trim.harmonicOrder}
+                    positionMin={trim.positionMin}
+                    positionMax={trim.positionMax}
+                    positionUnit={trim.positionUnit}
+                    // Beside the trim's facts: the demo procedure's steps and a ten-point trim share one A4 page.
+                    height={130}
+                  />
+                )}
+              </div>
             </div>
-            <h2>Warnings raised</h2>
-            {trim.warnings.length === 0 ? (
-              <p data-testid="sheet-warnings">None.</p>
-            ) : (
+            {trim.warnings.length > 0 && (
               <>
+                <h2>Warnings raised</h2>
                 <table className="points warning-log" data-testid="sheet-warnings">
                   <thead>
                     <tr>
@@ -232,21 +243,22 @@ function RunFacts({ sheet }: { sheet: SheetModel }) {
       <dd data-testid="sheet-procedure">
         {procedure.code} rev {procedure.revision}
       </dd>
-      <dt>Lot</dt>
-      <dd data-testid="sheet-lot">{unit.lot ?? '—'}</dd>
-      <dt>Started</dt>
-      <dd>{localDateTime(sheet.startedAt)}</dd>
-      <dt>Finished</dt>
-      <dd>{localDateTime(sheet.finishedAt)}</dd>
+      <dt>Run</dt>
+      <dd data-testid="sheet-run">
+        {sheet.runId}
+      </dd>
       <dt>Operator</dt>
       <dd>{sheet.operator}</dd>
       <dt>Station</dt>
       <dd>{sheet.station}</dd>
-      <dt>Run</dt>
-      <dd className={sheet.retest ? 'wide' : undefined} data-testid="sheet-run">
-        {sheet.runId}
-        {sheet.retest && ` (${sheet.retest.text})`}
-      </dd>
+      <dt>Started</dt>
+      <dd>{localDateTime(sheet.startedAt)}</dd>
+      <dt>Finished</dt>
+      <dd>{localDateTime(sheet.finishedAt)}</dd>
+      <dt>Lot</dt>
+      <dd data-testid="sheet-lot">{unit.lot ?? '—'}</dd>
+      <dt>Retest</dt>
+      <dd data-testid="sheet-retest">{sheet.retest.text}</dd>
       <CalibrationFacts calibration={sheet.calibration} />
     </dl>
   );
@@ -272,67 +284,96 @@ function CalibrationFacts({ calibration: c }: { calibration: SheetCalibration })
   );
 }
 
-/** Every step in procedure order, one row per measurement; failing rows marked. */
+/**
+ * Every step in procedure order, one row per measurement, failing rows marked. A measurement's note
+ * is a numbered footnote under the table, so each row stays one line.
+ */
 function StepTable({ steps }: { steps: SheetStep[] }) {
+  const notes: string[] = [];
+  const noteMark = (note: string | null) => {
+    if (note === null) return null;
+    const at = notes.indexOf(note);
+    const number = at >= 0 ? at + 1 : notes.push(note);
+    return <sup>{number}</sup>;
+  };
   return (
-    <table className="points steps" data-testid="sheet-steps">
-      <thead>
-        <tr>
-          <th scope="col">#</th>
-          <th scope="col">Step</th>
-          <th scope="col">Quantity</th>
-          <th scope="col">Value</th>
-          <th scope="col">Limit</th>
-          <th scope="col">Result</th>
-        </tr>
-      </thead>
-      <tbody>
-        {steps.map((step) => {
-          const rows = Math.max(1, step.measurements.length);
-          const head = (
-            <>
-              <td rowSpan={rows}>{step.number}</td>
-              <th scope="row" rowSpan={rows} className="step-name">
-                {step.title}
-                <span className="conditions">
-                  {step.conditions}
-                  {step.attempts > 1 && ` · recorded ${step.attempts} times, the latest counts`}
-                </span>
-                {step.reasons.length > 0 && <span className="conditions failing">{step.reasons.join(' ')}</span>}
-              </th>
-            </>
-          );
-          if (step.measurements.length === 0) {
-            return (
-              <tr key={step.id} className={step.failing ? 'failing' : undefined} data-step={step.id}>
-                {head}
-                <td colSpan={3} />
-                <td className="result">{step.statusText}</td>
-              </tr>
+    <>
+      <table className="points steps" data-testid="sheet-steps">
+        <colgroup>
+          <col className="number" />
+          <col className="step" />
+          <col className="quantity" />
+          <col className="value" />
+          <col className="limit" />
+          <col className="result" />
+        </colgroup>
+        <thead>
+          <tr>
+            <th scope="col">#</th>
+            <th scope="col">Step</th>
+            <th scope="col">Quantity</th>
+            <th scope="col">Value</th>
+            <th scope="col">Limit</th>
+            <th scope="col">Result</th>
+          </tr>
+        </thead>
+        <tbody>
+          {steps.map((step) => {
+            const rows = Math.max(1, step.measurements.length);
+            const head = (
+              <>
+                <td rowSpan={rows}>{step.number}</td>
+                <th scope="row" rowSpan={rows} className="step-name">
+                  {step.title}
+                  <span className="conditions">
+                    {' — '}
+                    {step.conditions}
+                    {step.attempts > 1 && ` · recorded ${step.attempts} times, the latest counts`}
+                  </span>
+                  {step.reasons.length > 0 && <span className="conditions failing">{step.reasons.join(' ')}</span>}
+                </th>
+              </>
             );
-          }
-          return (
-            <Fragment key={step.id}>
-              {step.measurements.map((m, i) => (
-                <tr key={m.quantity} className={m.failing ? 'failing' : undefined} data-step={step.id}>
-                  {i === 0 && head}
-                  <td className="quantity">
-                    {m.label}
-                    {m.note && <span className="conditions">{m.note}</span>}
-                  </td>
-                  <td>{m.valueText}</td>
-                  <td>{m.limitText}</td>
-                  {i === 0 && (
-                    <td rowSpan={rows} className={step.failing ? 'result failing' : 'result'}>
-                      {step.statusText}
-                    </td>
-                  )}
+            const result = (
+              <td rowSpan={rows} className={step.failing ? 'result failing' : 'result'}>
+                {step.statusText}
+              </td>
+            );
+            if (step.measurements.length === 0) {
+              return (
+                <tr key={step.id} className={step.failing ? 'failing' : undefined} data-step={step.id}>
+                  {head}
+                  <td colSpan={3} />
+                  {result}
                 </tr>
-              ))}
-            </Fragment>
-          );
-        })}
-      </tbody>
-    </table>
+              );
+            }
+            return (
+              <Fragment key={step.id}>
+                {step.measurements.map((m, i) => (
+                  <tr key={m.quantity} className={m.failing ? 'failing' : undefined} data-step={step.id}>
+                    {i === 0 && head}
+                    <td className="quantity">
+                      {m.label}
+                      {noteMark(m.note)}
+                    </td>
+                    <td>{m.valueText}</td>
+                    <td>{m.limitText}</td>
+                    {i === 0 && result}
+                  </tr>
+                ))}
+              </Fragment>
+            );
+          })}
+        </tbody>
+      </table>
+      {notes.length > 0 && (
+        <ol className="note step-notes">
+          {notes.map((note) => (
+            <li key={note}>{note}</li>
+          ))}
+        </ol>
+      )}
+    </>
   );
 }

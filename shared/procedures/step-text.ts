@@ -53,9 +53,9 @@ export function stepConditions(step: ProcedureStep): string {
     case 'crosstalk':
       return `channels ${step.channels[0]} and ${step.channels[1]}, ${hzText(step.frequencyHz)} at ${signedFixed(step.level.value, 1)} ${step.level.unit}`;
     case 'noise':
-      return `generator off, input terminated; ${step.weighting === 'A' ? 'A-weighted' : 'unweighted'}, ${hzText(step.band.lowHz)} to ${hzText(step.band.highHz)}`;
+      return `generator off; ${step.weighting === 'A' ? 'A-weighted' : 'unweighted'}, ${hzText(step.band.lowHz)} to ${hzText(step.band.highHz)}`;
     case 'hum':
-      return `generator off, input terminated; mains${step.mainsHarmonics > 1 ? ` and its harmonics to the ${ordinal(step.mainsHarmonics)}` : ' fundamental'}`;
+      return `generator off; mains${step.mainsHarmonics > 1 ? ` and harmonics to the ${ordinal(step.mainsHarmonics)}` : ' fundamental'}`;
   }
 }
 

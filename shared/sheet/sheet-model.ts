@@ -76,7 +76,8 @@ export interface SheetTrim {
   positionMin: number;
   positionMax: number;
   stimulus: string;
-  limit: string;
+  /** The trim's limit, where the steps do not show it already (a run without step results); else null. */
+  limit: string | null;
   finalReading: string;
   fundamentalHeading: string;
   points: SheetTrimPoint[];
@@ -115,7 +116,8 @@ export interface SheetModel {
   finishedAt: string | null;
   unit: { serial: string; modelCode: string; modelName: string; maker: string; lot: string | null };
   procedure: { code: string; revision: string; title: string; invented: boolean; inventedLabel: string | null };
-  retest: { ofRunId: number | null; reason: string | null; earlierRuns: number; text: string } | null;
+  /** The run this one repeats and why; `text` also says when it is the unit's first test. */
+  retest: { ofRunId: number | null; reason: string | null; earlierRuns: number; text: string };
   calibration: SheetCalibration;
   verdict: {
     /** The run's stored verdict; null while the run is not finished. */
@@ -210,7 +212,7 @@ function sheetCalibration(used: CalibrationUsed | null): SheetCalibration {
   };
 }
 
-function sheetTrim(detail: RunDetail): SheetTrim | null {
+function sheetTrim(detail: RunDetail, legacy: boolean): SheetTrim | null {
   const { trimPoints, assessment, warmCheck, calibration: used } = detail;
   const step = detail.procedureFile.steps.find((s) => s.kind === 'trim');
   // A procedure without a trim step has no trim section; today every stored procedure has one.
@@ -229,7 +231,7 @@ function sheetTrim(detail: RunDetail): SheetTrim | null {
     positionMin: step.positionMin,
     positionMax: step.positionMax,
     stimulus: `${final?.stimulusHz != null ? `${fixed(final.stimulusHz, 3)} Hz` : '—'} at ${formatLevel(step.stimulusLevelDbfs, output)} (procedure: ${step.stimulusHz} Hz)`,
-    limit: `THD ≤ ${fixed(detail.run.limitThdDb, 1)} dB at the final trim point`,
+    limit: legacy || !detail.stepResults.some((r) => r.stepId === step.id) ? `THD ≤ ${fixed(detail.run.limitThdDb, 1)} dB at the final trim point` : null,
     finalReading: final
       ? `THD ${fixed(final.reading.thdDb, 1)} dB (${percent(final.reading.thdPercent)}) at ${fixed(final.reading.fundamental.frequencyHz, 2)} Hz, ${formatLevel(final.reading.fundamental.levelDbfs, input, 2)}, trimmer at ${fixed(final.position, 2)} ${unit}${final.settled ? '' : ' (unsettled)'}${atFloor(final) ? ' (at the station’s floor †)' : ''}`
       : '—',
@@ -320,23 +322,21 @@ export function buildSheetModel(detail: RunDetail): SheetModel {
       invented: run.invented,
       inventedLabel: run.invented ? INVENTED_LABEL : null,
     },
-    retest:
-      run.retestOf !== null || detail.earlierRuns > 0
-        ? {
-            ofRunId: run.retestOf,
-            reason: run.retestReason,
-            earlierRuns: detail.earlierRuns,
-            text: [
-              run.retestOf !== null ? `retest of run ${run.retestOf}` : 'retest',
-              `${detail.earlierRuns} earlier run${detail.earlierRuns === 1 ? '' : 's'}`,
-            ].join('; ') + (run.retestReason ? `: ${run.retestReason}` : ''),
-          }
-        : null,
+    retest: {
+      ofRunId: run.retestOf,
+      reason: run.retestReason,
+      earlierRuns: detail.earlierRuns,
+      text:
+        run.retestOf === null && detail.earlierRuns === 0
+          ? 'no: the first test of this unit'
+          : [run.retestOf !== null ? `retest of run ${run.retestOf}` : 'retest', `${detail.earlierRuns} earlier run${detail.earlierRuns === 1 ? '' : 's'}`].join('; ') +
+            (run.retestReason ? `: ${run.retestReason}` : ''),
+    },
     calibration: sheetCalibration(detail.calibration),
     verdict,
     steps: sheetSteps(detail, legacy),
     stepsNote: legacy ? 'This run was recorded before results were kept step by step: its verdict is the trim’s, below.' : null,
-    trim: sheetTrim(detail),
+    trim: sheetTrim(detail, legacy),
     footer: 'Made with Trimbench. Trimbench measures; it does not certify electrical safety.',
   };
 }

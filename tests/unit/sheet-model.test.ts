@@ -177,7 +177,7 @@ describe('the sheet model', () => {
     expect(sheet.procedure).toMatchObject({ code: 'MG20-LF-TRIM', revision: 'C', invented: true });
     expect(sheet.procedure.inventedLabel).toMatch(/invented/);
     expect(sheet.retest).toMatchObject({ ofRunId: 5, reason: 'Replaced C12 after the first test.' });
-    expect(sheet.retest!.text).toContain('retest of run 5');
+    expect(sheet.retest.text).toContain('retest of run 5');
     expect(sheet.calibration).toEqual({ used: false, text: expect.stringMatching(/not calibrated/) });
   });
 
