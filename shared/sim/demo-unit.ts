@@ -22,8 +22,10 @@ export interface DemoUnitParameters {
   /** The driver's own voltage gain relative to nominal (its gain-setting resistors): 1 on a unit built to value. */
   driverGain: number;
   driverRailVolts: number;
-  /** Driver third-harmonic coefficient on the normalised input: x − d₃·x³. */
+  /** Driver third-harmonic coefficient on the normalised input: x + d₂·x² − d₃·x³. */
   driverCubic: number;
+  /** Driver second-order coefficient (an asymmetric output stage): zero on a unit built to value. */
+  driverSquare: number;
   /** Driver output noise, volts RMS over the full band. */
   driverNoiseVolts: number;
   windingOhms: number;
@@ -49,6 +51,7 @@ export const DEMO_UNIT_PARAMETERS: DemoUnitParameters = {
   driverGain: 1,
   driverRailVolts: 14,
   driverCubic: 2e-3,
+  driverSquare: 0,
   driverNoiseVolts: 3e-5,
   windingOhms: 120,
   sourceOhms: 10,
@@ -137,7 +140,7 @@ export class DemoUnit {
       const remaining = this.trimmerTarget - this.trimmerTurns;
       this.trimmerTurns = Math.abs(remaining) <= stepTurns ? this.trimmerTarget : this.trimmerTurns + Math.sign(remaining) * stepTurns;
     }
-    const drive = p.driverGain * p.driveVoltsPerFullScale * (x - p.driverCubic * x * x * x) + p.driverNoiseVolts * this.noise.next();
+    const drive = p.driverGain * p.driveVoltsPerFullScale * (x + p.driverSquare * x * x - p.driverCubic * x * x * x) + p.driverNoiseVolts * this.noise.next();
     // Classic fourth-order Runge-Kutta on (flux, capacitor volts); the drive is held over the step.
     const psi = this.flux;
     const vc = this.capacitorVolts;
