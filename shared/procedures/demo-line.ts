@@ -16,6 +16,10 @@ import { measureCheckStep, noiseBandFor, type StationLevels } from './check-step
 import type { ProcedureFile } from './procedure-file.ts';
 import { plannedStimulus, runPlan, type PlannedStep } from './run-plan.ts';
 import type { StimulusSetting } from '../dsp/sine-source.ts';
+import type { AudioSetup } from '../calibration/station-calibration.ts';
+import { vRmsFromDbu } from '../levels.ts';
+import { LiveMeter } from '../measurement/live-meter.ts';
+import { DEMO_INTERFACE_DBU_AT_FULL_SCALE, DemoChain } from '../sim/demo-chain.ts';
 
 /** The calls the demo line makes, exactly as the page makes them; the caller turns a refusal into an error. */
 export type LineCalls = <C extends 'acknowledgeNotice' | 'recordTrimPoint' | 'completeTrim' | 'recordCheckStep' | 'finishRun'>(
@@ -182,5 +186,33 @@ export function lineUnitReport(unit: BatchUnit, finished: RunDetail): LineUnitRe
       verdict: s.status,
       measurements: (latest.get(s.stepId)?.measurements ?? []).map(({ quantity, value, unit: u, low, high }) => ({ quantity, value, unit: u, low, high })),
     })),
+  };
+}
+
+/** The reference tone of the demo line's calibration, as in the station's calibration step. */
+const REFERENCE = { on: true, frequencyHz: 1000, levelDbfs: -20 };
+
+/**
+ * The demo bench calibrated as a technician calibrates it: an invented voltmeter on the invented
+ * interface's output reads the reference tone (DEMO_INTERFACE_DBU_AT_FULL_SCALE), and the
+ * loopback (the invented chain) is captured through the meter for the input. Main computes and
+ * judges the calibration from these observations, as from the Station view's.
+ */
+export function demoCalibrationRequest(setup: AudioSetup, operator: string): IpcRequest<'recordCalibration'> {
+  const chain = new DemoChain(setup.sampleRateHz);
+  chain.setStimulus(REFERENCE);
+  const meter = new LiveMeter({ sampleRateHz: setup.sampleRateHz, expectedFundamentalHz: REFERENCE.frequencyHz, stimulusLocked: true, sampleGuard: false });
+  const block = new Float32Array(2048);
+  for (let rendered = 0; !meter.reading.settled; rendered += block.length) {
+    if (rendered > MAX_SETTLE_S * setup.sampleRateHz) throw new Error('the demo loopback gave no settled reading');
+    chain.render(block);
+    meter.push(block);
+  }
+  const volts = vRmsFromDbu(REFERENCE.levelDbfs + DEMO_INTERFACE_DBU_AT_FULL_SCALE);
+  return {
+    operator,
+    setup,
+    output: { referenceHz: REFERENCE.frequencyHz, referenceDbfs: REFERENCE.levelDbfs, meterEntry: `${volts.toFixed(4)} V` },
+    input: { method: 'loopback', generatorDbfs: REFERENCE.levelDbfs, capturedDbfs: meter.reading.fundamental.levelDbfs, capturedHz: meter.reading.measuredFundamentalHz },
   };
 }
