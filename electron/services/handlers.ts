@@ -55,9 +55,9 @@ export function createHandlers({ records, sheets, calibrations, settings, statio
     includeUnsettledPoint: async (request) => records.includeUnsettledPoint(request),
     logWarningChanges: async (request) => records.logWarningChanges(request),
     recordWarmCheck: async (request) => records.recordWarmCheck(request),
-    acknowledgeNotice: async () => notYet(),
-    completeTrim: async () => notYet(),
-    recordCheckStep: async () => notYet(),
+    acknowledgeNotice: async (request) => records.acknowledgeNotice(request),
+    completeTrim: async (request) => records.completeTrim(request),
+    recordCheckStep: async (request) => records.recordCheckStep(request),
     finishRun: async (request) => records.finishRun(request),
     saveSheetPdf: async ({ runId }, caller) => sheets.savePdf(runId, () => caller.printToPdf()),
     printSheet: async ({ runId }, caller) => {
@@ -85,11 +85,6 @@ export function createHandlers({ records, sheets, calibrations, settings, statio
       return records.importProcedure(readProcedureText(path), basename(path));
     },
   };
-}
-
-/** Step results are being wired in (issue 10): until then a step cannot be recorded. */
-function notYet(): never {
-  throw new ExpectedFailure('Recording procedure steps is not available in this build yet.');
 }
 
 /** A procedure file is a few kilobytes; anything far larger is not one, and is not read whole. */
