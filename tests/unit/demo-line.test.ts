@@ -44,8 +44,23 @@ afterAll(() => folder.remove());
 
 /** The step as the procedure file states it. */
 const stepOf = (id: string) => PROCEDURE.steps.find((s: { id: string }) => s.id === id);
-/** A limit by its stored quantity name ("thdDb", "harmonicsDbc.H3"), from the file's step. */
-const limitOf = (stepId: string, quantity: string) => quantity.split('.').reduce((at: Record<string, unknown> | undefined, key) => at?.[key] as Record<string, unknown> | undefined, stepOf(stepId).limits) as { low?: number; high?: number; unit: string } | undefined;
+/**
+ * A limit by its stored quantity name ("thdDb", "harmonicsDbc.H3"), from the file's step: a check's
+ * `limits`, or the trim's THD limit at its final point (`limitThdDb`, in dB).
+ */
+function limitOf(stepId: string, quantity: string): { low?: number; high?: number; unit: string } | undefined {
+  const step = stepOf(stepId);
+  if (step.kind === 'trim') return quantity === 'thdDb' ? { high: step.limitThdDb, unit: 'dB' } : undefined;
+  return quantity.split('.').reduce((at: Record<string, unknown> | undefined, key) => at?.[key] as Record<string, unknown> | undefined, step.limits) as
+    | { low?: number; high?: number; unit: string }
+    | undefined;
+}
+
+/** Every quantity the file states a limit for in a step, as measurements name them. */
+function statedQuantities(step: { kind: string; limits?: Record<string, object> }): string[] {
+  if (step.kind === 'trim') return ['thdDb'];
+  return Object.entries(step.limits ?? {}).flatMap(([key, value]) => ('unit' in value ? [key] : Object.keys(value).map((h) => `${key}.${h}`)));
+}
 
 describe('demo-line --json', () => {
   it('prints one object of the stated shape, with serials of the procedure’s pattern', () => {
@@ -140,10 +155,7 @@ describe('demo-line --json', () => {
       // A PASS rests on every step, each check with a measurement of every limit the file states.
       for (const step of unit.steps) {
         expect(step.verdict, `${unit.serial} ${step.id}`).toBe('pass');
-        const file = stepOf(step.id);
-        if (!file.limits) continue;
-        const stated = Object.entries(file.limits).flatMap(([key, value]) => ('unit' in (value as object) ? [key] : Object.keys(value as object).map((h) => `${key}.${h}`)));
-        expect(step.measurements.map((m) => m.quantity).sort()).toEqual(stated.sort());
+        expect(step.measurements.map((m) => m.quantity).sort()).toEqual(statedQuantities(stepOf(step.id)).sort());
       }
     }
     expect(checked).toBeGreaterThan(UNITS * 5);
