@@ -7,6 +7,7 @@
 //   npm run -s cli -- fit FILE.csv [--margin-db X] [--step X] [--limit-dbc X] [--json]
 //   npm run -s cli -- procedure check FILE.json
 //   npm run -s cli -- sheet --data DIR --run N [--json]
+//   npm run -s cli -- demo-line --units N --data DIR [--seed S] [--json]
 
 import { existsSync, readFileSync } from 'node:fs';
 import { join } from 'node:path';
@@ -22,9 +23,12 @@ import { buildSheetModel, type SheetModel } from '../shared/sheet/sheet-model.ts
 import { openWavFile, type WavFile, WavReadError } from './wav-file.ts';
 import { createCalibrations } from '../electron/services/calibrations.ts';
 import { openForReading, type Db } from '../electron/services/database.ts';
-import { ExpectedFailure } from '../electron/services/expected-failure.ts';
 import { createRecords } from '../electron/services/records.ts';
+import { sqliteRepository } from '../electron/services/records-repository.ts';
 import { DATABASE_FILE } from '../electron/services/station.ts';
+import { DemoLineProblem, runDemoLine, type DemoLineReport } from './demo-line.ts';
+import { ExpectedFailure } from '../electron/services/expected-failure.ts';
+import { LineCallRefused } from '../shared/procedures/demo-line.ts';
 
 // Wider than any audio interface's full scale (about −20 to +30 dBu), so a recording from an
 // unusual chain can still be read; anything outside is a typing error.
@@ -37,6 +41,7 @@ const USAGE = `usage:
   trimbench fit FILE.csv [--margin-db X] [--step X] [--limit-dbc X] [--json]
   trimbench procedure check FILE.json
   trimbench sheet --data DIR --run N [--json]
+  trimbench demo-line --units N --data DIR [--seed S] [--json]
   trimbench help
 
   analyze   offline analysis of a WAV recording (refuses non-finite samples); with
@@ -49,7 +54,10 @@ const USAGE = `usage:
             validates a procedure file (docs/procedures.md): every problem on its own line,
             its JSON path first, or a one-line summary when the file is good
   sheet     what run N's unit sheet shows, read from the station database in the data folder DIR
-            (opened for reading only: nothing in it is changed); --json prints the sheet model`;
+            (opened for reading only: nothing in it is changed); --json prints the sheet model
+  demo-line runs the demo procedure (invented MG-20) on N simulated units with a scripted
+            technician and writes the runs into the station database in DIR; --seed S
+            (a whole number, default 1) picks the batch`;
 
 /** A problem with the user's input: printed as one line, exit status 1. */
 class UsageProblem extends Error {}
@@ -385,7 +393,7 @@ function openStationForReading(dir: string): Db {
   }
 }
 
-function sheet(args: string[]): string {
+async function sheet(args: string[]): Promise<string> {
   const { values, positionals } = parseArgs({
     args,
     allowPositionals: true,
@@ -408,7 +416,7 @@ function sheet(args: string[]): string {
       // What the technician is not shown in the app goes to its log; here, to stderr.
       onUnreadable: (record) => process.stderr.write(`${record.what}: ${record.detail}\n`),
     });
-    model = buildSheetModel(records.getRun(runId));
+    model = buildSheetModel(await sqliteRepository(records).getRun(runId));
   } catch (error) {
     if (error instanceof ExpectedFailure) throw new UsageProblem(error.message);
     throw error;
@@ -432,7 +440,57 @@ function sheetText(model: SheetModel): string {
   return lines.join('\n');
 }
 
-function main(argv: string[]): number {
+async function demoLine(args: string[]): Promise<string> {
+  const { values, positionals } = parseArgs({
+    args,
+    allowPositionals: true,
+    strict: true,
+    options: { units: { type: 'string' }, data: { type: 'string' }, seed: { type: 'string' }, json: { type: 'boolean', default: false } },
+  });
+  if (positionals.length > 0) throw new UsageProblem(`demo-line takes no file\n${USAGE}`);
+  const units = numberOption('units', values.units, (v) => Number.isInteger(v) && v >= 1 && v <= 9999, 'a whole number of units from 1 to 9999');
+  if (units === undefined) throw new UsageProblem(`demo-line needs --units N\n${USAGE}`);
+  if (values.data === undefined || values.data.trim() === '') throw new UsageProblem(`demo-line needs --data DIR, the station's data folder\n${USAGE}`);
+  const seed = numberOption('seed', values.seed, (v) => Number.isInteger(v) && v >= 0 && v < 2 ** 32, 'a whole number from 0 to 4294967295') ?? 1;
+  const startedAt = performance.now();
+  let report: DemoLineReport;
+  try {
+    report = await runDemoLine({
+      units,
+      dataDir: values.data,
+      seed,
+      // Progress on one line of stderr, so stdout stays the result alone.
+      onUnitDone: values.json
+        ? undefined
+        : (done, total) => {
+            const perUnit = (performance.now() - startedAt) / 1000 / done;
+            process.stderr.write(`\r${done}/${total} units done, about ${Math.ceil(perUnit * (total - done))} s left `);
+            if (done === total) process.stderr.write('\n');
+          },
+    });
+  } catch (error) {
+    if (error instanceof DemoLineProblem || error instanceof ExpectedFailure || error instanceof LineCallRefused) throw new UsageProblem((error as Error).message);
+    throw error;
+  }
+  if (values.json) return JSON.stringify(report);
+  const minutes = (performance.now() - startedAt) / 60000;
+  return [
+    'serial           verdict  final  true null  points  failed steps',
+    ...report.units.map((u) =>
+      [
+        u.serial.padEnd(17),
+        u.verdict.toUpperCase().padEnd(9),
+        (u.trim.finalPosition?.toFixed(2) ?? '—').padStart(5),
+        u.trim.trueNullPosition.toFixed(2).padStart(11),
+        String(u.trim.points).padStart(8),
+        `  ${u.steps.filter((s) => s.verdict === 'fail').map((s) => s.id).join(', ') || '—'}`,
+      ].join(''),
+    ),
+    `${report.passed} passed, ${report.failed} failed, ${(report.units.length / minutes).toFixed(1)} units a minute; the runs are in ${values.data}`,
+  ].join('\n');
+}
+
+async function main(argv: string[]): Promise<number> {
   const [command, ...rest] = argv;
   try {
     if (command === 'help' || command === '--help' || command === '-h') process.stdout.write(`${USAGE}\n`);
@@ -440,7 +498,8 @@ function main(argv: string[]): number {
     else if (command === 'plan') process.stdout.write(`${plan(rest)}\n`);
     else if (command === 'fit') process.stdout.write(`${fit(rest)}\n`);
     else if (command === 'procedure') process.stdout.write(`${procedure(rest)}\n`);
-    else if (command === 'sheet') process.stdout.write(`${sheet(rest)}\n`);
+    else if (command === 'sheet') process.stdout.write(`${await sheet(rest)}\n`);
+    else if (command === 'demo-line') process.stdout.write(`${await demoLine(rest)}\n`);
     else throw new UsageProblem(command ? `unknown command “${command}”\n${USAGE}` : USAGE);
     return 0;
   } catch (error) {
@@ -462,4 +521,4 @@ function main(argv: string[]): number {
   }
 }
 
-process.exitCode = main(process.argv.slice(2));
+process.exitCode = await main(process.argv.slice(2));
