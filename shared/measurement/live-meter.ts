@@ -72,6 +72,13 @@ export class LiveMeter {
   readonly reading: Reading;
   private readonly guard: GlitchGuard;
   private readonly settle = new SettleTracker();
+  /**
+   * With nothing to measure but the unit's own output (generator off: a noise or hum step) the
+   * reading settles on its noise, unweighted and A-weighted, agreeing to 0.5 dB: a frame's noise
+   * estimate sums thousands of bins, so its own scatter is far below that, and what moves more is
+   * the unit (a thump dying away, a plug being fitted).
+   */
+  private readonly quietSettle = new SettleTracker({ levelToleranceDb: 0.5, thdToleranceDb: 0.5 });
   private readonly subAudio: SubAudioMeter | null;
   /** Frames averaged in step with the stimulus (1 when it is not locked and coherent). */
   private readonly averageDepth: number;
@@ -196,8 +203,9 @@ export class LiveMeter {
     reading.subAudioDbfs = this.subAudio?.levelDbfs() ?? null;
     if (reading.flags.includes('no-signal')) {
       this.settle.reset();
-      reading.settleProgress = 0;
+      reading.settleProgress = this.quietSettle.add(reading.noiseDbfs, reading.noiseAWeightedDbfs);
     } else {
+      this.quietSettle.reset();
       this.guard.setToneHz(reading.fundamental.frequencyHz);
       reading.settleProgress = this.settle.add(reading.fundamental.levelDbfs, reading.thdDb);
     }
@@ -228,10 +236,10 @@ export class LiveMeter {
    */
   private remainingSeconds(reading: Reading): number | null {
     if (reading.settled) return 0;
-    if (reading.flags.includes('no-signal') && !this.waiting) return null;
+    const tracker = reading.flags.includes('no-signal') ? this.quietSettle : this.settle;
     const firstFrameDone = this.cleanFrom + this.frameSize;
     const nextReading = Math.max(firstFrameDone, this.nextReadingAt, this.written);
-    const needed = this.waiting ? this.settle.options.readingsToAgree : this.settle.readingsNeeded;
+    const needed = this.waiting ? tracker.options.readingsToAgree : tracker.readingsNeeded;
     return (nextReading - this.written + (needed - 1) * this.hopSamples) / this.config.sampleRateHz;
   }
 
@@ -239,6 +247,7 @@ export class LiveMeter {
     // Only ever forward: a hold-off already set is not cut short by a break found meanwhile.
     this.cleanFrom = Math.max(this.cleanFrom, from);
     this.settle.reset();
+    this.quietSettle.reset();
     this.waiting = true;
     const reading = this.reading;
     reading.settled = false;
