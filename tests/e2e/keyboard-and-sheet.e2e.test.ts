@@ -175,7 +175,7 @@ function trimReading(position: number) {
   return reading;
 }
 
-/** What main's finishRun answers, changed by the test (to stand in for step results main does not record yet). */
+/** What main's finishRun answers, changed by the test (a result for every step, without walking them). */
 type FinishedDetail = (detail: RunDetail) => RunDetail;
 
 async function sheetPdf(serial: string, positions: number[], finished?: FinishedDetail): Promise<{ pages: string[]; verdict: string; pdfPath: string }> {
@@ -235,8 +235,9 @@ describe('the unit sheet’s pages', () => {
   });
 
   it('prints the demo procedure — every step with its values and limits, and a ten-point trim — on one A4 page (ISO 216: 210 × 297 mm)', { timeout: 60_000 }, async () => {
-    // Main does not record step results yet (issue 10, in progress): its finished run is given the
-    // demo file's revision and one result per step here, as main will hold them.
+    // This checks the layout, not the step walk (tests/unit/records-steps.test.ts walks it): the
+    // finished run comes back with the demo file's revision and one result per step, shaped as main
+    // stores them, without measuring all ten steps here.
     const file = procedureFileSchema.parse(JSON.parse(readFileSync(new URL('../../resources/procedures/mg20-lf-trim.json', import.meta.url), 'utf8')));
     const m = (quantity: string, value: number, unit: string, low: number | null, high: number | null, note: string | null = null) => ({
       quantity, value, unit, low, high, note,
