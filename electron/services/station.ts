@@ -221,6 +221,8 @@ export function openStation({
       /** The data folder's log: the dispatcher writes each unexpected error there. */
       errorLog,
       records,
+      /** The records as callers outside main's handlers (the command line) use them: every operation awaited. */
+      repository,
       sheets,
       handlers,
       /** Why nothing can be recorded at this station now, or null: the page shows it from the start. */
