@@ -485,7 +485,6 @@ export function App() {
     return (
       <UnitSheet
         detail={detail}
-        procedure={detail.procedure}
         pdfPath={sheetPdfPath}
         message={sheetMessage}
         onPrint={() => void printSheet()}

@@ -12,6 +12,7 @@ import { problemText } from '../problem-text.ts';
 import { AssistantSummary } from './AssistantSummary.tsx';
 import { fixed, percent } from './format.ts';
 import { TrimPlot } from './TrimPlot.tsx';
+import { WARNING_TITLES } from '../../shared/trim/warning-titles.ts';
 import { useLiveWarnings } from './useLiveWarnings.ts';
 import type { GeneratorCommand } from '../worker/messages.ts';
 
@@ -417,14 +418,6 @@ export function TrimPanel({
     </section>
   );
 }
-
-export const WARNING_TITLES: Record<TrimWarning['id'], string> = {
-  'gain-rise': 'Gain rising',
-  'lf-instability': 'Low-frequency instability',
-  'amplitude-wander': 'Level wandering',
-  clipping: 'Clipping',
-  'past-null': 'Past the null',
-};
 
 function WarmCheckForm({
   reading,
