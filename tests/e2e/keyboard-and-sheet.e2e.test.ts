@@ -197,7 +197,8 @@ async function sheetPdf(serial: string, positions: number[], finished?: Finished
     handlers.finishRun = realFinish;
   }
   const pdfPath = (await page.getByTestId('sheet-pdf-path').textContent())!.replace(/^Saved as /, '');
-  copyFileSync(pdfPath, `/tmp/trimbench-sheet-${positions.length}-points.pdf`); // for a look by eye
+  copyFileSync(pdfPath, `/tmp/trimbench-sheet-${serial}.pdf`); // for a look by eye
+  await page.screenshot({ path: `/tmp/trimbench-sheet-${serial}.png`, fullPage: true }); // the view on screen, likewise
   const pageCount = Number(/Pages:\s+(\d+)/.exec(execFileSync('pdfinfo', [pdfPath], { encoding: 'utf8' }))![1]);
   const pages = Array.from({ length: pageCount }, (_, i) =>
     execFileSync('pdftotext', ['-layout', '-f', String(i + 1), '-l', String(i + 1), pdfPath, '-'], { encoding: 'utf8' }),
@@ -275,7 +276,6 @@ describe('the unit sheet’s pages', () => {
       judgement,
     });
     const { pages, pdfPath } = await sheetPdf('MG20-2611-0112', [0, 0.5, 1, 1.5, 2, 2.5, 3, 3.5, 4, 4.5], withSteps);
-    copyFileSync(pdfPath, '/tmp/trimbench-sheet-demo-procedure.pdf'); // for a look by eye
     expect(pages).toHaveLength(1);
     // A4 is 210 × 297 mm (ISO 216); a PostScript point is 1/72 inch and an inch 25.4 mm.
     const size = /Page size:\s+([\d.]+) x ([\d.]+) pts/.exec(execFileSync('pdfinfo', [pdfPath], { encoding: 'utf8' }))!;
