@@ -416,8 +416,7 @@ export function openForReading(file: string): Db {
       // read what can be read
     }
     copy.pragma('foreign_keys = ON');
-    for (let version = schemaVersion(copy) + 1; version <= MIGRATIONS.length; version++) copy.exec(MIGRATIONS[version - 1]);
-    copy.pragma(`user_version = ${MIGRATIONS.length}`);
+    applyMigrations(copy, schemaVersion(copy));
     return copy;
   } catch (error) {
     if (db.open) db.close();
@@ -438,8 +437,7 @@ function asMemoryImage(image: Buffer): Buffer {
 /** An empty database of today's schema in memory: what a station reads when its file cannot be read at all. */
 export function openEmptyInMemory(): Db {
   const db = new Database(':memory:');
-  for (const migration of MIGRATIONS) db.exec(migration);
-  db.pragma(`user_version = ${MIGRATIONS.length}`);
+  applyMigrations(db, 0);
   return db;
 }
 
@@ -461,6 +459,12 @@ function enterWal(db: Db, busyTimeoutMs: number): void {
       Atomics.wait(pause, 0, 0, pauseMs); // a synchronous pause, as SQLite's own busy handler sleeps
     }
   }
+}
+
+/** Runs every migration after `from` and marks the schema current; the caller holds the transaction, if any. */
+function applyMigrations(db: Db, from: number): void {
+  for (const migration of MIGRATIONS.slice(from)) db.exec(migration);
+  db.pragma(`user_version = ${MIGRATIONS.length}`);
 }
 
 function schemaVersion(db: Db): number {
@@ -503,8 +507,7 @@ function migrate(db: Db, file: string): void {
       if (current === latest) return true;
       // Changed since the copy was taken: take a copy of what is there now before touching it.
       if (current > 0 && current !== backedUpVersion) return false;
-      for (let version = current + 1; version <= latest; version++) db.exec(MIGRATIONS[version - 1]);
-      db.pragma(`user_version = ${latest}`);
+      applyMigrations(db, current);
       return true;
     }).immediate();
     if (done) return;

@@ -298,6 +298,14 @@ export function createRecords(
     return view;
   }
 
+  /** Whether the stored revision holds exactly this definition (both as the schema reads them). */
+  function storedAs(id: number, definition: Procedure | ProcedureFile): boolean {
+    const row = statements.procedureById.get(id)!;
+    const what = `procedure ${row.code} revision ${row.revision}`;
+    checkSealed('procedures', row, what);
+    return JSON.stringify(fromStoredJson(row.definition_json, storedProcedureDefinition, what)) === JSON.stringify(definition);
+  }
+
   function procedureById(id: number): Procedure {
     const row = statements.procedureById.get(id);
     if (!row) throw new ExpectedFailure(`There is no procedure with id ${id}.`);
@@ -699,12 +707,23 @@ export function createRecords(
   }
 
   return {
-    /** Stores a procedure revision once; returns its id. A revision, once stored, never changes. */
+    /**
+     * Stores a built-in procedure revision once; returns its id. A revision, once stored, never
+     * changes: one already stored with other content is refused, since running either would be a
+     * guess at which one the line meant.
+     */
     ensureProcedure(definition: Procedure): number {
       refuseUnlessWritable();
-      const existing = statements.procedureByKey.get(definition.code, definition.revision);
-      if (existing) return existing.id;
-      return insertSealed('procedures', { code: definition.code, revision: definition.revision, definition_json: toStoredJson(definition) });
+      const parsed = procedureSchema.parse(definition);
+      const existing = statements.procedureByKey.get(parsed.code, parsed.revision);
+      if (!existing) return insertSealed('procedures', { code: parsed.code, revision: parsed.revision, definition_json: toStoredJson(parsed) });
+      if (!storedAs(existing.id, parsed)) {
+        throw new ExpectedFailure(
+          `The built-in procedure ${parsed.code} revision ${parsed.revision} differs from the one stored under that revision in this station's records, ` +
+            `so neither is used. Install the Trimbench release the records were made with, or report it to the station's maintainer.`,
+        );
+      }
+      return existing.id;
     },
 
     /**
@@ -727,10 +746,7 @@ export function createRecords(
       return db.transaction(() => {
         const existing = statements.procedureByKey.get(file.code, file.revision);
         if (existing) {
-          const row = statements.procedureById.get(existing.id)!;
-          checkSealed('procedures', row, `procedure ${file.code} revision ${file.revision}`);
-          const stored = fromStoredJson(row.definition_json, storedProcedureDefinition, `procedure ${file.code} revision ${file.revision}`);
-          if (stored.schemaVersion === 2 && JSON.stringify(stored) === JSON.stringify(file)) {
+          if (storedAs(existing.id, file)) {
             return { outcome: 'unchanged' as const, id: existing.id, code: file.code, revision: file.revision, summary: checked.summary };
           }
           throw new ExpectedFailure(
