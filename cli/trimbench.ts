@@ -24,6 +24,7 @@ import { createCalibrations } from '../electron/services/calibrations.ts';
 import { openForReading, type Db } from '../electron/services/database.ts';
 import { ExpectedFailure } from '../electron/services/expected-failure.ts';
 import { createRecords } from '../electron/services/records.ts';
+import { sqliteRepository } from '../electron/services/records-repository.ts';
 import { DATABASE_FILE } from '../electron/services/station.ts';
 
 // Wider than any audio interface's full scale (about −20 to +30 dBu), so a recording from an
@@ -385,7 +386,7 @@ function openStationForReading(dir: string): Db {
   }
 }
 
-function sheet(args: string[]): string {
+async function sheet(args: string[]): Promise<string> {
   const { values, positionals } = parseArgs({
     args,
     allowPositionals: true,
@@ -401,14 +402,17 @@ function sheet(args: string[]): string {
     const refuse = () => {
       throw new ExpectedFailure('The command line reads the records; it never writes them.');
     };
-    const records = createRecords(db, {
-      stationName: () => '',
-      calibrations: createCalibrations(db, { stationName: () => '', refuseUnlessWritable: refuse }),
-      whyNotWritable: () => 'The command line reads the records; it never writes them.',
-      // What the technician is not shown in the app goes to its log; here, to stderr.
-      onUnreadable: (record) => process.stderr.write(`${record.what}: ${record.detail}\n`),
-    });
-    model = buildSheetModel(records.getRun(runId));
+    // Through the repository, as every caller of the records: a records server would answer here too.
+    const records = sqliteRepository(
+      createRecords(db, {
+        stationName: () => '',
+        calibrations: createCalibrations(db, { stationName: () => '', refuseUnlessWritable: refuse }),
+        whyNotWritable: () => 'The command line reads the records; it never writes them.',
+        // What the technician is not shown in the app goes to its log; here, to stderr.
+        onUnreadable: (record) => process.stderr.write(`${record.what}: ${record.detail}\n`),
+      }),
+    );
+    model = buildSheetModel(await records.getRun(runId));
   } catch (error) {
     if (error instanceof ExpectedFailure) throw new UsageProblem(error.message);
     throw error;
@@ -432,7 +436,7 @@ function sheetText(model: SheetModel): string {
   return lines.join('\n');
 }
 
-function main(argv: string[]): number {
+async function main(argv: string[]): Promise<number> {
   const [command, ...rest] = argv;
   try {
     if (command === 'help' || command === '--help' || command === '-h') process.stdout.write(`${USAGE}\n`);
@@ -440,7 +444,7 @@ function main(argv: string[]): number {
     else if (command === 'plan') process.stdout.write(`${plan(rest)}\n`);
     else if (command === 'fit') process.stdout.write(`${fit(rest)}\n`);
     else if (command === 'procedure') process.stdout.write(`${procedure(rest)}\n`);
-    else if (command === 'sheet') process.stdout.write(`${sheet(rest)}\n`);
+    else if (command === 'sheet') process.stdout.write(`${await sheet(rest)}\n`);
     else throw new UsageProblem(command ? `unknown command “${command}”\n${USAGE}` : USAGE);
     return 0;
   } catch (error) {
@@ -462,4 +466,4 @@ function main(argv: string[]): number {
   }
 }
 
-process.exitCode = main(process.argv.slice(2));
+process.exitCode = await main(process.argv.slice(2));
