@@ -406,21 +406,36 @@ export function openForReading(file: string): Db {
     const image = db.serialize();
     db.close();
     const copy = new Database(asMemoryImage(image));
-    // A damaged index can hide rows its table still holds (a query by run id that finds no trim
-    // points, where the table has them): a run would then read back short without any check
-    // failing. Rebuilt from the tables, an index shows every row they hold. When a table itself is
-    // damaged the rebuild fails; its rows then fail as they are read, and are reported so.
-    try {
-      copy.exec('REINDEX');
-    } catch {
-      // read what can be read
-    }
+    rebuildIndexes(copy);
     copy.pragma('foreign_keys = ON');
     applyMigrations(copy, schemaVersion(copy));
     return copy;
   } catch (error) {
     if (db.open) db.close();
     throw error;
+  }
+}
+
+/**
+ * A damaged index can hide rows its table still holds (a query by run id that finds no trim points,
+ * or not the latest assessment, where the table has them): a run would then read back short without
+ * any check failing. Rebuilt from its table, an index shows every row the table holds. Table by
+ * table, so one damaged table leaves the others' indexes rebuilt; a damaged table's rows fail as
+ * they are read, and are reported so.
+ */
+function rebuildIndexes(db: Db): void {
+  let tables: { name: string }[];
+  try {
+    tables = db.prepare<[], { name: string }>("SELECT name FROM sqlite_master WHERE type = 'table' AND name NOT LIKE 'sqlite_%'").all();
+  } catch {
+    return; // the schema itself is damaged: nothing can be rebuilt, and reading will say so
+  }
+  for (const { name } of tables) {
+    try {
+      db.exec(`REINDEX "${name.replaceAll('"', '""')}"`);
+    } catch {
+      // read what can be read
+    }
   }
 }
 
