@@ -661,6 +661,22 @@ export function createRecords(
     }
   }
 
+  /**
+   * Each row is sealed, but a damaged index can hide whole rows and leave every one read intact: a
+   * run missing its latest point or the assessment after it would read as an older, whole-looking
+   * run. Points are numbered 1, 2, 3… and, since assessments were kept, each is stored with the
+   * assessment made after it, so a gap in either is a missing record.
+   */
+  function checkComplete(runId: number, points: readonly TrimPoint[], assessments: readonly { afterSequence: number }[]): void {
+    points.forEach((point, i) => {
+      if (point.sequence !== i + 1) throw new UnreadableRecord(`trim point ${i + 1} of run ${runId}`, `points read: ${points.map((p) => p.sequence).join(', ')}`);
+    });
+    const latestAssessed = assessments.reduce((latest, a) => Math.max(latest, a.afterSequence), 0);
+    if (assessments.length > 0 && points.length > 0 && latestAssessed < points.length) {
+      throw new UnreadableRecord(`assessment after trim point ${points.length} of run ${runId}`, `latest assessment read is after point ${latestAssessed}`);
+    }
+  }
+
   function readRunDetail(row: RunRow): RunDetail {
     const runId = row.id;
     const assessments = assessmentsOf(runId);
@@ -675,9 +691,11 @@ export function createRecords(
     const results = stepResults(runId);
     const warm = statements.latestWarmCheck.get(runId);
     if (warm) checkSealed('warm_checks', warm, `warm re-check of run ${runId}`);
+    const points = trimPoints(runId);
+    checkComplete(runId, points, assessments);
     return {
       run: toRun(row),
-      trimPoints: trimPoints(runId),
+      trimPoints: points,
       assessment: assessments.at(-1)?.assessment ?? null,
       warningsRaised,
       warningLog: warningLog(runId),
