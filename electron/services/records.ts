@@ -528,13 +528,41 @@ export function createRecords(
     }
     const results = stepResults(row.id);
     const judgement = judgeUnit(file, results);
-    if (judgement.stoppedAt !== null && judgement.stoppedAt !== stepId) {
-      throw new ExpectedFailure(`Step “${judgement.stoppedAt}” failed, and a failure there stops the run: repeat that step, or finish the run as FAIL.`);
+    // A failure at a "stop" step ends the run there: measuring it again until it passes would hide
+    // the failure. The unit is tested again in a retest, which names this run and why.
+    if (judgement.stoppedAt !== null) {
+      throw new ExpectedFailure(`Step “${judgement.stoppedAt}” failed, and a failure there ends the run: finish it as FAIL. To test the unit again, start a retest with the reason.`);
     }
     if (judgement.nextStepId !== stepId && !results.some((r) => r.stepId === stepId)) {
       throw new ExpectedFailure(`Step “${stepId}” comes later: steps are recorded in order, and step “${judgement.nextStepId}” has no result yet.`);
     }
     return step;
+  }
+
+  /** The trim step's one measurement: THD at the final point against the trim's limit. */
+  const trimThdMeasurement = (finalThdDb: number | null, trim: Procedure['trim']) =>
+    measurement('thdDb', finalThdDb, { high: trim.limitThdDb, unit: 'dB' }, 'THD at the final trim point, from its harmonics');
+
+  /**
+   * The trim may be recorded or changed only at its place in the walk: after the steps before it
+   * (the safety notice first), and not once a later step has been measured. The checks after the
+   * trim describe the unit at the setting it was left at; a trimmer moved after them would leave a
+   * PASS standing on checks of a setting the unit no longer has.
+   */
+  function refuseUnlessTrimMayChange(row: RunRow, what: string, { afterChecks }: { afterChecks: 'refuse' | 'allow' }): void {
+    const file = runProcedureFile(row);
+    const index = file.steps.findIndex((s) => s.kind === 'trim');
+    const step = file.steps[index];
+    if (!step) throw new ExpectedFailure(`Procedure ${file.code} revision ${file.revision} has no trim step: ${what} cannot be recorded.`);
+    stepToRecord(row, step.id, 'trim');
+    if (afterChecks === 'allow') return;
+    const later = new Set(file.steps.slice(index + 1).map((s) => s.id));
+    const measured = stepResults(row.id).find((r) => later.has(r.stepId));
+    if (measured) {
+      throw new ExpectedFailure(
+        `Step “${measured.stepId}” after the trim has been measured at the trimmer's setting, so ${what} can no longer change this run. Finish it, then start a retest with the reason to trim the unit again.`,
+      );
+    }
   }
 
   /** Stores a step's result with its measurements; called inside the caller's write transaction. */
@@ -967,6 +995,7 @@ export function createRecords(
     }): RecordedPoint {
       refuseUnlessWritable();
       const row = openRunRow(request.runId, (id) => `Run ${id} is finished; start a retest to record more trim points.`);
+      refuseUnlessTrimMayChange(row, 'a trim point', { afterChecks: 'refuse' });
       const { trim } = runProcedure(row);
       const { position, reading, stimulus } = request;
       if (position < trim.positionMin || position > trim.positionMax) {
@@ -1013,6 +1042,7 @@ export function createRecords(
     includeUnsettledPoint(request: { runId: number; pointId: number }): RecordedPoint {
       refuseUnlessWritable();
       const row = openRunRow(request.runId, (id) => `Run ${id} is finished; its points can no longer change.`);
+      refuseUnlessTrimMayChange(row, 'the fit', { afterChecks: 'refuse' });
       const { trim } = runProcedure(row);
       const points = trimPoints(row.id);
       const point = points.find((p) => p.id === request.pointId);
@@ -1068,6 +1098,8 @@ export function createRecords(
     }): WarmCheck {
       refuseUnlessWritable();
       const row = openRunRow(request.runId, (id) => `Run ${id} is finished; the warm re-check belongs before finishing.`);
+      // The warm re-check reads the unit at the setting it was left at, so it may follow the checks.
+      refuseUnlessTrimMayChange(row, 'the warm re-check', { afterChecks: 'allow' });
       const { trim } = runProcedure(row);
       const points = trimPoints(row.id);
       const last = points.at(-1);
@@ -1139,10 +1171,17 @@ export function createRecords(
       const { trim } = runProcedure(row);
       return db.transaction(() => {
         const step = stepToRecord(row, request.stepId, 'trim');
+        refuseUnlessTrimMayChange(row, 'the trim', { afterChecks: 'refuse' });
         const detail = runDetail(row.id);
         if (detail.trimPoints.length === 0) throw new ExpectedFailure('No trim point has been recorded: record the trim before completing it.');
         const { judged, finalThdDb } = judgeTrimNow(row, trim, detail);
-        const thd = measurement('thdDb', finalThdDb, { high: trim.limitThdDb, unit: 'dB' }, 'THD at the final trim point, from its harmonics');
+        // The trim stops the run when it fails: stored as failed, it could not be trimmed further. So
+        // "done" is taken only for a trim that passes; otherwise the reasons, and the choice is the
+        // technician's: trim on, or finish the run as FAIL with these reasons.
+        if (judged.verdict === 'fail') {
+          throw new ExpectedFailure(`The trim does not pass yet: ${judged.reasons.join(' ')} Keep trimming, or finish the run as FAIL with these reasons.`);
+        }
+        const thd = trimThdMeasurement(finalThdDb, trim);
         storeStepResult(row.id, step, { verdict: judged.verdict, reasons: judged.reasons, measurements: [thd], stimulus: null, readings: null });
         return runDetail(row.id);
       }).immediate();
@@ -1195,10 +1234,17 @@ export function createRecords(
       const detail = runDetail(row.id);
       const { judged: trimNow, finalThdDb } = judgeTrimNow(row, trim, detail);
       // The unit's verdict is judgeUnit's over the stored step results: PASS only when every step passed.
-      const reasons = [...detail.judgement.reasons];
+      let reasons = [...detail.judgement.reasons];
       const trimStep = detail.procedureFile.steps.find((s) => s.kind === 'trim');
       const trimResult = detail.stepResults.filter((r) => r.stepId === trimStep?.id).at(-1);
-      if (trimStep && !trimResult && detail.judgement.stoppedAt === null) {
+      // A run finished as FAIL at its trim (main takes "trim done" only for a trim that passes) ends
+      // there: the trim's failure is stored as the step's result, so the record says which step
+      // failed and why, not that it was never run.
+      const failedAtTrim =
+        request.asFailure === true && trimStep !== undefined && !trimResult && detail.judgement.nextStepId === trimStep.id && detail.trimPoints.length > 0 && trimNow.verdict === 'fail';
+      if (failedAtTrim) {
+        reasons = judgeUnit(detail.procedureFile, [...detail.stepResults, { stepId: trimStep.id, verdict: 'fail', reasons: trimNow.reasons }]).reasons;
+      } else if (trimStep && !trimResult && detail.judgement.stoppedAt === null) {
         // Said beside "the trim was not run": what the trim, as the points stand, still lacks.
         reasons.push(...trimNow.reasons);
       } else if (trimResult) {
@@ -1220,6 +1266,10 @@ export function createRecords(
       const verdict = reasons.length === 0 ? 'pass' : 'fail';
       // The verdict commits only with a run record that validates whole; otherwise nothing is written.
       return db.transaction(() => {
+        if (failedAtTrim) {
+          const thd = trimThdMeasurement(finalThdDb, trim);
+          storeStepResult(row.id, trimStep, { verdict: 'fail', reasons: trimNow.reasons, measurements: [thd], stimulus: null, readings: null });
+        }
         const finish = {
           finished_at: timestamp(),
           verdict,

@@ -96,15 +96,20 @@ export async function walkUnit(unit: BatchUnit, opened: RunDetail, call: LineCal
     if (planned.blocked) throw new LineCallRefused('recordCheckStep', planned.blocked);
     const needs = planned.needs;
     if (needs.kind === 'acknowledge') detail = await call('acknowledgeNotice', { runId, stepId: planned.stepId });
-    else if (needs.kind === 'trim') detail = await trimUnit(bench, planned, procedure, runId, call, station);
-    else detail = await checkStep(bench, planned, procedure, runId, call, station);
+    else if (needs.kind === 'trim') {
+      const trimmed = await trimUnit(bench, planned, procedure, runId, call, station);
+      // Main takes "trim done" only for a trim that passes; one that does not ends the walk, and
+      // the run is finished as FAIL with main's reasons, as the technician does.
+      if (trimmed === null) break;
+      detail = trimmed;
+    } else detail = await checkStep(bench, planned, procedure, runId, call, station);
     if (detail.judgement.stoppedAt !== null) break;
   }
   // A unit that cannot pass is finished as FAIL with main's reasons, as the technician would after Finish is refused.
   return call('finishRun', { runId, asFailure: detail.judgement.verdict !== 'pass' });
 }
 
-async function trimUnit(bench: HeadlessBench, planned: PlannedStep, procedure: ProcedureFile, runId: number, call: LineCalls, station: LineStation): Promise<RunDetail> {
+async function trimUnit(bench: HeadlessBench, planned: PlannedStep, procedure: ProcedureFile, runId: number, call: LineCalls, station: LineStation): Promise<RunDetail | null> {
   const step = procedure.steps[planned.index];
   if (step.kind !== 'trim' || planned.needs.kind !== 'trim') throw new Error(`step ${planned.stepId} is not a trim step`);
   const stimulus = generatorOf(plannedStimulus({ ...planned.needs.generator, levelDbu: null }, { sampleRateHz: station.sampleRateHz, mainsHz: station.mainsHz, harmonicCount: HARMONIC_COUNT }));
@@ -136,7 +141,12 @@ async function trimUnit(bench: HeadlessBench, planned: PlannedStep, procedure: P
     position = move.position;
     bench.moveTrimmer(position);
   }
-  return call('completeTrim', { runId, stepId: planned.stepId });
+  try {
+    return await call('completeTrim', { runId, stepId: planned.stepId });
+  } catch (error) {
+    if (error instanceof LineCallRefused && error.channel === 'completeTrim') return null;
+    throw error;
+  }
 }
 
 async function checkStep(bench: HeadlessBench, planned: PlannedStep, procedure: ProcedureFile, runId: number, call: LineCalls, station: LineStation): Promise<RunDetail> {

@@ -44,6 +44,8 @@ async function main() {
     };
     const opened: { run: { id: number } } = await call(station, 'openRun', { serial, procedureId, operator: 'Soak Tester' }, caller);
     const runId = opened.run.id;
+    // Safety first: main records no trim point before the notice is acknowledged.
+    await call(station, 'acknowledgeNotice', { runId, stepId: 'safety' }, caller);
     const points = 2 + Math.floor(random() * 7);
     for (let k = 0; k < points; k++) {
       // Distinct positions inside the demo's 0–10 turns; THD a plausible trim's -40…-75 dB.

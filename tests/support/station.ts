@@ -54,6 +54,20 @@ export function readingWithThd(thdDb: number, overrides: Partial<Reading> = {}):
   };
 }
 
+/**
+ * Opens a unit as the step walk does: the run, then the notices before its first other step
+ * acknowledged (safety first; main records no trim point before them). A resumed run whose notices
+ * are already acknowledged is left as it is.
+ */
+export function startUnit(records: ReturnType<typeof openStation>['records'], request: Parameters<ReturnType<typeof openStation>['records']['openRun']>[0]) {
+  let detail = records.openRun(request);
+  for (;;) {
+    const next = detail.procedureFile.steps.find((s) => s.id === detail.judgement.nextStepId);
+    if (detail.run.finishedAt !== null || next?.kind !== 'notice') return detail;
+    detail = records.acknowledgeNotice({ runId: detail.run.id, stepId: next.id });
+  }
+}
+
 export const noCaller: CallerContext = {
   // The two ends every PDF has (ISO 32000-1 §7.5.2, §7.5.5); the sheet service refuses anything less.
   printToPdf: async () => new TextEncoder().encode('%PDF-1.4 test\n%%EOF\n'),

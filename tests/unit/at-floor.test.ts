@@ -5,7 +5,7 @@
 import { describe, expect, it } from 'vitest';
 import { dispatch } from '../../electron/services/handlers.ts';
 import { DEMO_PROCEDURE } from '../../shared/procedures/demo-procedure.ts';
-import { noCaller, openTestStation, readingWithThd, tempDir } from '../support/station.ts';
+import { noCaller, openTestStation, readingWithThd, tempDir, startUnit } from '../support/station.ts';
 import { AT_FLOOR_MARGIN_DB, isAtChainFloor } from '../../shared/calibration/station-calibration.ts';
 import { LiveMeter } from '../../shared/measurement/live-meter.ts';
 import { MeterSession, type MeterSessionSettings } from '../../shared/measurement/meter-session.ts';
@@ -100,6 +100,7 @@ describe('at-floor: main keeps the flag', () => {
       const opened = await dispatch(station.handlers, 'openRun', { serial: 'MG20-2611-0077', procedureId, operator: 'A. Tester' }, noCaller);
       if (!opened.ok) throw new Error(opened.error.message);
       const runId = (opened.value as { run: { id: number } }).run.id;
+      await dispatch(station.handlers, 'acknowledgeNotice', { runId, stepId: 'safety' }, noCaller);
       const stimulus = { on: true, frequencyHz: DEMO_PROCEDURE.trim.stimulusHz, levelDbfs: DEMO_PROCEDURE.trim.stimulusLevelDbfs };
       const fundamental = { frequencyHz: DEMO_PROCEDURE.trim.stimulusHz, levelDbfs: -12, phaseDeg: 10 };
       const reading = readingWithThd(-92, { fundamental, measuredFundamentalHz: fundamental.frequencyHz, flags: ['at-floor'] });
@@ -109,7 +110,7 @@ describe('at-floor: main keeps the flag', () => {
       expect((recorded.value as { point: { reading: { flags: string[] } } }).point.reading.flags).toEqual(['at-floor']);
       station.close();
       station = openTestStation(dir.path);
-      const reopened = station.records.openRun({ serial: 'MG20-2611-0077', procedureId, operator: 'A. Tester' });
+      const reopened = startUnit(station.records, { serial: 'MG20-2611-0077', procedureId, operator: 'A. Tester' });
       expect(reopened.trimPoints[0].reading.flags).toEqual(['at-floor']);
     } finally {
       station.close();

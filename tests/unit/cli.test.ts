@@ -10,7 +10,7 @@ import { fileURLToPath } from 'node:url';
 import { encodeWavFloat32 } from '../../shared/audio/wav.ts';
 import { dispatch } from '../../electron/services/handlers.ts';
 import type { RunDetail } from '../../shared/ipc/contract.ts';
-import { noCaller, onPhasorLine, openTestStation, readingWithThd, STEADY_LIVE, tempDir } from '../support/station.ts';
+import { noCaller, onPhasorLine, openTestStation, readingWithThd, STEADY_LIVE, tempDir, startUnit } from '../support/station.ts';
 import { encodePcm24 } from '../support/wav-files.ts';
 import { gaussian, seededRandom } from '../support/random.ts';
 import { tone } from '../support/signals.ts';
@@ -420,7 +420,7 @@ describe('sheet', () => {
     try {
       const procedureId = station.records.listProcedures()[0].id;
       const stimulus = { on: true, frequencyHz: 14, levelDbfs: -12 };
-      finished = station.records.openRun({ serial: 'MG20-2611-0301', procedureId, operator: 'A. Tester' }).run.id;
+      finished = startUnit(station.records, { serial: 'MG20-2611-0301', procedureId, operator: 'A. Tester' }).run.id;
       station.records.recordTrimPoint({ runId: finished, position: 3, reading: readingWithThd(-62), live: null, stimulus });
       station.records.finishRun({ runId: finished, asFailure: true });
       open = station.records.openRun({ serial: 'MG20-2611-0302', procedureId, operator: 'A. Tester' }).run.id;

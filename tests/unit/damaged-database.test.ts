@@ -34,6 +34,7 @@ beforeAll(async () => {
     const opened = await dispatch(station.handlers, 'openRun', { serial, procedureId, operator: 'A. Tester' }, noCaller);
     if (!opened.ok) throw new Error(opened.error.message);
     const runId = (opened.value as { run: { id: number } }).run.id;
+    station.records.acknowledgeNotice({ runId, stepId: 'safety' });
     for (const position of [0, 1, 2, 3]) {
       station.records.recordTrimPoint({ runId, position, reading: readingWithThd(-40 - unit - position), live: null, stimulus: STIMULUS });
     }

@@ -242,6 +242,10 @@ describe('IPC dispatcher fuzz (seeded)', () => {
           expect(CONTROL_OR_BIDI.test(operator)).toBe(false);
           expect(BLANK.test(operator)).toBe(false);
           lastOpenedRunId = (result.value as { run: { id: number } }).run.id;
+          // Safety first, as the walk does: main records no trim point before the notice.
+          if ((result.value as { judgement: { nextStepId: string | null } }).judgement.nextStepId === 'safety') {
+            await dispatch(station.handlers, 'acknowledgeNotice', { runId: lastOpenedRunId, stepId: 'safety' }, noCaller);
+          }
         }
         if (WRITES_TO_A_RUN.has(channel) && snapshot() !== before) {
           // Only the run the station opened last, and only while it was unfinished.

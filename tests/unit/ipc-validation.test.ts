@@ -23,6 +23,8 @@ async function openDemoRun() {
   const procedureId = station.records.listProcedures()[0].id;
   const result = await dispatch(station.handlers, 'openRun', { serial: 'MG20-2611-0042', procedureId, operator: 'A. Tester' }, noCaller);
   if (!result.ok) throw new Error(result.error.message);
+  // Safety first: main records no trim point before the notice is acknowledged.
+  await dispatch(station.handlers, 'acknowledgeNotice', { runId: (result.value as { run: { id: number } }).run.id, stepId: 'safety' }, noCaller);
   return (result.value as { run: { id: number } }).run.id;
 }
 

@@ -11,7 +11,7 @@ import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { dispatch, type CallerContext } from '../../electron/services/handlers.ts';
 import { openStation } from '../../electron/services/station.ts';
 import type { ProcedureRevision } from '../../shared/ipc/contract.ts';
-import { noCaller, tempDir } from '../support/station.ts';
+import { noCaller, tempDir, startUnit } from '../support/station.ts';
 import { sealRow } from '../../electron/services/stored-record.ts';
 import { DEMO_PROCEDURE } from '../../shared/procedures/demo-procedure.ts';
 
@@ -150,7 +150,7 @@ describe('importing a procedure file', () => {
 describe('a run and its revision', () => {
   it('carries the procedure revision it uses, also once a newer revision is stored', async () => {
     const builtIn = station.records.listProcedures()[0];
-    const open = station.records.openRun({ serial: 'MG20-2611-0042', procedureId: builtIn.id, operator: 'A. Tester' });
+    const open = startUnit(station.records, { serial: 'MG20-2611-0042', procedureId: builtIn.id, operator: 'A. Tester' });
     expect(open.procedure.revision).toBe(builtIn.definition.revision);
     const revised = variant('revised.json', (file) => {
       file.revision = 'D';
@@ -158,7 +158,7 @@ describe('a run and its revision', () => {
     });
     expect(await importFile(revised)).toMatchObject({ ok: true, value: { outcome: 'stored', revision: 'D' } });
     // The open run keeps its revision (B), and its detail says so, though new runs would use D.
-    const resumed = station.records.openRun({ serial: 'MG20-2611-0042', procedureId: builtIn.id, operator: 'A. Tester' });
+    const resumed = startUnit(station.records, { serial: 'MG20-2611-0042', procedureId: builtIn.id, operator: 'A. Tester' });
     expect(resumed.run.id).toBe(open.run.id);
     expect(resumed.procedure.revision).toBe(builtIn.definition.revision);
     expect(station.records.listProcedures().map((p) => p.definition.revision)).toEqual(['D']);
@@ -177,22 +177,22 @@ describe('revisions go forward', () => {
 
   it('resumes an unfinished run on its own revision after a newer one is imported: no second run starts beside it', async () => {
     const builtIn = station.records.listProcedures()[0];
-    const open = station.records.openRun({ serial: 'MG20-2611-0042', procedureId: builtIn.id, operator: 'A. Tester' });
+    const open = startUnit(station.records, { serial: 'MG20-2611-0042', procedureId: builtIn.id, operator: 'A. Tester' });
     await importFile(variant('d.json', (f) => ((f.revision = 'D'), (f.requiresCalibration = false))));
     const newest = station.records.listProcedures()[0];
     expect(newest.definition.revision).toBe('D');
     // The page offers only D now; opening the serial under it finds the open run on B.
-    const again = station.records.openRun({ serial: 'MG20-2611-0042', procedureId: newest.id, operator: 'A. Tester' });
+    const again = startUnit(station.records, { serial: 'MG20-2611-0042', procedureId: newest.id, operator: 'A. Tester' });
     expect(again.run.id).toBe(open.run.id);
     expect(again.procedure.revision).toBe(builtIn.definition.revision);
-    expect(() => station.records.openRun({ serial: 'MG20-2611-0042', procedureId: newest.id, operator: 'B. Other' })).toThrow(/Only A\. Tester can continue it/);
+    expect(() => startUnit(station.records, { serial: 'MG20-2611-0042', procedureId: newest.id, operator: 'B. Other' })).toThrow(/Only A\. Tester can continue it/);
   });
 });
 
 describe('the stored revisions, listed whole', () => {
   it('lists every revision of a procedure, each with its steps and limits and the runs that name it (a stored revision never changes)', async () => {
     const builtIn = station.records.listProcedures()[0];
-    station.records.openRun({ serial: 'MG20-2611-0042', procedureId: builtIn.id, operator: 'A. Tester' });
+    startUnit(station.records, { serial: 'MG20-2611-0042', procedureId: builtIn.id, operator: 'A. Tester' });
     const path = variant('revised.json', (file) => {
       file.revision = 'D';
       file.requiresCalibration = false;

@@ -12,7 +12,7 @@ import { DEMO_PROCEDURE } from '../../shared/procedures/demo-procedure.ts';
 import { whyReadingInconsistent } from '../../shared/records/reading-check.ts';
 import { judgeTrimRun } from '../../shared/records/verdict.ts';
 import type { TrimAssessment } from '../../shared/trim/assessment.ts';
-import { openTestStation, readingWithThd, tempDir } from '../support/station.ts';
+import { openTestStation, readingWithThd, tempDir, startUnit } from '../support/station.ts';
 
 const TRIM = DEMO_PROCEDURE.trim;
 const STIMULUS = { on: true, frequencyHz: TRIM.stimulusHz, levelDbfs: TRIM.stimulusLevelDbfs };
@@ -35,7 +35,7 @@ beforeEach(() => {
   dir = tempDir();
   station = openTestStation(dir.path);
   const procedureId = station.records.listProcedures()[0].id;
-  runId = station.records.openRun({ serial: 'MG20-2611-0042', procedureId, operator: 'A. Tester' }).run.id;
+  runId = startUnit(station.records, { serial: 'MG20-2611-0042', procedureId, operator: 'A. Tester' }).run.id;
 });
 afterEach(() => {
   station.close();
@@ -121,8 +121,8 @@ describe('procedure revisions', () => {
     old.prepare("INSERT INTO runs (unit_id, procedure_id, operator, station, started_at, limit_thd_db) VALUES (1, 1, 'A. Tester', 'b', '2026-01-05T09:00:00.000Z', -60)").run();
     old.close();
     station = openTestStation(dir.path);
-    expect(station.records.openRun({ serial: 'MG20-2611-0060', procedureId: 1, operator: 'A. Tester' }).run.id).toBe(1);
-    expect(() => station.records.openRun({ serial: 'MG20-2611-0061', procedureId: 1, operator: 'A. Tester' })).toThrow(
+    expect(startUnit(station.records, { serial: 'MG20-2611-0060', procedureId: 1, operator: 'A. Tester' }).run.id).toBe(1);
+    expect(() => startUnit(station.records, { serial: 'MG20-2611-0061', procedureId: 1, operator: 'A. Tester' })).toThrow(
       /revision A has been replaced by revision B: new runs use revision B/,
     );
   });

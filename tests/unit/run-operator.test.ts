@@ -40,7 +40,10 @@ function ledger() {
 async function openedRunId(operator: string, serial = SERIAL): Promise<number> {
   const result = await open(operator, serial);
   if (!result.ok) throw new Error(result.error.message);
-  return (result.value as { run: { id: number } }).run.id;
+  const runId = (result.value as { run: { id: number } }).run.id;
+  // Safety first: main records no trim point before the notice is acknowledged (once per run).
+  if (!station.records.getRun(runId).stepResults.some((r) => r.stepId === 'safety')) await dispatch(station.handlers, 'acknowledgeNotice', { runId, stepId: 'safety' }, noCaller);
+  return runId;
 }
 
 describe('who may continue an unfinished run', () => {
@@ -93,6 +96,7 @@ describe('who may continue an unfinished run', () => {
     expect(second.run.id).not.toBe(first);
     expect(second.run.operator).toBe('B. Other');
     expect(second.earlierRuns).toBe(1);
+    await dispatch(station.handlers, 'acknowledgeNotice', { runId: second.run.id, stepId: 'safety' }, noCaller);
     await record(second.run.id, 0, -42);
 
     const { runs, points } = ledger();

@@ -7,7 +7,7 @@ import { join } from 'node:path';
 import { createSheets, sheetFileName } from '../../electron/services/sheets.ts';
 import { sqliteRepository } from '../../electron/services/records-repository.ts';
 import { DEMO_PROCEDURE } from '../../shared/procedures/demo-procedure.ts';
-import { openTestStation, readingWithThd, tempDir } from '../support/station.ts';
+import { openTestStation, readingWithThd, tempDir, startUnit } from '../support/station.ts';
 
 // Every file-system call the sheet service makes, in order, so the test can check that the file
 // and its folder are flushed before the path is recorded. The calls themselves go through.
@@ -58,7 +58,7 @@ afterEach(() => {
 
 function finishedRun(serial: string): number {
   const procedureId = station.records.listProcedures()[0].id;
-  const { run } = station.records.openRun({ serial, procedureId, operator: 'A. Tester' });
+  const { run } = startUnit(station.records, { serial, procedureId, operator: 'A. Tester' });
   station.records.recordTrimPoint({ runId: run.id, position: 3, reading: readingWithThd(-62), live: null, stimulus: STIMULUS });
   station.records.finishRun({ runId: run.id, asFailure: true });
   return run.id;

@@ -190,6 +190,7 @@ describe('a procedure that requires a calibration', () => {
     const started = await openUnit(SETUP);
     if (!started.ok) throw new Error(started.error.message);
     const runId = (started.value as { run: { id: number } }).run.id;
+    await dispatch(station.handlers, 'acknowledgeNotice', { runId, stepId: 'safety' }, noCaller);
     const stimulus = { on: true, frequencyHz: DEMO_PROCEDURE.trim.stimulusHz, levelDbfs: DEMO_PROCEDURE.trim.stimulusLevelDbfs };
     const point = (position: number) => ({ runId, position, reading: readingWithThd(-40 - position), live: null, stimulus });
     expect((await dispatch(station.handlers, 'recordTrimPoint', point(0), noCaller)).ok).toBe(true);

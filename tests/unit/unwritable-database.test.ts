@@ -57,7 +57,10 @@ async function openUnit(station: ReturnType<typeof openStation>, serial = 'MG20-
   const procedureId = station.records.listProcedures()[0].id;
   const opened = await dispatch(station.handlers, 'openRun', { serial, procedureId, operator: 'A. Tester' }, noCaller);
   if (!opened.ok) throw new Error(opened.error.message);
-  return (opened.value as { run: { id: number } }).run.id;
+  const runId = (opened.value as { run: { id: number } }).run.id;
+  // Safety first: main records no trim point before the notice is acknowledged.
+  await dispatch(station.handlers, 'acknowledgeNotice', { runId, stepId: 'safety' }, noCaller);
+  return runId;
 }
 
 const pointAt = (runId: number, position: number) => ({ runId, position, reading: readingWithThd(-40 - position), live: null, stimulus: STIMULUS });

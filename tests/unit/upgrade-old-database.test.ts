@@ -12,7 +12,7 @@ import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { MIGRATIONS } from '../../electron/services/database.ts';
 import { openStation } from '../../electron/services/station.ts';
 import { DEMO_PROCEDURE } from '../../shared/procedures/demo-procedure.ts';
-import { readingWithThd, tempDir } from '../support/station.ts';
+import { readingWithThd, tempDir, startUnit } from '../support/station.ts';
 
 const FIXTURE = fileURLToPath(new URL('../fixtures/station-schema4/trimbench.sqlite', import.meta.url));
 const STIMULUS = { on: true, frequencyHz: DEMO_PROCEDURE.trim.stimulusHz, levelDbfs: DEMO_PROCEDURE.trim.stimulusLevelDbfs };
@@ -64,9 +64,12 @@ describe('a database written by the schema-4 release', () => {
       expect(open.trimPoints).toHaveLength(3);
       // An unfinished run from before walks from step 1: the demo's safety notice (schema 1 upgraded).
       expect(open.judgement.nextStepId).toBe('safety');
+      // Safety first, for an old run too: no point before the notice is acknowledged.
+      expect(() => station.records.recordTrimPoint({ runId: open.run.id, position: 4, reading: readingWithThd(-60), live: null, stimulus: STIMULUS })).toThrow(/step “safety” has no result yet/);
+      station.records.acknowledgeNotice({ runId: open.run.id, stepId: 'safety' });
       station.records.recordTrimPoint({ runId: open.run.id, position: 4, reading: readingWithThd(-60), live: null, stimulus: STIMULUS });
       expect(station.records.getRun(open.run.id).trimPoints.map((p) => p.position)).toEqual([0, 1.5, 3, 4]);
-      expect(() => station.records.openRun({ serial: 'MG20-2611-0501', procedureId, operator: 'A. Tester' })).toThrow(/Give the reason for the retest/);
+      expect(() => startUnit(station.records, { serial: 'MG20-2611-0501', procedureId, operator: 'A. Tester' })).toThrow(/Give the reason for the retest/);
     } finally {
       station.close();
     }
