@@ -168,6 +168,14 @@ describe('field problems name their JSON path (issue 10: e.g. steps[3].limits.th
     expect(paths(edit('"thdDb": { "high": -60', '"thdDb": { "high": 60'))).toEqual(['steps[1].limits.thdDb.high']);
   });
 
+  it('a hum step asking more mains components than a reading carries (8, the IPC bound on hum components) is refused', () => {
+    // Asked orders the meter never reads would be judged on a partial sum; the file states the most it can ask.
+    const hum = (n: number) => `{ "id": "hum", "title": "Hum", "kind": "hum", "instructions": ["Generator off."], "mainsHarmonics": ${n}, "inputTermination": "Terminate the input.", "limits": { "humDbu": { "high": -80, "unit": "dBu" } }, "onFail": "continue" }`;
+    const calibrated = edit('"requiresCalibration": false', '"requiresCalibration": true');
+    expect(checkProcedureFile(withStep(hum(8), calibrated)).ok).toBe(true);
+    expect(paths(withStep(hum(9), calibrated))).toEqual(['steps[2].mainsHarmonics']);
+  });
+
   it('an unknown step kind names the kinds there are', () => {
     const problems = problemsOf(edit('"kind": "distortion"', '"kind": "thd"'));
     expect(problems.map((p) => p.path)).toEqual(['steps[1].kind']);
