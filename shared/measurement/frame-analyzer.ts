@@ -44,7 +44,8 @@ const RAD_TO_DEG = 180 / Math.PI;
 const FIT_HALF_WIDTH = 3;
 /** Hum components searched within this distance of the nominal mains frequency, Hz. */
 const MAINS_SEARCH_HZ = 0.5;
-const HUM_ORDERS = 3;
+/** Mains orders fitted as hum: up to the 8th, the most a reading carries across IPC (shared/ipc/contract.ts). */
+const HUM_ORDERS = 8;
 /** A hum component counts as present this far above the noise in its bandwidth, dB, */
 const HUM_PRESENT_DB = 10;
 /** and above this absolute level, near the analysis floor, so float rounding never reads as hum. */
@@ -393,7 +394,7 @@ export class FrameAnalyzer {
    */
   private fitComponents(humOrder: number): number {
     const count = this.compCount;
-    // Sort component indices by frequency (insertion sort: at most 14 items).
+    // Sort component indices by frequency (insertion sort: at most 1 + harmonicCount + HUM_ORDERS items).
     for (let i = 0; i < count; i++) this.compIndex[i] = i;
     for (let i = 1; i < count; i++) {
       const item = this.compIndex[i];

@@ -5,6 +5,7 @@
 //
 // Only types come from procedure-file.ts: the page uses this module and must not pull zod in.
 
+import { MAINS_MULTIPLES, RESOLVABLE_BINS } from '../measurement/frame-analyzer.ts';
 import { FLOOR_DB, type Reading } from '../measurement/reading.ts';
 import type { StimulusSetting } from '../dsp/sine-source.ts';
 import { whyReadingInconsistent, thdDbFromHarmonics } from '../records/reading-check.ts';
@@ -188,14 +189,30 @@ export function whyStepCannotRun(step: CheckStep, levels: StationLevels | null):
 
 // ---- may the reading be judged ---------------------------------------------------------------
 
+/**
+ * How far the driven channel's level may lie from the level played (dB, either way) before a
+ * distortion, balance or crosstalk reading is refused as not the unit's answer. A line or output
+ * stage under test is near unity gain or a few dB off it; a reading 20 dB away is a wrong capture
+ * channel, a bypassed or dead unit, or a pad left in (common practice: a sanity window, not a limit;
+ * a gain step judges the level itself). Wide enough for any stage a check procedure is written for
+ * that has gain up to ±20 dB at the terminals; a unit with more gain is read on a padded input.
+ */
+export const CHECK_LEVEL_WINDOW_DB = 20;
+
 /** Why a reading with the generator playing may not be judged as this step's, or null when it may. */
-function whyNotOfStimulus(reading: Reading, stimulus: StimulusSetting, step: StimulusStep, requested: GeneratorRequest & { on: true }): string | null {
+function whyNotOfStimulus(reading: Reading, stimulus: StimulusSetting, step: StimulusStep, requested: GeneratorRequest & { on: true }, inputDbuAtFullScale: number | null): string | null {
   // The same rules as a trim point: a consistent, settled reading of the tone at the step's frequency
-  // and level. The check steps state no expected level window: their limits judge the level.
+  // and level. The gain step judges the level by its limits; the others must read about what a
+  // unity-gain stage gives: the level played, carried to the input's dBFS when both ends are calibrated.
+  let expectedLevelDbfs: { low: number; high: number } | null = null;
+  if (step.kind !== 'gain') {
+    const centre = requested.levelDbu !== null && inputDbuAtFullScale !== null ? requested.levelDbu - inputDbuAtFullScale : requested.levelDbfs;
+    expectedLevelDbfs = { low: centre - CHECK_LEVEL_WINDOW_DB, high: centre + CHECK_LEVEL_WINDOW_DB };
+  }
   return whyNotRecordable(
     reading,
     stimulus,
-    { stimulusHz: step.frequencyHz, stimulusLevelDbfs: requested.levelDbfs, expectedLevelDbfs: null, frequencyTolerancePercent: CHECK_FREQUENCY_TOLERANCE_PERCENT },
+    { stimulusHz: step.frequencyHz, stimulusLevelDbfs: requested.levelDbfs, expectedLevelDbfs, frequencyTolerancePercent: CHECK_FREQUENCY_TOLERANCE_PERCENT },
     'refuse',
   );
 }
@@ -225,7 +242,28 @@ function whyNotQuiet(reading: Reading, stimulus: StimulusSetting, step: CheckSte
   }
   if (reading.flags.includes('clipping')) return 'The input is clipping with the generator off: the unit is oscillating or something else feeds the input. Check the termination plug and the capture channel.';
   if (!reading.settled) return 'The reading has not settled: wait for it.';
+  // With the generator off the meter takes the strongest tone for its fundamental and leaves it and
+  // its harmonics out of the noise (and out of the hum unless it is mains): a stray tone would pass.
+  if (!reading.flags.includes('no-signal') && !isMainsTone(reading.fundamental.frequencyHz, reading.sampleRateHz / reading.frameSize)) {
+    return `A tone at ${hz(reading.fundamental.frequencyHz)} is present with the generator off: the generator is still connected or on, or the unit oscillates. Check the termination plug and the unit, then take a new reading.`;
+  }
   return null;
+}
+
+/** Nominal mains frequencies (IEC 60038): a quiet reading's strongest tone may be either's hum. */
+const MAINS_HZ = [50, 60] as const;
+/** How far mains may drift from nominal, Hz: the meter's own search span for it (grids hold ±0.2 Hz in normal operation; common practice). */
+const MAINS_DRIFT_HZ = 0.5;
+
+/**
+ * Whether a tone lies on mains or one of its multiples (up to the 10th, as the meter checks), within
+ * the meter's resolution (RESOLVABLE_BINS bins) plus the drift that multiple carries.
+ */
+function isMainsTone(frequencyHz: number, binHz: number): boolean {
+  return MAINS_HZ.some((mains) => {
+    const order = Math.round(frequencyHz / mains);
+    return order >= 1 && order <= MAINS_MULTIPLES && Math.abs(frequencyHz - order * mains) <= RESOLVABLE_BINS * binHz + order * MAINS_DRIFT_HZ;
+  });
 }
 
 // ---- the measurements ------------------------------------------------------------------------
@@ -280,16 +318,19 @@ export function measureCheckStep(step: CheckStep, input: CheckInput): CheckOutco
   if (step.kind === 'noise' || step.kind === 'hum') return { ok: false, refusal: `Step “${step.id}” (${step.kind}) needs the generator off.` };
   const levelled: StimulusStep = step;
   // The driven channel's reading must be the unit's answer to the tone playing.
-  const why = whyNotOfStimulus(first.reading, input.stimulus, levelled, request);
+  const why = whyNotOfStimulus(first.reading, input.stimulus, levelled, request, first.inputDbuAtFullScale);
   if (why) return { ok: false, refusal: step.kind === 'balance' || step.kind === 'crosstalk' ? `Channel ${first.channel}: ${why}` : why };
 
   switch (step.kind) {
-    case 'distortion':
+    case 'distortion': {
+      const few = whyTooFewHarmonics(step, first.reading);
+      if (few) return { ok: false, refusal: few };
       return { ok: true, result: measureDistortion(step, first.reading) };
+    }
     case 'gain':
       return { ok: true, result: measureGain(step, first.reading, input.stimulus, input.levels as StationLevels) };
     case 'balance': {
-      const whySecond = whyNotOfStimulus(second.reading, input.stimulus, levelled, request);
+      const whySecond = whyNotOfStimulus(second.reading, input.stimulus, levelled, request, second.inputDbuAtFullScale);
       if (whySecond) return { ok: false, refusal: `Channel ${second.channel}: ${whySecond}` };
       return twoChannel(step, first, second, 'balanceDb', step.limits.balanceDb, 'Balance', null);
     }
@@ -311,6 +352,24 @@ export function measureCheckStep(step: CheckStep, input: CheckInput): CheckOutco
       return twoChannel(step, first, second, 'crosstalkDb', step.limits.crosstalkDb, 'Crosstalk', note);
     }
   }
+}
+
+/**
+ * A THD limit judged on one harmonic is a limit on that harmonic: THD sums H2, H3, … (IEEE 1241),
+ * and below Nyquist (fs/2) only some of them can be read. With fewer than two the figure is a lower
+ * bound that would pass a unit whose H3 breaks the limit, so it is refused, not judged.
+ */
+function whyTooFewHarmonics(step: Extract<CheckStep, { kind: 'distortion' }>, reading: Reading): string | null {
+  if (!step.limits.thdDb) return null;
+  const nyquist = reading.sampleRateHz / 2;
+  const f = reading.fundamental.frequencyHz;
+  // H2 and H3 are the two a THD figure cannot do without (even and odd order).
+  const below = [2, 3].filter((order) => order * f < nyquist).length;
+  if (below >= 2) return null;
+  return (
+    `Step “${step.id}” limits THD at ${hz(step.frequencyHz)}, and at ${reading.sampleRateHz} Hz sampling only ${below === 0 ? 'no harmonic lies' : 'H2 lies'} below Nyquist (${hz(nyquist)}): ` +
+    `THD cannot be measured. Use a sample rate above ${Math.ceil((6 * f) / 1000)} kHz (96 kHz reads up to H4 of 10 kHz), or limit the harmonics by name in the procedure.`
+  );
 }
 
 function measureDistortion(step: Extract<CheckStep, { kind: 'distortion' }>, reading: Reading): CheckResult {
@@ -354,21 +413,53 @@ function measureNoise(step: Extract<CheckStep, { kind: 'noise' }>, reading: Read
 
 function measureHum(step: Extract<CheckStep, { kind: 'hum' }>, reading: Reading, levels: StationLevels): CheckResult {
   const limit = step.limits.humDbu;
+  // With the generator off the meter takes the strongest tone for its fundamental (whyNotQuiet has
+  // made sure it is mains or a multiple, or no signal) and leaves it and its harmonics out of the
+  // noise and of the hum: those tones may be the hum itself, so they count as hum here.
+  const toneLevels = [reading.fundamental.levelDbfs, ...reading.harmonics.map((h) => reading.fundamental.levelDbfs + h.levelDbc)];
   if (reading.hum === null) {
     // No hum component stands 10 dB above the noise in its own bandwidth; the noise over the whole
-    // band holds thousands of such bandwidths, so it bounds the hum from above. With the generator
-    // off the meter takes the strongest tone for its fundamental and leaves it out of the noise and
-    // of the hum: that tone may be the hum itself (louder than the noise), so it is added back.
-    const bound = dbuOf(powerSumDb([reading.noiseDbfs, reading.fundamental.levelDbfs]), levels.inputDbuAtFullScale);
-    const note = `no hum stands apart from the noise: the value is the unweighted noise in the band with the strongest tone found, an upper bound for the hum`;
+    // band holds thousands of such bandwidths, so it bounds the hum from above, with the tones added back.
+    const bound = dbuOf(powerSumDb([reading.noiseDbfs, ...toneLevels]), levels.inputDbuAtFullScale);
+    const note = `no hum stands apart from the noise: the value is the unweighted noise in the band with the strongest tone found and its harmonics, an upper bound for the hum`;
     return result(step, [{ m: measurement('humDbu', bound, limit, note), label: 'Hum (upper bound)' }]);
   }
-  const components = reading.hum.components.filter((c) => c.order <= step.mainsHarmonics);
-  const readOrders = new Set(reading.hum.components.map((c) => c.order));
-  const unread = Array.from({ length: step.mainsHarmonics }, (_, i) => i + 1).filter((order) => !readOrders.has(order));
-  const value = components.length > 0 ? dbuOf(powerSumDb(components.map((c) => c.levelDbfs)), levels.inputDbuAtFullScale) : null;
-  const notes = [`${hz(reading.hum.frequencyHz)} mains; the power sum of ${components.map((c) => (c.order === 1 ? 'the fundamental' : `harmonic ${c.order}`)).join(', ') || 'no component'}`];
-  if (unread.length > 0) notes.push(`mains harmonic${unread.length === 1 ? '' : 's'} ${unread.join(', ')} not read by the meter and not in the sum`);
+  const mainsHz = reading.hum.frequencyHz;
+  const resolutionHz = RESOLVABLE_BINS * (reading.sampleRateHz / reading.frameSize);
+  const unitTones = [{ frequencyHz: reading.fundamental.frequencyHz, levelDbfs: reading.fundamental.levelDbfs }, ...reading.harmonics.map((h) => ({ frequencyHz: h.frequencyHz, levelDbfs: reading.fundamental.levelDbfs + h.levelDbc }))];
+  const summed: number[] = [];
+  const parts: string[] = [];
+  const aboveNyquist: number[] = [];
+  const unread: number[] = [];
+  for (let order = 1; order <= step.mainsHarmonics; order++) {
+    const name = order === 1 ? 'the fundamental' : `harmonic ${order}`;
+    const component = reading.hum.components.find((c) => c.order === order);
+    if (component) {
+      summed.push(component.levelDbfs);
+      parts.push(name);
+      continue;
+    }
+    if (order * mainsHz >= reading.sampleRateHz / 2) {
+      aboveNyquist.push(order);
+      continue;
+    }
+    // The meter leaves out a hum order lying on the strongest tone or its harmonics: that tone is it.
+    const tone = unitTones.find((t) => Math.abs(t.frequencyHz - order * mainsHz) < resolutionHz);
+    if (tone) {
+      summed.push(tone.levelDbfs);
+      parts.push(`${name} (read as the strongest tone's)`);
+      continue;
+    }
+    unread.push(order);
+  }
+  const notes = [`${hz(mainsHz)} mains; the power sum of ${parts.join(', ') || 'no component'}`];
+  if (aboveNyquist.length > 0) notes.push(`harmonic${aboveNyquist.length === 1 ? '' : 's'} ${aboveNyquist.join(', ')} at or above Nyquist, not in the sum`);
+  // A component the step asks for and the meter did not read may be the loudest: no value, no pass.
+  if (unread.length > 0) {
+    const note = `mains harmonic${unread.length === 1 ? '' : 's'} ${unread.join(', ')} not read by the meter, so the hum the step asks for was not measured`;
+    return result(step, [{ m: measurement('humDbu', null, limit, note), label: 'Hum' }]);
+  }
+  const value = summed.length > 0 ? dbuOf(powerSumDb(summed), levels.inputDbuAtFullScale) : null;
   return result(step, [{ m: measurement('humDbu', value, limit, notes.join('; ')), label: 'Hum' }]);
 }
 

@@ -170,7 +170,7 @@ export const humStepSchema = z.strictObject({
   ...stepBase,
   kind: z.literal('hum'),
   /** Mains fundamental plus this many of its harmonics in all (1 = the fundamental only). */
-  mainsHarmonics: z.number().int('must be a whole number').min(1, 'must be at least 1').max(10, 'must be at most 10'),
+  mainsHarmonics: z.number().int('must be a whole number').min(1, 'must be at least 1').max(8, 'must be at most 8'),
   inputTermination: text(200),
   limits: z.strictObject({ humDbu: limit('dBu', PROCEDURE_RANGES.noiseDbu) }),
   onFail,

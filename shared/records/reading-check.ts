@@ -41,6 +41,33 @@ export function whyReadingInconsistent(reading: Reading): string | null {
   if (!within(flooredDb(reading.thdPercent / 100))) {
     return `The reading's THD (${reading.thdPercent.toPrecision(3)} %) is not the ${fromHarmonics}: it was not produced by the meter.`;
   }
+  return whyThdnInconsistent(reading);
+}
+
+/**
+ * THD+N against the rest of the reading. THD+N is everything but the fundamental inside the band
+ * (AES17), so the harmonics inside the band are part of it: it cannot lie below their RSS. Its
+ * percent and dB are one ratio (dB = 20·log10(%/100)), and SINAD is its reciprocal, −THD+N in dB
+ * (IEEE 1241). The meter writes THD+N 0 %, the floor and SINAD 0 dB when there is no fundamental.
+ */
+function whyThdnInconsistent(reading: Reading): string | null {
+  const notMeter = 'it was not produced by the meter.';
+  if (Math.abs(flooredDb(reading.thdnPercent / 100) - Math.max(FLOOR_DB, reading.thdnDb)) > THD_CONSISTENCY_DB) {
+    return `The reading's THD+N (${reading.thdnPercent.toPrecision(3)} %) is not its ${reading.thdnDb.toFixed(2)} dB: ${notMeter}`;
+  }
+  const noFundamental = reading.thdnDb <= FLOOR_DB && reading.sinadDb === 0;
+  if (!noFundamental && Math.abs(reading.sinadDb + reading.thdnDb) > THD_CONSISTENCY_DB) {
+    return `The reading's SINAD (${reading.sinadDb.toFixed(2)} dB) is not the opposite of its THD+N (${reading.thdnDb.toFixed(2)} dB): ${notMeter}`;
+  }
+  let inBandPower = 0;
+  for (const harmonic of reading.harmonics) {
+    const inBand = harmonic.frequencyHz >= reading.bandHz.lowHz && harmonic.frequencyHz <= reading.bandHz.highHz;
+    if (inBand && harmonic.levelDbc > FLOOR_DB) inBandPower += 10 ** (harmonic.levelDbc / 10);
+  }
+  const inBandThdDb = flooredDb(Math.sqrt(inBandPower));
+  if (inBandPower > 0 && reading.thdnDb < inBandThdDb - THD_CONSISTENCY_DB) {
+    return `The reading's THD+N (${reading.thdnDb.toFixed(2)} dB) is below the ${inBandThdDb.toFixed(2)} dB of the harmonics inside its band, which are part of it: ${notMeter}`;
+  }
   return null;
 }
 

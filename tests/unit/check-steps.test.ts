@@ -138,6 +138,52 @@ describe('distortion: THD and harmonics of a Fourier series (THD = √(Σ aₙ²
   });
 });
 
+describe('a distortion reading must be of about the level the unit delivers', () => {
+  const cycles = 341;
+  const frequencyHz = (cycles * RATE) / FRAME;
+  const step = distortion(1000, -12, { thdDb: { high: -60, unit: 'dB' } });
+
+  it('refuses a reading 30 dB below the level played (wrong channel, bypassed unit): a clean tone there is not the unit’s', () => {
+    // A clean −42 dBFS tone: THD −∞ would pass any limit. A line stage is within a few dB of unity
+    // gain (common practice), so 30 dB low is not the unit's answer to −12 dBFS.
+    const outcome = measureCheckStep(step, { stimulus: on(frequencyHz, -12), levels: null, readings: [{ channel: 1, reading: handReading(frequencyHz, -42), inputDbuAtFullScale: null }] });
+    expect(outcome.ok).toBe(false);
+    if (!outcome.ok) expect(outcome.refusal).toMatch(/below the .* expected: check the capture channel/);
+    // At the level played it is judged.
+    expect(measureCheckStep(step, { stimulus: on(frequencyHz, -12), levels: null, readings: [{ channel: 1, reading: handReading(frequencyHz, -12), inputDbuAtFullScale: null }] }).ok).toBe(true);
+  });
+
+  it('on a calibrated station the window is centred on the dBu played, read at the input (dBu definition)', () => {
+    // +4 dBu played into a unity-gain unit; the input reads full scale at 2.0 V RMS (+8.24 dBu), so
+    // +4 dBu reads 20·log10(√0.6·10^(4/20) / 2.0) ≈ −4.24 dBFS there.
+    const levels: StationLevels = { outputDbuAtFullScale: dbuOfVolts(4.0), inputDbuAtFullScale: dbuOfVolts(2.0) };
+    const demo = demoStep('thd-1khz');
+    // The generator plays +4 dBu as its ratio to the output's 4.0 V full scale.
+    const played = 20 * Math.log10((Math.sqrt(0.6) * 10 ** (4 / 20)) / 4.0);
+    const atInput = 20 * Math.log10((Math.sqrt(0.6) * 10 ** (4 / 20)) / 2.0);
+    const judged = (levelDbfs: number) =>
+      measureCheckStep(demo, { stimulus: on(1000, played), levels, readings: [{ channel: 1, reading: handReading(1000, levelDbfs), inputDbuAtFullScale: levels.inputDbuAtFullScale }] }).ok;
+    expect(judged(atInput)).toBe(true);
+    expect(judged(atInput - 25)).toBe(false);
+    expect(judged(atInput + 4)).toBe(true);
+  });
+
+  it('refuses a THD limit at 10 kHz on 48 kHz sampling: only H2 (20 kHz) lies below Nyquist (24 kHz)', () => {
+    const c10k = 3413; // 9998.4 Hz, whole cycles
+    const f = (c10k * RATE) / FRAME;
+    const reading = analysed(c10k, { 1: 0.25, 2: 0.25 * 1e-4, 3: 0.25 * 1e-2 });
+    // H3 at 1 % (−40 dB) is real and above Nyquist: THD from H2 alone (−80 dB) would pass −64 dB.
+    const outcome = measureCheckStep(distortion(10000, -12, { thdDb: { high: -64, unit: 'dB' } }), { stimulus: on(f, -12), levels: null, readings: [{ channel: 1, reading, inputDbuAtFullScale: null }] });
+    expect(outcome.ok).toBe(false);
+    // Nyquist: H3 is read only when 3·f < fs/2, i.e. fs > 6·f ≈ 60 kHz.
+    if (!outcome.ok) expect(outcome.refusal).toMatch(/only H2 lies below Nyquist .*sample rate above 60 kHz/);
+    // The demo's 10 kHz step limits H2 by name, which 48 kHz can read (2 × 10 kHz < 24 kHz).
+    const demoH2 = expectMeasured(measureCheckStep({ ...demoStep('thd-10khz'), level: { value: -12, unit: 'dBFS' } } as CheckStep, { stimulus: on(f, -12), levels: null, readings: [{ channel: 1, reading, inputDbuAtFullScale: null }] }));
+    expect(demoH2.measurements[0].quantity).toBe('harmonicsDbc.H2');
+    expect(demoH2.measurements[0].value).toBeCloseTo(-80, 1);
+  });
+});
+
 describe('the level of harmonic n: one policy when it is missing', () => {
   it('H3 of a 10 kHz tone at 48 kHz lies above Nyquist (30 kHz > fs/2 = 24 kHz): said, never a number', () => {
     const cycles = 3413; // 9998.4 Hz, whole cycles
@@ -229,9 +275,47 @@ describe('levels from the station calibration (dBu definition: 0 dBu = √0.6 V 
     expect(result.verdict).toBe('pass');
     const over = expectMeasured(measureCheckStep({ ...hum, limits: { humDbu: { high: expected - 0.1, unit: 'dBu' } } }, { stimulus: OFF, levels, readings: [{ channel: 1, reading, inputDbuAtFullScale: levels.inputDbuAtFullScale }] }));
     expect(over.verdict).toBe('fail');
-    // Asked for five components, the meter's three are summed and the two missing are said.
+    // Asked for five components and given three (250 Hz is far below Nyquist, so the meter should
+    // have read it): the missing two may be the loudest, so there is no value and no pass.
     const five = expectMeasured(measureCheckStep({ ...hum, mainsHarmonics: 5 }, { stimulus: OFF, levels, readings: [{ channel: 1, reading, inputDbuAtFullScale: levels.inputDbuAtFullScale }] }));
+    expect(five.measurements[0]).toMatchObject({ value: null, verdict: 'fail' });
     expect(five.measurements[0].note).toMatch(/harmonics 4, 5 not read/);
+  });
+
+  it('the demo hum step (five mains components) sums rectifier buzz at 200 and 250 Hz read by the real meter', () => {
+    // 50 Hz mains (IEC 60038) with buzz on its 4th and 5th multiples (a rectifier's, common practice),
+    // and no tone from the unit: the meter's strongest tone is then the loudest hum component.
+    const n = FRAME;
+    const samples = new Float64Array(n);
+    const humDbfs: Record<number, number> = { 1: -100, 2: -95, 4: -88, 5: -90 };
+    for (const [order, dbfs] of Object.entries(humDbfs)) {
+      const a = 10 ** (dbfs / 20);
+      for (let i = 0; i < n; i++) samples[i] += a * Math.sin((2 * Math.PI * 50 * Number(order) * i) / RATE + Number(order));
+    }
+    const analysis = new FrameAnalyzer(FRAME, RATE, { mainsHz: 50 }).analyze(samples, createHarmonicAnalysis(), null);
+    const reading = settled({ ...structuredClone(analysis), bandHz: { lowHz: 22, highHz: 22000 } });
+    const result = expectMeasured(measureCheckStep(demoStep('hum'), { stimulus: OFF, levels, readings: [{ channel: 1, reading, inputDbuAtFullScale: levels.inputDbuAtFullScale }] }));
+    // Uncorrelated tones add in power; dBFS of a sine (AES17) plus the input's dBu at full scale.
+    const expected = 10 * Math.log10(Object.values(humDbfs).reduce((sum, l) => sum + 10 ** (l / 10), 0)) + dbuOfVolts(2.0);
+    expect(Math.abs((result.measurements[0].value as number) - expected)).toBeLessThan(0.5);
+    // About −78 dBu against the demo's −80 dBu limit: buzz the old three-order sum (−86 dBu) passed.
+    expect(result.verdict).toBe('fail');
+  });
+
+  it('refuses noise and hum readings holding a tone with the generator off (a stray 1 kHz tone, an oscillating unit)', () => {
+    // A 1 kHz tone at −10 dBFS is neither mains (50 or 60 Hz, IEC 60038) nor a multiple of it up to the 10th.
+    const tone = handReading(1000, -10, { noiseAWeightedDbfs: -120, noiseDbfs: -118, bandHz: { lowHz: 22, highHz: 22000 } });
+    for (const id of ['noise-a', 'hum']) {
+      const outcome = measureCheckStep(demoStep(id), { stimulus: OFF, levels, readings: [{ channel: 1, reading: tone, inputDbuAtFullScale: levels.inputDbuAtFullScale }] });
+      expect(outcome.ok, id).toBe(false);
+      if (!outcome.ok) expect(outcome.refusal).toMatch(/tone at 1000 Hz is present with the generator off/);
+    }
+    // A unit oscillating at 7.3 kHz, far above mains' 10th multiple (600 Hz at 60 Hz), is refused alike.
+    const oscillating = handReading(7300, -30, { bandHz: { lowHz: 22, highHz: 22000 } });
+    expect(measureCheckStep(demoStep('noise-a'), { stimulus: OFF, levels, readings: [{ channel: 1, reading: oscillating, inputDbuAtFullScale: levels.inputDbuAtFullScale }] }).ok).toBe(false);
+    // Loud 100 Hz (twice 50 Hz mains: rectifier ripple, common practice) is hum, not a stray tone: judged.
+    const ripple = handReading(100, -70, { noiseAWeightedDbfs: -120, noiseDbfs: -118, bandHz: { lowHz: 22, highHz: 22000 } });
+    expect(measureCheckStep(demoStep('hum'), { stimulus: OFF, levels, readings: [{ channel: 1, reading: ripple, inputDbuAtFullScale: levels.inputDbuAtFullScale }] }).ok).toBe(true);
   });
 
   it('with no hum above the noise, the band noise in dBu stands as an upper bound, and says so', () => {

@@ -76,7 +76,7 @@ describe('a good procedure file', () => {
     expect(p.invented).toBe(true);
     expect(p.model.maker).toBe('Marrowgate Audio Works (invented)');
     expect(p.title).toMatch(/invented/);
-    expect(p.revision).toBe('C');
+    expect(p.revision).toBe('D');
     expect(p.steps[0].kind).toBe('notice');
     // The low-frequency distortion profile the issue names: 14, 20, 50 Hz, 1 kHz, 10 kHz.
     const distortion = p.steps.flatMap((s) => (s.kind === 'distortion' ? [s.frequencyHz] : []));
@@ -166,6 +166,14 @@ describe('field problems name their JSON path (issue 10: e.g. steps[3].limits.th
     expect(paths(edit('"frequencyHz": 1000', '"frequencyHz": 100000'))).toEqual(['steps[1].frequencyHz']);
     expect(paths(edit('"value": -12, "unit": "dBFS"', '"value": 12, "unit": "dBFS"'))).toEqual(['steps[1].level.value']);
     expect(paths(edit('"thdDb": { "high": -60', '"thdDb": { "high": 60'))).toEqual(['steps[1].limits.thdDb.high']);
+  });
+
+  it('a hum step asking more mains components than a reading carries (8, the IPC bound on hum components) is refused', () => {
+    // Asked orders the meter never reads would be judged on a partial sum; the file states the most it can ask.
+    const hum = (n: number) => `{ "id": "hum", "title": "Hum", "kind": "hum", "instructions": ["Generator off."], "mainsHarmonics": ${n}, "inputTermination": "Terminate the input.", "limits": { "humDbu": { "high": -80, "unit": "dBu" } }, "onFail": "continue" }`;
+    const calibrated = edit('"requiresCalibration": false', '"requiresCalibration": true');
+    expect(checkProcedureFile(withStep(hum(8), calibrated)).ok).toBe(true);
+    expect(paths(withStep(hum(9), calibrated))).toEqual(['steps[2].mainsHarmonics']);
   });
 
   it('an unknown step kind names the kinds there are', () => {

@@ -92,6 +92,22 @@ describe('main refuses readings that contradict themselves', () => {
     expect(whyReadingInconsistent(readingWithThd(-300, { harmonics: floored, thdPercent: 0 }))).toBeNull();
   });
 
+  it('refuses a THD+N that contradicts the THD, its own percent or the SINAD', () => {
+    // H3 at −60 dBc inside the 20 Hz–20 kHz band. THD+N is everything but the fundamental in the band
+    // (AES17), so it holds H3: −70 dB THD+N beside −60 dB THD cannot come from a meter.
+    const consistent = readingWithThd(-60);
+    expect(whyReadingInconsistent(consistent)).toBeNull();
+    const below = { ...consistent, thdnDb: -70, thdnPercent: 100 * 10 ** (-70 / 20), sinadDb: 70 };
+    expect(whyReadingInconsistent(below)).toMatch(/THD\+N \(-70\.00 dB\) is below the -60\.00 dB of the harmonics inside its band/);
+    // A harmonic outside the band is not part of THD+N: a low THD+N beside it is no contradiction.
+    const outside = readingWithThd(-60, { harmonics: [{ order: 3, frequencyHz: 42, levelDbc: -60, phaseDeg: 0 }], bandHz: { lowHz: 100, highHz: 20000 }, thdnDb: -70, thdnPercent: 100 * 10 ** (-70 / 20), sinadDb: 70 });
+    expect(whyReadingInconsistent(outside)).toBeNull();
+    // Percent and dB are one ratio: 1 % is 20·log10(0.01) = −40 dB, not −59.9 dB.
+    expect(whyReadingInconsistent({ ...consistent, thdnPercent: 1 })).toMatch(/THD\+N \(1\.00 %\)/);
+    // SINAD is the reciprocal of THD+N (IEEE 1241): +20 dB beside −59.9 dB THD+N is not it.
+    expect(whyReadingInconsistent({ ...consistent, sinadDb: 20 })).toMatch(/SINAD/);
+  });
+
   it('gives no PASS on a final point recorded without its live series', () => {
     for (const position of [0, 2.5, 4, 4.5]) record(position, onLine(position));
     const recommended = station.records.getRun(runId).assessment!.recommendedPosition!;

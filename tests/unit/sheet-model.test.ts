@@ -174,7 +174,7 @@ describe('the sheet model', () => {
   it('carries the unit, lot, procedure, retest link and reason, and the invented label', () => {
     const sheet = buildSheetModel(detail({ stepResults: allPassing(), verdict: 'pass' }));
     expect(sheet.unit).toEqual({ serial: 'MG20-2611-0042', modelCode: 'MG-20', modelName: 'MG-20 transformer line amplifier', maker: 'Marrowgate Audio Works (invented)', lot: 'WO-1187' });
-    expect(sheet.procedure).toMatchObject({ code: 'MG20-LF-TRIM', revision: 'C', invented: true });
+    expect(sheet.procedure).toMatchObject({ code: 'MG20-LF-TRIM', revision: 'D', invented: true });
     expect(sheet.procedure.inventedLabel).toMatch(/invented/);
     expect(sheet.retest).toMatchObject({ ofRunId: 5, reason: 'Replaced C12 after the first test.' });
     expect(sheet.retest.text).toContain('retest of run 5');
