@@ -225,6 +225,78 @@ export const MIGRATIONS: readonly string[] = [
     WHEN OLD.finished_at IS NOT NULL
     BEGIN SELECT RAISE(ABORT, 'a finished run is never edited'); END;
   `,
+  // Issue 10: each procedure step's results with their measurements (the limits as they were, with
+  // every value), the station a run was made at as a row of its own, the lot or work order, and one
+  // unfinished run per unit. Runs keep their station text: rows from before name no station row.
+  `
+  CREATE TABLE stations (
+    id INTEGER PRIMARY KEY,
+    name TEXT NOT NULL UNIQUE,
+    first_seen_at TEXT NOT NULL,
+    crc INTEGER
+  );
+  CREATE TRIGGER stations_never_change BEFORE UPDATE ON stations
+    BEGIN SELECT RAISE(ABORT, 'a recorded station is never edited'); END;
+  CREATE TRIGGER stations_never_deleted BEFORE DELETE ON stations
+    BEGIN SELECT RAISE(ABORT, 'stations are never deleted'); END;
+  ALTER TABLE runs ADD COLUMN lot TEXT;
+  ALTER TABLE runs ADD COLUMN station_id INTEGER REFERENCES stations(id);
+  DROP TRIGGER finished_runs_frozen;
+  CREATE TRIGGER finished_runs_frozen
+    BEFORE UPDATE OF unit_id, procedure_id, operator, station, started_at, finished_at, verdict, verdict_reason, verdict_reasons_json, final_thd_db, limit_thd_db, calibration_id, chain_check_id, calibration_expires_at, retest_of, retest_reason, lot, station_id ON runs
+    WHEN OLD.finished_at IS NOT NULL
+    BEGIN SELECT RAISE(ABORT, 'a finished run is never edited'); END;
+  -- Only on new rows: a database from before may already hold two open runs of a unit, and keeps them.
+  CREATE TRIGGER one_open_run_per_unit BEFORE INSERT ON runs
+    WHEN NEW.finished_at IS NULL AND EXISTS (SELECT 1 FROM runs WHERE unit_id = NEW.unit_id AND finished_at IS NULL)
+    BEGIN SELECT RAISE(ABORT, 'the unit already has an unfinished run'); END;
+  CREATE TABLE step_results (
+    id INTEGER PRIMARY KEY,
+    run_id INTEGER NOT NULL REFERENCES runs(id),
+    step_id TEXT NOT NULL,
+    kind TEXT NOT NULL,
+    attempt INTEGER NOT NULL CHECK (attempt >= 1),
+    recorded_at TEXT NOT NULL,
+    verdict TEXT NOT NULL CHECK (verdict IN ('pass', 'fail')),
+    reasons_json TEXT NOT NULL,
+    stimulus_json TEXT,
+    readings_json TEXT,
+    crc INTEGER,
+    UNIQUE (run_id, step_id, attempt)
+  );
+  CREATE TABLE measurements (
+    id INTEGER PRIMARY KEY,
+    step_result_id INTEGER NOT NULL REFERENCES step_results(id),
+    run_id INTEGER NOT NULL REFERENCES runs(id),
+    quantity TEXT NOT NULL,
+    value REAL,
+    unit TEXT NOT NULL,
+    low REAL,
+    high REAL,
+    verdict TEXT NOT NULL CHECK (verdict IN ('pass', 'fail')),
+    note TEXT,
+    crc INTEGER
+  );
+  CREATE INDEX measurements_by_run ON measurements (run_id);
+  CREATE TRIGGER step_results_of_finished_run BEFORE INSERT ON step_results
+    WHEN (SELECT finished_at FROM runs WHERE id = NEW.run_id) IS NOT NULL
+    BEGIN SELECT RAISE(ABORT, 'the run is finished'); END;
+  CREATE TRIGGER step_results_never_change BEFORE UPDATE ON step_results
+    BEGIN SELECT RAISE(ABORT, 'recorded step results are never edited'); END;
+  CREATE TRIGGER step_results_never_deleted BEFORE DELETE ON step_results
+    BEGIN SELECT RAISE(ABORT, 'recorded step results are never deleted'); END;
+  CREATE TRIGGER measurements_of_finished_run BEFORE INSERT ON measurements
+    WHEN (SELECT finished_at FROM runs WHERE id = NEW.run_id) IS NOT NULL
+    BEGIN SELECT RAISE(ABORT, 'the run is finished'); END;
+  -- A measurement belongs to the run of its step result: the run_id beside it is for reading a run's at once.
+  CREATE TRIGGER measurements_of_their_step_run BEFORE INSERT ON measurements
+    WHEN NEW.run_id IS NOT (SELECT run_id FROM step_results WHERE id = NEW.step_result_id)
+    BEGIN SELECT RAISE(ABORT, 'a measurement belongs to the run of its step result'); END;
+  CREATE TRIGGER measurements_never_change BEFORE UPDATE ON measurements
+    BEGIN SELECT RAISE(ABORT, 'recorded measurements are never edited'); END;
+  CREATE TRIGGER measurements_never_deleted BEFORE DELETE ON measurements
+    BEGIN SELECT RAISE(ABORT, 'recorded measurements are never deleted'); END;
+  `,
 ];
 
 /**
@@ -315,10 +387,9 @@ function refuseDamaged(db: Db, file: string): void {
 }
 
 /**
- * Opens a file that must not be written (damaged, read-only) for reading what can be read. When
- * its schema is older than this Trimbench's, the records code cannot query it as it is, so the
- * readable image (the file with its write-ahead log) is copied into memory and brought up to date
- * there; the file itself is never touched.
+ * Opens a file that must not be written (damaged, read-only) for reading what can be read: the
+ * readable image (the file with its write-ahead log) is copied into memory, its indexes rebuilt
+ * from the tables and its schema brought up to date there; the file itself is never touched.
  */
 export function openForReading(file: string): Db {
   let db: Db;
@@ -332,10 +403,18 @@ export function openForReading(file: string): Db {
   }
   try {
     refuseNewer(db, file);
-    if (schemaVersion(db) === MIGRATIONS.length) return db;
     const image = db.serialize();
     db.close();
     const copy = new Database(asMemoryImage(image));
+    // A damaged index can hide rows its table still holds (a query by run id that finds no trim
+    // points, where the table has them): a run would then read back short without any check
+    // failing. Rebuilt from the tables, an index shows every row they hold. When a table itself is
+    // damaged the rebuild fails; its rows then fail as they are read, and are reported so.
+    try {
+      copy.exec('REINDEX');
+    } catch {
+      // read what can be read
+    }
     copy.pragma('foreign_keys = ON');
     for (let version = schemaVersion(copy) + 1; version <= MIGRATIONS.length; version++) copy.exec(MIGRATIONS[version - 1]);
     copy.pragma(`user_version = ${MIGRATIONS.length}`);

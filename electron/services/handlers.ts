@@ -10,7 +10,7 @@ import { contract, type IpcResponse, type IpcResult } from '../../shared/ipc/con
 import type { ErrorLog } from './error-log.ts';
 import { ExpectedFailure } from './expected-failure.ts';
 import type { Calibrations } from './calibrations.ts';
-import type { Records } from './records.ts';
+import type { RecordsRepository } from './records-repository.ts';
 import type { StationSettingsStore } from './station-settings.ts';
 import type { createSheets } from './sheets.ts';
 
@@ -24,7 +24,7 @@ export interface CallerContext {
 }
 
 export interface Services {
-  records: Records;
+  records: RecordsRepository;
   sheets: ReturnType<typeof createSheets>;
   calibrations: Calibrations;
   settings: StationSettingsStore;
@@ -41,32 +41,32 @@ export function createHandlers({ records, sheets, calibrations, settings, statio
     const { calibration, chainCheck } = calibrations.current(settings.get(), null);
     return { settings: settings.get(), calibration, chainCheck };
   };
-  const refuseUnlessWritable = () => {
-    const refusal = records.whyNotWritable();
+  const refuseUnlessWritable = async () => {
+    const refusal = await records.whyNotWritable();
     if (refusal !== null) throw new ExpectedFailure(refusal);
   };
   return {
     // Asked afresh on each call: a name changed in the settings, or a problem found after start, shows from then on.
-    describeStation: async () => ({ ...station, stationName: settings.get().stationName, recordsProblem: records.whyNotWritable() }),
-    listProcedures: async () => records.listProcedures(),
-    openRun: async (request) => records.openRun(request),
-    lookUpUnit: async ({ serial }) => records.lookUpUnit(serial),
-    recordTrimPoint: async (request) => records.recordTrimPoint(request),
-    includeUnsettledPoint: async (request) => records.includeUnsettledPoint(request),
-    logWarningChanges: async (request) => records.logWarningChanges(request),
-    recordWarmCheck: async (request) => records.recordWarmCheck(request),
-    acknowledgeNotice: async () => notYet(),
-    completeTrim: async () => notYet(),
-    recordCheckStep: async () => notYet(),
-    finishRun: async (request) => records.finishRun(request),
+    describeStation: async () => ({ ...station, stationName: settings.get().stationName, recordsProblem: await records.whyNotWritable() }),
+    listProcedures: () => records.listProcedures(),
+    openRun: (request) => records.openRun(request),
+    lookUpUnit: ({ serial }) => records.lookUpUnit(serial),
+    recordTrimPoint: (request) => records.recordTrimPoint(request),
+    includeUnsettledPoint: (request) => records.includeUnsettledPoint(request),
+    logWarningChanges: (request) => records.logWarningChanges(request),
+    recordWarmCheck: (request) => records.recordWarmCheck(request),
+    acknowledgeNotice: (request) => records.acknowledgeNotice(request),
+    completeTrim: (request) => records.completeTrim(request),
+    recordCheckStep: (request) => records.recordCheckStep(request),
+    finishRun: (request) => records.finishRun(request),
     saveSheetPdf: async ({ runId }, caller) => sheets.savePdf(runId, () => caller.printToPdf()),
     printSheet: async ({ runId }, caller) => {
-      if (!records.getRun(runId).run.finishedAt) throw new ExpectedFailure('Finish the run before printing its unit sheet.');
+      if (!(await records.getRun(runId)).run.finishedAt) throw new ExpectedFailure('Finish the run before printing its unit sheet.');
       return { printed: await caller.print() };
     },
     getStationCalibration: async () => stationCalibration(),
     saveStationSettings: async (request) => {
-      refuseUnlessWritable();
+      await refuseUnlessWritable();
       settings.save(request);
       return stationCalibration();
     },
@@ -85,11 +85,6 @@ export function createHandlers({ records, sheets, calibrations, settings, statio
       return records.importProcedure(readProcedureText(path), basename(path));
     },
   };
-}
-
-/** Step results are being wired in (issue 10): until then a step cannot be recorded. */
-function notYet(): never {
-  throw new ExpectedFailure('Recording procedure steps is not available in this build yet.');
 }
 
 /** A procedure file is a few kilobytes; anything far larger is not one, and is not read whole. */

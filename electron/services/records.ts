@@ -4,12 +4,15 @@
 import { z } from 'zod';
 import type { Reading } from '../../shared/measurement/reading.ts';
 import {
+  measurementSchema,
   readingSchema,
   runDetailSchema,
+  stepResultSchema,
   trimAssessmentSchema,
   warmCheckSchema,
   type Run,
   type RunDetail,
+  type StepResult,
   type StoredProcedure,
   type TrimPoint,
   type WarmCheck,
@@ -18,13 +21,14 @@ import {
 import type { AudioSetup } from '../../shared/calibration/station-calibration.ts';
 import type { StationSettings } from '../../shared/calibration/station-settings.ts';
 import { procedureSchema, type Procedure } from '../../shared/procedures/procedure.ts';
-import { checkProcedureFile, procedureFileSchema, upgradeProcedure, type ProcedureFile } from '../../shared/procedures/procedure-file.ts';
+import { checkProcedureFile, procedureFileSchema, upgradeProcedure, type ProcedureFile, type ProcedureStep } from '../../shared/procedures/procedure-file.ts';
+import { isCheckStep, measureCheckStep, measurement, type Measurement, type StationLevels } from '../../shared/procedures/check-steps.ts';
 import { judgeUnit } from '../../shared/procedures/unit-verdict.ts';
 import { trimView } from '../../shared/procedures/trim-view.ts';
 import { thdDbFromHarmonics } from '../../shared/records/reading-check.ts';
 import { checkSerial } from '../../shared/records/serial.ts';
 import { whyNotRecordable, type StimulusSetting } from '../../shared/records/stimulus-check.ts';
-import { judgeTrimRun } from '../../shared/records/verdict.ts';
+import { judgeTrimRun, type TrimJudgement } from '../../shared/records/verdict.ts';
 import { assessTrim, type TrimAssessment } from '../../shared/trim/assessment.ts';
 import { warmRecheck, type LiveSeries } from '../../shared/trim/trim-assistant.ts';
 import type { Calibrations } from './calibrations.ts';
@@ -37,6 +41,8 @@ const storedProcedureDefinition = z.discriminatedUnion('schemaVersion', [procedu
 
 const liveSeriesSchema = z.object({ levelsDbfs: z.array(z.number()), lfDbfs: z.array(z.number()) });
 const reasonsSchema = z.array(z.string());
+const stepStimulusSchema = stepResultSchema.shape.stimulus;
+const measurementsSchema = z.array(measurementSchema);
 
 interface RunRow {
   id: number;
@@ -65,7 +71,37 @@ interface RunRow {
   calibration_expires_at: string | null;
   retest_of: number | null;
   retest_reason: string | null;
+  lot: string | null;
+  station_id: number | null;
   unit_id: number;
+}
+
+interface StepResultRow {
+  id: number;
+  crc: number | null;
+  run_id: number;
+  step_id: string;
+  kind: string;
+  attempt: number;
+  recorded_at: string;
+  verdict: string;
+  reasons_json: string;
+  stimulus_json: string | null;
+  readings_json: string | null;
+}
+
+interface MeasurementRow {
+  id: number;
+  crc: number | null;
+  step_result_id: number;
+  run_id: number;
+  quantity: string;
+  value: number | null;
+  unit: string;
+  low: number | null;
+  high: number | null;
+  verdict: string;
+  note: string | null;
 }
 
 interface TrimPointRow {
@@ -219,7 +255,16 @@ export function createRecords(
        WHERE runs.unit_id = ? AND runs.finished_at IS NULL AND procedures.code = (SELECT code FROM procedures WHERE id = ?)
        ORDER BY runs.id DESC LIMIT 1`,
     ),
+    // Any unfinished run of the unit: the database allows one (one_open_run_per_unit).
+    anyOpenRunOfUnit: db.prepare<[number], { id: number; code: string }>(
+      `SELECT runs.id, procedures.code FROM runs JOIN procedures ON procedures.id = runs.procedure_id
+       WHERE runs.unit_id = ? AND runs.finished_at IS NULL ORDER BY runs.id DESC LIMIT 1`,
+    ),
+    stationByName: db.prepare<[string], { id: number }>('SELECT id FROM stations WHERE name = ?'),
     runById: db.prepare<[number], RunRow>(`${runSelect} WHERE runs.id = ?`),
+    stepResults: db.prepare<[number], StepResultRow>('SELECT * FROM step_results WHERE run_id = ? ORDER BY id'),
+    measurements: db.prepare<[number], MeasurementRow>('SELECT * FROM measurements WHERE run_id = ? ORDER BY id'),
+    attemptsOfStep: db.prepare<[number, string], { count: number }>('SELECT COUNT(*) AS count FROM step_results WHERE run_id = ? AND step_id = ?'),
     earlierRuns: db.prepare<[number, number], { count: number }>(
       'SELECT COUNT(*) AS count FROM runs WHERE unit_id = ? AND id < ? AND finished_at IS NOT NULL',
     ),
@@ -301,7 +346,7 @@ export function createRecords(
       sheetPdfPath: row.sheet_pdf_path,
       retestOf: row.retest_of,
       retestReason: row.retest_reason,
-      lot: null,
+      lot: row.lot,
     };
   }
 
@@ -430,6 +475,112 @@ export function createRecords(
     return [...last.values()].filter((e) => e.change === 'raised').map((e) => ({ id: e.id, seen: e.seen }));
   }
 
+  /** The run's step results in the order recorded, each with its measurements, checked as they are read. */
+  function stepResults(runId: number): StepResult[] {
+    const byResult = new Map<number, Measurement[]>();
+    for (const row of statements.measurements.all(runId)) {
+      const what = `measurement ${row.quantity} of run ${runId}`;
+      checkSealed('measurements', row, what);
+      const parsed = measurementSchema.safeParse({ quantity: row.quantity, value: row.value, unit: row.unit, low: row.low, high: row.high, verdict: row.verdict, note: row.note });
+      if (!parsed.success) throw new UnreadableRecord(what, `does not validate at ${parsed.error.issues[0]?.path.join('.') || '(root)'}`);
+      byResult.set(row.step_result_id, [...(byResult.get(row.step_result_id) ?? []), parsed.data]);
+    }
+    return statements.stepResults.all(runId).map((row) => {
+      const what = `result of step ${row.step_id} of run ${runId}`;
+      checkSealed('step_results', row, what);
+      const parsed = stepResultSchema.safeParse({
+        id: row.id,
+        stepId: row.step_id,
+        kind: row.kind,
+        attempt: row.attempt,
+        recordedAt: row.recorded_at,
+        verdict: row.verdict,
+        reasons: fromStoredJson(row.reasons_json, reasonsSchema, what),
+        measurements: byResult.get(row.id) ?? [],
+        stimulus: row.stimulus_json === null ? null : fromStoredJson(row.stimulus_json, stepStimulusSchema, what),
+      });
+      if (!parsed.success) throw new UnreadableRecord(what, `does not validate at ${parsed.error.issues[0]?.path.join('.') || '(root)'}`);
+      return parsed.data;
+    });
+  }
+
+  /**
+   * The step a call records, refused unless it may be recorded now. Steps go in order: a step is
+   * recorded when every earlier one has a result (judgeUnit's next step), or again when it already
+   * has one (a repeat; the latest counts). After a failed step that stops the run only that step
+   * may be repeated. A run started before steps were recorded (an older Trimbench) has no results,
+   * so it walks from step 1 like a new one.
+   */
+  function stepToRecord(row: RunRow, stepId: string, wanted: 'notice' | 'trim' | 'check'): ProcedureStep {
+    const file = runProcedureFile(row);
+    const step = file.steps.find((s) => s.id === stepId);
+    if (!step) throw new ExpectedFailure(`Step “${stepId}” is not in procedure ${file.code} revision ${file.revision}, which run ${row.id} follows.`);
+    if (wanted === 'check' ? !isCheckStep(step) : step.kind !== wanted) {
+      throw new ExpectedFailure(`Step “${stepId}” is a ${step.kind} step, not a ${wanted} step: nothing was recorded.`);
+    }
+    const results = stepResults(row.id);
+    const judgement = judgeUnit(file, results);
+    if (judgement.stoppedAt !== null && judgement.stoppedAt !== stepId) {
+      throw new ExpectedFailure(`Step “${judgement.stoppedAt}” failed, and a failure there stops the run: repeat that step, or finish the run as FAIL.`);
+    }
+    if (judgement.nextStepId !== stepId && !results.some((r) => r.stepId === stepId)) {
+      throw new ExpectedFailure(`Step “${stepId}” comes later: steps are recorded in order, and step “${judgement.nextStepId}” has no result yet.`);
+    }
+    return step;
+  }
+
+  /** Stores a step's result with its measurements; called inside the caller's write transaction. */
+  function storeStepResult(
+    runId: number,
+    step: ProcedureStep,
+    result: { verdict: 'pass' | 'fail'; reasons: readonly string[]; measurements: readonly Measurement[]; stimulus: StimulusSetting | null; readings: unknown },
+  ): void {
+    // Checked before anything is written: a value SQLite would store as NULL (NaN, ±∞) must not
+    // leave the run unreadable from then on.
+    const checked = measurementsSchema.safeParse(result.measurements);
+    if (!checked.success) {
+      throw new ExpectedFailure(`Step “${step.id}” gives no finite value for ${result.measurements[Number(checked.error.issues[0]?.path[0] ?? 0)]?.quantity ?? 'a quantity'}: nothing was stored. Take the reading again.`);
+    }
+    const resultId = insertSealed('step_results', {
+      run_id: runId,
+      step_id: step.id,
+      kind: step.kind,
+      attempt: (statements.attemptsOfStep.get(runId, step.id)?.count ?? 0) + 1,
+      recorded_at: timestamp(),
+      verdict: result.verdict,
+      reasons_json: toStoredJson(result.reasons),
+      stimulus_json: result.stimulus === null ? null : toStoredJson(result.stimulus),
+      readings_json: result.readings === null ? null : toStoredJson(result.readings),
+    });
+    for (const m of checked.data) {
+      insertSealed('measurements', { step_result_id: resultId, run_id: runId, quantity: m.quantity, value: m.value, unit: m.unit, low: m.low, high: m.high, verdict: m.verdict, note: m.note });
+    }
+  }
+
+  /**
+   * The trim judged from the stored points as Finish has always judged it: on THD recomputed from
+   * the stored harmonics (the page's own thdDb figure is never the verdict), and the final THD.
+   */
+  function judgeTrimNow(row: RunRow, trim: Procedure['trim'], detail: RunDetail): { judged: TrimJudgement; finalThdDb: number | null } {
+    const watched = new Set(statements.trimPoints.all(row.id).filter((p) => p.live_json !== null).map((p) => p.id));
+    const judgedPoints = detail.trimPoints.map((p) => ({
+      ...p,
+      reading: { ...p.reading, thdDb: thdDbFromHarmonics(p.reading.harmonics) },
+      liveWatched: watched.has(p.id),
+    }));
+    const judged = judgeTrimRun({ trimPoints: judgedPoints, assessment: detail.assessment, openLiveWarnings: openLiveWarnings(detail.warningLog) }, trim);
+    return { judged, finalThdDb: judgedPoints.at(-1)?.reading.thdDb ?? null };
+  }
+
+  /** The calibration the run was started under, as the run names it; null when none. */
+  function calibrationUsed(row: RunRow) {
+    if (row.calibration_id === null || !calibrations) return null;
+    return calibrations.used(
+      { calibrationId: row.calibration_id, chainCheckId: row.chain_check_id, expiresAt: row.calibration_expires_at ?? '' },
+      runProcedure(row).trim.stimulusHz,
+    );
+  }
+
   function runRow(runId: number): RunRow {
     const row = statements.runById.get(runId);
     if (!row) throw new ExpectedFailure(`There is no run with id ${runId}.`);
@@ -513,6 +664,7 @@ export function createRecords(
       }
     }
     const procedureFile = runProcedureFile(row);
+    const results = stepResults(runId);
     const warm = statements.latestWarmCheck.get(runId);
     if (warm) checkSealed('warm_checks', warm, `warm re-check of run ${runId}`);
     return {
@@ -525,16 +677,9 @@ export function createRecords(
       earlierRuns: statements.earlierRuns.get(row.unit_id, runId)?.count ?? 0,
       procedure: runProcedure(row),
       procedureFile,
-      // Step results are recorded from the step walk (issue 10, in progress).
-      stepResults: [],
-      judgement: judgeUnit(procedureFile, []),
-      calibration:
-        row.calibration_id !== null && calibrations
-          ? calibrations.used(
-              { calibrationId: row.calibration_id, chainCheckId: row.chain_check_id, expiresAt: row.calibration_expires_at ?? '' },
-              runProcedure(row).trim.stimulusHz,
-            )
-          : null,
+      stepResults: results,
+      judgement: judgeUnit(procedureFile, results),
+      calibration: calibrationUsed(row),
     };
   }
 
@@ -578,15 +723,6 @@ export function createRecords(
       const file = checked.procedure;
       if (!trimView(file)) {
         throw new ExpectedFailure(`${fileName} was not imported: this Trimbench runs procedures that have a trim step, and it has none.`);
-      }
-      // Check steps are not run by this Trimbench yet: a unit must never pass a procedure whose checks
-      // it did not measure, so such a file is refused rather than run as its trim alone.
-      const unrun = file.steps.filter((step) => step.kind !== 'notice' && step.kind !== 'trim');
-      if (unrun.length > 0) {
-        throw new ExpectedFailure(
-          `${fileName} was not imported: it has check steps (${[...new Set(unrun.map((step) => step.kind))].join(', ')}), which this version of ` +
-            `Trimbench cannot run yet, and a unit must not pass checks it was never given. Import a file with its notices and trim only.`,
-        );
       }
       return db.transaction(() => {
         const existing = statements.procedureByKey.get(file.code, file.revision);
@@ -639,7 +775,7 @@ export function createRecords(
     },
 
     /** Resumes the unit's unfinished run of this procedure, or starts a new one (a retest after a finished run). */
-    openRun(request: { serial: string; procedureId: number; operator: string; setup?: AudioSetup | null; retestReason?: string }): RunDetail {
+    openRun(request: { serial: string; procedureId: number; operator: string; setup?: AudioSetup | null; retestReason?: string; lot?: string }): RunDetail {
       // Opening a unit leaves whatever the page had open; until this call succeeds, no run is open
       // here, so a refused open (another operator's run) leaves nothing for later calls to act on.
       stationOpenRunId = null;
@@ -672,6 +808,13 @@ export function createRecords(
               `can continue it: ask them to finish it (or finish it as a failure), then open the unit under your name for a retest.`,
           );
         }
+        // One unfinished run per unit, whatever its procedure (the database holds to it as well).
+        const other = statements.anyOpenRunOfUnit.get(unit.id);
+        if (other) {
+          throw new ExpectedFailure(
+            `Serial ${serial} has an unfinished run (run ${other.id}) under procedure ${other.code}. Finish that run first, then open the unit under this procedure.`,
+          );
+        }
         // An unfinished run keeps its revision; a new one must not start on a replaced revision,
         // which may lack checks the newer one has (revision A of the demo has no level window).
         const newest = statements.newestRevisionOf.get(request.procedureId);
@@ -691,11 +834,13 @@ export function createRecords(
           );
         }
         const calibration = calibrationForNewRun(procedure, serial, request.setup ?? null);
+        const name = stationName();
+        const stationId = statements.stationByName.get(name)?.id ?? insertSealed('stations', { name, first_seen_at: timestamp() });
         return insertSealed('runs', {
           unit_id: unit.id,
           procedure_id: request.procedureId,
           operator: request.operator,
-          station: stationName(),
+          station: name,
           started_at: timestamp(),
           finished_at: null,
           verdict: null,
@@ -709,6 +854,8 @@ export function createRecords(
           calibration_expires_at: calibration?.expiresAt ?? null,
           retest_of: earlier ? earlier.id : null,
           retest_reason: earlier ? request.retestReason! : null,
+          lot: request.lot ?? null,
+          station_id: stationId,
         });
       }).immediate();
       const detail = runDetail(runId);
@@ -910,6 +1057,70 @@ export function createRecords(
       return result;
     },
 
+    /** The technician acknowledged a notice step: its result is a pass, with nothing measured. */
+    acknowledgeNotice(request: { runId: number; stepId: string }): RunDetail {
+      refuseUnlessWritable();
+      const row = openRunRow(request.runId, (id) => `Run ${id} is finished; its steps can no longer be recorded.`);
+      return db.transaction(() => {
+        const step = stepToRecord(row, request.stepId, 'notice');
+        storeStepResult(row.id, step, { verdict: 'pass', reasons: [], measurements: [], stimulus: null, readings: null });
+        return runDetail(row.id);
+      }).immediate();
+    },
+
+    /**
+     * The technician is done trimming: the trim is judged from the stored points as Finish judges it
+     * (judgeTrimRun), and stored as the trim step's result with its final THD against the limit.
+     */
+    completeTrim(request: { runId: number; stepId: string }): RunDetail {
+      refuseUnlessWritable();
+      const row = openRunRow(request.runId, (id) => `Run ${id} is finished; its steps can no longer be recorded.`);
+      const { trim } = runProcedure(row);
+      return db.transaction(() => {
+        const step = stepToRecord(row, request.stepId, 'trim');
+        const detail = runDetail(row.id);
+        if (detail.trimPoints.length === 0) throw new ExpectedFailure('No trim point has been recorded: record the trim before completing it.');
+        const { judged, finalThdDb } = judgeTrimNow(row, trim, detail);
+        const thd = measurement('thdDb', finalThdDb, { high: trim.limitThdDb, unit: 'dB' }, 'THD at the final trim point, from its harmonics');
+        storeStepResult(row.id, step, { verdict: judged.verdict, reasons: judged.reasons, measurements: [thd], stimulus: null, readings: null });
+        return runDetail(row.id);
+      }).immediate();
+    },
+
+    /**
+     * A check step's settled reading(s), judged here (measureCheckStep) against the stored revision's
+     * limits with the run's calibration. Readings that are not of the step's stimulus are refused
+     * with the reason, and nothing is stored.
+     */
+    recordCheckStep(request: { runId: number; stepId: string; stimulus: StimulusSetting; readings: readonly { channel: number; reading: Reading }[] }): RunDetail {
+      refuseUnlessWritable();
+      const row = openRunRow(request.runId, (id) => `Run ${id} is finished; its steps can no longer be recorded.`);
+      const lapsed = calibrationLapsed(row);
+      if (lapsed) throw new ExpectedFailure(`This step was not recorded. ${lapsed} Finish the run as FAIL, calibrate the station, then retest the unit.`);
+      return db.transaction(() => {
+        const step = stepToRecord(row, request.stepId, 'check');
+        if (!isCheckStep(step)) throw new ExpectedFailure(`Step “${step.id}” is not a check step.`);
+        const used = calibrationUsed(row);
+        const levels: StationLevels | null = used ? { outputDbuAtFullScale: used.outputDbuAtFullScale, inputDbuAtFullScale: used.inputDbuAtFullScale } : null;
+        // A station calibration is made on one capture input (its setup's inputChannel), the one the
+        // unit's channel 1 is read through; no figure is known for the input channel 2 comes in on.
+        // So channel 1 of a one-channel step is read calibrated, and a two-channel step compares both
+        // inputs as they are (measureCheckStep notes that it assumes equal gains): giving only one of
+        // the two a calibration would make their levels incomparable, and the step is refused then.
+        const twoChannel = step.kind === 'balance' || step.kind === 'crosstalk';
+        const readings = request.readings.map(({ channel, reading }) => ({
+          channel,
+          reading,
+          inputDbuAtFullScale: !twoChannel && channel === 1 ? (levels?.inputDbuAtFullScale ?? null) : null,
+        }));
+        const outcome = measureCheckStep(step, { stimulus: request.stimulus, levels, readings });
+        if (!outcome.ok) throw new ExpectedFailure(`Step “${step.id}” was not recorded. ${outcome.refusal}`);
+        const { verdict, reasons, measurements } = outcome.result;
+        storeStepResult(row.id, step, { verdict, reasons, measurements, stimulus: request.stimulus, readings: request.readings });
+        return runDetail(row.id);
+      }).immediate();
+    },
+
     /**
      * Judges the run (judgeTrimRun) and freezes it. A run that cannot pass is refused with the
      * reasons, unless the technician asks to finish it as FAIL with them.
@@ -921,30 +1132,31 @@ export function createRecords(
       const row = openRunRow(request.runId, (id) => `Run ${id} is finished.`);
       const { trim } = runProcedure(row);
       const detail = runDetail(row.id);
-      const watched = new Set(statements.trimPoints.all(row.id).filter((p) => p.live_json !== null).map((p) => p.id));
-      // Judged on THD recomputed from the stored harmonics: the page's own thdDb figure is never the verdict.
-      const judgedPoints = detail.trimPoints.map((p) => ({
-        ...p,
-        reading: { ...p.reading, thdDb: thdDbFromHarmonics(p.reading.harmonics) },
-        liveWatched: watched.has(p.id),
-      }));
-      const trimJudged = judgeTrimRun(
-        { trimPoints: judgedPoints, assessment: detail.assessment, openLiveWarnings: openLiveWarnings(detail.warningLog) },
-        trim,
-      );
+      const { judged: trimNow, finalThdDb } = judgeTrimNow(row, trim, detail);
+      // The unit's verdict is judgeUnit's over the stored step results: PASS only when every step passed.
+      const reasons = [...detail.judgement.reasons];
+      const trimStep = detail.procedureFile.steps.find((s) => s.kind === 'trim');
+      const trimResult = detail.stepResults.filter((r) => r.stepId === trimStep?.id).at(-1);
+      if (trimStep && !trimResult && detail.judgement.stoppedAt === null) {
+        // Said beside "the trim was not run": what the trim, as the points stand, still lacks.
+        reasons.push(...trimNow.reasons);
+      } else if (trimResult) {
+        // Points recorded or confirmed after the trim was completed may change it: its stored result
+        // must still be the trim as the points stand, or it speaks of a trimmer since moved.
+        const storedThd = trimResult.measurements.find((m) => m.quantity === 'thdDb')?.value ?? null;
+        if (trimResult.verdict !== trimNow.verdict || storedThd !== finalThdDb) {
+          reasons.push(`The trim changed after step “${trimResult.stepId}” was completed (points recorded or confirmed since): complete the trim again, so its result is of the trimmer as left.`);
+        }
+      }
       const lapsed = calibrationLapsed(row);
-      const judged = lapsed ? { verdict: 'fail' as const, reasons: [...trimJudged.reasons, lapsed] } : trimJudged;
-      if (judged.verdict === 'fail' && !request.asFailure) {
+      if (lapsed) reasons.push(lapsed);
+      if (reasons.length > 0 && !request.asFailure) {
         throw new CannotPass(
-          `This run cannot pass:\n${judged.reasons.map((r) => `• ${r}`).join('\n')}\nPut that right and finish again, or finish the run as FAIL.`,
+          `This run cannot pass:\n${reasons.map((r) => `• ${r}`).join('\n')}\nPut that right and finish again, or finish the run as FAIL.`,
         );
       }
-      const reasons =
-        judged.verdict === 'pass' && request.asFailure
-          ? ['Finished as FAIL by the technician, although the trim met every condition for a pass.']
-          : judged.reasons;
+      if (reasons.length === 0 && request.asFailure) reasons.push('Finished as FAIL by the technician, although every step met its conditions for a pass.');
       const verdict = reasons.length === 0 ? 'pass' : 'fail';
-      const finalThdDb = judgedPoints.at(-1)?.reading.thdDb ?? null;
       // The verdict commits only with a run record that validates whole; otherwise nothing is written.
       return db.transaction(() => {
         const finish = {

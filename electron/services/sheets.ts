@@ -4,7 +4,7 @@
 import { closeSync, existsSync, fsyncSync, mkdirSync, openSync, renameSync, unlinkSync, writeSync } from 'node:fs';
 import { basename, dirname, join } from 'node:path';
 import { ExpectedFailure } from './expected-failure.ts';
-import type { Records } from './records.ts';
+import type { RecordsRepository } from './records-repository.ts';
 
 export function sheetFileName(serial: string, runId: number): string {
   return `${serial}_run-${runId}.pdf`;
@@ -63,15 +63,15 @@ export function fsyncFolder(folder: string): void {
 
 let partialCounter = 0;
 
-export function createSheets(records: Records, folder: string) {
+export function createSheets(records: RecordsRepository, folder: string) {
   /** One save at a time per run: a second request while one is running gets the same answer. */
   const inFlight = new Map<number, Promise<{ path: string; alreadySaved: boolean }>>();
 
   async function saveOnce(runId: number, renderPdf: () => Promise<Uint8Array>): Promise<{ path: string; alreadySaved: boolean }> {
-    const { run } = records.getRun(runId);
+    const { run } = await records.getRun(runId);
     if (!run.finishedAt) throw new ExpectedFailure('Finish the run before saving its unit sheet.');
     if (run.sheetPdfPath) return { path: run.sheetPdfPath, alreadySaved: true };
-    const refusal = records.whyNotWritable();
+    const refusal = await records.whyNotWritable();
     if (refusal !== null) throw new ExpectedFailure(`The sheet was not saved. ${refusal}`);
     // A new sheets folder is itself an entry in the data folder: flush that too.
     if (mkdirSync(folder, { recursive: true }) !== undefined) fsyncFolder(dirname(folder));
@@ -128,7 +128,7 @@ export function createSheets(records: Records, folder: string) {
       throw error;
     }
     fsyncFolder(folder);
-    records.setSheetPath(runId, path);
+    await records.setSheetPath(runId, path);
     return { path, alreadySaved: false };
   }
 

@@ -25,6 +25,7 @@ import { ExpectedFailure } from './expected-failure.ts';
 import { createHandlers, type Handlers } from './handlers.ts';
 import { createCalibrations } from './calibrations.ts';
 import { createRecords } from './records.ts';
+import { sqliteRepository } from './records-repository.ts';
 import { openStationSettings } from './station-settings.ts';
 import { createSheets } from './sheets.ts';
 
@@ -188,10 +189,11 @@ export function openStation({
     const { records, calibrations } = services;
     const opened = db;
     if (notWritable === null) records.ensureProcedure(DEMO_PROCEDURE);
-    const sheets = createSheets(records, join(dataDir, SHEETS_FOLDER));
+    const repository = sqliteRepository(records);
+    const sheets = createSheets(repository, join(dataDir, SHEETS_FOLDER));
     const handlers = databaseProblemsAsExpected(
       createHandlers({
-        records,
+        records: repository,
         sheets,
         calibrations,
         settings,

@@ -98,7 +98,7 @@ export const SEALED_COLUMNS = {
   runs: [
     'unit_id', 'procedure_id', 'operator', 'station', 'started_at', 'finished_at', 'verdict', 'verdict_reason',
     'verdict_reasons_json', 'final_thd_db', 'limit_thd_db', 'sheet_pdf_path', 'calibration_id',
-    'chain_check_id', 'calibration_expires_at', 'retest_of', 'retest_reason',
+    'chain_check_id', 'calibration_expires_at', 'retest_of', 'retest_reason', 'lot', 'station_id',
   ],
   trim_points: [
     'run_id', 'sequence', 'position', 'recorded_at', 'settled', 'in_fit', 'stimulus_hz', 'stimulus_level_dbfs', 'thd_db',
@@ -110,6 +110,9 @@ export const SEALED_COLUMNS = {
   warm_checks: ['run_id', 'recorded_at', 'position', 'cold_temperature_c', 'warm_temperature_c', 'reading_json', 'result_json'],
   calibrations: ['made_at', 'operator', 'station', 'setup_json', 'output_dbu_at_fs', 'input_dbu_at_fs', 'detail_json'],
   chain_checks: ['calibration_id', 'measured_at', 'operator', 'result_json', 'judgement_json', 'pass'],
+  stations: ['name', 'first_seen_at'],
+  step_results: ['run_id', 'step_id', 'kind', 'attempt', 'recorded_at', 'verdict', 'reasons_json', 'stimulus_json', 'readings_json'],
+  measurements: ['step_result_id', 'run_id', 'quantity', 'value', 'unit', 'low', 'high', 'verdict', 'note'],
 } as const;
 
 export type SealedTable = keyof typeof SEALED_COLUMNS;

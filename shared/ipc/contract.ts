@@ -100,6 +100,8 @@ const fields = {
       components: z.array(z.object({ order: z.number().int().min(1), frequencyHz: finite.nonnegative(), levelDbfs: dbLevel })).max(8),
     })
     .nullable(),
+  // Readings stored before the band was kept were all summed over the meter's 20 Hz–20 kHz.
+  bandHz: z.object({ lowHz: finite.nonnegative(), highHz: finite.nonnegative() }).default({ lowHz: 20, highHz: 20000 }),
   mainsCoincidentOrders: z.array(z.number().int().min(2)).max(64).default([]),
   flags: z.array(z.enum(['no-signal', 'clipping', 'at-floor', 'mains-coincident'])),
 };
@@ -148,6 +150,7 @@ export const boundedReadingSchema = z
       })
       .strict()
       .nullable(),
+    bandHz: z.object({ lowHz: frequencyHz, highHz: frequencyHz }).strict().refine((b) => b.lowHz < b.highHz, 'The band must end above where it starts.'),
     mainsCoincidentOrders: z
       .array(harmonicOrder)
       .max(HARMONIC_ORDER_MAX - 1)
@@ -166,6 +169,9 @@ export const boundedReadingSchema = z
     const harmonic = reading.harmonics.find((h) => above(h.frequencyHz));
     if (harmonic) {
       ctx.addIssue({ code: 'custom', path: ['harmonics'], message: `H${harmonic.order} is at or above Nyquist (${nyquistHz} Hz): list it as above Nyquist.` });
+    }
+    if (reading.bandHz.highHz > nyquistHz) {
+      ctx.addIssue({ code: 'custom', path: ['bandHz', 'highHz'], message: `The band ends above Nyquist (${nyquistHz} Hz).` });
     }
     if (reading.hum?.components.some((c) => above(c.frequencyHz))) {
       ctx.addIssue({ code: 'custom', path: ['hum', 'components'], message: `A hum component is at or above Nyquist (${nyquistHz} Hz).` });

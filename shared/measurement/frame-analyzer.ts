@@ -642,6 +642,9 @@ export class FrameAnalyzer {
   }
 
   private writeNoise(out: HarmonicAnalysis, f0: number, amplitude1: number, hasSignal: boolean): void {
+    // Written in place: analyze() allocates nothing.
+    out.bandHz.lowHz = this.options.bandLowHz;
+    out.bandHz.highHz = Math.min(this.options.bandHighHz, this.sampleRateHz / 2);
     // Bin power → mean-square power: 2|X/Σw|² / ENBW. 0 dBFS is a full-scale sine, mean square 1/2.
     const toMeanSquare = 2 / this.enbwBins;
     const floor = 10 ** (FLOOR_DB / 10);

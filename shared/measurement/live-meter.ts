@@ -73,17 +73,16 @@ export class LiveMeter {
   private readonly guard: GlitchGuard;
   private readonly settle = new SettleTracker();
   /**
-   * With the generator off by design (a noise or hum measurement) there is no tone to settle on: the
-   * reading settles when its noise, unweighted and A-weighted, holds still. 0.5 dB: a frame's noise
-   * estimate sums thousands of bins and wanders far less; a moving cable or a thump moves it more.
+   * With nothing to measure but the unit's own output (generator off: a noise or hum step) the
+   * reading settles on its noise, unweighted and A-weighted, agreeing to 0.5 dB: a frame's noise
+   * estimate sums thousands of bins, so its own scatter is far below that, and what moves more is
+   * the unit (a thump dying away, a plug being fitted).
    */
   private readonly quietSettle = new SettleTracker({ levelToleranceDb: 0.5, thdToleranceDb: 0.5 });
   private readonly subAudio: SubAudioMeter | null;
   /** Frames averaged in step with the stimulus (1 when it is not locked and coherent). */
   private readonly averageDepth: number;
   private readonly knownFundamentalHz: number | null;
-  /** No tone is expected: the generator is off. */
-  private readonly quietByDesign: boolean;
   private readonly ring: Float32Array;
   private readonly frame: Float64Array;
   private readonly hopSamples: number;
@@ -114,7 +113,6 @@ export class LiveMeter {
     if (expectedFundamentalHz) this.guard.setToneHz(expectedFundamentalHz);
     this.subAudio = expectedFundamentalHz ? new SubAudioMeter(sampleRateHz, expectedFundamentalHz) : null;
     this.knownFundamentalHz = stimulusLocked ? expectedFundamentalHz : null;
-    this.quietByDesign = expectedFundamentalHz === null;
     const cycles = expectedFundamentalHz ? (expectedFundamentalHz * this.frameSize) / sampleRateHz : 0.5;
     const coherent = this.knownFundamentalHz !== null && Math.abs(cycles - Math.round(cycles)) < 1e-6;
     this.averageDepth = coherent ? Math.max(1, Math.round(this.config.synchronousAverages)) : 1;
@@ -203,11 +201,9 @@ export class LiveMeter {
     reading.sequence++;
     reading.discontinuities = this.discontinuities;
     reading.subAudioDbfs = this.subAudio?.levelDbfs() ?? null;
-    if (reading.flags.includes('no-signal') && this.quietByDesign) {
-      reading.settleProgress = this.quietSettle.add(reading.noiseDbfs, reading.noiseAWeightedDbfs);
-    } else if (reading.flags.includes('no-signal')) {
+    if (reading.flags.includes('no-signal')) {
       this.settle.reset();
-      reading.settleProgress = 0;
+      reading.settleProgress = this.quietSettle.add(reading.noiseDbfs, reading.noiseAWeightedDbfs);
     } else {
       this.quietSettle.reset();
       this.guard.setToneHz(reading.fundamental.frequencyHz);
@@ -240,11 +236,9 @@ export class LiveMeter {
    */
   private remainingSeconds(reading: Reading): number | null {
     if (reading.settled) return 0;
-    const quiet = reading.flags.includes('no-signal') && this.quietByDesign;
-    if (reading.flags.includes('no-signal') && !quiet && !this.waiting) return null;
+    const tracker = reading.flags.includes('no-signal') ? this.quietSettle : this.settle;
     const firstFrameDone = this.cleanFrom + this.frameSize;
     const nextReading = Math.max(firstFrameDone, this.nextReadingAt, this.written);
-    const tracker = quiet ? this.quietSettle : this.settle;
     const needed = this.waiting ? tracker.options.readingsToAgree : tracker.readingsNeeded;
     return (nextReading - this.written + (needed - 1) * this.hopSamples) / this.config.sampleRateHz;
   }

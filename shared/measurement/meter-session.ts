@@ -6,7 +6,9 @@
 
 import { LiveMeter, type LiveMeterConfig } from './live-meter.ts';
 
-export type MeterSessionSettings = Pick<LiveMeterConfig, 'expectedFundamentalHz' | 'harmonicCount' | 'mainsHz' | 'stimulusLocked' | 'chainFloorThdDb'>;
+export type MeterSessionSettings = Pick<LiveMeterConfig, 'expectedFundamentalHz' | 'harmonicCount' | 'mainsHz' | 'stimulusLocked' | 'chainFloorThdDb'> &
+  /** The band THD+N and noise are summed over; the meter's 20 Hz–20 kHz unless a step states its own. */
+  Partial<Pick<LiveMeterConfig, 'bandLowHz' | 'bandHighHz'>>;
 
 /**
  * A stimulus change reaches the input only after the interface's output and input latency (and
@@ -42,6 +44,9 @@ export class MeterSession {
       mainsHz: settings.mainsHz,
       stimulusLocked: settings.stimulusLocked,
       chainFloorThdDb: settings.chainFloorThdDb,
+      // Left out when not given, so the meter's own default applies (a spread undefined would not).
+      ...(settings.bandLowHz !== undefined && { bandLowHz: settings.bandLowHz }),
+      ...(settings.bandHighHz !== undefined && { bandHighHz: settings.bandHighHz }),
     };
     if (JSON.stringify(next) === JSON.stringify(this.settings)) return;
     this.settings = next;

@@ -70,6 +70,11 @@ export interface HarmonicAnalysis {
   noiseAWeightedDbfs: number;
   /** Mains hum, or null when none stands above the noise. */
   hum: HumLevel | null;
+  /**
+   * The band THD+N and noise were summed over, Hz (the top capped at Nyquist): a noise figure means
+   * nothing without it, so a check step's limit is judged only on a reading of its own band.
+   */
+  bandHz: { lowHz: number; highHz: number };
   /** Harmonic orders that cannot be told apart from mains or its multiples (flag 'mains-coincident'). */
   mainsCoincidentOrders: number[];
   flags: ReadingFlag[];
@@ -110,6 +115,7 @@ export function createHarmonicAnalysis(): HarmonicAnalysis {
     noiseDbfs: FLOOR_DB,
     noiseAWeightedDbfs: FLOOR_DB,
     hum: null,
+    bandHz: { lowHz: 0, highHz: 0 },
     mainsCoincidentOrders: [],
     flags: [],
   };

@@ -130,7 +130,11 @@ class Accumulator {
     this.harmonicFrequency = new Float64Array(harmonicCount + 1);
   }
 
+  /** Every frame is summed over the same band (one analyzer). */
+  private bandHz = { lowHz: 0, highHz: 0 };
+
   add(frame: HarmonicAnalysis): void {
+    this.bandHz = { ...frame.bandHz };
     if (this.count === 0) {
       this.firstPhaseDeg = frame.fundamental.phaseDeg;
       this.harmonicOrders = frame.harmonics.map((h) => h.order);
@@ -212,6 +216,7 @@ class Accumulator {
             components: humComponents,
           }
         : null,
+      bandHz: { ...this.bandHz },
       mainsCoincidentOrders: [...this.mainsCoincident].sort((a, b) => a - b),
       flags: [...this.flags],
     };

@@ -200,11 +200,29 @@ function whyNotOfStimulus(reading: Reading, stimulus: StimulusSetting, step: Sti
   );
 }
 
+/**
+ * The band a noise step's reading must have been summed over: the step's, its top capped at Nyquist
+ * as the meter caps it. A noise figure over another band is another quantity (AES17 states noise
+ * with its band), so it is never judged against this step's limit.
+ */
+export function noiseBandFor(step: Pick<Extract<CheckStep, { kind: 'noise' }>, 'band'>, sampleRateHz: number): { lowHz: number; highHz: number } {
+  return { lowHz: step.band.lowHz, highHz: Math.min(step.band.highHz, sampleRateHz / 2) };
+}
+
+const band = (b: { lowHz: number; highHz: number }) => `${hz(b.lowHz)}–${hz(b.highHz)}`;
+
 /** Why a reading with the generator off may not be judged as a noise or hum measurement. */
-function whyNotQuiet(reading: Reading, stimulus: StimulusSetting): string | null {
+function whyNotQuiet(reading: Reading, stimulus: StimulusSetting, step: CheckStep): string | null {
   if (stimulus.on) return 'The generator is on: this step measures the unit with it off. Turn it off.';
   const inconsistent = whyReadingInconsistent(reading);
   if (inconsistent) return inconsistent;
+  if (step.kind === 'noise') {
+    const wanted = noiseBandFor(step, reading.sampleRateHz);
+    // Half a hertz: the same band written twice, not a rounding of a different one.
+    if (Math.abs(reading.bandHz.lowHz - wanted.lowHz) > 0.5 || Math.abs(reading.bandHz.highHz - wanted.highHz) > 0.5) {
+      return `The reading's noise was summed over ${band(reading.bandHz)}, and this step measures it over ${band(wanted)}: set the meter to the step's band and wait for a new reading.`;
+    }
+  }
   if (reading.flags.includes('clipping')) return 'The input is clipping with the generator off: the unit is oscillating or something else feeds the input. Check the termination plug and the capture channel.';
   if (!reading.settled) return 'The reading has not settled: wait for it.';
   return null;
@@ -250,7 +268,7 @@ export function measureCheckStep(step: CheckStep, input: CheckInput): CheckOutco
 
   const request = generator.request;
   if (!request.on) {
-    const why = whyNotQuiet(first.reading, input.stimulus);
+    const why = whyNotQuiet(first.reading, input.stimulus, step);
     if (why) return { ok: false, refusal: why };
     // whyStepCannotRun has made sure the station is calibrated.
     const levels = input.levels as StationLevels;
@@ -330,7 +348,7 @@ function measureNoise(step: Extract<CheckStep, { kind: 'noise' }>, reading: Read
   // The meter states noise in dBFS referred to a full-scale sine (AES17), so the input's dBu at full
   // scale carries it to dBu unchanged.
   const dbfs = step.weighting === 'A' ? reading.noiseAWeightedDbfs : reading.noiseDbfs;
-  const note = `${step.weighting === 'A' ? 'A-weighted (IEC 61672)' : 'unweighted'}, in the meter's band; tones (mains hum, any stray tone) are taken out of it`;
+  const note = `${step.weighting === 'A' ? 'A-weighted (IEC 61672)' : 'unweighted'}, ${band(reading.bandHz)}; tones (mains hum, any stray tone) are taken out of it`;
   return result(step, [{ m: measurement('noiseDbu', dbuOf(dbfs, levels.inputDbuAtFullScale), step.limits.noiseDbu, note), label: step.weighting === 'A' ? 'Noise (A-weighted)' : 'Noise' }]);
 }
 

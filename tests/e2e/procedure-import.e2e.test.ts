@@ -17,22 +17,15 @@ afterAll(async () => {
 });
 
 describe('importing a procedure in the app', () => {
-  it('refuses the demo file with its checks, imports its trim as revision C once, names problems of a broken file, and the bench offers the new revision', async () => {
+  it('imports the demo file with its checks as revision C once, names problems of a broken file, and the bench offers the new revision', async () => {
     bench = await openBench({ captureWav: null });
     const page = await bench.openApp();
     await page.getByTestId('open-station').click();
     const message = page.getByTestId('import-message');
 
-    // The demo file with its check steps: refused, since this version cannot run them yet.
+    // The demo file with its check steps: imported whole. Pressed twice in a hurry: one import.
+    const demoFile = JSON.parse(readFileSync(RESOURCE, 'utf8'));
     bench.procedureFileChoice.path = RESOURCE;
-    await page.getByTestId('import-procedure').click();
-    await expect.poll(() => message.textContent(), POLL).toMatch(/has check steps .*cannot run yet/);
-    // Its notices and trim only: imported. Pressed twice in a hurry: one import.
-    const trimOnly = JSON.parse(readFileSync(RESOURCE, 'utf8'));
-    trimOnly.steps = trimOnly.steps.filter((step: { kind: string }) => step.kind === 'notice' || step.kind === 'trim');
-    const trimOnlyPath = join(tmpdir(), 'trimbench-trim-only-procedure.json');
-    writeFileSync(trimOnlyPath, JSON.stringify(trimOnly));
-    bench.procedureFileChoice.path = trimOnlyPath;
     await page.getByTestId('import-procedure').click();
     await page.getByTestId('import-procedure').click({ force: true }).catch(() => {});
     await expect.poll(() => message.textContent(), POLL).toMatch(/Imported MG20-LF-TRIM revision C|already stored exactly/);
@@ -40,7 +33,7 @@ describe('importing a procedure in the app', () => {
     const rows = (bench.station.db.prepare("SELECT COUNT(*) AS n FROM procedures WHERE code = 'MG20-LF-TRIM'").get() as { n: number }).n;
     expect(rows).toBe(2); // the built-in revision B and the imported C
 
-    const broken = structuredClone(trimOnly);
+    const broken = structuredClone(demoFile);
     broken.revision = 'E';
     broken.steps[1].limitThdDb = 'low';
     const brokenPath = join(tmpdir(), 'trimbench-broken-procedure.json');

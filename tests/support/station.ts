@@ -46,6 +46,7 @@ export function readingWithThd(thdDb: number, overrides: Partial<Reading> = {}):
     noiseDbfs: -120,
     noiseAWeightedDbfs: -122,
     hum: null,
+    bandHz: { lowHz: 20, highHz: 20000 },
     mainsCoincidentOrders: [],
     flags: [],
     ...overrides,
@@ -58,3 +59,19 @@ export const noCaller: CallerContext = {
   print: async () => false,
   chooseProcedureFile: async () => null,
 };
+
+/**
+ * A reading of the demo stimulus on a phasor line built by hand, H3(p) = 0.01·(1 − p/null) + j·0.0003
+ * (design §5's straight line through the null): the true null lies at `trueNull` turns and its depth
+ * is 20·log10(0.0003) = −70.5 dBc by construction.
+ */
+export function onPhasorLine(position: number, trueNull: number, overrides: Partial<Reading> = {}): Reading {
+  const re = 0.01 * (1 - position / trueNull);
+  const im = 0.0003;
+  const levelDbc = 20 * Math.log10(Math.hypot(re, im));
+  const phaseDeg = (Math.atan2(im, re) * 180) / Math.PI;
+  return readingWithThd(levelDbc, { harmonics: [{ order: 3, frequencyHz: 42, levelDbc, phaseDeg }], ...overrides });
+}
+
+/** Live readings since the move: the level holding with the trimmer still, as a settled stage does (common practice). */
+export const STEADY_LIVE = { levelsDbfs: Array<number>(12).fill(-12), lfDbfs: Array<number>(12).fill(-110) };

@@ -189,12 +189,24 @@ describe('levels from the station calibration (dBu definition: 0 dBu = √0.6 V 
   it('A-weighted noise in dBu is the dBFS figure (AES17: referred to a full-scale sine) on the input calibration', () => {
     // −100 dBFS of a 2.0 V RMS full-scale sine is 2.0·10^(−100/20) V RMS of noise.
     const expected = dbuOfVolts(2.0 * 10 ** (-100 / 20));
-    // The unweighted figure is different, so a step reading the wrong one is caught.
-    const reading = handReading(0, FLOOR_DB, { noiseAWeightedDbfs: -100, noiseDbfs: -94 });
+    // The unweighted figure is different, so a step reading the wrong one is caught. Summed over the
+    // step's own 22 Hz–22 kHz, as the demo file states its band.
+    const reading = handReading(0, FLOOR_DB, { noiseAWeightedDbfs: -100, noiseDbfs: -94, bandHz: { lowHz: 22, highHz: 22000 } });
     const result = expectMeasured(measureCheckStep(demoStep('noise-a'), { stimulus: OFF, levels, readings: [{ channel: 1, reading, inputDbuAtFullScale: levels.inputDbuAtFullScale }] }));
     expect(result.measurements[0].value).toBeCloseTo(expected, 9);
     // The demo limit is −85 dBu; −100 dBFS on 2.0 V is about −91.8 dBu.
     expect(result.measurements[0]).toMatchObject({ quantity: 'noiseDbu', unit: 'dBu', high: -85, verdict: 'pass' });
+  });
+
+  it('refuses a noise reading summed over another band than the step states (AES17: noise is stated with its band)', () => {
+    // The meter's own 20 Hz–20 kHz holds less noise than the demo step's 22 Hz–22 kHz: another quantity.
+    const reading = handReading(0, FLOOR_DB, { noiseAWeightedDbfs: -100, noiseDbfs: -94, bandHz: { lowHz: 20, highHz: 20000 } });
+    const outcome = measureCheckStep(demoStep('noise-a'), { stimulus: OFF, levels, readings: [{ channel: 1, reading, inputDbuAtFullScale: levels.inputDbuAtFullScale }] });
+    expect(outcome.ok).toBe(false);
+    if (!outcome.ok) expect(outcome.refusal).toMatch(/22\.00 Hz–22000 Hz/);
+    // At 44.1 kHz the meter can sum only up to Nyquist, 22 050 Hz: a band cut there is the step's band.
+    const at44k = handReading(0, FLOOR_DB, { sampleRateHz: 44100, noiseAWeightedDbfs: -100, noiseDbfs: -94, bandHz: { lowHz: 22, highHz: 22000 } });
+    expect(measureCheckStep(demoStep('noise-a'), { stimulus: OFF, levels, readings: [{ channel: 1, reading: at44k, inputDbuAtFullScale: levels.inputDbuAtFullScale }] }).ok).toBe(true);
   });
 
   it('refuses a noise reading taken with the generator on', () => {

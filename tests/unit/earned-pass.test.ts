@@ -8,21 +8,14 @@ import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { dispatch } from '../../electron/services/handlers.ts';
 import type { Reading } from '../../shared/measurement/reading.ts';
 import { DEMO_PROCEDURE } from '../../shared/procedures/demo-procedure.ts';
-import { noCaller, openTestStation, readingWithThd, tempDir } from '../support/station.ts';
+import { noCaller, onPhasorLine, openTestStation, readingWithThd, STEADY_LIVE, tempDir } from '../support/station.ts';
 
 const STIMULUS = { on: true, frequencyHz: DEMO_PROCEDURE.trim.stimulusHz, levelDbfs: DEMO_PROCEDURE.trim.stimulusLevelDbfs };
 const TRUE_NULL = 5;
-/** Live readings since the move: the level holding with the trimmer still, as a settled stage does (common practice). */
-const STEADY = { levelsDbfs: Array<number>(12).fill(-12), lfDbfs: Array<number>(12).fill(-110) };
+const STEADY = STEADY_LIVE;
 
 /** A reading on the constructed line at `position`, of the demo stimulus (14 Hz, −12 dBFS). */
-function onLine(position: number, overrides: Partial<Reading> = {}): Reading {
-  const re = 0.01 * (1 - position / TRUE_NULL);
-  const im = 0.0003;
-  const levelDbc = 20 * Math.log10(Math.hypot(re, im));
-  const phaseDeg = (Math.atan2(im, re) * 180) / Math.PI;
-  return readingWithThd(levelDbc, { harmonics: [{ order: 3, frequencyHz: 42, levelDbc, phaseDeg }], ...overrides });
-}
+const onLine = (position: number, overrides: Partial<Reading> = {}) => onPhasorLine(position, TRUE_NULL, overrides);
 
 let dir: ReturnType<typeof tempDir>;
 let station: ReturnType<typeof openTestStation>;
@@ -43,6 +36,13 @@ const record = (
   reading: Reading,
   extra: { stimulus?: typeof STIMULUS; unsettled?: 'refuse' | 'record-marked'; live?: typeof STEADY } = {},
 ) => station.records.recordTrimPoint({ runId, position, reading, live: extra.live ?? STEADY, stimulus: extra.stimulus ?? STIMULUS, unsettled: extra.unsettled });
+/** The demo's steps before Finish: its safety notice acknowledged, the trim completed (judged as the points stand). */
+const completeSteps = async () => {
+  if (!station.records.getRun(runId).stepResults.some((r) => r.stepId === 'safety')) {
+    expect(await dispatch(station.handlers, 'acknowledgeNotice', { runId, stepId: 'safety' }, noCaller)).toMatchObject({ ok: true });
+  }
+  expect(await dispatch(station.handlers, 'completeTrim', { runId, stepId: 'trim' }, noCaller)).toMatchObject({ ok: true });
+};
 const finish = (asFailure?: boolean) => dispatch(station.handlers, 'finishRun', asFailure === undefined ? { runId } : { runId, asFailure }, noCaller);
 
 describe('a trim point is a measurement of the stimulus', () => {
@@ -109,6 +109,10 @@ describe('finishing', () => {
     const refused = await finish();
     expect(!refused.ok && refused.error.message).toMatch(/not at the recommended/);
     record(recommended, onLine(recommended));
+    // PASS only when every step passed: the notice unacknowledged and the trim not completed, no PASS.
+    const unwalked = await finish();
+    expect(!unwalked.ok && unwalked.error.message).toMatch(/Step “safety” \(Safety\) was not run/);
+    await completeSteps();
     const passed = await finish();
     expect(passed.ok).toBe(true);
     const run = (passed as { value: { run: { verdict: string; verdictReasons: string[] } } }).value.run;
@@ -133,6 +137,7 @@ describe('finishing', () => {
       { runId, changes: [{ id: 'lf-instability', change: 'cleared', position: recommended, seen: 'sub-audio back within 20 dB' }] },
       noCaller,
     );
+    await completeSteps();
     const passed = await finish();
     expect(passed.ok).toBe(true);
     // Raised then cleared: both on the record, after the final point (5), at its position.

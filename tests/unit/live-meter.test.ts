@@ -25,6 +25,11 @@ function feed(meter: LiveMeter, samples: Float32Array): number[] {
   return h3;
 }
 
+/** Feeds `samples` in 10 ms blocks, whatever they hold. */
+function feed0(meter: LiveMeter, samples: Float32Array): void {
+  for (let at = 0; at + BLOCK <= samples.length; at += BLOCK) meter.push(samples.subarray(at, at + BLOCK));
+}
+
 function withBlockLost(samples: Float32Array, atSeconds: number): Float32Array {
   const cut = Math.round(atSeconds * RATE);
   const out = new Float32Array(samples.length - BLOCK);
@@ -84,6 +89,29 @@ describe('LiveMeter: never a reading across a capture discontinuity', () => {
     feed(meter, louder);
     expect(meter.discontinuities).toBe(0);
     expect(meter.reading.settled).toBe(false);
+  });
+
+  it('with the generator off, settles on the noise summed over the band it was given', () => {
+    // White Gaussian noise of σ = 10^(−80/20)/√2 full scale: −80 dBFS over the whole band up to
+    // Nyquist (AES17: a full-scale sine, mean square 1/2, is 0 dBFS). Over 22 Hz–20 kHz of the
+    // 22.05 kHz band the expected figure is −80 + 10·log10((20000 − 22)/22050) dB.
+    const sigma = 10 ** (-80 / 20) / Math.SQRT2;
+    let seed = 12345;
+    const uniform = () => ((seed = (seed * 1103515245 + 12345) % 2 ** 31) + 0.5) / 2 ** 31;
+    const noise = new Float32Array(RATE * 3);
+    for (let i = 0; i < noise.length; i += 2) {
+      const r = Math.sqrt(-2 * Math.log(uniform()));
+      const a = 2 * Math.PI * uniform();
+      noise[i] = sigma * r * Math.cos(a);
+      noise[i + 1] = sigma * r * Math.sin(a);
+    }
+    const meter = new LiveMeter({ sampleRateHz: RATE, bandLowHz: 22, bandHighHz: 20000 });
+    feed0(meter, noise);
+    expect(meter.reading.flags).toContain('no-signal');
+    expect(meter.reading.settled).toBe(true);
+    expect(meter.reading.settleRemainingS).toBe(0);
+    expect(meter.reading.bandHz).toEqual({ lowHz: 22, highHz: 20000 });
+    expect(meter.reading.noiseDbfs).toBeCloseTo(-80 + 10 * Math.log10((20000 - 22) / (RATE / 2)), 0);
   });
 
   it('works from a 14 Hz trim tone, whose frames are long', () => {

@@ -44,11 +44,15 @@ function variant(name: string, change: (file: Record<string, any>) => void): str
 const procedureRows = () => (station.db.prepare('SELECT COUNT(*) AS n FROM procedures').get() as { n: number }).n;
 
 describe('importing a procedure file', () => {
-  it('refuses a file with check steps, which this version cannot run: a unit must not pass checks it was never given', async () => {
-    const rows = procedureRows();
-    const refused = await importFile(RESOURCE);
-    expect(!refused.ok && refused.error.message).toMatch(/has check steps \(distortion, gain, noise, hum\).*cannot run yet/);
-    expect(procedureRows()).toBe(rows);
+  it('stores the demo file with its check steps whole: the run walks them (issue 10: "a run walks the procedure\'s steps in order")', async () => {
+    const imported = await importFile(RESOURCE);
+    expect(imported).toMatchObject({ ok: true, value: { outcome: 'stored', code: 'MG20-LF-TRIM', revision: 'C' } });
+    const stored = station.db.prepare("SELECT definition_json FROM procedures WHERE code = 'MG20-LF-TRIM' AND revision = 'C'").get() as { definition_json: string };
+    // Every step of the file, in its order, check steps included (the file itself is the expectation).
+    const file = JSON.parse(readFileSync(RESOURCE, 'utf8'));
+    expect(JSON.parse(stored.definition_json).value.steps.map((s: { id: string; kind: string }) => [s.id, s.kind])).toEqual(
+      file.steps.map((s: { id: string; kind: string }) => [s.id, s.kind]),
+    );
   });
 
   it('stores the demo file (notices and trim) as its revision, which new runs then use and name', async () => {

@@ -5,6 +5,7 @@ import { afterEach, beforeEach, describe, expect, it, vi } from 'vitest';
 import { existsSync, mkdirSync, readdirSync, readFileSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { createSheets, sheetFileName } from '../../electron/services/sheets.ts';
+import { sqliteRepository } from '../../electron/services/records-repository.ts';
 import { DEMO_PROCEDURE } from '../../shared/procedures/demo-procedure.ts';
 import { openTestStation, readingWithThd, tempDir } from '../support/station.ts';
 
@@ -154,8 +155,8 @@ describe('unit sheet saving', () => {
     // The same service over a records object that notes when the path is recorded.
     const sheets = createSheets(
       {
-        ...station.records,
-        setSheetPath: (id: number, path: string) => {
+        ...sqliteRepository(station.records),
+        setSheetPath: async (id: number, path: string) => {
           fsLog.push(`record ${path}`);
           station.records.setSheetPath(id, path);
         },

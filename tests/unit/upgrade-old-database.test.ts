@@ -48,11 +48,22 @@ describe('a database written by the schema-4 release', () => {
       expect(detail.trimPoints.map((p) => p.reading.thdDb)).toEqual([-40, -47.5, -55]);
       expect(detail.calibration).toBeNull();
       expect(detail.run.retestOf).toBeNull();
+      // Through migration 8: the old runs name no lot and no station row (their station text stays),
+      // and no step has a result, so the procedure's steps are all still to run.
+      expect(station.db.prepare('SELECT lot, station_id FROM runs ORDER BY id').all()).toEqual([
+        { lot: null, station_id: null },
+        { lot: null, station_id: null },
+      ]);
+      expect(detail.run.lot).toBeNull();
+      expect(station.db.prepare('SELECT (SELECT COUNT(*) FROM step_results) + (SELECT COUNT(*) FROM measurements) + (SELECT COUNT(*) FROM stations) AS n').get()).toEqual({ n: 0 });
+      expect(detail.stepResults).toEqual([]);
 
       // The open run resumes under its operator and takes a fourth point; the finished unit's retest needs a reason.
       const procedureId = station.records.listProcedures().find((p) => p.definition.code === DEMO_PROCEDURE.code)!.id;
       const open = station.records.openRun({ serial: 'MG20-2611-0502', procedureId, operator: 'A. Tester' });
       expect(open.trimPoints).toHaveLength(3);
+      // An unfinished run from before walks from step 1: the demo's safety notice (schema 1 upgraded).
+      expect(open.judgement.nextStepId).toBe('safety');
       station.records.recordTrimPoint({ runId: open.run.id, position: 4, reading: readingWithThd(-60), live: null, stimulus: STIMULUS });
       expect(station.records.getRun(open.run.id).trimPoints.map((p) => p.position)).toEqual([0, 1.5, 3, 4]);
       expect(() => station.records.openRun({ serial: 'MG20-2611-0501', procedureId, operator: 'A. Tester' })).toThrow(/Give the reason for the retest/);
