@@ -1,6 +1,7 @@
 import { useCallback, useEffect, useMemo, useRef, useState } from 'react';
 import { checkStimulus } from '../../shared/records/stimulus-check.ts';
 import { runPlan } from '../../shared/procedures/run-plan.ts';
+import { noiseBandFor } from '../../shared/procedures/check-steps.ts';
 import type { StationSettings } from '../../shared/calibration/station-settings.ts';
 import type { BenchAudio } from '../audio/bench-audio.ts';
 import type { MeterSettings } from '../worker/messages.ts';
@@ -58,22 +59,6 @@ export function App() {
   const choiceSetup = useMemo(() => audioChoice.describeChoice(captureRate ?? choice.sampleRateHz), [captureRate, choice.sampleRateHz, audioChoice.describeChoice]);
   const calibration = useCalibrationInUse(station.stationCalibration, setup, generator.generator.frequencyHz);
 
-  const meterSettings = useMemo<MeterSettings>(
-    () => ({
-      channel: choice.channel,
-      expectedFundamentalHz: generator.generator.on ? generator.generator.frequencyHz : null,
-      harmonicCount: HARMONIC_COUNT,
-      mainsHz: choice.mainsHz,
-      stimulusLocked: choice.sharedClock,
-      chainFloorThdDb: calibration.chainFloorThdDb,
-    }),
-    [choice.channel, choice.mainsHz, choice.sharedClock, generator.generator.on, generator.generator.frequencyHz, calibration.chainFloorThdDb],
-  );
-  // The meter follows the stimulus (long frames for low tones) and the station's mains and clocking.
-  useEffect(() => {
-    audio?.configureMeter(meterSettings);
-  }, [audio, meterSettings]);
-
   useEffect(() => {
     audio?.trimmerMoved(trimmerTurns);
   }, [audio, trimmerTurns]);
@@ -93,6 +78,27 @@ export function App() {
     mute: generator.mute,
     current: generator.now,
   });
+
+  const band = walk.mode === 'measure' && planned?.needs.kind === 'measure' ? planned.needs.band : null;
+  const bandRate = captureRate ?? choice.sampleRateHz;
+  const noiseBand = useMemo(() => (band ? noiseBandFor({ band }, bandRate) : null), [band?.lowHz, band?.highHz, bandRate]); // eslint-disable-line react-hooks/exhaustive-deps
+  const meterSettings = useMemo<MeterSettings>(
+    () => ({
+      channel: choice.channel,
+      expectedFundamentalHz: generator.generator.on ? generator.generator.frequencyHz : null,
+      harmonicCount: HARMONIC_COUNT,
+      mainsHz: choice.mainsHz,
+      stimulusLocked: choice.sharedClock,
+      chainFloorThdDb: calibration.chainFloorThdDb,
+      // A noise step's band: its figure is judged only over the band it states.
+      ...(noiseBand && { bandLowHz: noiseBand.lowHz, bandHighHz: noiseBand.highHz }),
+    }),
+    [choice.channel, choice.mainsHz, choice.sharedClock, generator.generator.on, generator.generator.frequencyHz, calibration.chainFloorThdDb, noiseBand],
+  );
+  // The meter follows the stimulus (long frames for low tones) and the station's mains and clocking.
+  useEffect(() => {
+    audio?.configureMeter(meterSettings);
+  }, [audio, meterSettings]);
 
   async function openRun(request: OpenRunRequest) {
     await run.open(request, setup);

@@ -50,6 +50,7 @@ export function StepWalk({
   }, [primaryRef]);
 
   async function finish(asFailure: boolean) {
+    setFinishProblem(null);
     try {
       await onFinish(asFailure);
     } catch (error) {
@@ -102,7 +103,7 @@ export function StepWalk({
         </div>
       )}
 
-      {judgement.finished && walk.mode !== 'measure' && (
+      {judgement.finished && walk.mode !== 'measure' ? (
         <div className={`finish ${judgement.verdict}`} data-testid="walk-finish">
           <p>
             Every step is judged: <strong data-testid="walk-verdict">{judgement.verdict === 'pass' ? 'PASS' : 'FAIL'}</strong>
@@ -126,14 +127,22 @@ export function StepWalk({
             {judgement.verdict === 'pass' ? 'Finish run and make the unit sheet' : 'Finish as FAIL and make the unit sheet'}
           </button>
         </div>
+      ) : (
+        // Before every step is judged, Finish ends the run only as a FAIL: main says what is missing first.
+        <div className="row">
+          <button type="button" disabled={pending} onClick={() => void finish(false)} data-testid="finish-run">
+            Finish run now…
+          </button>
+        </div>
       )}
       {finishProblem && (
         <div className="confirm" role="alertdialog" aria-label="The run was not finished" data-testid="finish-refusal">
           <p className="refusal">{finishProblem.text}</p>
           {finishProblem.canFail && (
             <div className="row">
+              {/* Go back holds the focus: a stray Enter does not fail the unit. */}
               <button type="button" autoFocus onClick={() => setFinishProblem(null)}>
-                Go back
+                Go back to the steps
               </button>
               <button type="button" className="warn" onClick={() => void finish(true)} disabled={pending} data-testid="finish-as-fail">
                 Finish as FAIL with these reasons

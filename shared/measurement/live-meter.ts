@@ -78,7 +78,7 @@ export class LiveMeter {
    * estimate sums thousands of bins, so its own scatter is far below that, and what moves more is
    * the unit (a thump dying away, a plug being fitted).
    */
-  private readonly quietSettle = new SettleTracker({ levelToleranceDb: 0.5, thdToleranceDb: 0.5 });
+  private readonly quietSettle = new SettleTracker({ levelToleranceDb: 0.5, thdToleranceDb: 0.5, thdFloorDb: null });
   private readonly subAudio: SubAudioMeter | null;
   /** Frames averaged in step with the stimulus (1 when it is not locked and coherent). */
   private readonly averageDepth: number;
