@@ -36,6 +36,8 @@ export function StepWalk({
   const step = procedureFile.steps.find((s) => s.id === walk.current) ?? null;
   const result = step ? (detail.stepResults.filter((r) => r.stepId === step.id).at(-1) ?? null) : null;
   const stopped = judgement.stoppedAt !== null;
+  // Nothing measured yet (at most a notice read): there is nothing to finish, only a unit to close.
+  const measuredAnything = detail.trimPoints.length > 0 || detail.stepResults.some((r) => r.kind !== 'notice');
 
   useEffect(() => {
     const onKey = (event: KeyboardEvent) => {
@@ -130,7 +132,7 @@ export function StepWalk({
       ) : (
         // Before every step is judged, Finish ends the run only as a FAIL: main says what is missing first.
         <div className="row">
-          <button type="button" disabled={pending} onClick={() => void finish(false)} data-testid="finish-run">
+          <button type="button" disabled={pending || !measuredAnything} onClick={() => void finish(false)} data-testid="finish-run">
             Finish run now…
           </button>
         </div>

@@ -6,7 +6,7 @@ import type { Reading } from '../../shared/measurement/reading.ts';
 import { whyNotRecordable } from '../../shared/records/stimulus-check.ts';
 import { judgeTrimRun } from '../../shared/records/verdict.ts';
 import type { LiveSeries, TrimWarning } from '../../shared/trim/trim-assistant.ts';
-import type { WarningChange } from '../../shared/trim/warning-tracker.ts';
+import { openLiveWarnings, type WarningChange } from '../../shared/trim/warning-tracker.ts';
 import { problemText } from '../problem-text.ts';
 import { AssistantSummary } from './AssistantSummary.tsx';
 import { fixed } from './format.ts';
@@ -169,8 +169,9 @@ export function TrimPanel({
   }
 
   const harmonic = `H${trim.harmonicOrder}`;
-  // What completing the trim would give now: main's own rule, so the technician knows before pressing it.
-  const outlook = trimPoints.length > 0 ? judgeTrimRun({ trimPoints, assessment, openLiveWarnings: warnings }, trim) : null;
+  // What completing the trim would give now: main's own rule on main's record (its warning log), so
+  // the technician knows before pressing it.
+  const outlook = trimPoints.length > 0 ? judgeTrimRun({ trimPoints, assessment, openLiveWarnings: openLiveWarnings(detail.warningLog) }, trim) : null;
   return (
     <section className="panel trim" aria-label="Trim step">
       <TrimWarnings warnings={warnings} anyPoints={trimPoints.length > 0} at={`${positionText} ${trim.positionUnit}`} />
