@@ -4,6 +4,7 @@ import { ApiError } from '../api.ts';
 import { problemText } from '../problem-text.ts';
 import { StepList } from './StepList.tsx';
 import { StepResultView } from './StepResultView.tsx';
+import { TrimPointsTable } from './TrimPointsTable.tsx';
 import type { useWalk } from './useWalk.ts';
 
 /**
@@ -88,6 +89,10 @@ export function StepWalk({
           ) : (
             <>
               {result ? <StepResultView result={result} /> : <p className="hint">Not run yet.</p>}
+              {/* The trim's points stay readable here, even when nothing more can be recorded. */}
+              {step.kind === 'trim' && detail.trimPoints.length > 0 && (
+                <TrimPointsTable points={detail.trimPoints} harmonicOrder={detail.procedure.trim.harmonicOrder} inputCalibration={null} busy onInclude={() => undefined} />
+              )}
               <div className="row">
                 {result && (
                   <button type="button" ref={primaryRef} autoFocus onClick={() => walk.repeat(step.id)} disabled={pending} data-testid="repeat-step">
@@ -137,20 +142,23 @@ export function StepWalk({
           </button>
         </div>
       )}
-      {finishProblem && (
-        <div className="confirm" role="alertdialog" aria-label="The run was not finished" data-testid="finish-refusal">
+      {finishProblem && !finishProblem.canFail && (
+        <p className="problem" role="alert" data-testid="finish-message">
+          {finishProblem.text}
+        </p>
+      )}
+      {finishProblem?.canFail && (
+        <div className="confirm" role="alertdialog" aria-label="The run cannot pass yet" data-testid="finish-refusal">
           <p className="refusal">{finishProblem.text}</p>
-          {finishProblem.canFail && (
-            <div className="row">
-              {/* Go back holds the focus: a stray Enter does not fail the unit. */}
-              <button type="button" autoFocus onClick={() => setFinishProblem(null)}>
-                Go back to the steps
-              </button>
-              <button type="button" className="warn" onClick={() => void finish(true)} disabled={pending} data-testid="finish-as-fail">
-                Finish as FAIL with these reasons
-              </button>
-            </div>
-          )}
+          <div className="row">
+            {/* Go back holds the focus: a stray Enter does not fail the unit. */}
+            <button type="button" autoFocus onClick={() => setFinishProblem(null)}>
+              Go back to the steps
+            </button>
+            <button type="button" className="warn" onClick={() => void finish(true)} disabled={pending} data-testid="finish-as-fail">
+              Finish as FAIL with these reasons
+            </button>
+          </div>
         </div>
       )}
       <div className="row">

@@ -57,6 +57,7 @@ async function settledSoon(page: Page, readingsOn: number) {
   );
 }
 
+const focusedTestId = (page: Page) => page.evaluate(() => document.activeElement?.getAttribute('data-testid') ?? null);
 const stepStatus = (page: Page, stepId: string) => page.locator(`[data-testid=step-list] li[data-step="${stepId}"]`).getAttribute('data-status');
 const currentStep = (page: Page) => page.getByTestId('current-step').getAttribute('data-step');
 
@@ -163,10 +164,22 @@ describe('the demo procedure walked whole', () => {
       await expect.poll(() => stepStatus(page, stepId), POLL).not.toBe('not-run');
     }
 
+    // A judged step can be repeated before the run is finished, by keyboard: its newest result counts.
+    await page.locator('[data-testid=step-list] li[data-step="gain-1khz"] button').click();
+    await expect.poll(() => focusedTestId(page), POLL).toBe('repeat-step');
+    await page.keyboard.press('Enter');
+    await expect.poll(() => page.getByTestId('check-primary').textContent(), POLL).toMatch(/^Turn on/);
+    await page.keyboard.press('Enter');
+    await expect.poll(() => page.getByTestId('check-primary').textContent(), POLL).toMatch(/^Record/);
+    await settledSoon(page, 2);
+    await page.keyboard.press('Enter');
+    await expect.poll(() => page.getByTestId('walk-finish').isVisible(), POLL).toBe(true);
+
     const runId = runIdOf(SERIAL);
     const detail = await bench.station.records.getRun(runId);
     expect(detail.run.lot).toBe(LOT);
     expect(detail.stepResults.filter((r) => r.stepId === 'thd-14hz')).toHaveLength(1);
+    expect(detail.stepResults.filter((r) => r.stepId === 'gain-1khz').map((r) => r.attempt)).toEqual([1, 2]);
     expect(detail.judgement.finished).toBe(true);
     await page.getByTestId('walk-finish').scrollIntoViewIfNeeded();
     await page.screenshot({ path: '/tmp/walk-finish.png' });
