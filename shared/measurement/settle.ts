@@ -10,20 +10,12 @@ export interface SettleOptions {
   levelToleranceDb: number;
   /** Largest spread of THD across them, dB. */
   thdToleranceDb: number;
-  /**
-   * THD below this is held at it: there the harmonics sit in the noise (a 10 kHz tone at 48 kHz has
-   * only H2 below Nyquist, often near −130 dB), and their wander of several dB from frame to frame is
-   * noise, not a unit still moving. Well below any distortion limit a procedure states. Null holds
-   * nothing (when the slot carries another level, as a quiet reading's A-weighted noise).
-   */
-  thdFloorDb: number | null;
 }
 
 export const DEFAULT_SETTLE_OPTIONS: SettleOptions = {
   readingsToAgree: 3,
   levelToleranceDb: 0.05,
   thdToleranceDb: 0.5,
-  thdFloorDb: -100,
 };
 
 /** How many of the newest values, walking back, stay within `tolerance` of each other (out of `filled`). */
@@ -72,8 +64,7 @@ export class SettleTracker {
     const size = this.levels.length;
     const newest = this.next;
     this.levels[newest] = levelDbfs;
-    const floor = this.options.thdFloorDb;
-    this.thds[newest] = floor === null ? thdDb : Math.max(thdDb, floor);
+    this.thds[newest] = thdDb;
     this.next = (newest + 1) % size;
     this.filled = Math.min(size, this.filled + 1);
     this.steady = Math.min(
