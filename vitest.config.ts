@@ -1,13 +1,21 @@
 import { defineConfig } from 'vitest/config';
 
+const shared = { testTimeout: 30_000, hookTimeout: 60_000 };
+
 export default defineConfig({
   test: {
-    include: ['tests/**/*.test.ts'],
-    // Browser tests start Chromium; on a 2-core machine one file at a time keeps timings honest.
-    fileParallelism: false,
-    testTimeout: 30_000,
     reporters: ['default', 'json'],
     outputFile: { json: 'out/test-results.json' },
-    hookTimeout: 60_000,
+    projects: [
+      {
+        // Node tests share nothing but the machine: two at a time use both cores.
+        test: { ...shared, name: 'unit', include: ['tests/unit/**/*.test.ts'], sequence: { groupOrder: 0 } },
+      },
+      {
+        // Browser tests start Chromium and feed it audio in real time: one file at a time, after the
+        // Node tests, so no reading waits on a core another test holds.
+        test: { ...shared, name: 'e2e', include: ['tests/e2e/**/*.test.ts'], fileParallelism: false, sequence: { groupOrder: 1 } },
+      },
+    ],
   },
 });

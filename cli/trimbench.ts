@@ -6,8 +6,11 @@
 //   npm run -s cli -- plan --target HZ --rate HZ [--mains 50|60] [--harmonics N] [--max-offset HZ] [--json]
 //   npm run -s cli -- fit FILE.csv [--margin-db X] [--step X] [--limit-dbc X] [--json]
 //   npm run -s cli -- procedure check FILE.json
+//   npm run -s cli -- sheet --data DIR --run N [--json]
+//   npm run -s cli -- demo-line --units N --data DIR [--seed S] [--json]
 
-import { readFileSync } from 'node:fs';
+import { existsSync, readFileSync } from 'node:fs';
+import { join } from 'node:path';
 import { parseArgs } from 'node:util';
 import { WavFormatError } from '../shared/audio/wav.ts';
 import { dbuFromDbfs, type LevelCalibration } from '../shared/levels.ts';
@@ -16,7 +19,16 @@ import { checkProcedureFile } from '../shared/procedures/procedure-file.ts';
 import { analyzeRecordSource, type RecordAnalysis } from '../shared/measurement/record-analysis.ts';
 import { adviseTrim, DEFAULT_TRIM_ASSISTANT_OPTIONS, describeThermalMargin } from '../shared/trim/trim-assistant.ts';
 import { parsePlainDecimal, parseTrimCsv, TrimCsvError } from '../shared/trim/trim-csv.ts';
+import { buildSheetModel, type SheetModel } from '../shared/sheet/sheet-model.ts';
 import { openWavFile, type WavFile, WavReadError } from './wav-file.ts';
+import { createCalibrations } from '../electron/services/calibrations.ts';
+import { openForReading, type Db } from '../electron/services/database.ts';
+import { createRecords } from '../electron/services/records.ts';
+import { sqliteRepository } from '../electron/services/records-repository.ts';
+import { DATABASE_FILE } from '../electron/services/station.ts';
+import { DemoLineProblem, runDemoLine, type DemoLineReport } from './demo-line.ts';
+import { ExpectedFailure } from '../electron/services/expected-failure.ts';
+import { LineCallRefused } from '../shared/procedures/demo-line.ts';
 
 // Wider than any audio interface's full scale (about −20 to +30 dBu), so a recording from an
 // unusual chain can still be read; anything outside is a typing error.
@@ -28,6 +40,8 @@ const USAGE = `usage:
   trimbench plan --target HZ --rate HZ [--mains 50|60] [--harmonics N] [--max-offset HZ] [--json]
   trimbench fit FILE.csv [--margin-db X] [--step X] [--limit-dbc X] [--json]
   trimbench procedure check FILE.json
+  trimbench sheet --data DIR --run N [--json]
+  trimbench demo-line --units N --data DIR [--seed S] [--json]
   trimbench help
 
   analyze   offline analysis of a WAV recording (refuses non-finite samples); with
@@ -38,7 +52,12 @@ const USAGE = `usage:
   fit       the trim assistant on a CSV of trim points
   procedure check
             validates a procedure file (docs/procedures.md): every problem on its own line,
-            its JSON path first, or a one-line summary when the file is good`;
+            its JSON path first, or a one-line summary when the file is good
+  sheet     what run N's unit sheet shows, read from the station database in the data folder DIR
+            (opened for reading only: nothing in it is changed); --json prints the sheet model
+  demo-line runs the demo procedure (invented MG-20) on N simulated units with a scripted
+            technician and writes the runs into the station database in DIR; --seed S
+            (a whole number, default 1) picks the batch`;
 
 /** A problem with the user's input: printed as one line, exit status 1. */
 class UsageProblem extends Error {}
@@ -360,7 +379,118 @@ function procedure(args: string[]): string {
   return `${file}: ${result.summary}`;
 }
 
-function main(argv: string[]): number {
+/** The station database in a data folder, opened for reading only; the problem in words when it cannot be. */
+function openStationForReading(dir: string): Db {
+  const file = join(dir, DATABASE_FILE);
+  if (!existsSync(file)) throw new UsageProblem(`${dir}: no station database here (${DATABASE_FILE} not found); give --data the data folder the station uses`);
+  try {
+    return openForReading(file);
+  } catch (error) {
+    if (error instanceof ExpectedFailure) throw new UsageProblem(error.message);
+    const code = (error as { code?: unknown }).code;
+    if (typeof code === 'string') throw new UsageProblem(`${file}: cannot be read as a station database (${code}); keep the file and tell the station's maintainer`);
+    throw error;
+  }
+}
+
+async function sheet(args: string[]): Promise<string> {
+  const { values, positionals } = parseArgs({
+    args,
+    allowPositionals: true,
+    strict: true,
+    options: { data: { type: 'string' }, run: { type: 'string' }, json: { type: 'boolean', default: false } },
+  });
+  if (positionals.length > 0) throw new UsageProblem(`sheet takes no file: give --data DIR and --run N\n${USAGE}`);
+  const runId = numberOption('run', values.run, (v) => Number.isInteger(v) && v >= 1 && v <= Number.MAX_SAFE_INTEGER, 'a run number, a whole number from 1');
+  if (values.data === undefined || runId === undefined) throw new UsageProblem(`sheet needs --data DIR and --run N\n${USAGE}`);
+  const db = openStationForReading(values.data);
+  let model: SheetModel;
+  try {
+    const refuse = () => {
+      throw new ExpectedFailure('The command line reads the records; it never writes them.');
+    };
+    const records = createRecords(db, {
+      stationName: () => '',
+      calibrations: createCalibrations(db, { stationName: () => '', refuseUnlessWritable: refuse }),
+      whyNotWritable: () => 'The command line reads the records; it never writes them.',
+      // What the technician is not shown in the app goes to its log; here, to stderr.
+      onUnreadable: (record) => process.stderr.write(`${record.what}: ${record.detail}\n`),
+    });
+    model = buildSheetModel(await sqliteRepository(records).getRun(runId));
+  } catch (error) {
+    if (error instanceof ExpectedFailure) throw new UsageProblem(error.message);
+    throw error;
+  } finally {
+    db.close();
+  }
+  return values.json ? JSON.stringify(model) : sheetText(model);
+}
+
+/** The sheet's gist as lines: the verdict, then each step with its values against their limits. */
+function sheetText(model: SheetModel): string {
+  const lines = [
+    `${model.unit.serial} — run ${model.runId}, ${model.procedure.code} revision ${model.procedure.revision}: ${model.verdict.text}`,
+    ...model.verdict.reasons.map((reason) => `  ${reason}`),
+    ...(model.verdict.discrepancy ? [`  ${model.verdict.discrepancy}`] : []),
+  ];
+  for (const step of model.steps) {
+    lines.push(`${String(step.number).padStart(2)} ${step.id.padEnd(16)} ${step.statusText}`);
+    for (const m of step.measurements) lines.push(`     ${m.label.padEnd(10)} ${m.valueText.padStart(14)}   limit ${m.limitText}${m.failing ? '   FAIL' : ''}`);
+  }
+  return lines.join('\n');
+}
+
+async function demoLine(args: string[]): Promise<string> {
+  const { values, positionals } = parseArgs({
+    args,
+    allowPositionals: true,
+    strict: true,
+    options: { units: { type: 'string' }, data: { type: 'string' }, seed: { type: 'string' }, json: { type: 'boolean', default: false } },
+  });
+  if (positionals.length > 0) throw new UsageProblem(`demo-line takes no file\n${USAGE}`);
+  const units = numberOption('units', values.units, (v) => Number.isInteger(v) && v >= 1 && v <= 9999, 'a whole number of units from 1 to 9999');
+  if (units === undefined) throw new UsageProblem(`demo-line needs --units N\n${USAGE}`);
+  if (values.data === undefined || values.data.trim() === '') throw new UsageProblem(`demo-line needs --data DIR, the station's data folder\n${USAGE}`);
+  const seed = numberOption('seed', values.seed, (v) => Number.isInteger(v) && v >= 0 && v < 2 ** 32, 'a whole number from 0 to 4294967295') ?? 1;
+  const startedAt = performance.now();
+  let report: DemoLineReport;
+  try {
+    report = await runDemoLine({
+      units,
+      dataDir: values.data,
+      seed,
+      // Progress on one line of stderr, so stdout stays the result alone.
+      onUnitDone: values.json
+        ? undefined
+        : (done, total) => {
+            const perUnit = (performance.now() - startedAt) / 1000 / done;
+            process.stderr.write(`\r${done}/${total} units done, about ${Math.ceil(perUnit * (total - done))} s left `);
+            if (done === total) process.stderr.write('\n');
+          },
+    });
+  } catch (error) {
+    if (error instanceof DemoLineProblem || error instanceof ExpectedFailure || error instanceof LineCallRefused) throw new UsageProblem((error as Error).message);
+    throw error;
+  }
+  if (values.json) return JSON.stringify(report);
+  const minutes = (performance.now() - startedAt) / 60000;
+  return [
+    'serial           verdict  final  true null  points  failed steps',
+    ...report.units.map((u) =>
+      [
+        u.serial.padEnd(17),
+        u.verdict.toUpperCase().padEnd(9),
+        (u.trim.finalPosition?.toFixed(2) ?? '—').padStart(5),
+        u.trim.trueNullPosition.toFixed(2).padStart(11),
+        String(u.trim.points).padStart(8),
+        `  ${u.steps.filter((s) => s.verdict === 'fail').map((s) => s.id).join(', ') || '—'}`,
+      ].join(''),
+    ),
+    `${report.passed} passed, ${report.failed} failed, ${(report.units.length / minutes).toFixed(1)} units a minute; the runs are in ${values.data}`,
+  ].join('\n');
+}
+
+async function main(argv: string[]): Promise<number> {
   const [command, ...rest] = argv;
   try {
     if (command === 'help' || command === '--help' || command === '-h') process.stdout.write(`${USAGE}\n`);
@@ -368,6 +498,8 @@ function main(argv: string[]): number {
     else if (command === 'plan') process.stdout.write(`${plan(rest)}\n`);
     else if (command === 'fit') process.stdout.write(`${fit(rest)}\n`);
     else if (command === 'procedure') process.stdout.write(`${procedure(rest)}\n`);
+    else if (command === 'sheet') process.stdout.write(`${await sheet(rest)}\n`);
+    else if (command === 'demo-line') process.stdout.write(`${await demoLine(rest)}\n`);
     else throw new UsageProblem(command ? `unknown command “${command}”\n${USAGE}` : USAGE);
     return 0;
   } catch (error) {
@@ -389,4 +521,4 @@ function main(argv: string[]): number {
   }
 }
 
-process.exitCode = main(process.argv.slice(2));
+process.exitCode = await main(process.argv.slice(2));

@@ -49,6 +49,7 @@ export function createHandlers({ records, sheets, calibrations, settings, statio
     // Asked afresh on each call: a name changed in the settings, or a problem found after start, shows from then on.
     describeStation: async () => ({ ...station, stationName: settings.get().stationName, recordsProblem: await records.whyNotWritable() }),
     listProcedures: () => records.listProcedures(),
+    listProcedureRevisions: () => records.listProcedureRevisions(),
     openRun: (request) => records.openRun(request),
     lookUpUnit: ({ serial }) => records.lookUpUnit(serial),
     recordTrimPoint: (request) => records.recordTrimPoint(request),
@@ -127,6 +128,7 @@ export const CHANNEL_ACTIONS: Record<IpcChannel, string> = {
   recordChainCheck: 'record the chain check',
   listCalibrations: 'list the calibrations',
   importProcedure: 'import the procedure',
+  listProcedureRevisions: 'list the procedure revisions',
 };
 
 /** Issues kept in the log for one refused call: enough to see the pattern, never a 10^6-item dump. */

@@ -9,6 +9,7 @@ import type { Records } from './records.ts';
 const OPERATIONS = [
   'whyNotWritable',
   'listProcedures',
+  'listProcedureRevisions',
   'importProcedure',
   'ensureProcedure',
   'openRun',

@@ -739,6 +739,33 @@ export function createRecords(
       }).immediate();
     },
 
+    /**
+     * Every stored revision of every procedure, whole (a schema-1 one as its upgrade), by code and
+     * then as stored, with how many runs name it; an unreadable one is left out (and logged).
+     */
+    listProcedureRevisions(): import('../../shared/ipc/contract.ts').ProcedureRevision[] {
+      const rows = db
+        .prepare<[], ProcedureRow & { runs: number; current: number }>(
+          `SELECT procedures.*, (SELECT COUNT(*) FROM runs WHERE runs.procedure_id = procedures.id) AS runs,
+             procedures.id = (SELECT MAX(id) FROM procedures AS p WHERE p.code = procedures.code) AS current
+           FROM procedures ORDER BY code, id`,
+        )
+        .all();
+      return rows.flatMap((row) => {
+        const what = `procedure ${row.code} revision ${row.revision}`;
+        try {
+          checkSealed('procedures', row, what);
+          const stored = fromStoredJson(row.definition_json, storedProcedureDefinition, what);
+          const file = stored.schemaVersion === 1 ? upgradeProcedure(stored) : stored;
+          return [{ id: row.id, code: row.code, revision: row.revision, modelCode: file.model.code, current: row.current === 1, file, runs: row.runs }];
+        } catch (error) {
+          if (!(error instanceof UnreadableRecord)) throw error;
+          onUnreadable(error);
+          return [];
+        }
+      });
+    },
+
     /** The newest revision of each procedure; an unreadable one is left out (and logged), never guessed at. */
     listProcedures(): StoredProcedure[] {
       const readable: StoredProcedure[] = [];

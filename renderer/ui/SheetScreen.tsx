@@ -35,5 +35,5 @@ export function SheetScreen({ detail, onBack }: { detail: RunDetail; onBack(): v
     }
   }
 
-  return <UnitSheet detail={detail} procedure={detail.procedure} pdfPath={pdfPath} message={message} onPrint={() => void print()} onBack={onBack} />;
+  return <UnitSheet detail={detail} pdfPath={pdfPath} message={message} onPrint={() => void print()} onBack={onBack} />;
 }

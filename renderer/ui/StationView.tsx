@@ -185,7 +185,7 @@ export function StationView({
         </div>
       </div>
       <CalibrationHistory history={history} problem={historyProblem} />
-      <ProceduresPanel procedures={procedures} onImported={onProceduresChanged} />
+      <ProceduresPanel onImported={onProceduresChanged} />
     </div>
   );
 }

@@ -11,7 +11,7 @@ export function StepResultView({ result }: { result: StepResult }) {
         {result.attempt > 1 ? ` (attempt ${result.attempt})` : ''} · recorded {localTime(result.recordedAt)}
       </p>
       {result.reasons.length > 0 && (
-        <ul className="reasons">
+        <ul className="step-reasons">
           {result.reasons.map((r) => (
             <li key={r}>{r}</li>
           ))}

@@ -116,7 +116,7 @@ export function StepWalk({
             Every step is judged: <strong data-testid="walk-verdict">{judgement.verdict === 'pass' ? 'PASS' : 'FAIL'}</strong>
           </p>
           {judgement.reasons.length > 0 && (
-            <ul className="reasons" data-testid="walk-reasons">
+            <ul className="step-reasons" data-testid="walk-reasons">
               {judgement.reasons.map((r) => (
                 <li key={r}>{r}</li>
               ))}

@@ -20,8 +20,6 @@ import { useLiveWarnings } from './useLiveWarnings.ts';
 import { WarmCheckForm } from './WarmCheckForm.tsx';
 import type { GeneratorCommand } from '../worker/messages.ts';
 
-export { WARNING_TITLES } from './TrimWarnings.tsx';
-export type { UnsettledChoice };
 // A reading older than this is not recorded: the stream has stopped.
 const STALE_READING_MS = 2000;
 

@@ -1,12 +1,5 @@
 import type { TrimWarning } from '../../shared/trim/trim-assistant.ts';
-
-export const WARNING_TITLES: Record<TrimWarning['id'], string> = {
-  'gain-rise': 'Gain rising',
-  'lf-instability': 'Low-frequency instability',
-  'amplitude-wander': 'Level wandering',
-  clipping: 'Clipping',
-  'past-null': 'Past the null',
-};
+import { WARNING_TITLES } from '../../shared/trim/warning-titles.ts';
 
 /** The warnings that hold at the typed position, or (once there are points) a quiet line in their place. */
 export function TrimWarnings({ warnings, anyPoints, at }: { warnings: readonly TrimWarning[]; anyPoints: boolean; at: string }) {

@@ -1,16 +1,7 @@
-// Number formatting for readouts and sheets: fixed decimals, a real minus sign.
+// Formatting for readouts and sheets: numbers (shared with the sheet model) and local times, which
+// only the page can say (its clock's zone).
 
-export function fixed(value: number | null | undefined, decimals: number): string {
-  if (value === null || value === undefined || !Number.isFinite(value)) return '—';
-  return value.toFixed(decimals).replace('-', '−');
-}
-
-export function percent(value: number): string {
-  if (!Number.isFinite(value)) return '—';
-  if (value === 0) return '0 %';
-  const decimals = value >= 1 ? 2 : Math.min(6, 1 - Math.floor(Math.log10(value)));
-  return `${value.toFixed(decimals)} %`;
-}
+export { fixed, percent } from '../../shared/format.ts';
 
 const two = (n: number) => String(n).padStart(2, '0');
 

@@ -22,6 +22,7 @@ export const IPC_CHANNELS = [
   'recordChainCheck',
   'listCalibrations',
   'importProcedure',
+  'listProcedureRevisions',
 ] as const;
 
 export type IpcChannel = (typeof IPC_CHANNELS)[number];

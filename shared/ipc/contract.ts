@@ -192,6 +192,18 @@ export const stationSchema = z.object({
 
 export const storedProcedureSchema = z.object({ id: rowId, definition: procedureSchema });
 
+/** One stored revision of a procedure, whole (a schema-1 one as its upgrade), and how many runs name it. */
+export const procedureRevisionSchema = z.object({
+  id: rowId,
+  code: z.string(),
+  revision: z.string(),
+  modelCode: z.string(),
+  /** The revision new runs of this procedure use: the newest stored. */
+  current: z.boolean(),
+  file: procedureFileSchema,
+  runs: z.number().int().nonnegative(),
+});
+
 export const runSchema = z.object({
   id: rowId,
   serial: z.string(),
@@ -393,6 +405,8 @@ const nothing = z.object({}).strict();
 export const contract = {
   describeStation: { request: nothing, response: stationSchema },
   listProcedures: { request: nothing, response: z.array(storedProcedureSchema) },
+  /** Every stored revision of every procedure, each whole, for the procedures view. */
+  listProcedureRevisions: { request: nothing, response: z.array(procedureRevisionSchema) },
   openRun: {
     request: z
       .object({
@@ -539,4 +553,5 @@ export type WarningLogEntry = z.infer<typeof warningLogEntrySchema>;
 export type StimulusSettingRequest = z.infer<typeof stimulusSettingSchema>;
 export type StationCalibration = z.infer<typeof stationCalibrationSchema>;
 export type StepResult = z.infer<typeof stepResultSchema>;
+export type ProcedureRevision = z.infer<typeof procedureRevisionSchema>;
 export type StoredMeasurement = z.infer<typeof measurementSchema>;

@@ -51,6 +51,15 @@ export const DEFAULT_LIVE_METER_CONFIG: Omit<LiveMeterConfig, 'sampleRateHz'> = 
   chainFloorThdDb: null,
 };
 
+/**
+ * Below this THD the harmonics are under the noise in their bins, so THD scatters by decibels from
+ * one reading to the next however long the unit is left: waiting for it to agree would never end
+ * (a clean unit at 10 kHz, whose counted harmonics are noise). Settling then rests on the
+ * fundamental alone; the value measured is unchanged. −110 dB (0.0003 %) is under the residual
+ * distortion of nearly every audio interface (common practice, from memory).
+ */
+export const SETTLE_THD_FLOOR_DB = -110;
+
 // Cycles of the fundamental per frame: the 7-term window's main lobe spans ±7 bins and each
 // tone is fitted on ±3 more, so harmonics 12 bins apart never share fit bins.
 export const CYCLES_PER_FRAME = 12;
@@ -78,7 +87,7 @@ export class LiveMeter {
    * estimate sums thousands of bins, so its own scatter is far below that, and what moves more is
    * the unit (a thump dying away, a plug being fitted).
    */
-  private readonly quietSettle = new SettleTracker({ levelToleranceDb: 0.5, thdToleranceDb: 0.5, thdFloorDb: null });
+  private readonly quietSettle = new SettleTracker({ levelToleranceDb: 0.5, thdToleranceDb: 0.5 });
   private readonly subAudio: SubAudioMeter | null;
   /** Frames averaged in step with the stimulus (1 when it is not locked and coherent). */
   private readonly averageDepth: number;
@@ -207,7 +216,7 @@ export class LiveMeter {
     } else {
       this.quietSettle.reset();
       this.guard.setToneHz(reading.fundamental.frequencyHz);
-      reading.settleProgress = this.settle.add(reading.fundamental.levelDbfs, reading.thdDb);
+      reading.settleProgress = this.settle.add(reading.fundamental.levelDbfs, Math.max(reading.thdDb, SETTLE_THD_FLOOR_DB));
     }
     reading.settled = reading.settleProgress >= 1;
     reading.settleRemainingS = this.remainingSeconds(reading);

@@ -356,9 +356,11 @@ function measureHum(step: Extract<CheckStep, { kind: 'hum' }>, reading: Reading,
   const limit = step.limits.humDbu;
   if (reading.hum === null) {
     // No hum component stands 10 dB above the noise in its own bandwidth; the noise over the whole
-    // band holds thousands of such bandwidths, so it bounds the hum from above.
-    const bound = dbuOf(reading.noiseDbfs, levels.inputDbuAtFullScale);
-    const note = `no hum stands above the noise: the value is the unweighted noise in the band, an upper bound for the hum`;
+    // band holds thousands of such bandwidths, so it bounds the hum from above. With the generator
+    // off the meter takes the strongest tone for its fundamental and leaves it out of the noise and
+    // of the hum: that tone may be the hum itself (louder than the noise), so it is added back.
+    const bound = dbuOf(powerSumDb([reading.noiseDbfs, reading.fundamental.levelDbfs]), levels.inputDbuAtFullScale);
+    const note = `no hum stands apart from the noise: the value is the unweighted noise in the band with the strongest tone found, an upper bound for the hum`;
     return result(step, [{ m: measurement('humDbu', bound, limit, note), label: 'Hum (upper bound)' }]);
   }
   const components = reading.hum.components.filter((c) => c.order <= step.mainsHarmonics);

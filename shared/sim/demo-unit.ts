@@ -19,9 +19,13 @@ import { SineSource, type StimulusSetting } from '../dsp/sine-source.ts';
 export interface DemoUnitParameters {
   /** Driver output volts for a full-scale input. */
   driveVoltsPerFullScale: number;
+  /** The driver's own voltage gain relative to nominal (its gain-setting resistors): 1 on a unit built to value. */
+  driverGain: number;
   driverRailVolts: number;
-  /** Driver third-harmonic coefficient on the normalised input: x − d₃·x³. */
+  /** Driver third-harmonic coefficient on the normalised input: x + d₂·x² − d₃·x³. */
   driverCubic: number;
+  /** Driver second-order coefficient (an asymmetric output stage): zero on a unit built to value. */
+  driverSquare: number;
   /** Driver output noise, volts RMS over the full band. */
   driverNoiseVolts: number;
   windingOhms: number;
@@ -44,8 +48,10 @@ export interface DemoUnitParameters {
 /** Invented values for the invented "MG-20" (design §9). */
 export const DEMO_UNIT_PARAMETERS: DemoUnitParameters = {
   driveVoltsPerFullScale: 10,
+  driverGain: 1,
   driverRailVolts: 14,
   driverCubic: 2e-3,
+  driverSquare: 0,
   driverNoiseVolts: 3e-5,
   windingOhms: 120,
   sourceOhms: 10,
@@ -59,6 +65,11 @@ export const DEMO_UNIT_PARAMETERS: DemoUnitParameters = {
   humDbfs: -105,
   mainsHz: 50,
 };
+
+/** The trimmer position where the net resistance R0 − R_c(p) is zero, from the parameters alone. */
+export function nullTurnsOf(p: Pick<DemoUnitParameters, 'windingOhms' | 'sourceOhms' | 'compensationOhmsPerTurn'>): number {
+  return (p.windingOhms + p.sourceOhms) / p.compensationOhmsPerTurn;
+}
 
 export class DemoUnit {
   readonly sampleRateHz: number;
@@ -83,8 +94,7 @@ export class DemoUnit {
 
   /** Where the null lies: net resistance zero (first order; within 0.02 turns of the deepest H3). */
   get trueNullTurns(): number {
-    const p = this.parameters;
-    return (p.windingOhms + p.sourceOhms) / p.compensationOhmsPerTurn;
+    return nullTurnsOf(this.parameters);
   }
 
   get netResistanceOhms(): number {
@@ -130,7 +140,7 @@ export class DemoUnit {
       const remaining = this.trimmerTarget - this.trimmerTurns;
       this.trimmerTurns = Math.abs(remaining) <= stepTurns ? this.trimmerTarget : this.trimmerTurns + Math.sign(remaining) * stepTurns;
     }
-    const drive = p.driveVoltsPerFullScale * (x - p.driverCubic * x * x * x) + p.driverNoiseVolts * this.noise.next();
+    const drive = p.driverGain * p.driveVoltsPerFullScale * (x + p.driverSquare * x * x - p.driverCubic * x * x * x) + p.driverNoiseVolts * this.noise.next();
     // Classic fourth-order Runge-Kutta on (flux, capacitor volts); the drive is held over the step.
     const psi = this.flux;
     const vc = this.capacitorVolts;

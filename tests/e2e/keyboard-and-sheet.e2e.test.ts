@@ -4,13 +4,16 @@
 
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { execFileSync } from 'node:child_process';
-import { copyFileSync, mkdtempSync, writeFileSync } from 'node:fs';
+import { copyFileSync, mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { encodeWavFloat32 } from '../../shared/audio/wav.ts';
 import type { Page } from 'playwright-core';
 import { acknowledgeNotice, openBench, type Bench, POLL } from '../harness/bench-harness.ts';
 import { readingWithThd } from '../support/station.ts';
+import type { RunDetail, StepResult } from '../../shared/ipc/contract.ts';
+import { procedureFileSchema } from '../../shared/procedures/procedure-file.ts';
+import { judgeUnit } from '../../shared/procedures/unit-verdict.ts';
 
 let bench: Bench;
 beforeAll(async () => {
@@ -173,24 +176,34 @@ function trimReading(position: number) {
   return reading;
 }
 
-async function sheetPdf(serial: string, positions: number[]): Promise<{ pages: string[]; verdict: string }> {
+/** What main's finishRun answers, changed by the test (to stand in for step results main does not record yet). */
+type FinishedDetail = (detail: RunDetail) => RunDetail;
+
+async function sheetPdf(serial: string, positions: number[], finished?: FinishedDetail): Promise<{ pages: string[]; verdict: string; pdfPath: string }> {
   const procedureId = bench.station.records.listProcedures()[0]!.id;
   const { run } = bench.station.records.openRun({ serial, procedureId, operator: 'A. Tester' });
   for (const position of positions) bench.station.records.recordTrimPoint({ runId: run.id, position, reading: trimReading(position), live: null, stimulus: { on: true, frequencyHz: 14, levelDbfs: -12 } });
   const page = await bench.openApp();
   await openUnitByKeyboard(page, serial); // reopens the run with its points
   await expect.poll(() => page.getByTestId('trim-points').locator('tbody tr').count(), POLL).toBe(positions.length);
-  await page.getByTestId('finish-run').click();
-  // These points never reach a recommendation (all far short of the null): the run cannot pass.
-  await page.getByTestId('finish-as-fail').click();
-  await expect.poll(() => page.getByTestId('sheet-pdf-path').textContent(), { timeout: 20_000 }).toMatch(/^Saved as /);
+  const handlers = bench.station.handlers;
+  const realFinish = handlers.finishRun;
+  if (finished) handlers.finishRun = async (request, caller) => finished(await realFinish(request, caller));
+  try {
+    await page.getByTestId('finish-run').click();
+    // These points never reach a recommendation (all far short of the null): the run cannot pass.
+    await page.getByTestId('finish-as-fail').click();
+    await expect.poll(() => page.getByTestId('sheet-pdf-path').textContent(), { timeout: 20_000 }).toMatch(/^Saved as /);
+  } finally {
+    handlers.finishRun = realFinish;
+  }
   const pdfPath = (await page.getByTestId('sheet-pdf-path').textContent())!.replace(/^Saved as /, '');
   copyFileSync(pdfPath, `/tmp/trimbench-sheet-${positions.length}-points.pdf`); // for a look by eye
   const pageCount = Number(/Pages:\s+(\d+)/.exec(execFileSync('pdfinfo', [pdfPath], { encoding: 'utf8' }))![1]);
   const pages = Array.from({ length: pageCount }, (_, i) =>
     execFileSync('pdftotext', ['-layout', '-f', String(i + 1), '-l', String(i + 1), pdfPath, '-'], { encoding: 'utf8' }),
   );
-  return { pages, verdict: (await page.getByTestId('sheet-verdict').textContent())! };
+  return { pages, verdict: (await page.getByTestId('sheet-verdict').textContent())!, pdfPath };
 }
 
 describe('the unit sheet’s pages', () => {
@@ -220,5 +233,62 @@ describe('the unit sheet’s pages', () => {
       expect(text).toContain(serial);
       expect(text).toContain(`page ${i + 1} of ${pages.length}`);
     });
+  });
+
+  it('prints the demo procedure — every step with its values and limits, and a ten-point trim — on one A4 page (ISO 216: 210 × 297 mm)', { timeout: 60_000 }, async () => {
+    // Main does not record step results yet (issue 10, in progress): its finished run is given the
+    // demo file's revision and one result per step here, as main will hold them.
+    const file = procedureFileSchema.parse(JSON.parse(readFileSync(new URL('../../resources/procedures/mg20-lf-trim.json', import.meta.url), 'utf8')));
+    const m = (quantity: string, value: number, unit: string, low: number | null, high: number | null, note: string | null = null) => ({
+      quantity, value, unit, low, high, note,
+      // Inclusive limits (docs/procedures.md): low ≤ value ≤ high passes.
+      verdict: (low === null || value >= low) && (high === null || value <= high) ? ('pass' as const) : ('fail' as const),
+    });
+    const measured: Record<string, ReturnType<typeof m>[]> = {
+      'lf-trim': [m('thdDb', -62.1, 'dB', null, -60)],
+      'thd-14hz': [m('thdDb', -51.2, 'dB', null, -50), m('harmonicsDbc.H3', -52.4, 'dBc', null, -52)],
+      'thd-20hz': [m('thdDb', -58.0, 'dB', null, -55), m('harmonicsDbc.H3', -58.6, 'dBc', null, -57)],
+      'thd-50hz': [m('thdDb', -66.3, 'dB', null, -62)],
+      'thd-1khz': [m('thdDb', -78.9, 'dB', null, -70), m('thdnDb', -73.5, 'dB', null, -66)],
+      'thd-10khz': [m('thdDb', -70.2, 'dB', null, -64)],
+      'gain-1khz': [m('gainDb', 0.08, 'dB', -0.5, 0.5, '+4.08 dBu out for +4.00 dBu in')],
+      'noise-a': [m('noiseDbu', -90.6, 'dBu', null, -85, 'A-weighted (IEC 61672), in the meter’s band; tones (mains hum, any stray tone) are taken out of it')],
+      hum: [m('humDbu', -78.2, 'dBu', null, -80, '50.00 Hz mains; the power sum of the fundamental, harmonic 2, harmonic 3')],
+    };
+    const results: StepResult[] = file.steps.map((step, i) => {
+      const measurements = measured[step.id] ?? [];
+      const failed = measurements.filter((x) => x.verdict === 'fail');
+      return {
+        id: i + 1, stepId: step.id, kind: step.kind, attempt: 1, recordedAt: new Date().toISOString(),
+        verdict: failed.length > 0 ? 'fail' : 'pass',
+        reasons: failed.map((x) => `${x.quantity} ${x.value} ${x.unit} is outside its limit.`),
+        measurements, stimulus: null,
+      };
+    });
+    // Main stores the judgement over the steps as the run's verdict: here FAIL, on the hum alone.
+    const judgement = judgeUnit(file, results);
+    const withSteps: FinishedDetail = (detail) => ({
+      ...detail,
+      run: { ...detail.run, procedureRevision: file.revision, verdict: judgement.verdict, verdictReasons: judgement.reasons, verdictReason: judgement.reasons.join(' ') },
+      procedureFile: file,
+      stepResults: results,
+      judgement,
+    });
+    const { pages, pdfPath } = await sheetPdf('MG20-2611-0112', [0, 0.5, 1, 1.5, 2, 2.5, 3, 3.5, 4, 4.5], withSteps);
+    copyFileSync(pdfPath, '/tmp/trimbench-sheet-demo-procedure.pdf'); // for a look by eye
+    expect(pages).toHaveLength(1);
+    // A4 is 210 × 297 mm (ISO 216); a PostScript point is 1/72 inch and an inch 25.4 mm.
+    const size = /Page size:\s+([\d.]+) x ([\d.]+) pts/.exec(execFileSync('pdfinfo', [pdfPath], { encoding: 'utf8' }))!;
+    expect(Math.round((Number(size[1]) / 72) * 25.4)).toBe(210);
+    expect(Math.round((Number(size[2]) / 72) * 25.4)).toBe(297);
+    // Every step of the file is on it, by title, in the file's order.
+    const text = pages[0].replace(/\s+/g, ' ');
+    const table = text.indexOf('Step Quantity Value Limit Result');
+    expect(table).toBeGreaterThan(0);
+    const at = file.steps.map((step) => text.indexOf(step.title.slice(0, 24), table));
+    expect(at.every((i) => i >= 0)).toBe(true);
+    expect([...at].sort((a, b) => a - b)).toEqual(at);
+    expect(text).toContain('≤ −52.0 dBc');
+    expect(text).toContain('−0.50 to +0.50 dB');
   });
 });

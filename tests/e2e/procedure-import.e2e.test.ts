@@ -29,7 +29,18 @@ describe('importing a procedure in the app', () => {
     await page.getByTestId('import-procedure').click();
     await page.getByTestId('import-procedure').click({ force: true }).catch(() => {});
     await expect.poll(() => message.textContent(), POLL).toMatch(/Imported MG20-LF-TRIM revision C|already stored exactly/);
-    await expect.poll(() => page.getByTestId('procedures-panel').textContent(), POLL).toMatch(/MG20-LF-TRIM\s*invented \(demo\)C/);
+    await expect.poll(() => page.getByTestId('procedure-revisions').textContent(), POLL).toMatch(/MG20-LF-TRIM rev C new runs use it · 0 runs/);
+    // The view lists both revisions; from the keyboard, the arrow keys move between them and Enter
+    // shows one's steps with their limits (the trim's limit from the file: THD ≤ −60 dB).
+    await page.locator('button[data-revision]').last().focus();
+    await page.keyboard.press('ArrowUp');
+    await page.keyboard.press('Enter');
+    await expect.poll(() => page.getByTestId('procedure-steps').locator('h3').textContent(), POLL).toMatch(/^MG20-LF-TRIM revision B/);
+    await page.keyboard.press('ArrowDown');
+    await page.keyboard.press('Enter');
+    await expect.poll(() => page.getByTestId('procedure-steps').locator('h3').textContent(), POLL).toMatch(/^MG20-LF-TRIM revision C/);
+    expect(await page.getByTestId('procedure-steps').locator('tbody tr').count()).toBe(demoFile.steps.length);
+    expect(await page.getByTestId('procedure-steps').textContent()).toContain('THD ≤ −60.0 dB at the final trim point');
     const rows = (bench.station.db.prepare("SELECT COUNT(*) AS n FROM procedures WHERE code = 'MG20-LF-TRIM'").get() as { n: number }).n;
     expect(rows).toBe(2); // the built-in revision B and the imported C
 

@@ -1,8 +1,10 @@
 // A simulated population of units and technicians for the trim assistant. Each hidden unit is the
 // phasor model of design §5, H(p) = A + B·p, built so that its true null and depth are known by
-// construction; readings carry realistic noise. The technician starts at the safe end and types the
-// assistant's nextPosition each time until a recommendation exists and holds still.
+// construction; readings carry realistic noise. The technician (shared/trim/scripted-technician.ts)
+// starts at the safe end and types the assistant's nextPosition each time until a recommendation
+// exists and holds still.
 
+import { nextMove } from '../../shared/trim/scripted-technician.ts';
 import { adviseTrim, type TrimAssistantOptions, type TrimPointData } from '../../shared/trim/trim-assistant.ts';
 import { gaussian, seededRandom } from './random.ts';
 
@@ -100,20 +102,19 @@ export function simulatePopulation(overrides: Partial<PopulationOptions> = {}): 
     let previous: number | null = null;
     let final: number | null = null;
     let fitProblems = 0;
-    while (points.length < o.pointCap) {
+    for (;;) {
       points.push(read(position));
       const advice = adviseTrim(points, o.assistant);
       if (advice.fitProblem !== null) fitProblems++;
-      const recommended = advice.recommendedPosition;
-      if (recommended !== null) {
-        recommendations.push(recommended);
-        if (previous !== null && Math.abs(recommended - previous) <= step / 4) {
-          final = recommended;
-          break;
-        }
+      if (advice.recommendedPosition !== null) recommendations.push(advice.recommendedPosition);
+      const move = nextMove(advice, previous, points.length, { positionStep: step, pointCap: o.pointCap });
+      if (move.kind === 'give-up') break;
+      if (move.kind === 'leave-at') {
+        final = move.position;
+        break;
       }
-      previous = recommended;
-      position = advice.nextPosition;
+      previous = advice.recommendedPosition;
+      position = move.position;
     }
     const level = (p: number) => db(Math.hypot(truth(p).re, truth(p).im));
     outcomes.push({

@@ -240,6 +240,17 @@ describe('levels from the station calibration (dBu definition: 0 dBu = √0.6 V 
     expect(result.measurements[0].value).toBeCloseTo(dbuOfVolts(2.0 * 10 ** (-110 / 20)), 9);
     expect(result.measurements[0].note).toMatch(/upper bound/);
   });
+
+  it('hum louder than the noise, read by a quiet meter as its strongest tone, is not bounded by the noise alone', () => {
+    // The generator off, 50 Hz hum at −85 dBFS is the strongest tone: the meter takes it for its
+    // fundamental and reports no hum. Its RMS (AES17: dBFS of a sine) and the noise's add in power.
+    const reading = handReading(50, -85, { hum: null, noiseDbfs: -110, noiseAWeightedDbfs: -113 });
+    const result = expectMeasured(measureCheckStep(demoStep('hum'), { stimulus: OFF, levels, readings: [{ channel: 1, reading, inputDbuAtFullScale: levels.inputDbuAtFullScale }] }));
+    const volts = Math.hypot(2.0 * 10 ** (-85 / 20), 2.0 * 10 ** (-110 / 20));
+    expect(result.measurements[0].value).toBeCloseTo(dbuOfVolts(volts), 9);
+    // 2 V RMS at full scale is +8.2 dBu, so −85 dBFS is about −77 dBu: over the demo's −80 dBu limit.
+    expect(result.verdict).toBe('fail');
+  });
 });
 
 // ---- limits, verdicts ------------------------------------------------------------------------

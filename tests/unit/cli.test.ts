@@ -2,11 +2,13 @@
 
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { spawnSync } from 'node:child_process';
-import { writeFileSync } from 'node:fs';
+import { createHash } from 'node:crypto';
+import { cpSync, readFileSync, writeFileSync } from 'node:fs';
+import Database from 'better-sqlite3';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { encodeWavFloat32 } from '../../shared/audio/wav.ts';
-import { tempDir } from '../support/station.ts';
+import { openTestStation, readingWithThd, tempDir } from '../support/station.ts';
 import { encodePcm24 } from '../support/wav-files.ts';
 import { gaussian, seededRandom } from '../support/random.ts';
 import { tone } from '../support/signals.ts';
@@ -401,5 +403,89 @@ describe('procedure check', () => {
     expect(result.status).toBe(1);
     expect(result.stdout).toBe('');
     expect(result.stderr).toMatch(message);
+  });
+});
+
+describe('sheet', () => {
+  // A station's data folder with two runs of the built-in demo procedure: one finished (FAIL: one
+  // point locates no null), one still open. The database is then closed, as after a shift.
+  let data: string;
+  let finished: number;
+  let open: number;
+  beforeAll(() => {
+    data = join(files.path, 'station');
+    const station = openTestStation(data);
+    try {
+      const procedureId = station.records.listProcedures()[0].id;
+      const stimulus = { on: true, frequencyHz: 14, levelDbfs: -12 };
+      finished = station.records.openRun({ serial: 'MG20-2611-0301', procedureId, operator: 'A. Tester' }).run.id;
+      station.records.recordTrimPoint({ runId: finished, position: 3, reading: readingWithThd(-62), live: null, stimulus });
+      station.records.finishRun({ runId: finished, asFailure: true });
+      open = station.records.openRun({ serial: 'MG20-2611-0302', procedureId, operator: 'A. Tester' }).run.id;
+    } finally {
+      station.close();
+    }
+  });
+  const databaseFile = () => join(data, 'trimbench.sqlite');
+  const sha = (file: string) => createHash('sha256').update(readFileSync(file)).digest('hex');
+
+  it('prints the run’s sheet as one JSON object, its verdict as stored, and changes nothing in the database', () => {
+    const before = sha(databaseFile());
+    const result = run('sheet', '--data', data, '--run', String(finished), '--json');
+    expect(result.stderr).toBe('');
+    expect(result.status).toBe(0);
+    const lines = result.stdout.trim().split('\n');
+    expect(lines).toHaveLength(1);
+    const sheet = JSON.parse(lines[0]);
+    // What the station stored, read with SQL straight from the file.
+    const db = new Database(databaseFile(), { readonly: true });
+    const row = db.prepare('SELECT verdict, verdict_reasons_json FROM runs WHERE id = ?').get(finished) as { verdict: string; verdict_reasons_json: string };
+    db.close();
+    expect(sheet.runId).toBe(finished);
+    expect(sheet.unit.serial).toBe('MG20-2611-0301');
+    expect(sheet.verdict.verdict).toBe(row.verdict);
+    expect(sheet.verdict.text).toBe(row.verdict.toUpperCase());
+    // Stored as {"v": version, "value": reasons} (electron/services/stored-record.ts).
+    expect(sheet.verdict.reasons).toEqual(JSON.parse(row.verdict_reasons_json).value);
+    expect(sheet.verdict.reasons.length).toBeGreaterThan(0);
+    // The built-in procedure is the schema-1 one: a safety notice, then the trim (docs/procedures.md, upgrading).
+    expect(sheet.steps.map((s: { kind: string }) => s.kind)).toEqual(['notice', 'trim']);
+    expect(sheet.trim.points).toHaveLength(1);
+    // Opened read-only (SQLite's SQLITE_OPEN_READONLY): the file's bytes are as they were.
+    expect(sha(databaseFile())).toBe(before);
+  });
+
+  it('an unfinished run reads NOT FINISHED, never PASS; without --json, a readable summary', () => {
+    const result = run('sheet', '--data', data, '--run', String(open));
+    expect(result.status).toBe(0);
+    expect(result.stdout.split('\n')[0]).toBe(`MG20-2611-0302 — run ${open}, MG20-LF-TRIM revision B: NOT FINISHED`);
+    expect(result.stdout).toMatch(/^ 1 safety\s+not run$/m);
+  });
+
+  // A non-zero exit status for failure is the POSIX convention scripts rely on (common practice).
+  it.each([
+    ['a folder with no database', () => ['--data', files.path, '--run', '1'], /no station database here \(trimbench\.sqlite not found\)/],
+    ['a run that does not exist', () => ['--data', data, '--run', '999'], /There is no run with id 999/],
+    ['a run number that is not one', () => ['--data', data, '--run', '1.5'], /--run must be a run number/],
+    ['no --data', () => ['--run', '1'], /sheet needs --data DIR and --run N/],
+  ])('fails on %s with a message on stderr, nothing on stdout, and status 1', (_what, args, message) => {
+    const result = run('sheet', ...args());
+    expect(result.status).toBe(1);
+    expect(result.stdout).toBe('');
+    expect(result.stderr).toMatch(message);
+  });
+
+  it('fails on a run whose stored record is damaged, naming the run, with status 1', () => {
+    const damaged = join(files.path, 'damaged');
+    cpSync(data, damaged, { recursive: true });
+    const db = new Database(join(damaged, 'trimbench.sqlite'));
+    db.exec('DROP TRIGGER trim_points_never_change');
+    // A reading changed behind the station's back: its check value no longer matches.
+    db.prepare("UPDATE trim_points SET reading_json = replace(reading_json, '-62', '-72') WHERE run_id = ?").run(finished);
+    db.close();
+    const result = run('sheet', '--data', damaged, '--run', String(finished), '--json');
+    expect(result.status).toBe(1);
+    expect(result.stdout).toBe('');
+    expect(result.stderr).toMatch(new RegExp(`Run ${finished} \\(serial MG20-2611-0301\\) cannot be read`));
   });
 });

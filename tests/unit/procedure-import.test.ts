@@ -10,6 +10,7 @@ import { fileURLToPath } from 'node:url';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { dispatch, type CallerContext } from '../../electron/services/handlers.ts';
 import { openStation } from '../../electron/services/station.ts';
+import type { ProcedureRevision } from '../../shared/ipc/contract.ts';
 import { noCaller, tempDir } from '../support/station.ts';
 
 const RESOURCE = fileURLToPath(new URL('../../resources/procedures/mg20-lf-trim.json', import.meta.url));
@@ -163,5 +164,29 @@ describe('revisions go forward', () => {
     expect(again.run.id).toBe(open.run.id);
     expect(again.procedure.revision).toBe(builtIn.definition.revision);
     expect(() => station.records.openRun({ serial: 'MG20-2611-0042', procedureId: newest.id, operator: 'B. Other' })).toThrow(/Only A\. Tester can continue it/);
+  });
+});
+
+describe('the stored revisions, listed whole', () => {
+  it('lists every revision of a procedure, each with its steps and limits and the runs that name it (a stored revision never changes)', async () => {
+    const builtIn = station.records.listProcedures()[0];
+    station.records.openRun({ serial: 'MG20-2611-0042', procedureId: builtIn.id, operator: 'A. Tester' });
+    const path = variant('revised.json', (file) => {
+      file.revision = 'D';
+      file.requiresCalibration = false;
+    });
+    expect(await importFile(path)).toMatchObject({ ok: true });
+    const answer = await dispatch(station.handlers, 'listProcedureRevisions', {}, noCaller);
+    if (!answer.ok) throw new Error(answer.error.message);
+    const listed = { value: answer.value as ProcedureRevision[] };
+    expect(listed.value.map((r) => [r.code, r.revision, r.current, r.runs])).toEqual([
+      ['MG20-LF-TRIM', builtIn.definition.revision, false, 1],
+      ['MG20-LF-TRIM', 'D', true, 0],
+    ]);
+    // Revision D exactly as the file the line wrote.
+    expect(listed.value[1].file).toEqual(JSON.parse(readFileSync(path, 'utf8')));
+    // The built-in schema-1 revision as docs/procedures.md describes its upgrade: a safety notice, then the trim step.
+    expect(listed.value[0].file.steps.map((s) => s.kind)).toEqual(['notice', 'trim']);
+    expect(listed.value[0].modelCode).toBe('MG-20');
   });
 });

@@ -1,0 +1,14 @@
+// Number formatting for readouts, sheets and the command line: fixed decimals, a real minus sign.
+// In shared/ because the sheet's content (shared/sheet) is composed here, not in a view.
+
+export function fixed(value: number | null | undefined, decimals: number): string {
+  if (value === null || value === undefined || !Number.isFinite(value)) return '—';
+  return value.toFixed(decimals).replace('-', '−');
+}
+
+export function percent(value: number): string {
+  if (!Number.isFinite(value)) return '—';
+  if (value === 0) return '0 %';
+  const decimals = value >= 1 ? 2 : Math.min(6, 1 - Math.floor(Math.log10(value)));
+  return `${value.toFixed(decimals)} %`;
+}

@@ -1,0 +1,218 @@
+// The whole demo procedure on a simulated unit with no person at the bench: a scripted technician
+// acknowledges the notice, trims by following the assistant exactly, and runs every check step,
+// each reading taken from the simulated unit through the meter the app uses and written through
+// the same calls the page makes (main judges and stores everything). The command line only opens
+// the station and prints; every decision here comes from shared/ (the run plan, the planner, the
+// check steps, the technician's rule), so the demo line proves those work without the page.
+
+import type { IpcChannel } from '../ipc/channels.ts';
+import type { IpcRequest, IpcResponse, RunDetail } from '../ipc/contract.ts';
+import type { MeterSessionSettings } from '../measurement/meter-session.ts';
+import { DEFAULT_ANALYZER_OPTIONS } from '../measurement/frame-analyzer.ts';
+import type { BatchUnit } from '../sim/demo-batch.ts';
+import { HeadlessBench, type SettledReading } from '../sim/headless-bench.ts';
+import { nextMove } from '../trim/scripted-technician.ts';
+import { measureCheckStep, noiseBandFor, type StationLevels } from './check-steps.ts';
+import type { ProcedureFile } from './procedure-file.ts';
+import { plannedStimulus, runPlan, type PlannedStep } from './run-plan.ts';
+import type { StimulusSetting } from '../dsp/sine-source.ts';
+import type { AudioSetup } from '../calibration/station-calibration.ts';
+import { vRmsFromDbu } from '../levels.ts';
+import { LiveMeter } from '../measurement/live-meter.ts';
+import { DEMO_INTERFACE_DBU_AT_FULL_SCALE, DemoChain } from '../sim/demo-chain.ts';
+
+/** The calls the demo line makes, exactly as the page makes them; the caller turns a refusal into an error. */
+export type LineCalls = <C extends 'acknowledgeNotice' | 'recordTrimPoint' | 'completeTrim' | 'recordCheckStep' | 'finishRun'>(
+  channel: C,
+  request: IpcRequest<C>,
+) => Promise<IpcResponse<C>>;
+
+/** A call main refused: its own words, so the line can say which unit and step it was. */
+export class LineCallRefused extends Error {
+  override name = 'LineCallRefused';
+  readonly channel: IpcChannel;
+  constructor(channel: IpcChannel, message: string) {
+    super(message);
+    this.channel = channel;
+  }
+}
+
+export interface LineStation {
+  sampleRateHz: number;
+  mainsHz: 50 | 60;
+  /** The station's calibration the run was opened under. */
+  levels: StationLevels;
+}
+
+/** What the demo line prints for one unit, from the run as main stored it. */
+export interface LineUnitReport {
+  serial: string;
+  verdict: 'pass' | 'fail';
+  trim: { finalPosition: number | null; trueNullPosition: number; points: number };
+  steps: {
+    id: string;
+    kind: string;
+    verdict: 'pass' | 'fail' | 'not-run';
+    measurements: { quantity: string; value: number | null; unit: string; low: number | null; high: number | null }[];
+  }[];
+}
+
+/** Harmonics counted, as the app's meter counts them (H2–H10). */
+const HARMONIC_COUNT = DEFAULT_ANALYZER_OPTIONS.harmonicCount;
+/** The technician stops trimming after this many points (as the simulated population's technicians). */
+const POINT_CAP = 14;
+/**
+ * The longest a technician waits for a reading to settle, in the unit's seconds: several frames
+ * at the lowest tone a step plays (12 cycles of 14 Hz is under a second), so only a unit that will
+ * not settle runs into it.
+ */
+const MAX_SETTLE_S = 20;
+
+/** The meter's settings for a generator setting, as the page derives them (App.tsx), and a step's noise band. */
+function meterSettings(stimulus: StimulusSetting, mainsHz: 50 | 60, band: { lowHz: number; highHz: number } | null): MeterSessionSettings {
+  return {
+    expectedFundamentalHz: stimulus.on ? stimulus.frequencyHz : null,
+    harmonicCount: HARMONIC_COUNT,
+    mainsHz,
+    // The demo bench plays and captures on one clock.
+    stimulusLocked: true,
+    chainFloorThdDb: null,
+    ...(band && { bandLowHz: band.lowHz, bandHighHz: band.highHz }),
+  };
+}
+
+const generatorOf = ({ on, frequencyHz, levelDbfs }: StimulusSetting): StimulusSetting => ({ on, frequencyHz, levelDbfs });
+
+/**
+ * Walks the run's procedure on one simulated unit, from the run main opened to the finished run.
+ * Each step is written as it is done; a failed step that stops the run ends the walk there.
+ */
+export async function walkUnit(unit: BatchUnit, opened: RunDetail, call: LineCalls, station: LineStation): Promise<RunDetail> {
+  const procedure: ProcedureFile = opened.procedureFile;
+  const runId = opened.run.id;
+  const bench = new HeadlessBench(station.sampleRateHz, unit.parameters, unit.noiseSeed, meterSettings({ on: false, frequencyHz: 1000, levelDbfs: -120 }, station.mainsHz, null));
+  let detail = opened;
+  for (const planned of runPlan(procedure, station.levels)) {
+    if (planned.blocked) throw new LineCallRefused('recordCheckStep', planned.blocked);
+    const needs = planned.needs;
+    if (needs.kind === 'acknowledge') detail = await call('acknowledgeNotice', { runId, stepId: planned.stepId });
+    else if (needs.kind === 'trim') detail = await trimUnit(bench, planned, procedure, runId, call, station);
+    else detail = await checkStep(bench, planned, procedure, runId, call, station);
+    if (detail.judgement.stoppedAt !== null) break;
+  }
+  // A unit that cannot pass is finished as FAIL with main's reasons, as the technician would after Finish is refused.
+  return call('finishRun', { runId, asFailure: detail.judgement.verdict !== 'pass' });
+}
+
+async function trimUnit(bench: HeadlessBench, planned: PlannedStep, procedure: ProcedureFile, runId: number, call: LineCalls, station: LineStation): Promise<RunDetail> {
+  const step = procedure.steps[planned.index];
+  if (step.kind !== 'trim' || planned.needs.kind !== 'trim') throw new Error(`step ${planned.stepId} is not a trim step`);
+  const stimulus = generatorOf(plannedStimulus({ ...planned.needs.generator, levelDbu: null }, { sampleRateHz: station.sampleRateHz, mainsHz: station.mainsHz, harmonicCount: HARMONIC_COUNT }));
+  bench.setStimulus(stimulus, meterSettings(stimulus, station.mainsHz, null));
+  const habits = { positionStep: step.positionStep, pointCap: POINT_CAP };
+
+  // The trimmer starts at the safe end (the step's first instruction).
+  let position = step.positionMin;
+  bench.moveTrimmer(position);
+  let previous: number | null = null;
+  let points = 0;
+  for (;;) {
+    const recorded = await call('recordTrimPoint', { runId, position, ...pointOf(settled(bench, planned.stepId)), stimulus });
+    points++;
+    const move = nextMove(recorded.assessment, previous, points, habits);
+    if (move.kind === 'give-up') break;
+    if (move.kind === 'leave-at') {
+      // The final setting: set there and recorded, unless the trimmer already is there.
+      if (move.position !== position) {
+        bench.moveTrimmer(move.position);
+        await call('recordTrimPoint', { runId, position: move.position, ...pointOf(settled(bench, planned.stepId)), stimulus });
+      }
+      break;
+    }
+    // Asked to record again where it already is: the points disagree, and main takes one point per
+    // setting, so the technician can do no more than stop and let the trim be judged as it stands.
+    if (move.position === position) break;
+    previous = recorded.assessment.recommendedPosition;
+    position = move.position;
+    bench.moveTrimmer(position);
+  }
+  return call('completeTrim', { runId, stepId: planned.stepId });
+}
+
+async function checkStep(bench: HeadlessBench, planned: PlannedStep, procedure: ProcedureFile, runId: number, call: LineCalls, station: LineStation): Promise<RunDetail> {
+  const step = procedure.steps[planned.index];
+  if (planned.needs.kind !== 'measure' || step.kind === 'notice' || step.kind === 'trim') throw new Error(`step ${planned.stepId} is not a check step`);
+  if (!planned.needs.generator) throw new LineCallRefused('recordCheckStep', `Step “${planned.stepId}” cannot be run on this station.`);
+  if (planned.needs.readings.length !== 1) throw new LineCallRefused('recordCheckStep', `Step “${planned.stepId}” needs two channels; the demo unit has one.`);
+  const stimulus = generatorOf(plannedStimulus(planned.needs.generator, { sampleRateHz: station.sampleRateHz, mainsHz: station.mainsHz, harmonicCount: HARMONIC_COUNT }));
+  const band = step.kind === 'noise' ? noiseBandFor(step, station.sampleRateHz) : null;
+  bench.setStimulus(stimulus, meterSettings(stimulus, station.mainsHz, band));
+  // As the page does: the value is shown against its limits once the reading settles; a reading
+  // the step refuses (not yet of the stimulus) is waited on, up to the technician's patience.
+  let taken = settled(bench, planned.stepId);
+  const judged = (t: SettledReading) =>
+    measureCheckStep(step, { stimulus, levels: station.levels, readings: [{ channel: 1, reading: t.reading, inputDbuAtFullScale: station.levels.inputDbuAtFullScale }] }).ok;
+  for (let waited = taken.seconds; !judged(taken) && waited < MAX_SETTLE_S; ) {
+    const again = bench.settle(MAX_SETTLE_S - waited);
+    if (!again) break;
+    taken = again;
+    waited += again.seconds;
+  }
+  return call('recordCheckStep', { runId, stepId: planned.stepId, stimulus, readings: [{ channel: 1, reading: taken.reading }] });
+}
+
+/** The settled reading, or the latest one when it never settled (main then refuses or marks it). */
+function settled(bench: HeadlessBench, stepId: string): SettledReading {
+  const taken = bench.settle(MAX_SETTLE_S);
+  if (!taken) throw new LineCallRefused('recordTrimPoint', `Step “${stepId}”: the simulated unit gave no reading in ${MAX_SETTLE_S} s.`);
+  return taken;
+}
+
+/** A trim point's reading as the page sends it: an unsettled one is recorded marked, never passed off as settled. */
+function pointOf(taken: SettledReading) {
+  return { reading: taken.reading, live: taken.live, unsettled: taken.reading.settled ? ('refuse' as const) : ('record-marked' as const) };
+}
+
+/** The unit's line report from the run main finished: every number as stored. */
+export function lineUnitReport(unit: BatchUnit, finished: RunDetail): LineUnitReport {
+  const latest = new Map(finished.stepResults.map((r) => [r.stepId, r]));
+  return {
+    serial: finished.run.serial,
+    verdict: finished.run.verdict ?? 'fail',
+    trim: { finalPosition: finished.trimPoints.at(-1)?.position ?? null, trueNullPosition: unit.trueNullTurns, points: finished.trimPoints.length },
+    steps: finished.judgement.steps.map((s) => ({
+      id: s.stepId,
+      kind: s.kind,
+      verdict: s.status,
+      measurements: (latest.get(s.stepId)?.measurements ?? []).map(({ quantity, value, unit: u, low, high }) => ({ quantity, value, unit: u, low, high })),
+    })),
+  };
+}
+
+/** The reference tone of the demo line's calibration, as in the station's calibration step. */
+const REFERENCE = { on: true, frequencyHz: 1000, levelDbfs: -20 };
+
+/**
+ * The demo bench calibrated as a technician calibrates it: an invented voltmeter on the invented
+ * interface's output reads the reference tone (DEMO_INTERFACE_DBU_AT_FULL_SCALE), and the
+ * loopback (the invented chain) is captured through the meter for the input. Main computes and
+ * judges the calibration from these observations, as from the Station view's.
+ */
+export function demoCalibrationRequest(setup: AudioSetup, operator: string): IpcRequest<'recordCalibration'> {
+  const chain = new DemoChain(setup.sampleRateHz);
+  chain.setStimulus(REFERENCE);
+  const meter = new LiveMeter({ sampleRateHz: setup.sampleRateHz, expectedFundamentalHz: REFERENCE.frequencyHz, stimulusLocked: true, sampleGuard: false });
+  const block = new Float32Array(2048);
+  for (let rendered = 0; !meter.reading.settled; rendered += block.length) {
+    if (rendered > MAX_SETTLE_S * setup.sampleRateHz) throw new Error('the demo loopback gave no settled reading');
+    chain.render(block);
+    meter.push(block);
+  }
+  const volts = vRmsFromDbu(REFERENCE.levelDbfs + DEMO_INTERFACE_DBU_AT_FULL_SCALE);
+  return {
+    operator,
+    setup,
+    output: { referenceHz: REFERENCE.frequencyHz, referenceDbfs: REFERENCE.levelDbfs, meterEntry: `${volts.toFixed(4)} V` },
+    input: { method: 'loopback', generatorDbfs: REFERENCE.levelDbfs, capturedDbfs: meter.reading.fundamental.levelDbfs, capturedHz: meter.reading.measuredFundamentalHz },
+  };
+}

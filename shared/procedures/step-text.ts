@@ -1,0 +1,104 @@
+// A procedure step in words: what it asks for and its limits, written the same way on the unit
+// sheet and in the procedures view. Limits are inclusive (docs/procedures.md), so a bound is
+// written ≤ or ≥, and a two-sided limit as a range.
+
+import { fixed } from '../format.ts';
+import { signedFixed } from '../levels.ts';
+import type { Limit, ProcedureStep } from './procedure-file.ts';
+
+const QUANTITY_LABELS: Record<string, string> = {
+  thdDb: 'THD',
+  thdnDb: 'THD+N',
+  gainDb: 'Gain',
+  noiseDbu: 'Noise',
+  humDbu: 'Hum',
+  balanceDb: 'Balance',
+  crosstalkDb: 'Crosstalk',
+};
+
+/** A measured quantity's name on the page: "thdDb" → "THD", "harmonicsDbc.H3" → "H3". */
+export function quantityLabel(quantity: string): string {
+  if (quantity.startsWith('harmonicsDbc.')) return quantity.slice('harmonicsDbc.'.length);
+  return QUANTITY_LABELS[quantity] ?? quantity;
+}
+
+/** Gain and balance limits are fractions of a dB wide: they need the hundredths. */
+export const quantityDecimals = (quantity: string): number => (quantity === 'gainDb' || quantity === 'balanceDb' ? 2 : 1);
+
+/** "≤ −50.0 dB", "≥ 3.0 dB", "−0.50 to +0.50 dB". */
+export function limitText(limit: { low: number | null; high: number | null; unit: string }, decimals: number): string {
+  const f = (v: number) => signedFixed(v, decimals);
+  if (limit.low !== null && limit.high !== null) return `${f(limit.low)} to ${f(limit.high)} ${limit.unit}`;
+  if (limit.high !== null) return `≤ ${f(limit.high)} ${limit.unit}`;
+  if (limit.low !== null) return `≥ ${f(limit.low)} ${limit.unit}`;
+  return 'no limit';
+}
+
+export const hzText = (value: number): string =>
+  value >= 1000 ? `${fixed(value / 1000, value % 1000 === 0 ? 0 : 2)} kHz` : `${fixed(value, value < 100 && !Number.isInteger(value) ? 2 : 0)} Hz`;
+
+const ordinal = (n: number) => `${n}${n % 10 === 1 && n !== 11 ? 'st' : n % 10 === 2 && n !== 12 ? 'nd' : n % 10 === 3 && n !== 13 ? 'rd' : 'th'}`;
+
+/** What the step asks for, in one line: its frequency and level, the generator off, the band. */
+export function stepConditions(step: ProcedureStep): string {
+  switch (step.kind) {
+    case 'notice':
+      return `Acknowledged: “${step.acknowledgement}”`;
+    case 'trim':
+      return `${hzText(step.stimulusHz)} at ${signedFixed(step.stimulusLevelDbfs, 1)} dBFS`;
+    case 'distortion':
+    case 'gain':
+      return `${hzText(step.frequencyHz)} at ${signedFixed(step.level.value, 1)} ${step.level.unit}`;
+    case 'balance':
+    case 'crosstalk':
+      return `channels ${step.channels[0]} and ${step.channels[1]}, ${hzText(step.frequencyHz)} at ${signedFixed(step.level.value, 1)} ${step.level.unit}`;
+    case 'noise':
+      return `generator off; ${step.weighting === 'A' ? 'A-weighted' : 'unweighted'}, ${hzText(step.band.lowHz)} to ${hzText(step.band.highHz)}`;
+    case 'hum':
+      return `generator off; mains${step.mainsHarmonics > 1 ? ` and harmonics to the ${ordinal(step.mainsHarmonics)}` : ' fundamental'}`;
+  }
+}
+
+/** Everything else the step sets, for the procedures view: the trim's parameters, a check's termination. */
+export function stepDetails(step: ProcedureStep): string[] {
+  switch (step.kind) {
+    case 'trim':
+      return [
+        step.expectedLevelDbfs ? `reading expected between ${signedFixed(step.expectedLevelDbfs.low, 1)} and ${signedFixed(step.expectedLevelDbfs.high, 1)} dBFS` : 'no expected level window',
+        `frequency within ${fixed(step.frequencyTolerancePercent, 1)} %`,
+        `trimmer ${fixed(step.positionMin, 2)} to ${fixed(step.positionMax, 2)} ${step.positionUnit} in steps of ${fixed(step.positionStep, 2)}`,
+        `trims H${step.harmonicOrder}; recommendation within ${fixed(step.marginDb, 1)} dB of the null`,
+        `warns at a gain rise of ${fixed(step.gainRiseDb, 1)} dB or a sub-audio rise of ${fixed(step.lfRiseDb, 1)} dB`,
+      ];
+    case 'noise':
+    case 'hum':
+      return [step.inputTermination];
+    default:
+      return [];
+  }
+}
+
+/** The step's limits, each with its quantity's name, in the order the file gives them. */
+export function stepLimits(step: ProcedureStep): { quantity: string; label: string; text: string }[] {
+  const entry = (quantity: string, limit: Limit) => ({
+    quantity,
+    label: quantityLabel(quantity),
+    text: limitText({ low: limit.low ?? null, high: limit.high ?? null, unit: limit.unit }, quantityDecimals(quantity)),
+  });
+  switch (step.kind) {
+    case 'notice':
+      return [];
+    case 'trim':
+      return [{ quantity: 'limitThdDb', label: 'THD', text: `≤ ${signedFixed(step.limitThdDb, 1)} dB at the final trim point` }];
+    case 'distortion': {
+      const { thdDb, thdnDb, harmonicsDbc } = step.limits;
+      return [
+        ...(thdDb ? [entry('thdDb', thdDb)] : []),
+        ...(thdnDb ? [entry('thdnDb', thdnDb)] : []),
+        ...Object.entries(harmonicsDbc ?? {}).flatMap(([name, limit]) => (limit ? [entry(`harmonicsDbc.${name}`, limit)] : [])),
+      ];
+    }
+    default:
+      return Object.entries(step.limits).map(([quantity, limit]) => entry(quantity, limit as Limit));
+  }
+}
