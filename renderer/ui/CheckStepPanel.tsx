@@ -2,7 +2,7 @@ import { useRef, useState, type RefObject } from 'react';
 import type { StimulusSettingRequest } from '../../shared/ipc/contract.ts';
 import { formatLevel, type LevelCalibration } from '../../shared/levels.ts';
 import type { Reading } from '../../shared/measurement/reading.ts';
-import { measureCheckStep, type StationLevels } from '../../shared/procedures/check-steps.ts';
+import { CHECK_FREQUENCY_TOLERANCE_PERCENT, measureCheckStep, type StationLevels } from '../../shared/procedures/check-steps.ts';
 import type { CheckStep } from '../../shared/procedures/procedure-file.ts';
 import type { PlannedStep } from '../../shared/procedures/run-plan.ts';
 import type { GeneratorCommand } from '../worker/messages.ts';
@@ -74,7 +74,14 @@ export function CheckStepPanel({
   // The live preview judges the reading as if it had settled, so the value shows against its
   // limits while it settles; only a settled reading is recorded.
   const preview = reading && !stale ? measureCheckStep(step, { stimulus: generator, levels, readings: [{ channel: 1, reading: { ...reading, settled: true }, inputDbuAtFullScale }] }) : null;
-  const waitingForTone = wantsTone && !generator.on;
+  // Until the generator plays this step's tone (a moment after the step opens, or after Esc), Enter turns it on.
+  const request = needs.generator;
+  const playingThisStep =
+    generator.on &&
+    request?.on === true &&
+    generator.levelDbfs === request.levelDbfs &&
+    (100 * Math.abs(generator.frequencyHz - request.frequencyHz)) / request.frequencyHz <= CHECK_FREQUENCY_TOLERANCE_PERCENT;
+  const waitingForTone = wantsTone && !playingThisStep;
 
   async function primary() {
     if (pending) return;

@@ -34,7 +34,9 @@ export function useStepStimulus({
 }): string | null {
   const [note, setNote] = useState<string | null>(null);
   const needs = step?.needs ?? null;
-  const stepKey = step ? `${runId}/${step.stepId}` : null;
+  // The step's setting is part of its key: a calibration that comes to hold (or lapses) changes it.
+  const setting = needs && needs.kind !== 'acknowledge' ? (needs.generator?.on ? `${needs.generator.frequencyHz}@${needs.generator.levelDbfs}` : 'off') : 'none';
+  const stepKey = step ? `${runId}/${step.stepId}/${setting}` : null;
 
   // A new step: its setting, off.
   useEffect(() => {

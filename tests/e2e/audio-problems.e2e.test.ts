@@ -174,7 +174,6 @@ describe('audio problems', () => {
         await page.getByTestId('serial-input').fill('MG20-2611-0077');
         await page.getByTestId('serial-input').press('Enter');
         await acknowledgeNotice(page);
-      await acknowledgeNotice(page);
         await page.getByTestId('generator-toggle').click();
         await expect.poll(() => page.getByTestId('mute').textContent(), POLL).toBe('Mute generator (Esc)');
         await page.getByTestId('position-input').fill('1');

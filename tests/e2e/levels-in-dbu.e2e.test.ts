@@ -196,6 +196,7 @@ describe('levels in dBu on a calibrated station', () => {
     await page.getByLabel('Operator').fill('A. Tester');
     await page.getByTestId('serial-input').fill(serial);
     await page.getByTestId('serial-input').press('Enter');
+    await acknowledgeNotice(page);
     await expect.poll(() => page.getByTestId('trim-points').locator('tbody tr').count(), POLL).toBe(10);
     await page.getByTestId('finish-run').click();
     await page.getByTestId('finish-as-fail').click(); // all short of the null: no recommendation, no pass

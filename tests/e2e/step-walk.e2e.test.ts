@@ -9,7 +9,8 @@ import type { Page } from 'playwright-core';
 import { dispatch, type CallerContext } from '../../electron/services/handlers.ts';
 import type { RunDetail } from '../../shared/ipc/contract.ts';
 import { DEMO_UNIT_PARAMETERS } from '../../shared/sim/demo-unit.ts';
-import { openBench, type Bench, POLL } from '../harness/bench-harness.ts';
+import { acknowledgeNotice, openBench, type Bench, POLL } from '../harness/bench-harness.ts';
+import { readingWithThd } from '../support/station.ts';
 
 const RESOURCE = fileURLToPath(new URL('../../resources/procedures/mg20-lf-trim.json', import.meta.url));
 const SERIAL = 'MG20-2611-0200';
@@ -144,7 +145,7 @@ describe('the demo procedure walked whole', () => {
         expect(await page.getByTestId('termination').textContent()).toMatch(/termination plug/);
         expect(await page.getByTestId('mute').isDisabled()).toBe(true);
       } else {
-        expect(await primary.textContent()).toMatch(/^Turn on/);
+        await expect.poll(() => primary.textContent(), POLL).toMatch(/^Turn on/);
         await page.keyboard.press('Enter');
         await expect.poll(() => primary.textContent(), POLL).toMatch(/^Record/);
         if (stepId === 'thd-20hz') {
@@ -214,17 +215,49 @@ describe('the demo procedure walked whole', () => {
     const noiseFs = Math.hypot(DEMO_UNIT_PARAMETERS.driverNoiseVolts / DEMO_UNIT_PARAMETERS.driveVoltsPerFullScale, DEMO_UNIT_PARAMETERS.inputNoiseFullScale);
     const expectedNoiseDbu = db(noiseFs * Math.SQRT2) + 10 * Math.log10((22000 - 22) / 24000) + aWeightedWhiteNoiseDb(22, 22000) + 20;
     expect(Math.abs(stored(detail, 'noise-a', 'noiseDbu') - expectedNoiseDbu)).toBeLessThan(1.5);
-    // Hum: the demo's invented −105 dBFS of 50 Hz is −85 dBu. Read as the hum, or bounded by the
-    // unweighted noise (20 Hz–20 kHz) when the meter finds no hum standing out: never below that noise.
+    // Hum: the demo's invented −105 dBFS of 50 Hz is −85 dBu. Read as the hum; or, when the meter
+    // reports no hum standing apart, as the step's stated upper bound: the unweighted noise in
+    // 20 Hz–20 kHz with the strongest tone (here the hum itself), which add in power (uncorrelated).
+    const humDbu = DEMO_UNIT_PARAMETERS.humDbfs + 20;
     const unweightedNoiseDbu = db(noiseFs * Math.SQRT2) + 10 * Math.log10((20000 - 20) / 24000) + 20;
+    const humBoundDbu = 10 * Math.log10(10 ** (humDbu / 10) + 10 ** (unweightedNoiseDbu / 10));
     const hum = stored(detail, 'hum', 'humDbu');
-    expect(hum).toBeGreaterThan(unweightedNoiseDbu - 1);
-    expect(hum).toBeLessThan(DEMO_UNIT_PARAMETERS.humDbfs + 20 + 1);
+    expect(hum).toBeGreaterThan(humDbu - 1);
+    expect(hum).toBeLessThan(humBoundDbu + 1);
 
     // Finish by Enter: the sheet says the same verdict.
     await page.keyboard.press('Enter');
     await expect.poll(() => page.getByTestId('sheet-verdict').isVisible(), POLL).toBe(true);
     expect(await page.getByTestId('sheet-verdict').textContent()).toBe(detail.judgement.verdict === 'pass' ? 'PASS' : 'FAIL');
+  });
+
+  it('ends the run as FAIL at a failed step that says stop, offering only Repeat or Finish as FAIL', { timeout: 60_000 }, async () => {
+    // The demo procedure's trim says "stop" on failure.
+    const serial = 'MG20-2611-0201';
+    const procedure = (await bench.station.records.listProcedures()).find((p) => p.definition.revision === 'C')!;
+    const { run } = await bench.station.records.openRun({ serial, procedureId: procedure.id, operator: 'A. Tester', setup: SETUP });
+    // One point at −40 dB THD, far above the trim's −60 dB limit.
+    await bench.station.records.recordTrimPoint({ runId: run.id, position: 0, reading: readingWithThd(-40), live: null, stimulus: { on: true, frequencyHz: 14, levelDbfs: -12 } });
+    const page = await bench.openApp();
+    await expect.poll(() => page.getByTestId('input-select').inputValue(), POLL).toBe('demo-bench');
+    await page.getByRole('button', { name: 'Start capture' }).click();
+    await page.getByLabel('Operator').fill('A. Tester');
+    await page.getByTestId('serial-input').fill(serial);
+    await page.getByTestId('serial-input').press('Enter');
+    await acknowledgeNotice(page);
+    const trimId = (await currentStep(page))!;
+    await page.getByTestId('trim-done').click();
+    await expect.poll(() => stepStatus(page, trimId), POLL).toBe('fail');
+    const detail = await bench.station.records.getRun(run.id);
+    expect(detail.judgement.stoppedAt).toBe(trimId);
+    // The stopped step with its result; Repeat holds the focus, Finish is only as FAIL, and there is no going on.
+    expect(await page.getByTestId('current-step').getAttribute('data-mode')).toBe('review');
+    await expect.poll(() => focusedTestId(page), POLL).toBe('repeat-step');
+    expect(await page.getByTestId('back-to-current').count()).toBe(0);
+    expect(await page.getByTestId('finish-run').textContent()).toMatch(/^Finish as FAIL/);
+    expect(await page.getByTestId('walk-verdict').textContent()).toBe('FAIL');
+    expect(await page.getByTestId('walk-reasons').textContent()).toMatch(/stops the run/);
+    await page.screenshot({ path: '/tmp/walk-stopped.png', fullPage: true });
   });
 });
 
