@@ -113,7 +113,8 @@ export function StepWalk({
       {judgement.finished && walk.mode !== 'measure' ? (
         <div className={`finish ${judgement.verdict}`} data-testid="walk-finish">
           <p>
-            Every step is judged: <strong data-testid="walk-verdict">{judgement.verdict === 'pass' ? 'PASS' : 'FAIL'}</strong>
+            {stopped ? 'The run stopped at a failed step that stops it: ' : 'Every step is judged: '}
+            <strong data-testid="walk-verdict">{judgement.verdict === 'pass' ? 'PASS' : 'FAIL'}</strong>
           </p>
           {judgement.reasons.length > 0 && (
             <ul className="step-reasons" data-testid="walk-reasons">
