@@ -409,14 +409,17 @@ async function sheet(args: string[]): Promise<string> {
     const refuse = () => {
       throw new ExpectedFailure('The command line reads the records; it never writes them.');
     };
-    const records = createRecords(db, {
-      stationName: () => '',
-      calibrations: createCalibrations(db, { stationName: () => '', refuseUnlessWritable: refuse }),
-      whyNotWritable: () => 'The command line reads the records; it never writes them.',
-      // What the technician is not shown in the app goes to its log; here, to stderr.
-      onUnreadable: (record) => process.stderr.write(`${record.what}: ${record.detail}\n`),
-    });
-    model = buildSheetModel(await sqliteRepository(records).getRun(runId));
+    // Through the repository, as every caller of the records: a records server would answer here too.
+    const records = sqliteRepository(
+      createRecords(db, {
+        stationName: () => '',
+        calibrations: createCalibrations(db, { stationName: () => '', refuseUnlessWritable: refuse }),
+        whyNotWritable: () => 'The command line reads the records; it never writes them.',
+        // What the technician is not shown in the app goes to its log; here, to stderr.
+        onUnreadable: (record) => process.stderr.write(`${record.what}: ${record.detail}\n`),
+      }),
+    );
+    model = buildSheetModel(await records.getRun(runId));
   } catch (error) {
     if (error instanceof ExpectedFailure) throw new UsageProblem(error.message);
     throw error;

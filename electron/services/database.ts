@@ -406,22 +406,36 @@ export function openForReading(file: string): Db {
     const image = db.serialize();
     db.close();
     const copy = new Database(asMemoryImage(image));
-    // A damaged index can hide rows its table still holds (a query by run id that finds no trim
-    // points, where the table has them): a run would then read back short without any check
-    // failing. Rebuilt from the tables, an index shows every row they hold. When a table itself is
-    // damaged the rebuild fails; its rows then fail as they are read, and are reported so.
-    try {
-      copy.exec('REINDEX');
-    } catch {
-      // read what can be read
-    }
+    rebuildIndexes(copy);
     copy.pragma('foreign_keys = ON');
-    for (let version = schemaVersion(copy) + 1; version <= MIGRATIONS.length; version++) copy.exec(MIGRATIONS[version - 1]);
-    copy.pragma(`user_version = ${MIGRATIONS.length}`);
+    applyMigrations(copy, schemaVersion(copy));
     return copy;
   } catch (error) {
     if (db.open) db.close();
     throw error;
+  }
+}
+
+/**
+ * A damaged index can hide rows its table still holds (a query by run id that finds no trim points,
+ * or not the latest assessment, where the table has them): a run would then read back short without
+ * any check failing. Rebuilt from its table, an index shows every row the table holds. Table by
+ * table, so one damaged table leaves the others' indexes rebuilt; a damaged table's rows fail as
+ * they are read, and are reported so.
+ */
+function rebuildIndexes(db: Db): void {
+  let tables: { name: string }[];
+  try {
+    tables = db.prepare<[], { name: string }>("SELECT name FROM sqlite_master WHERE type = 'table' AND name NOT LIKE 'sqlite_%'").all();
+  } catch {
+    return; // the schema itself is damaged: nothing can be rebuilt, and reading will say so
+  }
+  for (const { name } of tables) {
+    try {
+      db.exec(`REINDEX "${name.replaceAll('"', '""')}"`);
+    } catch {
+      // read what can be read
+    }
   }
 }
 
@@ -438,8 +452,7 @@ function asMemoryImage(image: Buffer): Buffer {
 /** An empty database of today's schema in memory: what a station reads when its file cannot be read at all. */
 export function openEmptyInMemory(): Db {
   const db = new Database(':memory:');
-  for (const migration of MIGRATIONS) db.exec(migration);
-  db.pragma(`user_version = ${MIGRATIONS.length}`);
+  applyMigrations(db, 0);
   return db;
 }
 
@@ -461,6 +474,12 @@ function enterWal(db: Db, busyTimeoutMs: number): void {
       Atomics.wait(pause, 0, 0, pauseMs); // a synchronous pause, as SQLite's own busy handler sleeps
     }
   }
+}
+
+/** Runs every migration after `from` and marks the schema current; the caller holds the transaction, if any. */
+function applyMigrations(db: Db, from: number): void {
+  for (const migration of MIGRATIONS.slice(from)) db.exec(migration);
+  db.pragma(`user_version = ${MIGRATIONS.length}`);
 }
 
 function schemaVersion(db: Db): number {
@@ -503,8 +522,7 @@ function migrate(db: Db, file: string): void {
       if (current === latest) return true;
       // Changed since the copy was taken: take a copy of what is there now before touching it.
       if (current > 0 && current !== backedUpVersion) return false;
-      for (let version = current + 1; version <= latest; version++) db.exec(MIGRATIONS[version - 1]);
-      db.pragma(`user_version = ${latest}`);
+      applyMigrations(db, current);
       return true;
     }).immediate();
     if (done) return;

@@ -299,6 +299,14 @@ export function createRecords(
     return view;
   }
 
+  /** Whether the stored revision holds exactly this definition (both as the schema reads them). */
+  function storedAs(id: number, definition: Procedure | ProcedureFile): boolean {
+    const row = statements.procedureById.get(id)!;
+    const what = `procedure ${row.code} revision ${row.revision}`;
+    checkSealed('procedures', row, what);
+    return JSON.stringify(fromStoredJson(row.definition_json, storedProcedureDefinition, what)) === JSON.stringify(definition);
+  }
+
   function procedureById(id: number): Procedure {
     const row = statements.procedureById.get(id);
     if (!row) throw new ExpectedFailure(`There is no procedure with id ${id}.`);
@@ -647,6 +655,22 @@ export function createRecords(
     }
   }
 
+  /**
+   * Each row is sealed, but a damaged index can hide whole rows and leave every one read intact: a
+   * run missing its latest point or the assessment after it would read as an older, whole-looking
+   * run. Points are numbered 1, 2, 3… and, since assessments were kept, each is stored with the
+   * assessment made after it, so a gap in either is a missing record.
+   */
+  function checkComplete(runId: number, points: readonly TrimPoint[], assessments: readonly { afterSequence: number }[]): void {
+    points.forEach((point, i) => {
+      if (point.sequence !== i + 1) throw new UnreadableRecord(`trim point ${i + 1} of run ${runId}`, `points read: ${points.map((p) => p.sequence).join(', ')}`);
+    });
+    const latestAssessed = assessments.reduce((latest, a) => Math.max(latest, a.afterSequence), 0);
+    if (assessments.length > 0 && points.length > 0 && latestAssessed < points.length) {
+      throw new UnreadableRecord(`assessment after trim point ${points.length} of run ${runId}`, `latest assessment read is after point ${latestAssessed}`);
+    }
+  }
+
   function readRunDetail(row: RunRow): RunDetail {
     const runId = row.id;
     const assessments = assessmentsOf(runId);
@@ -654,9 +678,11 @@ export function createRecords(
     const results = stepResults(runId);
     const warm = statements.latestWarmCheck.get(runId);
     if (warm) checkSealed('warm_checks', warm, `warm re-check of run ${runId}`);
+    const points = trimPoints(runId);
+    checkComplete(runId, points, assessments);
     return {
       run: toRun(row),
-      trimPoints: trimPoints(runId),
+      trimPoints: points,
       assessment: assessments.at(-1)?.assessment ?? null,
       warningsRaised: warningsRaised(assessments),
       warningLog: warningLog(runId),
@@ -686,12 +712,23 @@ export function createRecords(
   }
 
   return {
-    /** Stores a procedure revision once; returns its id. A revision, once stored, never changes. */
+    /**
+     * Stores a built-in procedure revision once; returns its id. A revision, once stored, never
+     * changes: one already stored with other content is refused, since running either would be a
+     * guess at which one the line meant.
+     */
     ensureProcedure(definition: Procedure): number {
       refuseUnlessWritable();
-      const existing = statements.procedureByKey.get(definition.code, definition.revision);
-      if (existing) return existing.id;
-      return insertSealed('procedures', { code: definition.code, revision: definition.revision, definition_json: toStoredJson(definition) });
+      const parsed = procedureSchema.parse(definition);
+      const existing = statements.procedureByKey.get(parsed.code, parsed.revision);
+      if (!existing) return insertSealed('procedures', { code: parsed.code, revision: parsed.revision, definition_json: toStoredJson(parsed) });
+      if (!storedAs(existing.id, parsed)) {
+        throw new ExpectedFailure(
+          `The built-in procedure ${parsed.code} revision ${parsed.revision} differs from the one stored under that revision in this station's records, ` +
+            `so neither is used. Install the Trimbench release the records were made with, or report it to the station's maintainer.`,
+        );
+      }
+      return existing.id;
     },
 
     /**
@@ -714,10 +751,7 @@ export function createRecords(
       return db.transaction(() => {
         const existing = statements.procedureByKey.get(file.code, file.revision);
         if (existing) {
-          const row = statements.procedureById.get(existing.id)!;
-          checkSealed('procedures', row, `procedure ${file.code} revision ${file.revision}`);
-          const stored = fromStoredJson(row.definition_json, storedProcedureDefinition, `procedure ${file.code} revision ${file.revision}`);
-          if (stored.schemaVersion === 2 && JSON.stringify(stored) === JSON.stringify(file)) {
+          if (storedAs(existing.id, file)) {
             return { outcome: 'unchanged' as const, id: existing.id, code: file.code, revision: file.revision, summary: checked.summary };
           }
           throw new ExpectedFailure(

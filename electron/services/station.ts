@@ -22,6 +22,7 @@ import {
 } from './database.ts';
 import { openErrorLog, type ErrorLog } from './error-log.ts';
 import { ExpectedFailure } from './expected-failure.ts';
+import { UnreadableRecord } from './stored-record.ts';
 import { createHandlers, type Handlers } from './handlers.ts';
 import { createCalibrations } from './calibrations.ts';
 import { createRecords } from './records.ts';
@@ -188,7 +189,17 @@ export function openStation({
     }
     const { records, calibrations } = services;
     const opened = db;
-    if (notWritable === null) records.ensureProcedure(DEMO_PROCEDURE);
+    if (notWritable === null) {
+      try {
+        records.ensureProcedure(DEMO_PROCEDURE);
+      } catch (error) {
+        // A built-in revision that contradicts the stored one, or a stored one found damaged: the
+        // station reads, and records nothing.
+        if (!(error instanceof ExpectedFailure)) throw error;
+        log.record('storing the built-in procedure', error, error instanceof UnreadableRecord ? error.detail : undefined);
+        notWritable = error instanceof UnreadableRecord ? recordsMessages.damaged(databasePath, dataDir) : error.message;
+      }
+    }
     const repository = sqliteRepository(records);
     const sheets = createSheets(repository, join(dataDir, SHEETS_FOLDER));
     const handlers = databaseProblemsAsExpected(
@@ -210,6 +221,8 @@ export function openStation({
       /** The data folder's log: the dispatcher writes each unexpected error there. */
       errorLog,
       records,
+      /** The records as callers outside main's handlers (the command line) use them: every operation awaited. */
+      repository,
       sheets,
       handlers,
       /** Why nothing can be recorded at this station now, or null: the page shows it from the start. */

@@ -176,7 +176,7 @@ function trimReading(position: number) {
   return reading;
 }
 
-/** What main's finishRun answers, changed by the test (to stand in for step results main does not record yet). */
+/** What main's finishRun answers, changed by the test (a result for every step, without walking them). */
 type FinishedDetail = (detail: RunDetail) => RunDetail;
 
 async function sheetPdf(serial: string, positions: number[], finished?: FinishedDetail): Promise<{ pages: string[]; verdict: string; pdfPath: string }> {
@@ -198,7 +198,8 @@ async function sheetPdf(serial: string, positions: number[], finished?: Finished
     handlers.finishRun = realFinish;
   }
   const pdfPath = (await page.getByTestId('sheet-pdf-path').textContent())!.replace(/^Saved as /, '');
-  copyFileSync(pdfPath, `/tmp/trimbench-sheet-${positions.length}-points.pdf`); // for a look by eye
+  copyFileSync(pdfPath, `/tmp/trimbench-sheet-${serial}.pdf`); // for a look by eye
+  await page.screenshot({ path: `/tmp/trimbench-sheet-${serial}.png`, fullPage: true }); // the view on screen, likewise
   const pageCount = Number(/Pages:\s+(\d+)/.exec(execFileSync('pdfinfo', [pdfPath], { encoding: 'utf8' }))![1]);
   const pages = Array.from({ length: pageCount }, (_, i) =>
     execFileSync('pdftotext', ['-layout', '-f', String(i + 1), '-l', String(i + 1), pdfPath, '-'], { encoding: 'utf8' }),
@@ -236,8 +237,9 @@ describe('the unit sheet’s pages', () => {
   });
 
   it('prints the demo procedure — every step with its values and limits, and a ten-point trim — on one A4 page (ISO 216: 210 × 297 mm)', { timeout: 60_000 }, async () => {
-    // Main does not record step results yet (issue 10, in progress): its finished run is given the
-    // demo file's revision and one result per step here, as main will hold them.
+    // This checks the layout, not the step walk (tests/unit/records-steps.test.ts walks it): the
+    // finished run comes back with the demo file's revision and one result per step, shaped as main
+    // stores them, without measuring all ten steps here.
     const file = procedureFileSchema.parse(JSON.parse(readFileSync(new URL('../../resources/procedures/mg20-lf-trim.json', import.meta.url), 'utf8')));
     const m = (quantity: string, value: number, unit: string, low: number | null, high: number | null, note: string | null = null) => ({
       quantity, value, unit, low, high, note,
@@ -275,7 +277,6 @@ describe('the unit sheet’s pages', () => {
       judgement,
     });
     const { pages, pdfPath } = await sheetPdf('MG20-2611-0112', [0, 0.5, 1, 1.5, 2, 2.5, 3, 3.5, 4, 4.5], withSteps);
-    copyFileSync(pdfPath, '/tmp/trimbench-sheet-demo-procedure.pdf'); // for a look by eye
     expect(pages).toHaveLength(1);
     // A4 is 210 × 297 mm (ISO 216); a PostScript point is 1/72 inch and an inch 25.4 mm.
     const size = /Page size:\s+([\d.]+) x ([\d.]+) pts/.exec(execFileSync('pdfinfo', [pdfPath], { encoding: 'utf8' }))!;

@@ -29,7 +29,7 @@ describe('importing a procedure in the app', () => {
     await page.getByTestId('import-procedure').click();
     await page.getByTestId('import-procedure').click({ force: true }).catch(() => {});
     await expect.poll(() => message.textContent(), POLL).toMatch(/Imported MG20-LF-TRIM revision C|already stored exactly/);
-    await expect.poll(() => page.getByTestId('procedure-revisions').textContent(), POLL).toMatch(/MG20-LF-TRIM rev C new runs use it · 0 runs/);
+    await expect.poll(() => page.getByTestId('procedure-revisions').textContent(), POLL).toMatch(/MG20-LF-TRIM rev C\s*new runs use it · 0 runs/);
     // The view lists both revisions; from the keyboard, the arrow keys move between them and Enter
     // shows one's steps with their limits (the trim's limit from the file: THD ≤ −60 dB).
     await page.locator('button[data-revision]').last().focus();

@@ -3,8 +3,9 @@
 import { mkdtempSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
+import type { AudioSetup } from '../../shared/calibration/station-calibration.ts';
 import type { Reading } from '../../shared/measurement/reading.ts';
-import type { CallerContext } from '../../electron/services/handlers.ts';
+import { dispatch, type CallerContext, type Handlers } from '../../electron/services/handlers.ts';
 import { openStation } from '../../electron/services/station.ts';
 
 export function tempDir(prefix = 'trimbench-test-'): { path: string; remove(): void } {
@@ -75,3 +76,27 @@ export function onPhasorLine(position: number, trueNull: number, overrides: Part
 
 /** Live readings since the move: the level holding with the trimmer still, as a settled stage does (common practice). */
 export const STEADY_LIVE = { levelsDbfs: Array<number>(12).fill(-12), lfDbfs: Array<number>(12).fill(-110) };
+
+/** A call through the dispatcher that must succeed: its value. */
+export async function accepted<T>(handlers: Handlers, channel: string, payload: unknown, caller: CallerContext = noCaller): Promise<T> {
+  const result = await dispatch(handlers, channel, payload, caller);
+  if (!result.ok) throw new Error(result.error.message);
+  return result.value as T;
+}
+
+/** A call through the dispatcher that must be refused: the technician's message. */
+export async function refusedWith(handlers: Handlers, channel: string, payload: unknown): Promise<string> {
+  const result = await dispatch(handlers, channel, payload, noCaller);
+  if (result.ok) throw new Error(`${channel} was accepted`);
+  return result.error.message;
+}
+
+/** An interface as the page reports it with capture started: one input channel carries the unit. */
+export const TEST_SETUP: AudioSetup = {
+  inputDeviceId: 'in-1',
+  inputDeviceLabel: 'Interface In 1-2',
+  inputChannel: 0,
+  outputDeviceId: 'out-1',
+  outputDeviceLabel: 'Interface Out 1-2',
+  sampleRateHz: 48000,
+};

@@ -8,7 +8,9 @@ import Database from 'better-sqlite3';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { encodeWavFloat32 } from '../../shared/audio/wav.ts';
-import { openTestStation, readingWithThd, tempDir } from '../support/station.ts';
+import { dispatch } from '../../electron/services/handlers.ts';
+import type { RunDetail } from '../../shared/ipc/contract.ts';
+import { noCaller, onPhasorLine, openTestStation, readingWithThd, STEADY_LIVE, tempDir } from '../support/station.ts';
 import { encodePcm24 } from '../support/wav-files.ts';
 import { gaussian, seededRandom } from '../support/random.ts';
 import { tone } from '../support/signals.ts';
@@ -487,5 +489,83 @@ describe('sheet', () => {
     expect(result.status).toBe(1);
     expect(result.stdout).toBe('');
     expect(result.stderr).toMatch(new RegExp(`Run ${finished} \\(serial MG20-2611-0301\\) cannot be read`));
+  });
+});
+
+describe('sheet of a run walked through its steps in main', () => {
+  // The demo file's notice, trim, 14 Hz distortion and 1 kHz gain steps, walked on a station
+  // calibrated by the dBu definition (0 dBu = √0.6 V RMS = 0.7746 V): the voltmeter reads 0.7746 V
+  // while −20 dBFS plays, so the output's full scale is +20 dBu; the loop reads −18 dBFS for
+  // −20 dBFS played, so the input's full scale is +18 dBu.
+  const OUT_FS = 20;
+  const IN_FS = 18;
+  // y = x − a·x³ driven at unit level: cos³θ = (3 cos θ + cos 3θ)/4, so H3 is (a/4)/(1 − 3a/4) of the fundamental.
+  const a = 0.002;
+  const h3Db = 20 * Math.log10(a / 4 / (1 - (3 * a) / 4));
+  let data: string;
+  let runId: number;
+  beforeAll(async () => {
+    data = join(files.path, 'walked');
+    const station = openTestStation(data);
+    const call = async (channel: string, payload: unknown, caller = noCaller) => {
+      const answer = await dispatch(station.handlers, channel, payload, caller);
+      if (!answer.ok) throw new Error(answer.error.message);
+      return answer.value as RunDetail & { id: number };
+    };
+    try {
+      const setup = { inputDeviceId: 'in', inputDeviceLabel: 'In 1-2', inputChannel: 0, outputDeviceId: 'out', outputDeviceLabel: 'Out 1-2', sampleRateHz: 48000 };
+      await call('recordCalibration', {
+        operator: 'A. Tester',
+        setup,
+        output: { referenceHz: 1000, referenceDbfs: -20, meterEntry: '0.7746 V' },
+        input: { method: 'loopback', generatorDbfs: -20, capturedDbfs: -18, capturedHz: 1000 },
+      });
+      const file = JSON.parse(readFileSync(new URL('../../resources/procedures/mg20-lf-trim.json', import.meta.url), 'utf8'));
+      file.code = 'MG20-SHEET';
+      file.steps = file.steps.filter((s: { id: string }) => ['safety', 'lf-trim', 'thd-14hz', 'gain-1khz'].includes(s.id));
+      const path = join(files.path, 'sheet-walk.json');
+      writeFileSync(path, JSON.stringify(file));
+      const { id: procedureId } = await call('importProcedure', {}, { ...noCaller, chooseProcedureFile: async () => path });
+      runId = (await call('openRun', { serial: 'MG20-2611-0401', procedureId, operator: 'A. Tester', setup, lot: 'WO-77' })).run.id;
+      await call('acknowledgeNotice', { runId, stepId: 'safety' });
+      const trimStimulus = { on: true, frequencyHz: 14, levelDbfs: -12 };
+      for (const position of [0, 2.5, 4, 4.5]) station.records.recordTrimPoint({ runId, position, reading: onPhasorLine(position, 5), live: STEADY_LIVE, stimulus: trimStimulus });
+      const recommended = station.records.getRun(runId).assessment!.recommendedPosition!;
+      station.records.recordTrimPoint({ runId, position: recommended, reading: onPhasorLine(recommended, 5), live: STEADY_LIVE, stimulus: trimStimulus });
+      await call('completeTrim', { runId, stepId: 'lf-trim' });
+      const at4Dbu = (frequencyHz: number) => ({ on: true, frequencyHz, levelDbfs: 4 - OUT_FS });
+      const at14 = readingWithThd(h3Db, { fundamental: { frequencyHz: 14, levelDbfs: 4 - IN_FS, phaseDeg: 0 } });
+      await call('recordCheckStep', { runId, stepId: 'thd-14hz', stimulus: at4Dbu(14), readings: [{ channel: 1, reading: at14 }] });
+      // 0.3 dB of gain: the output reads 4.3 dBu for the 4 dBu played.
+      const at1k = readingWithThd(-90, { fundamental: { frequencyHz: 1000, levelDbfs: 4.3 - IN_FS, phaseDeg: 0 }, harmonics: [{ order: 3, frequencyHz: 3000, levelDbc: -90, phaseDeg: 0 }] });
+      await call('recordCheckStep', { runId, stepId: 'gain-1khz', stimulus: at4Dbu(1000), readings: [{ channel: 1, reading: at1k }] });
+      await call('finishRun', { runId });
+    } finally {
+      station.close();
+    }
+  });
+
+  it('prints every step with its stored values against their limits, and the stored verdict', () => {
+    const result = run('sheet', '--data', data, '--run', String(runId), '--json');
+    expect(result.stderr).toBe('');
+    expect(result.status).toBe(0);
+    const sheet = JSON.parse(result.stdout);
+    const db = new Database(join(data, 'trimbench.sqlite'), { readonly: true });
+    const stored = db.prepare('SELECT verdict FROM runs WHERE id = ?').get(runId) as { verdict: string };
+    db.close();
+    expect(sheet.verdict.text).toBe(stored.verdict.toUpperCase());
+    expect(sheet.unit.lot).toBe('WO-77');
+    const step = (id: string) => sheet.steps.find((s: { id: string }) => s.id === id);
+    expect(sheet.steps.map((s: { id: string; statusText: string }) => [s.id, s.statusText])).toEqual([
+      ['safety', 'acknowledged'],
+      ['lf-trim', 'PASS'],
+      ['thd-14hz', 'PASS'],
+      ['gain-1khz', 'PASS'],
+    ]);
+    // The cubic stage's H3 (Fourier series above) against the file's limit, inclusive (docs/procedures.md).
+    expect(step('thd-14hz').measurements[1]).toMatchObject({ label: 'H3', valueText: `−${Math.abs(h3Db).toFixed(1)} dBc`, limitText: '≤ −52.0 dBc', failing: false });
+    expect(step('gain-1khz').measurements[0]).toMatchObject({ label: 'Gain', valueText: '+0.30 dB', limitText: '−0.50 to +0.50 dB' });
+    // The calibration the run used, by the voltmeter's and the loop's figures above.
+    expect(sheet.calibration.levels).toBe(`0 dBFS = +${IN_FS.toFixed(1)} dBu in, +${OUT_FS.toFixed(1)} dBu out`);
   });
 });

@@ -12,6 +12,8 @@ import { dispatch, type CallerContext } from '../../electron/services/handlers.t
 import { openStation } from '../../electron/services/station.ts';
 import type { ProcedureRevision } from '../../shared/ipc/contract.ts';
 import { noCaller, tempDir } from '../support/station.ts';
+import { sealRow } from '../../electron/services/stored-record.ts';
+import { DEMO_PROCEDURE } from '../../shared/procedures/demo-procedure.ts';
 
 const RESOURCE = fileURLToPath(new URL('../../resources/procedures/mg20-lf-trim.json', import.meta.url));
 
@@ -43,6 +45,26 @@ function variant(name: string, change: (file: Record<string, any>) => void): str
   return path;
 }
 const procedureRows = () => (station.db.prepare('SELECT COUNT(*) AS n FROM procedures').get() as { n: number }).n;
+
+describe('the built-in procedure', () => {
+  it('is stored once, and a stored revision of the same code and revision with other content is refused, never used silently', async () => {
+    const stored = station.records.listProcedures().find((p) => p.definition.code === DEMO_PROCEDURE.code)!;
+    expect(station.records.ensureProcedure(DEMO_PROCEDURE)).toBe(stored.id);
+    const changed = { ...DEMO_PROCEDURE, trim: { ...DEMO_PROCEDURE.trim, limitThdDb: -55 } };
+    expect(() => station.records.ensureProcedure(changed)).toThrow(/MG20-LF-TRIM revision B differs from the one stored under that revision/);
+
+    // Records whose revision B says −55 dB (as if another build had stored it), sealed as written: the station reads, and records nothing.
+    const row = station.db.prepare('SELECT id, code, revision FROM procedures WHERE id = ?').get(stored.id) as { id: number; code: string; revision: string };
+    const definition_json = JSON.stringify({ v: 1, value: changed });
+    station.db.exec('DROP TRIGGER procedures_never_change');
+    station.db.prepare('UPDATE procedures SET definition_json = ?, crc = ? WHERE id = ?').run(definition_json, sealRow('procedures', [row.code, row.revision, definition_json]), row.id);
+    station.close();
+    station = openStation({ dataDir: join(dir.path, 'data'), stationName: 'bench-1', log: { record: () => '' } });
+    expect(station.recordsProblem()).toMatch(/MG20-LF-TRIM revision B differs/);
+    const open = await dispatch(station.handlers, 'openRun', { serial: 'MG20-2611-0042', procedureId: stored.id, operator: 'A. Tester' }, noCaller);
+    expect(!open.ok && open.error.message).toMatch(/differs/);
+  });
+});
 
 describe('importing a procedure file', () => {
   it('stores the demo file with its check steps whole: the run walks them (issue 10: "a run walks the procedure\'s steps in order")', async () => {

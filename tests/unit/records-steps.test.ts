@@ -17,20 +17,12 @@ import { fileURLToPath } from 'node:url';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { dispatch, type CallerContext } from '../../electron/services/handlers.ts';
 import { DATABASE_FILE, openStation } from '../../electron/services/station.ts';
-import type { AudioSetup } from '../../shared/calibration/station-calibration.ts';
 import type { Reading } from '../../shared/measurement/reading.ts';
 import type { RunDetail } from '../../shared/ipc/contract.ts';
-import { noCaller, onPhasorLine, readingWithThd, STEADY_LIVE, tempDir } from '../support/station.ts';
+import { accepted, noCaller, TEST_SETUP, onPhasorLine, readingWithThd, refusedWith, STEADY_LIVE, tempDir } from '../support/station.ts';
 
 const RESOURCE = fileURLToPath(new URL('../../resources/procedures/mg20-lf-trim.json', import.meta.url));
-const SETUP: AudioSetup = {
-  inputDeviceId: 'in-1',
-  inputDeviceLabel: 'Interface In 1-2',
-  inputChannel: 0,
-  outputDeviceId: 'out-1',
-  outputDeviceLabel: 'Interface Out 1-2',
-  sampleRateHz: 48000,
-};
+const SETUP = TEST_SETUP;
 
 /** dBu of a voltage: 0 dBu = √0.6 V RMS. */
 const dbuOfVolts = (volts: number) => 20 * Math.log10(volts / Math.sqrt(0.6));
@@ -73,16 +65,8 @@ let dir: ReturnType<typeof tempDir>;
 let station: ReturnType<typeof openStation>;
 let procedureId: number;
 
-async function call<T = RunDetail>(channel: string, payload: unknown, caller: CallerContext = noCaller): Promise<T> {
-  const result = await dispatch(station.handlers, channel, payload, caller);
-  if (!result.ok) throw new Error(result.error.message);
-  return result.value as T;
-}
-async function refusal(channel: string, payload: unknown): Promise<string> {
-  const result = await dispatch(station.handlers, channel, payload, noCaller);
-  if (result.ok) throw new Error(`${channel} was accepted`);
-  return result.error.message;
-}
+const call = <T = RunDetail>(channel: string, payload: unknown, caller: CallerContext = noCaller) => accepted<T>(station.handlers, channel, payload, caller);
+const refusal = (channel: string, payload: unknown) => refusedWith(station.handlers, channel, payload);
 const open = () => openStation({ dataDir: dir.path, stationName: 'bench-7', log: { record: () => '' } });
 
 beforeEach(async () => {

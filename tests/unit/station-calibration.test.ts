@@ -12,16 +12,9 @@ import type { AudioSetup } from '../../shared/calibration/station-calibration.ts
 import { dispatch } from '../../electron/services/handlers.ts';
 import { openStation } from '../../electron/services/station.ts';
 import { DEMO_PROCEDURE } from '../../shared/procedures/demo-procedure.ts';
-import { noCaller, readingWithThd, tempDir } from '../support/station.ts';
+import { accepted, noCaller, TEST_SETUP, readingWithThd, refusedWith, tempDir } from '../support/station.ts';
 
-const SETUP: AudioSetup = {
-  inputDeviceId: 'in-1',
-  inputDeviceLabel: 'Interface In 1-2',
-  inputChannel: 0,
-  outputDeviceId: 'out-1',
-  outputDeviceLabel: 'Interface Out 1-2',
-  sampleRateHz: 48000,
-};
+const SETUP = TEST_SETUP;
 const T0 = Date.parse('2026-11-02T09:00:00Z');
 const DAY = 86_400_000;
 const dbuOfVolts = (v: number) => 20 * Math.log10(v / Math.sqrt(0.6));
@@ -41,16 +34,8 @@ afterEach(() => {
   dir.remove();
 });
 
-async function ok<T>(channel: string, payload: unknown): Promise<T> {
-  const result = await dispatch(station.handlers, channel, payload, noCaller);
-  if (!result.ok) throw new Error(result.error.message);
-  return result.value as T;
-}
-async function refused(channel: string, payload: unknown): Promise<string> {
-  const result = await dispatch(station.handlers, channel, payload, noCaller);
-  if (result.ok) throw new Error(`${channel} was accepted`);
-  return result.error.message;
-}
+const ok = <T>(channel: string, payload: unknown) => accepted<T>(station.handlers, channel, payload);
+const refused = (channel: string, payload: unknown) => refusedWith(station.handlers, channel, payload);
 
 const calibrate = (meterEntry = '0.7746 V', input: object = { method: 'loopback', generatorDbfs: -20, capturedDbfs: -18, capturedHz: 1000.2 }) =>
   ok<{ calibration: { id: number; output: { dbuAtFullScale: number }; input: { dbuAtFullScale: number } } }>('recordCalibration', {
