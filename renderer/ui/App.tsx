@@ -37,7 +37,7 @@ export function App() {
   // Focus leaves the button that turned the generator on (whose next Enter would mute it) for the
   // field whose Enter is the next step: record a point, record a check, or open a unit.
   const afterTurnedOn = useCallback(() => {
-    const next = positionInputRef.current ?? document.querySelector<HTMLElement>('[data-testid=check-primary]') ?? serialInputRef.current;
+    const next = positionInputRef.current ?? document.querySelector<HTMLElement>('[data-step-primary]') ?? serialInputRef.current;
     next?.focus();
   }, []);
   const generator = useGenerator(audioRef, positionInputRef, afterTurnedOn);

@@ -136,7 +136,7 @@ export function CheckStepPanel({
         </p>
       )}
       <div className="row">
-        <button type="button" className="primary" ref={primaryRef} autoFocus onClick={() => void primary()} disabled={pending} data-testid="check-primary">
+        <button type="button" className="primary" ref={primaryRef} autoFocus onClick={() => void primary()} disabled={pending} data-testid="check-primary" data-step-primary>
           {waitingForTone ? 'Turn on the generator (Enter)' : 'Record the step (Enter)'}
         </button>
       </div>
