@@ -31,6 +31,7 @@ import { whyNotRecordable, type StimulusSetting } from '../../shared/records/sti
 import { judgeTrimRun, type TrimJudgement } from '../../shared/records/verdict.ts';
 import { assessTrim, type TrimAssessment } from '../../shared/trim/assessment.ts';
 import { warmRecheck, type LiveSeries } from '../../shared/trim/trim-assistant.ts';
+import { openLiveWarnings, warningsRaised } from '../../shared/trim/warning-tracker.ts';
 import type { Calibrations } from './calibrations.ts';
 import { isDatabaseDamaged, type Db } from './database.ts';
 import { CannotPass, ExpectedFailure, RetestNeedsReason } from './expected-failure.ts';
@@ -476,13 +477,6 @@ export function createRecords(
     });
   }
 
-  /** Warnings the live watch raised and has not reported cleared. */
-  function openLiveWarnings(log: readonly WarningLogEntry[]): { id: string; seen: string }[] {
-    const last = new Map<string, WarningLogEntry>();
-    for (const entry of log) if (entry.source === 'live') last.set(entry.id, entry);
-    return [...last.values()].filter((e) => e.change === 'raised').map((e) => ({ id: e.id, seen: e.seen }));
-  }
-
   /** The run's step results in the order recorded, each with its measurements, checked as they are read. */
   function stepResults(runId: number): StepResult[] {
     const byResult = new Map<number, Measurement[]>();
@@ -708,13 +702,6 @@ export function createRecords(
   function readRunDetail(row: RunRow): RunDetail {
     const runId = row.id;
     const assessments = assessmentsOf(runId);
-    // Each warning as first raised: the record of what the technician was told, and when.
-    const warningsRaised: RunDetail['warningsRaised'] = [];
-    for (const { afterSequence, assessment } of assessments) {
-      for (const warning of assessment.warnings) {
-        if (!warningsRaised.some((w) => w.id === warning.id)) warningsRaised.push({ ...warning, afterSequence });
-      }
-    }
     const procedureFile = runProcedureFile(row);
     const results = stepResults(runId);
     const warm = statements.latestWarmCheck.get(runId);
@@ -725,7 +712,7 @@ export function createRecords(
       run: toRun(row),
       trimPoints: points,
       assessment: assessments.at(-1)?.assessment ?? null,
-      warningsRaised,
+      warningsRaised: warningsRaised(assessments),
       warningLog: warningLog(runId),
       warmCheck: warm ? fromStoredJson(warm.result_json, warmCheckSchema, `warm re-check of run ${runId}`) : null,
       earlierRuns: statements.earlierRuns.get(row.unit_id, runId)?.count ?? 0,

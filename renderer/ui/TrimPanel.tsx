@@ -1,34 +1,35 @@
 import { useEffect, useRef, useState, type RefObject } from 'react';
-import type { RunDetail, StoredProcedure, WarmCheck } from '../../shared/ipc/contract.ts';
-import { AT_FLOOR_MARGIN_DB } from '../../shared/calibration/station-calibration.ts';
-import { dbuFromDbfs, formatLevel, signedFixed, type LevelCalibration } from '../../shared/levels.ts';
+import type { RunDetail, StepResult, StoredProcedure, WarmCheck } from '../../shared/ipc/contract.ts';
+import { formatLevel } from '../../shared/levels.ts';
+import type { LevelCalibration } from '../../shared/levels.ts';
 import type { Reading } from '../../shared/measurement/reading.ts';
 import { whyNotRecordable } from '../../shared/records/stimulus-check.ts';
 import { judgeTrimRun } from '../../shared/records/verdict.ts';
 import type { LiveSeries, TrimWarning } from '../../shared/trim/trim-assistant.ts';
-import type { WarningChange } from '../../shared/trim/warning-tracker.ts';
-import { ApiError } from '../api.ts';
+import { openLiveWarnings, type WarningChange } from '../../shared/trim/warning-tracker.ts';
 import { problemText } from '../problem-text.ts';
 import { AssistantSummary } from './AssistantSummary.tsx';
-import { fixed, percent } from './format.ts';
+import { fixed } from './format.ts';
+import { StepResultView } from './StepResultView.tsx';
 import { TrimPlot } from './TrimPlot.tsx';
-import { WARNING_TITLES } from '../../shared/trim/warning-titles.ts';
+import { TrimPointsTable } from './TrimPointsTable.tsx';
+import { TrimWarnings } from './TrimWarnings.tsx';
+import type { UnsettledChoice } from './useRun.ts';
+import { useLiveSeries } from './useLiveSeries.ts';
 import { useLiveWarnings } from './useLiveWarnings.ts';
+import { WarmCheckForm } from './WarmCheckForm.tsx';
 import type { GeneratorCommand } from '../worker/messages.ts';
 
-/**
- * How a reading that has not settled is treated: Enter only ever records settled readings
- * ('refuse'); 'record-marked' comes only from the separate, confirmed "Record unsettled…" action.
- */
-export type UnsettledChoice = 'refuse' | 'record-marked';
-// Live readings kept since the trimmer last moved (about a minute at six readings a second).
-const LIVE_SERIES_LENGTH = 360;
 // A reading older than this is not recorded: the stream has stopped.
 const STALE_READING_MS = 2000;
 
+/**
+ * The trim step: record points toward the null with the assistant's advice and live warnings, then
+ * "Trim done" hands the trim to main, which judges it from the stored points as the step's result.
+ */
 export function TrimPanel({
   detail,
-  procedure,
+  trim,
   reading,
   readingAt,
   onRecord,
@@ -38,10 +39,10 @@ export function TrimPanel({
   onToggleGenerator,
   onWarmCheck,
   onPositionChange,
-  onFinish,
   onIncludePoint,
   onWarningChanges,
-  onClose,
+  onTrimDone,
+  result,
   inputCalibration = null,
   outputCalibration = null,
 }: {
@@ -50,7 +51,7 @@ export function TrimPanel({
   /** The station's output calibration while it holds: the stimulus in dBu beside dBFS. Null: dBFS only. */
   outputCalibration?: LevelCalibration | null;
   detail: RunDetail;
-  procedure: StoredProcedure['definition'];
+  trim: StoredProcedure['definition']['trim'];
   reading: Reading | null;
   /** When `reading` arrived (ms since the epoch). */
   readingAt: number;
@@ -63,15 +64,15 @@ export function TrimPanel({
   onWarmCheck(request: { coldTemperatureC: number; warmTemperatureC: number; reading: Reading }): Promise<WarmCheck>;
   /** The typed position changed (the demo bench's virtual trimmer follows it). */
   onPositionChange(position: number): void;
-  /** Refused with the reasons when the run has not earned a PASS, unless `asFailure`. */
-  onFinish(asFailure: boolean): Promise<void>;
   /** Confirms an unsettled point so it joins the fit. */
   onIncludePoint(pointId: number): Promise<void>;
   onWarningChanges(changes: WarningChange[]): void;
-  onClose(): void;
+  /** The technician is done trimming: main judges the trim as the step's result. */
+  onTrimDone(): Promise<void>;
+  /** The trim step's latest recorded result in this run, or null. */
+  result: StepResult | null;
 }) {
-  const { run, trimPoints, assessment } = detail;
-  const { trim } = procedure;
+  const { trimPoints, assessment } = detail;
   const last = trimPoints.at(-1);
   const [positionText, setPositionTextState] = useState(String(last ? last.position : trim.positionMin));
   const [message, setMessage] = useState<string | null>(null);
@@ -80,45 +81,18 @@ export function TrimPanel({
   const [confirmingUnsettled, setConfirmingUnsettled] = useState(false);
   // The reading last recorded: a second Enter on the same reading must not make a second point.
   const recordedReading = useRef<Reading | null>(null);
-  // Why Finish was refused (the run has not earned a PASS): shown with the offer to finish as FAIL.
-  const [finishRefusal, setFinishRefusal] = useState<string | null>(null);
-  // Readings since the trimmer last moved: amplitude wander and sub-audio growth show in these.
-  const live = useRef<LiveSeries>({ levelsDbfs: [], lfDbfs: [] });
-  const lastSequence = useRef(0);
-  // The meter restarts its clean stretch at a move; a reading already on its way when the move
-  // was sent may still come in, so the first one after the move does not count either.
-  const sequenceAtMove = useRef(0);
+  const series = useLiveSeries(reading);
 
   const setPositionText = (text: string) => {
     setPositionTextState(text);
-    live.current = { levelsDbfs: [], lfDbfs: [] };
-    sequenceAtMove.current = lastSequence.current;
+    series.moved();
     setConfirmingUnsettled(false);
-    setFinishRefusal(null);
     const position = Number(text);
     if (text.trim() !== '' && Number.isFinite(position)) onPositionChange(position);
   };
 
   // The demo bench's virtual trimmer starts where this step starts.
   useEffect(() => onPositionChange(Number(positionText)), []); // eslint-disable-line react-hooks/exhaustive-deps
-
-  useEffect(() => {
-    if (!reading) return;
-    // A new meter (capture restarted, stimulus changed) starts its sequence again: so does the series.
-    if (reading.sequence < lastSequence.current) {
-      live.current = { levelsDbfs: [], lfDbfs: [] };
-      sequenceAtMove.current = 0;
-    }
-    // Settle updates repeat the last measured numbers under the same sequence: not a new reading.
-    if (reading.sequence === lastSequence.current) return;
-    lastSequence.current = reading.sequence;
-    if (reading.flags.includes('no-signal')) return;
-    const series = live.current;
-    series.levelsDbfs.push(reading.fundamental.levelDbfs);
-    if (reading.subAudioDbfs !== null) series.lfDbfs.push(reading.subAudioDbfs);
-    if (series.levelsDbfs.length > LIVE_SERIES_LENGTH) series.levelsDbfs.shift();
-    if (series.lfDbfs.length > LIVE_SERIES_LENGTH) series.lfDbfs.shift();
-  }, [reading]);
 
   // Only what holds now, at the typed position; raised and cleared with hysteresis, and logged.
   const warnings: TrimWarning[] = useLiveWarnings(trim, trimPoints, Number(positionText), reading, generator.frequencyHz, onWarningChanges);
@@ -140,14 +114,26 @@ export function TrimPanel({
     if (Date.now() - readingAt > STALE_READING_MS) {
       return 'No new reading for a while: the capture has stopped delivering. Check the interface, then start capture again.';
     }
-    if (reading.sequence <= sequenceAtMove.current + 1) {
-      return 'The reading still includes the previous trimmer position: wait a moment, then record.';
-    }
+    if (series.beforeMove(reading)) return 'The reading still includes the previous trimmer position: wait a moment, then record.';
     // The same rule main applies: the generator at the procedure's stimulus and the reading its answer.
     const stimulusProblem = whyNotRecordable(reading, generator, trim, 'record-marked');
     if (stimulusProblem) return stimulusProblem;
     if (reading === recordedReading.current) return 'This reading is already recorded. Move the trimmer, or wait for the next reading.';
     return null;
+  }
+
+  /** One call to main at a time, its refusal shown as it came. */
+  async function guarded(work: () => Promise<void>, failed: string, retry: string) {
+    if (busy) return;
+    setBusy(true);
+    try {
+      await work();
+      setMessage(null);
+    } catch (error) {
+      setMessage(problemText(error, failed, retry));
+    } finally {
+      setBusy(false);
+    }
   }
 
   async function record(unsettled: UnsettledChoice) {
@@ -162,28 +148,15 @@ export function TrimPanel({
       );
     }
     setConfirmingUnsettled(false);
-    setBusy(true);
-    try {
-      await onRecord(position, reading, { levelsDbfs: live.current.levelsDbfs.slice(-60), lfDbfs: live.current.lfDbfs.slice(-60) }, unsettled);
-      recordedReading.current = reading;
-      setMessage(null);
-    } catch (error) {
-      setMessage(problemText(error, 'The point was not recorded', 'Press Record point (Enter) again.'));
-    } finally {
-      setBusy(false);
-      positionInput.current?.focus();
-    }
-  }
-
-  async function includePoint(pointId: number) {
-    setBusy(true);
-    try {
-      await onIncludePoint(pointId);
-    } catch (error) {
-      setMessage(problemText(error, 'The point was not included', 'Press Include in fit again.'));
-    } finally {
-      setBusy(false);
-    }
+    await guarded(
+      async () => {
+        await onRecord(position, reading, series.recent(), unsettled);
+        recordedReading.current = reading;
+      },
+      'The point was not recorded',
+      'Press Record point (Enter) again.',
+    );
+    positionInput.current?.focus();
   }
 
   function askRecordUnsettled() {
@@ -193,55 +166,13 @@ export function TrimPanel({
     setConfirmingUnsettled(true);
   }
 
-  async function finish(asFailure: boolean) {
-    setBusy(true);
-    try {
-      await onFinish(asFailure);
-    } catch (error) {
-      if (error instanceof ApiError && error.kind === 'CannotPass' && !asFailure) setFinishRefusal((error as Error).message);
-      else setMessage(problemText(error, 'The run was not finished', 'Press Finish again; the points recorded so far are kept.'));
-    } finally {
-      setBusy(false);
-    }
-  }
-
   const harmonic = `H${trim.harmonicOrder}`;
-  // What Finish would give now: main's own rule, so the technician knows before pressing it.
-  const outlook = trimPoints.length > 0 ? judgeTrimRun({ trimPoints, assessment, openLiveWarnings: warnings }, trim) : null;
+  // What completing the trim would give now: main's own rule on main's record (its warning log), so
+  // the technician knows before pressing it.
+  const outlook = trimPoints.length > 0 ? judgeTrimRun({ trimPoints, assessment, openLiveWarnings: openLiveWarnings(detail.warningLog) }, trim) : null;
   return (
     <section className="panel trim" aria-label="Trim step">
-      <h2>
-        Trim step · <span data-testid="run-serial">{run.serial}</span>
-      </h2>
-      <p className="hint">
-        {run.modelName} · {run.procedureCode} rev {run.procedureRevision} · run {run.id}
-        {detail.earlierRuns > 0 && ` · retest (${detail.earlierRuns} earlier run${detail.earlierRuns === 1 ? '' : 's'})`}
-      </p>
-      {run.invented && <p className="invented">Demo procedure: invented values, for practice only.</p>}
-      {warnings.length > 0 ? (
-        <div className="warning-banner" role="alert" data-testid="trim-warnings">
-          {warnings.map((w) => (
-            <p key={w.id} data-warning={w.id}>
-              <strong>{WARNING_TITLES[w.id]}.</strong> {w.seen} <em>{w.advice}</em>
-            </p>
-          ))}
-        </div>
-      ) : (
-        // Holds the banner's place, so a warning appearing does not push the panel down.
-        trimPoints.length > 0 && (
-          <p className="warning-banner quiet" data-testid="no-warnings">
-            No warning at {positionText} {trim.positionUnit}.
-          </p>
-        )
-      )}
-      <details open={trimPoints.length === 0}>
-        <summary>Procedure, safety first</summary>
-        <ol className="instructions">
-          {trim.instructions.map((text) => (
-            <li key={text}>{text}</li>
-          ))}
-        </ol>
-      </details>
+      <TrimWarnings warnings={warnings} anyPoints={trimPoints.length > 0} at={`${positionText} ${trim.positionUnit}`} />
       <p className="hint">
         Procedure: {trim.stimulusHz} Hz at {formatLevel(trim.stimulusLevelDbfs, outputCalibration)} · trims {harmonic} · limit THD ≤ {trim.limitThdDb} dB at the
         final point
@@ -329,150 +260,32 @@ export function TrimPanel({
           positionUnit={trim.positionUnit}
         />
       )}
-      <div className="table-scroll">
-      <table className="points" data-testid="trim-points">
-        <thead>
-          <tr>
-            <th scope="col">#</th>
-            <th scope="col">Position</th>
-            <th scope="col">{harmonic}, dBc</th>
-            <th scope="col">THD, dB</th>
-            <th scope="col">THD, %</th>
-            <th scope="col">{inputCalibration ? 'Level, dBu / dBFS' : 'Level, dBFS'}</th>
-            <th scope="col">Settled</th>
-          </tr>
-        </thead>
-        <tbody>
-          {trimPoints.map((p) => (
-            <tr key={p.id}>
-              <td>{p.sequence}</td>
-              <td>{fixed(p.position, 2)}</td>
-              <td>{fixed(p.reading.harmonics.find((h) => h.order === trim.harmonicOrder)?.levelDbc, 1)}</td>
-              <td className={p.reading.flags.includes('at-floor') ? 'at-floor' : undefined}>
-                {fixed(p.reading.thdDb, 1)}
-                {p.reading.flags.includes('at-floor') && ' †'}
-              </td>
-              <td>{percent(p.reading.thdPercent).replace(' %', '')}</td>
-              <td>
-                {inputCalibration ? (
-                  // Stacked: the narrow column keeps every column in view (Settled included).
-                  <>
-                    {signedFixed(dbuFromDbfs(p.reading.fundamental.levelDbfs, inputCalibration), 2)}
-                    <span className="level-dbfs">{fixed(p.reading.fundamental.levelDbfs, 2)}</span>
-                  </>
-                ) : (
-                  fixed(p.reading.fundamental.levelDbfs, 2)
-                )}
-              </td>
-              <td className={p.inFit ? undefined : 'unsettled'}>
-                {p.settled ? 'yes' : p.inFit ? 'no, included' : 'unsettled'}
-                {!p.inFit && (
-                  <button type="button" className="small" onClick={() => void includePoint(p.id)} disabled={busy} data-testid={`include-${p.sequence}`}>
-                    Include in fit
-                  </button>
-                )}
-              </td>
-            </tr>
-          ))}
-        </tbody>
-      </table>
-      </div>
-      {trimPoints.some((p) => p.reading.flags.includes('at-floor')) && (
-        <p className="hint" data-testid="trim-at-floor-note">
-          † At the station’s floor: THD within {AT_FLOOR_MARGIN_DB} dB of the chain’s own residual; the unit may be better than it reads.
-        </p>
-      )}
-      {trimPoints.some((p) => !p.inFit) && (
-        <p className="hint">Unsettled points are marked in red: they stay out of the curve fit and the verdict unless you include them.</p>
-      )}
+      <TrimPointsTable
+        points={trimPoints}
+        harmonicOrder={trim.harmonicOrder}
+        inputCalibration={inputCalibration}
+        busy={busy}
+        onInclude={(pointId) => void guarded(() => onIncludePoint(pointId), 'The point was not included', 'Press Include in fit again.')}
+      />
       {trimPoints.length >= 2 && <WarmCheckForm reading={reading} existing={detail.warmCheck} onWarmCheck={onWarmCheck} />}
       <div className="row">
-        <button type="button" onClick={() => void finish(false)} disabled={busy || trimPoints.length === 0} data-testid="finish-run">
-          Finish run and make the unit sheet
-        </button>
-        <button type="button" onClick={onClose} disabled={busy} data-testid="close-unit">
-          Close unit (mutes the generator)
+        <button
+          type="button"
+          onClick={() => void guarded(onTrimDone, 'The trim was not completed', 'Press Trim done again; the points recorded so far are kept.')}
+          disabled={busy || trimPoints.length === 0}
+          data-testid="trim-done"
+        >
+          Trim done: judge the trim
         </button>
       </div>
       {outlook && (
         <p className={outlook.verdict === 'pass' ? 'hint outlook pass' : 'hint outlook'} data-testid="finish-outlook">
           {outlook.verdict === 'pass'
-            ? 'Finishing now gives PASS.'
+            ? 'The trim passes if you complete it now.'
             : `Not ready to pass: ${outlook.reasons[0]}${outlook.reasons.length > 1 ? ` (and ${outlook.reasons.length - 1} more)` : ''}`}
         </p>
       )}
-      {finishRefusal && (
-        <div className="confirm" role="alertdialog" aria-label="The run cannot pass yet" data-testid="finish-refusal">
-          <p className="refusal">{finishRefusal}</p>
-          <div className="row">
-            {/* Keep trimming holds the focus: a stray Enter does not fail the unit. */}
-            <button type="button" autoFocus onClick={() => (setFinishRefusal(null), positionInput.current?.focus())}>
-              Keep trimming
-            </button>
-            <button type="button" className="warn" onClick={() => void finish(true)} disabled={busy} data-testid="finish-as-fail">
-              Finish as FAIL with these reasons
-            </button>
-          </div>
-        </div>
-      )}
+      {result && <StepResultView result={result} />}
     </section>
-  );
-}
-
-function WarmCheckForm({
-  reading,
-  existing,
-  onWarmCheck,
-}: {
-  reading: Reading | null;
-  existing: WarmCheck | null;
-  onWarmCheck(request: { coldTemperatureC: number; warmTemperatureC: number; reading: Reading }): Promise<WarmCheck>;
-}) {
-  const [cold, setCold] = useState('');
-  const [warm, setWarm] = useState('');
-  const [message, setMessage] = useState<string | null>(null);
-  const [result, setResult] = useState<WarmCheck | null>(existing);
-  async function submit() {
-    const coldC = Number(cold);
-    const warmC = Number(warm);
-    if (cold.trim() === '' || warm.trim() === '' || !Number.isFinite(coldC) || !Number.isFinite(warmC)) {
-      return setMessage('Enter both temperatures in °C.');
-    }
-    if (!reading?.settled) return setMessage('Wait for a settled reading at the final setting.');
-    try {
-      setResult(await onWarmCheck({ coldTemperatureC: coldC, warmTemperatureC: warmC, reading }));
-      setMessage(null);
-    } catch (error) {
-      setMessage(problemText(error, 'The warm re-check was not recorded', 'Press Record warm reading again.'));
-    }
-  }
-  return (
-    <details className="warm-check">
-      <summary>Warm re-check (optional, after the unit has warmed up)</summary>
-      <div className="row">
-        <label>
-          Temperature at trim, °C
-          <input inputMode="decimal" value={cold} onChange={(e) => setCold(e.target.value)} />
-        </label>
-        <label>
-          Temperature now, °C
-          <input inputMode="decimal" value={warm} onChange={(e) => setWarm(e.target.value)} />
-        </label>
-        <button type="button" onClick={() => void submit()}>
-          Record warm reading
-        </button>
-      </div>
-      {message && (
-        <p className="problem" role="alert">
-          {message}
-        </p>
-      )}
-      {result && (
-        <p className="hint" data-testid="warm-check-result">
-          {fixed(result.warmTemperatureC - result.coldTemperatureC, 1)} °C warmer: the unit’s own tracking held{' '}
-          {fixed(100 * result.trackingFraction, 0)} % of the drift an untracked winding would show.
-        </p>
-      )}
-    </details>
   );
 }

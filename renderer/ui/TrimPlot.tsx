@@ -1,7 +1,7 @@
 import { useMemo } from 'react';
 import type uPlot from 'uplot';
 import type { TrimPoint } from '../../shared/ipc/contract.ts';
-import type { TrimAssessment } from '../../shared/trim/assessment.ts';
+import { trimPointData, type TrimAssessment } from '../../shared/trim/assessment.ts';
 import { UPlotChart } from './UPlotChart.tsx';
 
 /** Marks the plot draws over the data: the over-compensation side, the null's band, the recommendation. */
@@ -107,7 +107,8 @@ export function TrimPlot({
   const data = useMemo<uPlot.AlignedData>(() => {
     // One x axis for both series: the model's samples and the points' positions, merged.
     const curve = assessment?.curve ?? [];
-    const level = (point: TrimPoint) => point.reading.harmonics.find((h) => h.order === harmonicOrder)?.levelDbc ?? point.reading.thdDb;
+    // The point as the fit took it (one policy for a missing harmonic: trimPointData).
+    const level = (point: TrimPoint) => trimPointData(point.position, point.reading, harmonicOrder).levelDbc;
     const rows = [
       ...curve.map((c) => ({ x: c.position, model: c.levelDbc as number | null, point: null as number | null })),
       ...points.map((p) => ({ x: p.position, model: null, point: level(p) })),

@@ -18,12 +18,16 @@ export function UnitEntry({
   procedures: StoredProcedure[];
   /** The serial field, so focus can be sent back to it (after the sheet, after the generator key). */
   serialInputRef: RefObject<HTMLInputElement | null>;
-  onOpen(request: { serial: string; procedureId: number; operator: string; retestReason?: string }): Promise<void>;
+  onOpen(request: { serial: string; procedureId: number; operator: string; retestReason?: string; lot?: string }): Promise<void>;
   busy: boolean;
 }) {
   const [operator, setOperator] = useState(() => localStorage.getItem('trimbench.operator') ?? '');
   const [procedureId, setProcedureId] = useState<number | null>(procedures[0]?.id ?? null);
   const [serialText, setSerialText] = useState('');
+  // The lot or work order stays for the next unit: a batch is scanned one unit after another.
+  const [lot, setLot] = useState('');
+  // MAX_LOT_CHARS in the contract (a value from there would pull zod into the page); main checks it too.
+  const lotMaxChars = 40;
   const [message, setMessage] = useState<string | null>(null);
   /** Set when main says the unit was tested before: the retest starts only with a reason. */
   const [retestOf, setRetestOf] = useState<{ serial: string; question: string } | null>(null);
@@ -44,7 +48,13 @@ export function UnitEntry({
     setMessage(null);
     localStorage.setItem('trimbench.operator', operator.trim());
     try {
-      await onOpen({ serial: check.serial, procedureId: procedure.id, operator: operator.trim(), ...(retestReason !== undefined ? { retestReason: retestReason.trim() } : {}) });
+      await onOpen({
+        serial: check.serial,
+        procedureId: procedure.id,
+        operator: operator.trim(),
+        ...(retestReason !== undefined ? { retestReason: retestReason.trim() } : {}),
+        ...(lot.trim() !== '' ? { lot: lot.trim() } : {}),
+      });
       setSerialText('');
       setRetestOf(null);
       setReason('');
@@ -95,6 +105,10 @@ export function UnitEntry({
       {procedure?.definition.invented && (
         <p className="invented">Demo procedure: the maker, model and limits are invented for practice.</p>
       )}
+      <label>
+        Lot or work order (optional)
+        <input data-testid="lot-input" value={lot} onChange={(e) => setLot(e.target.value)} maxLength={lotMaxChars} autoComplete="off" spellCheck={false} />
+      </label>
       <label>
         Serial number (scan or type, then Enter)
         <input

@@ -2,6 +2,7 @@
 // the run, shown live and printed on the unit sheet. Built from readings by the same code in main
 // (the record) and in the page (the live banner), so both say the same thing.
 
+import { harmonicLevel } from '../procedures/check-steps.ts';
 import type { Reading } from '../measurement/reading.ts';
 import type { Procedure } from '../procedures/procedure.ts';
 import { adviseTrim, type LiveSeries, type TrimAdvice, type TrimAssistantOptions, type TrimPointData } from './trim-assistant.ts';
@@ -39,11 +40,14 @@ const CURVE_SAMPLES = 81;
 
 /** A trim point as the assistant sees it: the chosen harmonic, the gain, the sub-audio level. */
 export function trimPointData(position: number, reading: Reading, harmonicOrder: number): TrimPointData {
-  const harmonic = reading.harmonics.find((h) => h.order === harmonicOrder);
+  // The one answer to "the level of harmonic n" (check-steps.ts). Where it has none (above Nyquist,
+  // or not counted) the fit takes THD, the sum of every harmonic and so never below the missing
+  // one: an upper bound, never the floor or zero, and with no phase.
+  const level = harmonicLevel(reading, harmonicOrder);
   return {
     position,
-    levelDbc: harmonic?.levelDbc ?? reading.thdDb,
-    phaseDeg: harmonic ? harmonic.phaseDeg : null,
+    levelDbc: level.measured ? level.levelDbc : reading.thdDb,
+    phaseDeg: level.measured ? (reading.harmonics.find((h) => h.order === harmonicOrder)?.phaseDeg ?? null) : null,
     gainDb: reading.fundamental.levelDbfs,
     lfDbfs: reading.subAudioDbfs,
     clipping: reading.flags.includes('clipping'),

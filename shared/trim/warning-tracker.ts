@@ -232,3 +232,34 @@ function push(series: number[], value: number): void {
   series.push(value);
   if (series.length > SERIES_LENGTH) series.shift();
 }
+
+// ---- warnings as the run records them ----------------------------------------------------------
+
+/** A line of the run's warning log, as far as these functions read it. */
+interface LoggedWarning {
+  id: string;
+  change: 'raised' | 'cleared';
+  seen: string;
+  source: 'assessment' | 'live';
+}
+
+/**
+ * Warnings the live watch raised and has not reported cleared, from the run's log: what main judges
+ * a trim by, and what the page shows as the outlook of completing it (one rule, one source).
+ */
+export function openLiveWarnings(log: readonly LoggedWarning[]): { id: string; seen: string }[] {
+  const last = new Map<string, LoggedWarning>();
+  for (const entry of log) if (entry.source === 'live') last.set(entry.id, entry);
+  return [...last.values()].filter((e) => e.change === 'raised').map((e) => ({ id: e.id, seen: e.seen }));
+}
+
+/** Each warning the assessments raised, as first raised: the record of what the technician was told, and when. */
+export function warningsRaised(assessments: readonly { afterSequence: number; assessment: { warnings: readonly TrimWarning[] } }[]): (TrimWarning & { afterSequence: number })[] {
+  const raised: (TrimWarning & { afterSequence: number })[] = [];
+  for (const { afterSequence, assessment } of assessments) {
+    for (const warning of assessment.warnings) {
+      if (!raised.some((w) => w.id === warning.id)) raised.push({ ...warning, afterSequence });
+    }
+  }
+  return raised;
+}

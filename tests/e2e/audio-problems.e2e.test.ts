@@ -3,7 +3,7 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { join } from 'node:path';
 import type { Page } from 'playwright-core';
-import { openBench, type Bench, POLL } from '../harness/bench-harness.ts';
+import { acknowledgeNotice, openBench, type Bench, POLL } from '../harness/bench-harness.ts';
 import type { Reading } from '../../shared/measurement/reading.ts';
 import { tempDir } from '../support/station.ts';
 import { writeToneWav } from '../support/wav-files.ts';
@@ -66,6 +66,7 @@ describe('audio problems', () => {
       await page.getByLabel('Operator').fill('A. Tester');
       await page.getByTestId('serial-input').fill('MG20-2611-0042');
       await page.getByTestId('serial-input').press('Enter');
+      await acknowledgeNotice(page);
       await page.getByTestId('position-input').press('g');
       // Said by the shared stimulus check now (the one main applies before recording), whose wording
       // names the causes rather than "the input channel": the check is that silence is called out.
@@ -144,6 +145,7 @@ describe('audio problems', () => {
       await page.getByLabel('Operator').fill('A. Tester');
       await page.getByTestId('serial-input').fill('MG20-2611-0076');
       await page.getByTestId('serial-input').press('Enter');
+      await acknowledgeNotice(page);
       await page.getByTestId('generator-toggle').click();
       await expect.poll(() => page.getByTestId('mute').textContent(), POLL).toBe('Mute generator (Esc)');
       await page.getByTestId('position-input').focus();
@@ -171,6 +173,7 @@ describe('audio problems', () => {
         await page.getByLabel('Operator').fill('A. Tester');
         await page.getByTestId('serial-input').fill('MG20-2611-0077');
         await page.getByTestId('serial-input').press('Enter');
+        await acknowledgeNotice(page);
         await page.getByTestId('generator-toggle').click();
         await expect.poll(() => page.getByTestId('mute').textContent(), POLL).toBe('Mute generator (Esc)');
         await page.getByTestId('position-input').fill('1');

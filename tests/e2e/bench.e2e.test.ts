@@ -5,7 +5,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { execFileSync } from 'node:child_process';
 import { join } from 'node:path';
 import type { Page } from 'playwright-core';
-import { openBench, type Bench, POLL } from '../harness/bench-harness.ts';
+import { acknowledgeNotice, openBench, type Bench, POLL } from '../harness/bench-harness.ts';
 import type { Reading } from '../../shared/measurement/reading.ts';
 import { tempDir } from '../support/station.ts';
 import { writeToneWav } from '../support/wav-files.ts';
@@ -136,6 +136,7 @@ describe('the readout tells the technician what is true', () => {
     // Before a unit is opened the generator holds no made-up tone.
     expect(await page.getByLabel('Frequency, Hz (Enter applies)').inputValue()).toBe('');
     await openUnit(page, 'MG20-2611-0044');
+    await acknowledgeNotice(page);
     // The demo procedure's stimulus (shared/procedures/demo-procedure.ts, invented): 14 Hz.
     await expect.poll(() => page.getByLabel('Frequency, Hz (Enter applies)').inputValue(), POLL).toBe('14');
     await generatorOn(page);
@@ -162,6 +163,7 @@ describe('records through the bridged handlers', () => {
     await startCapture(page);
     await openUnit(page, SERIAL);
     await expect.poll(() => page.getByTestId('run-serial').textContent(), POLL).toBe(SERIAL);
+    await acknowledgeNotice(page);
     await generatorOn(page);
     for (const position of ['0', '1.5', '3']) await recordAt(page, position);
 
@@ -184,6 +186,7 @@ describe('records through the bridged handlers', () => {
     await startCapture(page);
     await openUnit(page, serial);
     await expect.poll(() => page.getByTestId('run-serial').textContent(), POLL).toBe(serial);
+    await acknowledgeNotice(page);
     await generatorOn(page);
     for (const position of ['0', '1.5']) await recordAt(page, position);
     // The capture does not change with the trimmer, and its THD (about −50 dB by construction) is

@@ -51,10 +51,15 @@ describe('a damaged records database in the app', () => {
     await page.getByTestId('serial-input').fill(SERIAL);
     await page.getByTestId('serial-input').press('Enter');
     await expect.poll(() => page.getByTestId('run-serial').textContent(), POLL).toBe(SERIAL);
+    // The run starts at its safety notice, which cannot be recorded either: said where it is refused.
+    await page.getByTestId('acknowledge').click();
+    await expect.poll(() => page.getByTestId('notice-message').textContent(), POLL).toMatch(/is damaged, so Trimbench records nothing more in it/);
+    // The trim's recorded points can still be read from its step.
+    await page.locator('[data-testid=step-list] li[data-step] button').nth(1).click();
     expect(await page.getByTestId('trim-points').locator('tbody tr').count()).toBe(2);
     await page.getByTestId('finish-run').click();
-    // Said where the page says why a finish was refused.
-    await expect.poll(() => page.getByTestId('trim-message').textContent(), POLL).toMatch(/is damaged, so Trimbench records nothing more in it/);
+    // Said where the page says why a finish failed.
+    await expect.poll(() => page.getByTestId('finish-message').textContent(), POLL).toMatch(/is damaged, so Trimbench records nothing more in it/);
     // Not offered as a run that cannot pass: finishing it as FAIL could not be recorded either.
     expect(await page.getByTestId('finish-refusal').count()).toBe(0);
     await page.screenshot({ path: join(tmpdir(), 'trimbench-damaged-unit.png'), fullPage: true });

@@ -4,7 +4,7 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { execFileSync } from 'node:child_process';
 import type { Page } from 'playwright-core';
-import { openBench, type Bench, POLL } from '../harness/bench-harness.ts';
+import { acknowledgeNotice, openBench, type Bench, POLL } from '../harness/bench-harness.ts';
 import { DemoUnit } from '../../shared/sim/demo-unit.ts';
 
 let bench: Bench;
@@ -52,6 +52,7 @@ describe('a guided trim on the demo bench', () => {
     await page.getByLabel('Operator').fill('A. Tester');
     await page.getByTestId('serial-input').fill('MG20-2611-0099');
     await page.getByTestId('serial-input').press('Enter');
+    await acknowledgeNotice(page);
     await page.getByTestId('trim-generator-toggle').click();
     await expect.poll(() => page.getByTestId('mute').textContent(), POLL).toBe('Mute generator (Esc)');
 
@@ -81,6 +82,8 @@ describe('a guided trim on the demo bench', () => {
     expect(await rows.count()).toBe(pointsBeforeRecommended + 1);
     await expect.poll(() => page.getByTestId('assistant').textContent(), POLL).toMatch(/short of the null/);
 
+    // The trim done, every step of the demo procedure (notice and trim) is judged: Finish makes the sheet.
+    await page.getByTestId('trim-done').click();
     await page.getByTestId('finish-run').click();
     await expect.poll(() => page.getByTestId('sheet-pdf-path').textContent(), { timeout: 20_000 }).toMatch(/^Saved as /);
     // Earned: Finish was not refused and the sheet says PASS with no reason against it.

@@ -9,7 +9,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { encodeWavFloat32 } from '../../shared/audio/wav.ts';
 import type { Page } from 'playwright-core';
-import { openBench, type Bench, POLL } from '../harness/bench-harness.ts';
+import { acknowledgeNotice, openBench, type Bench, POLL } from '../harness/bench-harness.ts';
 import { readingWithThd } from '../support/station.ts';
 import type { RunDetail, StepResult } from '../../shared/ipc/contract.ts';
 import { procedureFileSchema } from '../../shared/procedures/procedure-file.ts';
@@ -34,6 +34,7 @@ async function openUnitByKeyboard(page: Page, serial: string) {
   await page.keyboard.type(serial);
   await page.keyboard.press('Enter');
   await expect.poll(() => page.getByTestId('run-serial').textContent(), POLL).toBe(serial);
+  await acknowledgeNotice(page);
 }
 
 describe('the trim from the keyboard', () => {

@@ -11,7 +11,7 @@ import type { Page } from 'playwright-core';
 import { dispatch, type CallerContext } from '../../electron/services/handlers.ts';
 import { CHAIN_CHECK_SCHEMA_VERSION } from '../../shared/calibration/chain-check.ts';
 import { DEMO_PROCEDURE } from '../../shared/procedures/demo-procedure.ts';
-import { openBench, type Bench, POLL } from '../harness/bench-harness.ts';
+import { acknowledgeNotice, openBench, type Bench, POLL } from '../harness/bench-harness.ts';
 import { readingWithThd } from '../support/station.ts';
 
 const SHOTS = join(process.cwd(), 'out', 'screenshots');
@@ -101,6 +101,7 @@ describe('levels in dBu on a calibrated station', () => {
     await page.getByLabel('Operator').fill('A. Tester');
     await page.getByTestId('serial-input').fill('MG20-2611-0123');
     await page.getByTestId('serial-input').press('Enter');
+    await acknowledgeNotice(page);
     await page.getByTestId('trim-generator-toggle').click();
     await settledAfter(page, 0);
 
@@ -195,6 +196,7 @@ describe('levels in dBu on a calibrated station', () => {
     await page.getByLabel('Operator').fill('A. Tester');
     await page.getByTestId('serial-input').fill(serial);
     await page.getByTestId('serial-input').press('Enter');
+    await acknowledgeNotice(page);
     await expect.poll(() => page.getByTestId('trim-points').locator('tbody tr').count(), POLL).toBe(10);
     await page.getByTestId('finish-run').click();
     await page.getByTestId('finish-as-fail').click(); // all short of the null: no recommendation, no pass

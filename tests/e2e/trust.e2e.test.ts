@@ -7,7 +7,7 @@ import { mkdtempSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import type { Page } from 'playwright-core';
-import { openBench, type Bench, POLL } from '../harness/bench-harness.ts';
+import { acknowledgeNotice, openBench, type Bench, POLL } from '../harness/bench-harness.ts';
 import { writeToneWav } from '../support/wav-files.ts';
 import { DEMO_PROCEDURE } from '../../shared/procedures/demo-procedure.ts';
 
@@ -37,6 +37,7 @@ async function openUnit(page: Page, serial: string, { oneClock = false, demo = f
   await page.getByLabel('Operator').fill('A. Tester');
   await page.getByTestId('serial-input').fill(serial);
   await page.getByTestId('serial-input').press('Enter');
+  await acknowledgeNotice(page);
   await expect.poll(() => page.getByTestId('run-serial').textContent(), POLL).toBe(serial);
   await page.getByTestId('position-input').press('g'); // the generator key works from the position field
   await expect.poll(() => page.getByTestId('trim-generator').textContent(), POLL).toMatch(/Generator ON/);

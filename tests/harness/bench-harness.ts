@@ -171,3 +171,13 @@ export async function openBench({ captureWav, dataDir, microphone = 'granted' }:
   };
   return bench;
 }
+
+/**
+ * A unit just opened walks its procedure from its safety notice: Enter acknowledges it (its button
+ * holds the focus), and the trim step comes up with the position field focused.
+ */
+export async function acknowledgeNotice(page: Page): Promise<void> {
+  await page.getByTestId('acknowledge').waitFor({ timeout: POLL.timeout });
+  await page.keyboard.press('Enter');
+  await page.getByTestId('position-input').waitFor({ timeout: POLL.timeout });
+}
