@@ -167,9 +167,12 @@ describe('unsettled points', () => {
       settleProgress: 0.25,
       subAudioDbfs: -85,
       harmonics: [{ order: 3, frequencyHz: 42, levelDbc: -30, phaseDeg: 120 }],
-      // THD is its one harmonic's level, as every reading's must be.
+      // THD is its one harmonic's level, as every reading's must be; THD+N holds it and a little noise (AES17).
       thdDb: -30,
       thdPercent: 100 * 10 ** (-30 / 20),
+      thdnDb: -29.9,
+      thdnPercent: 100 * 10 ** (-29.9 / 20),
+      sinadDb: 29.9,
     });
     expect(() => record(3.5, moving)).toThrow(/has not settled/);
     // Its live series since the move shows the sub-audio level climbing to the −85 dBFS it read.
