@@ -23,7 +23,7 @@ import type { StationSettings } from '../../shared/calibration/station-settings.
 import { procedureSchema, type Procedure } from '../../shared/procedures/procedure.ts';
 import { checkProcedureFile, procedureFileSchema, upgradeProcedure, type ProcedureFile, type ProcedureStep } from '../../shared/procedures/procedure-file.ts';
 import { isCheckStep, measureCheckStep, measurement, type Measurement, type StationLevels } from '../../shared/procedures/check-steps.ts';
-import { judgeUnit } from '../../shared/procedures/unit-verdict.ts';
+import { judgeUnit, laterStepResult } from '../../shared/procedures/unit-verdict.ts';
 import { trimView } from '../../shared/procedures/trim-view.ts';
 import { thdDbFromHarmonics } from '../../shared/records/reading-check.ts';
 import { checkSerial } from '../../shared/records/serial.ts';
@@ -550,8 +550,7 @@ export function createRecords(
     if (!step) throw new ExpectedFailure(`Procedure ${file.code} revision ${file.revision} has no trim step: ${what} cannot be recorded.`);
     stepToRecord(row, step.id, 'trim');
     if (afterChecks === 'allow') return;
-    const later = new Set(file.steps.slice(index + 1).map((s) => s.id));
-    const measured = stepResults(row.id).find((r) => later.has(r.stepId));
+    const measured = laterStepResult(file, stepResults(row.id), step.id);
     if (measured) {
       throw new ExpectedFailure(
         `Step “${measured.stepId}” after the trim has been measured at the trimmer's setting, so ${what} can no longer change this run. Finish it, then start a retest with the reason to trim the unit again.`,

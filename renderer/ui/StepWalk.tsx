@@ -2,6 +2,7 @@ import { useEffect, useState, type ReactNode, type RefObject } from 'react';
 import type { RunDetail } from '../../shared/ipc/contract.ts';
 import { ApiError } from '../api.ts';
 import { problemText } from '../problem-text.ts';
+import { mayRepeat } from '../../shared/procedures/unit-verdict.ts';
 import { StepList } from './StepList.tsx';
 import { StepResultView } from './StepResultView.tsx';
 import { TrimPointsTable } from './TrimPointsTable.tsx';
@@ -94,7 +95,7 @@ export function StepWalk({
                 <TrimPointsTable points={detail.trimPoints} harmonicOrder={detail.procedure.trim.harmonicOrder} inputCalibration={null} busy onInclude={() => undefined} />
               )}
               <div className="row">
-                {result && (
+                {result && mayRepeat(procedureFile, detail.stepResults, step.id) && (
                   <button type="button" ref={primaryRef} autoFocus onClick={() => walk.repeat(step.id)} disabled={pending} data-testid="repeat-step">
                     Repeat step (Enter)
                   </button>
@@ -126,8 +127,9 @@ export function StepWalk({
           <button
             type="button"
             className={judgement.verdict === 'pass' ? 'primary' : 'warn'}
-            ref={walk.mode === 'finish' ? primaryRef : undefined}
-            autoFocus={walk.mode === 'finish'}
+            // After a stop, finishing as FAIL is all that is left: Enter does it.
+            ref={walk.mode === 'finish' || stopped ? primaryRef : undefined}
+            autoFocus={walk.mode === 'finish' || stopped}
             disabled={pending}
             onClick={() => void finish(judgement.verdict === 'fail')}
             data-testid="finish-run"

@@ -85,3 +85,25 @@ export function judgeUnit(procedure: Judged, results: readonly StepOutcome[]): U
   };
 }
 
+
+/**
+ * The first result of a step after `stepId`, or null. The trim may not change once one exists: the
+ * steps after it were measured at the setting it was left at.
+ */
+export function laterStepResult<R extends StepOutcome>(procedure: Pick<ProcedureFile, 'steps'>, results: readonly R[], stepId: string): R | null {
+  const index = procedure.steps.findIndex((s) => s.id === stepId);
+  const later = new Set(procedure.steps.slice(index + 1).map((s) => s.id));
+  return results.find((r) => later.has(r.stepId)) ?? null;
+}
+
+/**
+ * Whether a step already recorded may be measured again before the run is finished: never after a
+ * failure at a "stop" step (the run ends there), and the trim not once a later step was measured.
+ * Main refuses the same cases; the page offers only what main will take.
+ */
+export function mayRepeat(procedure: Pick<ProcedureFile, 'steps'>, results: readonly StepOutcome[], stepId: string): boolean {
+  if (!results.some((r) => r.stepId === stepId)) return false;
+  if (judgeUnit(procedure, results).stoppedAt !== null) return false;
+  const step = procedure.steps.find((s) => s.id === stepId);
+  return step?.kind !== 'trim' || laterStepResult(procedure, results, stepId) === null;
+}
