@@ -258,11 +258,11 @@ export function useChainCheck(inputs: ChainCheckInputs) {
         let weighted = 0;
         let toneSeen: Reading | null = null;
         for (let n = 0; n < NOISE_READINGS; n++) {
-          // An analysed no-signal reading (not one counting down after the break) carries the band's noise.
+          // A settled no-signal reading (analysed after the break, its noise steady) carries the band's noise.
           const r = await nextReading(
             (reading) => {
               if (!reading.flags.includes('no-signal')) toneSeen = reading;
-              return reading.flags.includes('no-signal') && reading.settleRemainingS === null;
+              return reading.flags.includes('no-signal') && reading.settled;
             },
             since,
             15,

@@ -10,7 +10,7 @@ import { join } from 'node:path';
 import { encodeWavFloat32 } from '../../shared/audio/wav.ts';
 import type { Page } from 'playwright-core';
 import { acknowledgeNotice, openBench, type Bench, POLL } from '../harness/bench-harness.ts';
-import { readingWithThd } from '../support/station.ts';
+import { readingWithThd, startUnit } from '../support/station.ts';
 import type { RunDetail, StepResult } from '../../shared/ipc/contract.ts';
 import { procedureFileSchema } from '../../shared/procedures/procedure-file.ts';
 import { judgeUnit } from '../../shared/procedures/unit-verdict.ts';
@@ -181,7 +181,7 @@ type FinishedDetail = (detail: RunDetail) => RunDetail;
 
 async function sheetPdf(serial: string, positions: number[], finished?: FinishedDetail): Promise<{ pages: string[]; verdict: string; pdfPath: string }> {
   const procedureId = bench.station.records.listProcedures()[0]!.id;
-  const { run } = bench.station.records.openRun({ serial, procedureId, operator: 'A. Tester' });
+  const { run } = startUnit(bench.station.records, { serial, procedureId, operator: 'A. Tester' });
   for (const position of positions) bench.station.records.recordTrimPoint({ runId: run.id, position, reading: trimReading(position), live: null, stimulus: { on: true, frequencyHz: 14, levelDbfs: -12 } });
   const page = await bench.openApp();
   await openUnitByKeyboard(page, serial); // reopens the run with its points

@@ -12,7 +12,7 @@ import { dispatch, type CallerContext } from '../../electron/services/handlers.t
 import { CHAIN_CHECK_SCHEMA_VERSION } from '../../shared/calibration/chain-check.ts';
 import { DEMO_PROCEDURE } from '../../shared/procedures/demo-procedure.ts';
 import { acknowledgeNotice, openBench, type Bench, POLL } from '../harness/bench-harness.ts';
-import { readingWithThd } from '../support/station.ts';
+import { readingWithThd, startUnit } from '../support/station.ts';
 
 const SHOTS = join(process.cwd(), 'out', 'screenshots');
 
@@ -183,7 +183,7 @@ describe('levels in dBu on a calibrated station', () => {
     // the safe end, −75 dBc at the null; each marked at-floor for the longest sheet (the note and the marks).
     const serial = 'MG20-2611-0124';
     const procedureId = bench.station.records.listProcedures()[0]!.id;
-    const { run } = bench.station.records.openRun({ serial, procedureId, operator: 'A. Tester' });
+    const { run } = startUnit(bench.station.records, { serial, procedureId, operator: 'A. Tester' });
     for (const position of [0, 0.5, 1, 1.5, 2, 2.5, 3, 3.5, 4, 4.5]) {
       const re = (10 ** (-40 / 20) / 5) * (position - 5);
       const f = 10 ** (-75 / 20);

@@ -7,7 +7,7 @@ import { tmpdir } from 'node:os';
 import { afterAll, describe, expect, it } from 'vitest';
 import { openBench, POLL, type Bench } from '../harness/bench-harness.ts';
 import { DEMO_PROCEDURE } from '../../shared/procedures/demo-procedure.ts';
-import { readingWithThd } from '../support/station.ts';
+import { readingWithThd, startUnit } from '../support/station.ts';
 
 let bench: Bench | null = null;
 afterAll(async () => {
@@ -22,7 +22,7 @@ describe('the unit view', () => {
     bench = await openBench({ captureWav: null });
     const { records, db } = bench.station;
     const procedureId = records.listProcedures()[0].id;
-    const first = records.openRun({ serial: SERIAL, procedureId, operator: 'A. Tester' });
+    const first = startUnit(records, { serial: SERIAL, procedureId, operator: 'A. Tester' });
     for (const position of [0, 1.5]) records.recordTrimPoint({ runId: first.run.id, position, reading: readingWithThd(-40 - position), live: null, stimulus: STIMULUS });
     records.finishRun({ runId: first.run.id, asFailure: true });
     const runCount = () => (db.prepare('SELECT COUNT(*) AS n FROM runs').get() as { n: number }).n;

@@ -177,7 +177,10 @@ export async function openBench({ captureWav, dataDir, microphone = 'granted' }:
  * holds the focus), and the trim step comes up with the position field focused.
  */
 export async function acknowledgeNotice(page: Page): Promise<void> {
-  await page.getByTestId('acknowledge').waitFor({ timeout: POLL.timeout });
-  await page.keyboard.press('Enter');
-  await page.getByTestId('position-input').waitFor({ timeout: POLL.timeout });
+  const notice = page.getByTestId('acknowledge');
+  const trim = page.getByTestId('position-input');
+  await notice.or(trim).first().waitFor({ timeout: POLL.timeout });
+  // A run whose notice was acknowledged before (resumed, or set up through main) opens at its trim.
+  if (await notice.isVisible()) await page.keyboard.press('Enter');
+  await trim.waitFor({ timeout: POLL.timeout });
 }

@@ -91,7 +91,8 @@ async function measure(options: Options): Promise<Reading> {
         if (await problem.count()) throw new CheckFailure(`${options.file}: ${await problem.textContent()}`);
         const json = await page.getByTestId('reading-json').getAttribute('data-reading', { timeout: 1000 }).catch(() => null);
         last = json ? (JSON.parse(json) as Reading) : last;
-        if (last?.settled) return last;
+        // A quiet input settles too (on its noise): only a settled reading of a tone is the check's answer.
+        if (last?.settled && !last.flags.includes('no-signal')) return last;
         silentSince = last?.flags.includes('no-signal') ? (silentSince ?? Date.now()) : null;
         if (silentSince !== null && Date.now() - silentSince > NO_SIGNAL_GIVE_UP_MS) {
           throw new CheckFailure(`${options.file}: no signal on channel ${options.channel}`);
