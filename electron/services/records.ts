@@ -24,6 +24,7 @@ import { procedureSchema, type Procedure } from '../../shared/procedures/procedu
 import { checkProcedureFile, procedureFileSchema, upgradeProcedure, type ProcedureFile, type ProcedureStep } from '../../shared/procedures/procedure-file.ts';
 import { isCheckStep, measureCheckStep, measurement, type Measurement, type StationLevels } from '../../shared/procedures/check-steps.ts';
 import { judgeUnit, laterStepResult } from '../../shared/procedures/unit-verdict.ts';
+import { quantityLabel } from '../../shared/procedures/step-text.ts';
 import { trimView } from '../../shared/procedures/trim-view.ts';
 import { thdDbFromHarmonics } from '../../shared/records/reading-check.ts';
 import { checkSerial } from '../../shared/records/serial.ts';
@@ -356,6 +357,8 @@ export function createRecords(
       retestOf: row.retest_of,
       retestReason: row.retest_reason,
       lot: row.lot,
+      // Runs opened since steps were recorded name their station row (migration 8); older ones do not.
+      walked: row.station_id !== null,
     };
   }
 
@@ -568,7 +571,8 @@ export function createRecords(
     // leave the run unreadable from then on.
     const checked = measurementsSchema.safeParse(result.measurements);
     if (!checked.success) {
-      throw new ExpectedFailure(`Step “${step.id}” gives no finite value for ${result.measurements[Number(checked.error.issues[0]?.path[0] ?? 0)]?.quantity ?? 'a quantity'}: nothing was stored. Take the reading again.`);
+      const quantity = result.measurements[Number(checked.error.issues[0]?.path[0] ?? 0)]?.quantity;
+      throw new ExpectedFailure(`Step “${step.id}” gives no finite value for ${quantity ? quantityLabel(quantity) : 'a quantity'}: nothing was stored. Take the reading again.`);
     }
     const resultId = insertSealed('step_results', {
       run_id: runId,

@@ -1,20 +1,6 @@
 import type { Measurement } from '../../shared/procedures/check-steps.ts';
+import { quantityLabel } from '../../shared/procedures/step-text.ts';
 import { fixed } from './format.ts';
-
-const QUANTITY_NAMES: Record<string, string> = {
-  thdDb: 'THD',
-  thdnDb: 'THD+N',
-  gainDb: 'Gain',
-  noiseDbu: 'Noise',
-  humDbu: 'Hum',
-  balanceDb: 'Balance',
-  crosstalkDb: 'Crosstalk',
-};
-
-/** "harmonicsDbc.H3" → "H3"; the limit keys of a step in words. */
-export function quantityName(quantity: string): string {
-  return QUANTITY_NAMES[quantity] ?? quantity.replace(/^harmonicsDbc\./, '');
-}
 
 function limits(m: Pick<Measurement, 'low' | 'high' | 'unit'>): string {
   if (m.low !== null && m.high !== null) return `${fixed(m.low, 1)} … ${fixed(m.high, 1)} ${m.unit}`;
@@ -38,7 +24,7 @@ export function MeasurementsTable({ measurements, live }: { measurements: readon
       <tbody>
         {measurements.map((m) => (
           <tr key={m.quantity} data-quantity={m.quantity} data-value={m.value ?? ''} title={m.note ?? undefined}>
-            <td>{quantityName(m.quantity)}</td>
+            <td>{quantityLabel(m.quantity)}</td>
             <td className="value">{m.value === null ? 'not measured' : `${fixed(m.value, m.unit === 'dB' && Math.abs(m.value) < 10 ? 2 : 1)} ${m.unit}`}</td>
             <td>{limits(m)}</td>
             <td className={m.verdict === 'pass' ? 'verdict-cell pass' : 'verdict-cell fail'}>{m.verdict === 'pass' ? 'within' : 'outside'}</td>

@@ -231,6 +231,8 @@ export const runSchema = z.object({
   retestReason: z.string().nullable().default(null),
   /** The lot or work order the unit was built under, as the technician entered it; null when none. */
   lot: z.string().nullable().default(null),
+  /** Opened since step results were recorded: false for a run from before, judged on its trim alone. */
+  walked: z.boolean().default(true),
 });
 
 export const trimPointSchema = z.object({

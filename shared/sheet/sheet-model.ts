@@ -290,8 +290,10 @@ function sheetVerdict(detail: RunDetail, legacy: boolean): SheetModel['verdict']
     return { verdict: null, text: 'NOT FINISHED', reasons: judgement.reasons, discrepancy: null };
   }
   // Runs finished before step results were kept were judged on the trim alone: their judgement over
-  // steps says "not run" for what was done, so it is not held against the stored verdict.
-  const disagrees = !legacy && judgement.verdict !== run.verdict;
+  // steps says "not run" for what was done, so it is not held against the stored verdict. A stored
+  // FAIL over steps that all passed is main's own doing (finished as FAIL by the technician, a
+  // calibration that lapsed): only a PASS the stored steps do not bear out cannot have come from main.
+  const disagrees = !legacy && run.verdict === 'pass' && judgement.verdict !== 'pass';
   return {
     verdict: run.verdict,
     text: run.verdict === 'pass' ? 'PASS' : 'FAIL',
@@ -305,7 +307,7 @@ function sheetVerdict(detail: RunDetail, legacy: boolean): SheetModel['verdict']
 /** Everything the unit sheet shows, from the run as main holds it. */
 export function buildSheetModel(detail: RunDetail): SheetModel {
   const { run, procedureFile: file } = detail;
-  const legacy = run.finishedAt !== null && detail.stepResults.length === 0;
+  const legacy = !run.walked;
   const verdict = sheetVerdict(detail, legacy);
   return {
     runId: run.id,

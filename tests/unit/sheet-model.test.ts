@@ -43,7 +43,7 @@ function result(stepId: string, verdict: 'pass' | 'fail', measurements: Measured
   };
 }
 
-function detail({ stepResults, verdict, reasons = [], finished = true }: { stepResults: StepResult[]; verdict: 'pass' | 'fail' | null; reasons?: string[]; finished?: boolean }): RunDetail {
+function detail({ stepResults, verdict, reasons = [], finished = true, walked = true }: { stepResults: StepResult[]; verdict: 'pass' | 'fail' | null; reasons?: string[]; finished?: boolean; walked?: boolean }): RunDetail {
   return runDetailSchema.parse({
     run: {
       id: 7,
@@ -68,6 +68,7 @@ function detail({ stepResults, verdict, reasons = [], finished = true }: { stepR
       retestOf: 5,
       retestReason: 'Replaced C12 after the first test.',
       lot: 'WO-1187',
+      walked,
     },
     trimPoints: [],
     assessment: null,
@@ -202,9 +203,16 @@ describe('the sheet model', () => {
   });
 
   it('a run finished before step results were kept keeps its stored verdict, its steps “not recorded”', () => {
-    const sheet = buildSheetModel(detail({ stepResults: [], verdict: 'pass' }));
+    const sheet = buildSheetModel(detail({ stepResults: [], verdict: 'pass', walked: false }));
     expect(sheet.verdict).toMatchObject({ text: 'PASS', discrepancy: null });
     expect(new Set(sheet.steps.map((s) => s.statusText))).toEqual(new Set(['not recorded']));
     expect(sheet.stepsNote).toMatch(/before results were kept step by step/);
+    // A run of today finished as FAIL with no step recorded is not dressed up as an old one.
+    const today = buildSheetModel(detail({ stepResults: [], verdict: 'fail', reasons: ['Finished as FAIL by the technician.'] }));
+    expect(today.stepsNote ?? '').not.toMatch(/before results were kept/);
+    expect(today.verdict.discrepancy).toBeNull();
+    // Every step passed, finished as FAIL on purpose: main's own verdict, not a changed record.
+    const onPurpose = buildSheetModel(detail({ stepResults: allPassing(), verdict: 'fail', reasons: ['Finished as FAIL by the technician, although every step met its conditions for a pass.'] }));
+    expect(onPurpose.verdict).toMatchObject({ text: 'FAIL', discrepancy: null });
   });
 });
