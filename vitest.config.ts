@@ -9,12 +9,12 @@ export default defineConfig({
     projects: [
       {
         // Node tests share nothing but the machine: two at a time use both cores.
-        test: { ...shared, name: 'unit', include: ['tests/unit/**/*.test.ts'], sequence: { groupOrder: 0 } },
+        test: { ...shared, name: 'unit', include: ['tests/unit/**/*.test.ts'], sequence: { groupOrder: 1 } },
       },
       {
         // Browser tests start Chromium and feed it audio in real time: one file at a time, after the
         // Node tests, so no reading waits on a core another test holds.
-        test: { ...shared, name: 'e2e', include: ['tests/e2e/**/*.test.ts'], fileParallelism: false, sequence: { groupOrder: 1 } },
+        test: { ...shared, name: 'e2e', include: ['tests/e2e/**/*.test.ts'], fileParallelism: false, sequence: { groupOrder: 2 } },
       },
     ],
   },

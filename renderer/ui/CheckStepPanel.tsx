@@ -17,6 +17,11 @@ const STALE_READING_MS = 2000;
 export const ONE_CHANNEL_BUILD =
   'This build measures one input channel only, so this two-channel step cannot be measured here. Measure it on a station that reads both channels, or finish the run as FAIL.';
 
+/** Two presses of Enter closer than this are one impatient press (common practice for debouncing a double key press). */
+const DOUBLE_PRESS_MS = 500;
+/** When the primary action was last pressed, on whichever step: the next step's panel sees the same time. */
+let lastPrimaryAt = Number.NEGATIVE_INFINITY;
+
 /**
  * A check step being measured: the generator as the step plans it (off for noise and hum, with the
  * termination instruction), a settled reading awaited with its progress and time left, each limited
@@ -85,6 +90,13 @@ export function CheckStepPanel({
 
   async function primary() {
     if (pending) return;
+    // An impatient second Enter lands on the next step once the first has recorded: it must not
+    // turn that step's tone on (a loud tone nobody asked for), so a press this soon after the last
+    // one is taken as the same press.
+    const now = performance.now();
+    const tooSoon = now - lastPrimaryAt < DOUBLE_PRESS_MS;
+    lastPrimaryAt = now;
+    if (tooSoon) return;
     if (waitingForTone) {
       if (!generatorAvailable) return setMessage('Start capture (Audio interface) first: the generator plays through it.');
       setMessage(null);

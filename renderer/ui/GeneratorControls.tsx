@@ -20,15 +20,18 @@ function CommitField({
   onCommit(value: number): void;
   check(value: number): string | null;
 }) {
-  const [text, setText] = useState(value === null ? '' : String(value));
+  // Shown to four decimals (a planned 13.916015625 Hz reads 13.916); Enter on the text as shown
+  // keeps the exact value set, so looking at the field never moves the generator.
+  const shown = value === null ? '' : String(Number(value.toFixed(4)));
+  const [text, setText] = useState(shown);
   const [problem, setProblem] = useState<string | null>(null);
-  useEffect(() => setText(value === null ? '' : String(value)), [value]);
+  useEffect(() => setText(shown), [shown]);
   const commit = () => {
     const parsed = Number(text);
     const issue = text.trim() === '' || !Number.isFinite(parsed) ? 'Enter a number.' : check(parsed);
     setProblem(issue);
     if (issue) return;
-    if (parsed !== value) onCommit(parsed);
+    if (parsed !== value && text !== shown) onCommit(parsed);
   };
   return (
     <label>

@@ -153,6 +153,7 @@ describe('the demo procedure walked whole', () => {
           await page.keyboard.press('Escape');
           await expect.poll(() => page.getByTestId('mute').textContent(), POLL).toBe('Generator muted');
           await expect.poll(() => primary.textContent(), POLL).toMatch(/^Turn on/);
+          await page.waitForTimeout(600); // a deliberate second press, not a double one
           await primary.press('Enter');
           await expect.poll(() => primary.textContent(), POLL).toMatch(/^Record/);
         }
@@ -163,6 +164,8 @@ describe('the demo procedure walked whole', () => {
       // An impatient double Enter on the first check: one result, not two.
       if (stepId === 'thd-14hz') await page.keyboard.press('Enter');
       await expect.poll(() => stepStatus(page, stepId), POLL).not.toBe('not-run');
+      // The impatient second Enter went nowhere: the next step's tone is still off.
+      await page.waitForTimeout(600);
     }
 
     // A judged step can be repeated before the run is finished, by keyboard: its newest result counts.
