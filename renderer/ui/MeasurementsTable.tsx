@@ -1,13 +1,6 @@
 import type { Measurement } from '../../shared/procedures/check-steps.ts';
-import { quantityLabel } from '../../shared/procedures/step-text.ts';
+import { limitText, quantityDecimals, quantityLabel } from '../../shared/procedures/step-text.ts';
 import { fixed } from './format.ts';
-
-function limits(m: Pick<Measurement, 'low' | 'high' | 'unit'>): string {
-  if (m.low !== null && m.high !== null) return `${fixed(m.low, 1)} … ${fixed(m.high, 1)} ${m.unit}`;
-  if (m.high !== null) return `≤ ${fixed(m.high, 1)} ${m.unit}`;
-  if (m.low !== null) return `≥ ${fixed(m.low, 1)} ${m.unit}`;
-  return '—';
-}
 
 /** Each measured quantity against its limits, with its verdict: live while measuring, or as stored. */
 export function MeasurementsTable({ measurements, live }: { measurements: readonly Measurement[]; live: boolean }) {
@@ -26,7 +19,7 @@ export function MeasurementsTable({ measurements, live }: { measurements: readon
           <tr key={m.quantity} data-quantity={m.quantity} data-value={m.value ?? ''} title={m.note ?? undefined}>
             <td>{quantityLabel(m.quantity)}</td>
             <td className="value">{m.value === null ? 'not measured' : `${fixed(m.value, m.unit === 'dB' && Math.abs(m.value) < 10 ? 2 : 1)} ${m.unit}`}</td>
-            <td>{limits(m)}</td>
+            <td>{limitText(m, quantityDecimals(m.quantity))}</td>
             <td className={m.verdict === 'pass' ? 'verdict-cell pass' : 'verdict-cell fail'}>{m.verdict === 'pass' ? 'within' : 'outside'}</td>
           </tr>
         ))}
