@@ -249,7 +249,7 @@ export type CheckStep = Extract<ProcedureStep, { kind: (typeof CHECK_KINDS)[numb
 export type ProcedureProblem = { path: string; message: string };
 export type ProcedureCheck = { ok: true; procedure: ProcedureFile; summary: string } | { ok: false; problems: ProcedureProblem[] };
 
-/** The caution used when a schema-1 procedure's first instruction is not about safety. */
+/** The caution used when a schema-1 procedure's first instruction is not about safety. Part of the fixed conversion below: never edit it. */
 export const STANDARD_CAUTION =
   'The unit is mains powered and may be open: follow your workplace electrical-safety rules, and mute monitor speakers and headphones before any tone is played.';
 
@@ -258,6 +258,15 @@ export const STANDARD_CAUTION =
  * kept, because the steps a technician carries out are the same. The result is not checked here:
  * pass it through checkProcedureFile (a schema-1 file with, say, an unanchored serial pattern
  * upgrades to a file that says so).
+ *
+ * Fixed for good, field by field as docs/procedures.md ("The conversion is fixed") states it:
+ * schema-1 definitions stay stored as they were and are converted here each time a run naming one
+ * is read, so any change (a word of a text, the safety test, a default in procedure.ts) would
+ * silently change old runs and their sheets. Never edit it. A procedure that should read otherwise
+ * is a new revision in schema 2; a different conversion would be a new function under a new name,
+ * applied only to definitions stored with a record of which conversion they take.
+ * tests/unit/procedure-upgrade.test.ts checks the documented mapping on the definitions stored by
+ * earlier releases.
  */
 export function upgradeProcedure(v1: ProcedureV1): ProcedureFile {
   const { instructions, ...trim } = v1.trim;

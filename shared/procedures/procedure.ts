@@ -5,6 +5,9 @@ import { z } from 'zod';
 
 export const PROCEDURE_SCHEMA_VERSION = 1;
 
+// The defaults below fill fields that definitions stored by earlier releases lack, and such a
+// definition is read through them every time (docs/procedures.md, "The conversion is fixed"):
+// changing one would change old runs' procedures. Never change a default; add a revision instead.
 export const procedureSchema = z.object({
   schemaVersion: z.literal(PROCEDURE_SCHEMA_VERSION),
   code: z.string().min(1).max(40),
