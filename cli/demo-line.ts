@@ -73,6 +73,7 @@ export async function runDemoLine(options: {
       sampleRateHz: SETUP.sampleRateHz,
       mainsHz: settings.mainsHz,
       levels: { outputDbuAtFullScale: calibration.output.dbuAtFullScale, inputDbuAtFullScale: calibration.input.dbuAtFullScale },
+      setup: SETUP,
     };
 
     const serials = await freeSerials(options.units, (options.now?.() ?? new Date()), (serial) => call('lookUpUnit', { serial }), options.dataDir);

@@ -60,6 +60,8 @@ const detailSchema = z.object({
     z.object({ method: z.literal('loopback'), generatorDbfs: z.number(), capturedDbfs: z.number(), capturedHz: z.number() }),
     z.object({ method: z.literal('stated'), statedEntry: z.string() }),
   ]),
+  // Absent in calibrations stored before a second input could be calibrated.
+  secondInput: z.object({ channel: z.number(), dbuAtFullScale: z.number(), generatorDbfs: z.number(), capturedDbfs: z.number(), capturedHz: z.number() }).nullable().optional(),
 });
 
 export interface CalibrationRequest {
@@ -67,6 +69,14 @@ export interface CalibrationRequest {
   setup: AudioSetup;
   output: { referenceHz: number; referenceDbfs: number; meterEntry: string };
   input: { method: 'loopback'; generatorDbfs: number; capturedDbfs: number; capturedHz: number } | { method: 'stated'; statedEntry: string };
+  /** The same loopback read on the setup's second input; null when the setup reads one channel. */
+  secondInput?: LoopbackObservation | null;
+}
+
+interface LoopbackObservation {
+  generatorDbfs: number;
+  capturedDbfs: number;
+  capturedHz: number;
 }
 
 export type Calibrations = ReturnType<typeof createCalibrations>;
@@ -96,6 +106,7 @@ export function createCalibrations(
       setup: fromStoredJson(row.setup_json, audioSetupSchema, what),
       output: { dbuAtFullScale: row.output_dbu_at_fs, ...detail.output },
       input: { dbuAtFullScale: row.input_dbu_at_fs, ...detail.input },
+      secondInput: detail.secondInput ?? null,
     };
   }
 
@@ -148,24 +159,33 @@ export function createCalibrations(
       }
       const out = outputCalibrationFromReading(output.referenceDbfs, output.meterEntry);
       if (!out.ok) refuse(out.message);
-      let inputDbu: number;
-      if (input.method === 'loopback') {
-        if (input.generatorDbfs < REFERENCE_DBFS_RANGE.min || input.generatorDbfs > REFERENCE_DBFS_RANGE.max) {
+      const outputDbu = out.dbuAtFullScale;
+
+      function loopbackInput(observed: LoopbackObservation, which: string): number {
+        if (observed.generatorDbfs < REFERENCE_DBFS_RANGE.min || observed.generatorDbfs > REFERENCE_DBFS_RANGE.max) {
           refuse(`the loopback tone must be between ${REFERENCE_DBFS_RANGE.min} and ${REFERENCE_DBFS_RANGE.max} dBFS.`);
         }
-        if (Math.abs(input.capturedHz / output.referenceHz - 1) > LOOPBACK_FREQUENCY_TOLERANCE) {
-          refuse(
-            `the input heard ${input.capturedHz.toFixed(1)} Hz, not the ${output.referenceHz} Hz reference: check that the output is looped to the input.`,
-          );
+        if (Math.abs(observed.capturedHz / output.referenceHz - 1) > LOOPBACK_FREQUENCY_TOLERANCE) {
+          refuse(`${which} heard ${observed.capturedHz.toFixed(1)} Hz, not the ${output.referenceHz} Hz reference: check that the output is looped to it.`);
         }
-        const result = inputCalibrationFromLoopback({ outputDbuAtFullScale: out.dbuAtFullScale, generatorDbfs: input.generatorDbfs, capturedDbfs: input.capturedDbfs });
+        const result = inputCalibrationFromLoopback({ outputDbuAtFullScale: outputDbu, generatorDbfs: observed.generatorDbfs, capturedDbfs: observed.capturedDbfs });
         if (!result.ok) refuse(result.message);
-        inputDbu = result.dbuAtFullScale;
-      } else {
-        const result = inputCalibrationFromSpec(input.statedEntry);
-        if (!result.ok) refuse(result.message);
-        inputDbu = result.dbuAtFullScale;
+        return result.dbuAtFullScale;
       }
+      function statedInput(entry: string): number {
+        const result = inputCalibrationFromSpec(entry);
+        if (!result.ok) refuse(result.message);
+        return result.dbuAtFullScale;
+      }
+      const inputDbu = input.method === 'loopback' ? loopbackInput(input, 'the input') : statedInput(input.statedEntry);
+      const second = request.secondInput ?? null;
+      const secondChannel = request.setup.secondInputChannel ?? null;
+      if (second !== null && secondChannel === null) refuse('a second input was measured, but the setup names no input for the unit\'s channel 2.');
+      if (second === null && secondChannel !== null) {
+        refuse(`the setup reads the unit's channel 2 on input ${secondChannel + 1}, and that input was not measured: loop the output to it and read the reference there too.`);
+      }
+      const secondInput =
+        second !== null && secondChannel !== null ? { channel: secondChannel, dbuAtFullScale: loopbackInput(second, `input ${secondChannel + 1}`), ...second } : null;
       const id = insertSealed('calibrations', {
         made_at: now().toISOString(),
         operator: request.operator,
@@ -173,7 +193,7 @@ export function createCalibrations(
         setup_json: toStoredJson(request.setup),
         output_dbu_at_fs: out.dbuAtFullScale,
         input_dbu_at_fs: inputDbu,
-        detail_json: toStoredJson({ output, input }),
+        detail_json: toStoredJson(secondInput ? { output, input, secondInput } : { output, input }),
       });
       return toCalibration(statements.byId.get(id)!);
     },
@@ -250,6 +270,7 @@ export function createCalibrations(
         expiresAt: ids.expiresAt,
         inputDbuAtFullScale: calibration.input.dbuAtFullScale,
         outputDbuAtFullScale: calibration.output.dbuAtFullScale,
+        secondInput: calibration.secondInput ? { channel: calibration.secondInput.channel, dbuAtFullScale: calibration.secondInput.dbuAtFullScale } : null,
         chainFloor: check
           ? {
               residualThdDb: near?.thdDb ?? null,
@@ -260,6 +281,13 @@ export function createCalibrations(
             }
           : null,
       };
+    },
+
+    /** The audio setup a calibration was made with (a run measured under it must still use it). */
+    setupOf(calibrationId: number): AudioSetup {
+      const row = statements.byId.get(calibrationId);
+      if (!row) throw new ExpectedFailure(`Calibration ${calibrationId} named by the run is not in the records.`);
+      return toCalibration(row).setup;
     },
 
     expiresAt: (calibration: Calibration, settings: StationSettings) => calibrationExpiresAt(calibration.madeAt, settings.calibrationExpiryDays),

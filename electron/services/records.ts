@@ -18,7 +18,7 @@ import {
   type WarmCheck,
   type WarningLogEntry,
 } from '../../shared/ipc/contract.ts';
-import type { AudioSetup } from '../../shared/calibration/station-calibration.ts';
+import { inputDbuAtFullScaleFor, setupChanges, type AudioSetup } from '../../shared/calibration/station-calibration.ts';
 import type { StationSettings } from '../../shared/calibration/station-settings.ts';
 import { procedureSchema, type Procedure } from '../../shared/procedures/procedure.ts';
 import { checkProcedureFile, procedureFileSchema, upgradeProcedure, type ProcedureFile, type ProcedureStep } from '../../shared/procedures/procedure-file.ts';
@@ -654,10 +654,19 @@ export function createRecords(
    * Why a run that needs a calibrated station no longer has one: the calibration it was started under
    * expired since. Null when it holds, or when the run's procedure needs none.
    */
-  function calibrationLapsed(row: RunRow): string | null {
-    if (!runProcedure(row).requiresCalibration || row.calibration_expires_at === null) return null;
-    if (now().getTime() < Date.parse(row.calibration_expires_at)) return null;
-    return `The station's calibration this run was started under expired on ${row.calibration_expires_at.slice(0, 10)}.`;
+  /**
+   * Why the run's calibration no longer holds for what is being recorded, or null: it expired (for a
+   * procedure that requires one), or the audio setup in use is not the one it was made with. A
+   * step judged in dBu needs the setup (`setupNeeded`): without it main cannot tell.
+   */
+  function calibrationNotHolding(row: RunRow, setup: AudioSetup | null | undefined, setupNeeded: boolean): string | null {
+    if (runProcedure(row).requiresCalibration && row.calibration_expires_at !== null && now().getTime() >= Date.parse(row.calibration_expires_at)) {
+      return `The station's calibration this run was started under expired on ${row.calibration_expires_at.slice(0, 10)}.`;
+    }
+    if (row.calibration_id === null || !calibrations) return null;
+    if (setup == null) return setupNeeded ? 'The audio setup in use was not given, so the run\'s calibration cannot be checked against it. Start capture, then try again.' : null;
+    const changes = setupChanges(calibrations.setupOf(row.calibration_id), setup);
+    return changes.length > 0 ? `The run's calibration does not hold for the setup in use: ${changes.join(', ')} changed since the run started. Go back to that setup.` : null;
   }
 
   /** While nothing can be written, opening a unit shows its latest run to read, and starts none. */
@@ -982,6 +991,8 @@ export function createRecords(
       live: LiveSeries | null;
       stimulus: StimulusSetting;
       unsettled?: 'refuse' | 'record-marked';
+      /** The audio setup in use: checked against the run's calibration when given. */
+      setup?: AudioSetup | null;
     }): RecordedPoint {
       refuseUnlessWritable();
       const row = openRunRow(request.runId, (id) => `Run ${id} is finished; start a retest to record more trim points.`);
@@ -993,8 +1004,8 @@ export function createRecords(
           `Trimmer position ${position} is outside ${trim.positionMin}–${trim.positionMax} ${trim.positionUnit}.`,
         );
       }
-      const lapsed = calibrationLapsed(row);
-      if (lapsed) throw new ExpectedFailure(`This point was not recorded. ${lapsed} Finish the run as FAIL, calibrate the station, then retest the unit.`);
+      const lapsed = calibrationNotHolding(row, request.setup, false);
+      if (lapsed) throw new ExpectedFailure(`This point was not recorded. ${lapsed} Otherwise finish the run as FAIL, calibrate the station, then retest the unit.`);
       const refusal = whyNotRecordable(reading, stimulus, trim, request.unsettled ?? 'refuse');
       if (refusal) throw new ExpectedFailure(`This reading cannot be recorded. ${refusal}`);
       // A second point where the last one is adds nothing but a repeated Enter's copy, and would let
@@ -1182,27 +1193,22 @@ export function createRecords(
      * limits with the run's calibration. Readings that are not of the step's stimulus are refused
      * with the reason, and nothing is stored.
      */
-    recordCheckStep(request: { runId: number; stepId: string; stimulus: StimulusSetting; readings: readonly { channel: number; reading: Reading }[] }): RunDetail {
+    recordCheckStep(request: { runId: number; stepId: string; stimulus: StimulusSetting; readings: readonly { channel: number; reading: Reading }[]; setup?: AudioSetup | null }): RunDetail {
       refuseUnlessWritable();
       const row = openRunRow(request.runId, (id) => `Run ${id} is finished; its steps can no longer be recorded.`);
-      const lapsed = calibrationLapsed(row);
-      if (lapsed) throw new ExpectedFailure(`This step was not recorded. ${lapsed} Finish the run as FAIL, calibrate the station, then retest the unit.`);
+      const lapsed = calibrationNotHolding(row, request.setup, true);
+      if (lapsed) throw new ExpectedFailure(`This step was not recorded. ${lapsed} Otherwise finish the run as FAIL, calibrate the station, then retest the unit.`);
       return db.transaction(() => {
         const step = stepToRecord(row, request.stepId, 'check');
         if (!isCheckStep(step)) throw new ExpectedFailure(`Step “${step.id}” is not a check step.`);
         const used = calibrationUsed(row);
-        const levels: StationLevels | null = used ? { outputDbuAtFullScale: used.outputDbuAtFullScale, inputDbuAtFullScale: used.inputDbuAtFullScale } : null;
-        // A station calibration is made on one capture input (its setup's inputChannel), the one the
-        // unit's channel 1 is read through; no figure is known for the input channel 2 comes in on.
-        // So channel 1 of a one-channel step is read calibrated, and a two-channel step compares both
-        // inputs as they are (measureCheckStep notes that it assumes equal gains): giving only one of
-        // the two a calibration would make their levels incomparable, and the step is refused then.
-        const twoChannel = step.kind === 'balance' || step.kind === 'crosstalk';
-        const readings = request.readings.map(({ channel, reading }) => ({
-          channel,
-          reading,
-          inputDbuAtFullScale: !twoChannel && channel === 1 ? (levels?.inputDbuAtFullScale ?? null) : null,
-        }));
+        const setup = request.setup ?? null;
+        const levels: StationLevels | null = used
+          ? { outputDbuAtFullScale: used.outputDbuAtFullScale, inputDbuAtFullScale: used.inputDbuAtFullScale, secondInputDbuAtFullScale: inputDbuAtFullScaleFor(2, used, setup) }
+          : null;
+        // Each of the unit's channels is read through its own capture input, with that input's figure
+        // from the run's calibration (none for an input it did not measure: a two-channel step is then refused).
+        const readings = request.readings.map(({ channel, reading }) => ({ channel, reading, inputDbuAtFullScale: inputDbuAtFullScaleFor(channel, used, setup) }));
         const outcome = measureCheckStep(step, { stimulus: request.stimulus, levels, readings });
         if (!outcome.ok) throw new ExpectedFailure(`Step “${step.id}” was not recorded. ${outcome.refusal}`);
         const { verdict, reasons, measurements } = outcome.result;
@@ -1245,7 +1251,8 @@ export function createRecords(
           reasons.push(`The trim changed after step “${trimResult.stepId}” was completed (points recorded or confirmed since): complete the trim again, so its result is of the trimmer as left.`);
         }
       }
-      const lapsed = calibrationLapsed(row);
+      // The setup is checked where each reading is recorded; at finish only the calibration's age.
+      const lapsed = calibrationNotHolding(row, null, false);
       if (lapsed) reasons.push(lapsed);
       if (reasons.length > 0 && !request.asFailure) {
         throw new CannotPass(

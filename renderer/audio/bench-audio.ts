@@ -36,6 +36,8 @@ export interface BenchAudioOptions {
 
 export interface BenchAudioEvents {
   onReading(reading: Reading, spectrumHz: Float32Array, spectrumDbfs: Float32Array): void;
+  /** A reading of a two-channel unit's channel 2 (only on a captured stream with a second input chosen). */
+  onSecondReading(reading: Reading): void;
   onStatus(status: { discontinuities: number; channelCount: number; sampleRateHz: number }): void;
   /** Device lost or capture failed: the generator is already muted when this is called. */
   onProblem(message: string): void;
@@ -139,7 +141,8 @@ export class BenchAudio {
           echoCancellation: false,
           noiseSuppression: false,
           autoGainControl: false,
-          channelCount: { ideal: 2 },
+          // Enough channels for both inputs the unit is read on (an interface may have more than two).
+          channelCount: { ideal: Math.max(2, options.meter.channel + 1, (options.meter.secondChannel ?? 0) + 1) },
           sampleRate: options.sampleRateHz ? { ideal: options.sampleRateHz } : undefined,
         },
         video: false,
@@ -216,6 +219,7 @@ export class BenchAudio {
       if (this.stopped) return;
       const message = event.data;
       if (message.type === 'reading') this.events.onReading(message.reading, message.spectrumHz, message.spectrumDbfs);
+      else if (message.type === 'second-reading') this.events.onSecondReading(message.reading);
       else if (message.type === 'demo-captured') {
         const pending = this.demoCapture;
         this.demoCapture = null;

@@ -63,7 +63,7 @@ export function App() {
     audio?.trimmerMoved(trimmerTurns);
   }, [audio, trimmerTurns]);
 
-  const run = useRun();
+  const run = useRun(setup);
   const detail = run.detail;
   const walk = useWalk(detail);
   const plan = useMemo(() => (detail ? runPlan(detail.procedureFile, calibration.levels) : null), [detail?.procedureFile, calibration.levels]); // eslint-disable-line react-hooks/exhaustive-deps
@@ -85,6 +85,7 @@ export function App() {
   const meterSettings = useMemo<MeterSettings>(
     () => ({
       channel: choice.channel,
+      secondChannel: choiceSetup.secondInputChannel ?? null,
       expectedFundamentalHz: generator.generator.on ? generator.generator.frequencyHz : null,
       harmonicCount: HARMONIC_COUNT,
       mainsHz: choice.mainsHz,
@@ -93,7 +94,7 @@ export function App() {
       // A noise step's band: its figure is judged only over the band it states.
       ...(noiseBand && { bandLowHz: noiseBand.lowHz, bandHighHz: noiseBand.highHz }),
     }),
-    [choice.channel, choice.mainsHz, choice.sharedClock, generator.generator.on, generator.generator.frequencyHz, calibration.chainFloorThdDb, noiseBand],
+    [choice.channel, choiceSetup.secondInputChannel, choice.mainsHz, choice.sharedClock, generator.generator.on, generator.generator.frequencyHz, calibration.chainFloorThdDb, noiseBand],
   );
   // The meter follows the stimulus (long frames for low tones) and the station's mains and clocking.
   useEffect(() => {
@@ -211,6 +212,7 @@ export function App() {
           audio={audio}
           reading={capture.reading}
           readingAt={capture.readingAt}
+          secondReading={capture.secondReading}
           generatorOn={generator.generator.on}
           applyGenerator={generator.apply}
           mute={generator.mute}
@@ -255,6 +257,7 @@ export function App() {
                 planned={planned}
                 reading={capture.reading}
                 readingAt={capture.readingAt}
+                secondReading={capture.secondReading}
                 generator={generator.generator}
                 generatorAvailable={audio !== null}
                 onToggleGenerator={generator.toggle}

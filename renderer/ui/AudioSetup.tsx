@@ -5,6 +5,8 @@ export interface AudioChoice {
   outputDeviceId: string;
   sampleRateHz: number;
   channel: number;
+  /** The input channel a two-channel unit's channel 2 comes in on; null for a one-channel unit. */
+  secondChannel: number | null;
   mainsHz: 50 | 60;
   /** Generator output and capture input on the same interface, so one clock runs both. */
   sharedClock: boolean;
@@ -62,12 +64,37 @@ export function AudioSetup({
       </label>
       <label>
         Input channel carrying the unit
-        <select value={choice.channel} onChange={(e) => set({ channel: Number(e.target.value) })} disabled={capturing || demo}>
+        <select
+          value={choice.channel}
+          onChange={(e) => {
+            const channel = Number(e.target.value);
+            set({ channel, secondChannel: choice.secondChannel === channel ? null : choice.secondChannel });
+          }}
+          disabled={capturing || demo}
+        >
           {Array.from({ length: 8 }, (_, ch) => (
             <option key={ch} value={ch}>
               Channel {ch + 1}
             </option>
           ))}
+        </select>
+      </label>
+      <label>
+        A two-channel unit's channel 2 comes in on
+        <select
+          data-testid="second-channel-select"
+          value={choice.secondChannel ?? ''}
+          onChange={(e) => set({ secondChannel: e.target.value === '' ? null : Number(e.target.value) })}
+          disabled={capturing || demo}
+        >
+          <option value="">None (a one-channel unit)</option>
+          {Array.from({ length: 8 }, (_, ch) => ch)
+            .filter((ch) => ch !== choice.channel)
+            .map((ch) => (
+              <option key={ch} value={ch}>
+                Channel {ch + 1}
+              </option>
+            ))}
         </select>
       </label>
       <label>

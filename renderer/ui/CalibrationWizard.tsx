@@ -14,6 +14,7 @@ import { DEMO_INTERFACE_DBU_AT_FULL_SCALE } from '../../shared/sim/demo-chain.ts
 import { call } from '../api.ts';
 import { DEMO_INPUT } from '../audio/bench-audio.ts';
 import { problemText } from '../problem-text.ts';
+import { describeSetup } from './StationSettingsForm.tsx';
 import type { GeneratorCommand } from '../worker/messages.ts';
 
 /** The reference tone: 1 kHz, where voltmeters are flattest and interfaces are specified (common practice). */
@@ -24,11 +25,12 @@ const LOOPBACK_FREQUENCY_TOLERANCE = 0.01;
 /** A reading older than this is not the live loop any more (the stream stopped delivering). */
 const STALE_READING_MS = 3000;
 
-type Step = 'cautions' | 'output' | 'input' | 'save' | 'done';
+type Step = 'cautions' | 'output' | 'input' | 'second-input' | 'save' | 'done';
 const STEPS: { step: Step; title: string }[] = [
   { step: 'cautions', title: 'Before you start' },
   { step: 'output', title: 'Output level' },
   { step: 'input', title: 'Input level' },
+  { step: 'second-input', title: 'Second input level' },
   { step: 'save', title: 'Record' },
 ];
 
@@ -75,6 +77,7 @@ export function CalibrationWizard({
   setup,
   reading,
   readingAt,
+  secondReading,
   generatorOn,
   applyGenerator,
   mute,
@@ -85,6 +88,8 @@ export function CalibrationWizard({
   setup: AudioSetup | null;
   reading: Reading | null;
   readingAt: number;
+  /** The second input's reading, when the setup reads a two-channel unit's channel 2 there. */
+  secondReading: { reading: Reading; at: number } | null;
   generatorOn: boolean;
   applyGenerator(command: GeneratorCommand): void;
   mute(): void;
@@ -96,6 +101,7 @@ export function CalibrationWizard({
   const [method, setMethod] = useState<'loopback' | 'stated'>('loopback');
   const [statedText, setStatedText] = useState('');
   const [captured, setCaptured] = useState<Captured | null>(null);
+  const [secondCaptured, setSecondCaptured] = useState<Captured | null>(null);
   const [toneOnAt, setToneOnAt] = useState<number | null>(null);
   const [operator, setOperator] = useState(() => localStorage.getItem('trimbench.operator') ?? '');
   const [message, setMessage] = useState<string | null>(null);
@@ -108,6 +114,8 @@ export function CalibrationWizard({
   const outputResult = referenceDbfs !== null && meterText.trim() !== '' ? outputCalibrationFromReading(referenceDbfs, meterText) : null;
   const outputDbu = outputResult?.ok ? outputResult.dbuAtFullScale : null;
   const demo = setup?.inputDeviceId === DEMO_INPUT;
+  const secondChannel = setup?.secondInputChannel ?? null;
+  const steps = secondChannel === null ? STEPS.filter((s) => s.step !== 'second-input') : STEPS;
 
   // The tone stops whenever the wizard ends or is left (another view, another station panel).
   const muteRef = useRef(mute);
@@ -131,22 +139,29 @@ export function CalibrationWizard({
     if (generatorOn) mute();
     setToneOnAt(null);
     if (next === 'input') setCaptured(null);
+    if (next === 'second-input') setSecondCaptured(null);
     setStep(next);
   }
 
-  // Loopback: the first settled reading of the reference after the tone came on is the captured level.
+  // Loopback: the first settled reading of the reference after the tone came on is the captured
+  // level, on the input the step reads (the first, or the second input of a two-channel setup).
+  const loopbackInput = step === 'second-input' ? (secondReading ? { reading: secondReading.reading, at: secondReading.at } : null) : { reading, at: readingAt };
+  const loopbackReading = loopbackInput?.reading ?? null;
   const loopbackReady =
-    reading !== null &&
+    loopbackReading !== null &&
     toneOnAt !== null &&
-    readingAt > toneOnAt &&
-    Date.now() - readingAt < STALE_READING_MS &&
-    reading.settled &&
-    Math.abs(reading.measuredFundamentalHz / REFERENCE_HZ - 1) <= LOOPBACK_FREQUENCY_TOLERANCE;
+    (loopbackInput?.at ?? 0) > toneOnAt &&
+    Date.now() - (loopbackInput?.at ?? 0) < STALE_READING_MS &&
+    loopbackReading.settled &&
+    Math.abs(loopbackReading.measuredFundamentalHz / REFERENCE_HZ - 1) <= LOOPBACK_FREQUENCY_TOLERANCE;
   useEffect(() => {
-    if (step !== 'input' || method !== 'loopback' || captured || !generatorOn || !loopbackReady || !reading) return;
-    setCaptured({ capturedDbfs: reading.fundamental.levelDbfs, capturedHz: reading.measuredFundamentalHz });
+    if (!generatorOn || !loopbackReady || !loopbackReading) return;
+    const taken = { capturedDbfs: loopbackReading.fundamental.levelDbfs, capturedHz: loopbackReading.measuredFundamentalHz };
+    if (step === 'input' && method === 'loopback' && !captured) setCaptured(taken);
+    else if (step === 'second-input' && !secondCaptured) setSecondCaptured(taken);
+    else return;
     mute();
-  }, [step, method, captured, generatorOn, loopbackReady, reading, mute]);
+  }, [step, method, captured, secondCaptured, generatorOn, loopbackReady, loopbackReading, mute]);
 
   const inputResult: CalibrationResult | null =
     method === 'loopback'
@@ -156,12 +171,18 @@ export function CalibrationWizard({
       : statedText.trim() !== ''
         ? inputCalibrationFromSpec(statedText)
         : null;
+  const secondResult: CalibrationResult | null =
+    secondCaptured && outputDbu !== null && referenceDbfs !== null
+      ? inputCalibrationFromLoopback({ outputDbuAtFullScale: outputDbu, generatorDbfs: referenceDbfs, capturedDbfs: secondCaptured.capturedDbfs })
+      : null;
 
   async function record() {
     if (saving.current || recorded) return; // an impatient second Enter records nothing more
     if (!setup) return setMessage('Capture has stopped, so the station cannot name the setup being calibrated. Start capture, then press Record again.');
     if (operator.trim() === '') return setMessage('Enter the operator name.');
-    if (referenceDbfs === null || !outputResult?.ok || !inputResult?.ok) return setMessage('A step above is not complete; go back and finish it.');
+    if (referenceDbfs === null || !outputResult?.ok || !inputResult?.ok || (secondChannel !== null && !secondResult?.ok)) {
+      return setMessage('A step above is not complete; go back and finish it.');
+    }
     saving.current = true;
     setBusy(true);
     setMessage(null);
@@ -171,6 +192,7 @@ export function CalibrationWizard({
         setup,
         output: { referenceHz: REFERENCE_HZ, referenceDbfs, meterEntry: meterText.trim() },
         input: method === 'loopback' && captured ? { method: 'loopback', generatorDbfs: referenceDbfs, ...captured } : { method: 'stated', statedEntry: statedText.trim() },
+        secondInput: secondChannel !== null && secondCaptured ? { generatorDbfs: referenceDbfs, ...secondCaptured } : null,
       });
       localStorage.setItem('trimbench.operator', operator.trim());
       setRecorded(next);
@@ -185,14 +207,15 @@ export function CalibrationWizard({
     }
   }
 
-  const stepIndex = STEPS.findIndex((s) => s.step === step);
-  const title = step === 'done' ? 'Calibration recorded' : STEPS[stepIndex].title;
+  const stepIndex = steps.findIndex((s) => s.step === step);
+  const title = step === 'done' ? 'Calibration recorded' : steps[stepIndex].title;
+  const afterInput: Step = secondChannel === null ? 'save' : 'second-input';
 
   return (
     <section className="panel calibration-wizard" aria-label="Level calibration" data-testid="calibration-wizard" data-step={step}>
       <h2>Level calibration</h2>
       <ol className="wizard-steps" aria-label="Steps">
-        {STEPS.map((s, i) => (
+        {steps.map((s, i) => (
           <li key={s.step} className={s.step === step ? 'current' : i < stepIndex || step === 'done' ? 'past' : ''} aria-current={s.step === step ? 'step' : undefined}>
             {s.title}
           </li>
@@ -314,41 +337,20 @@ export function CalibrationWizard({
           </fieldset>
           {method === 'loopback' ? (
             <>
-              <p className="hint">
-                Connect the output to input channel {setup ? setup.inputChannel + 1 : '—'}, with no unit in between, then play the reference at{' '}
-                {referenceDbfs === null ? '—' : signedFixed(referenceDbfs, 1)} dBFS and wait for a settled reading.
-              </p>
-              <div className="row">
-                {generatorOn ? (
-                  <button type="button" className="warn" onClick={mute} data-testid="wizard-tone">
-                    Mute reference (Esc)
-                  </button>
-                ) : (
-                  <button
-                    type="button"
-                    onClick={() => {
-                      setCaptured(null);
-                      playReference();
-                    }}
-                    disabled={!available}
-                    data-testid="wizard-tone"
-                  >
-                    {captured ? 'Measure again' : 'Play reference and measure'}
-                  </button>
-                )}
-              </div>
-              <p className="hint" role="status" data-testid="loopback-status">
-                {captured
-                  ? `Captured ${signedFixed(captured.capturedDbfs, 2)} dBFS at ${captured.capturedHz.toFixed(1)} Hz; the reference is muted.`
-                  : generatorOn
-                    ? reading && readingAt > (toneOnAt ?? Infinity)
-                      ? `Waiting for a settled reading of ${REFERENCE_HZ} Hz: now ${signedFixed(reading.fundamental.levelDbfs, 2)} dBFS at ${reading.measuredFundamentalHz.toFixed(1)} Hz${reading.settled ? '' : ', not settled'}.`
-                      : 'Waiting for readings…'
-                    : 'The reference is not playing.'}
-              </p>
-              {captured && (
-                <p data-testid="captured" data-dbfs={captured.capturedDbfs} data-hz={captured.capturedHz} hidden />
-              )}
+              <LoopbackRead
+                connect={`Connect the output to input channel ${setup ? setup.inputChannel + 1 : '—'}, with no unit in between`}
+                referenceDbfs={referenceDbfs}
+                captured={captured}
+                live={{ reading, at: readingAt }}
+                toneOnAt={toneOnAt}
+                generatorOn={generatorOn}
+                available={available}
+                onPlay={() => {
+                  setCaptured(null);
+                  playReference();
+                }}
+                mute={mute}
+              />
             </>
           ) : (
             <label>
@@ -361,7 +363,39 @@ export function CalibrationWizard({
             <button type="button" onClick={() => goTo('output')}>
               Back
             </button>
-            <button type="button" className="primary" data-testid="wizard-next" onClick={() => goTo('save')} disabled={!inputResult?.ok}>
+            <button type="button" className="primary" data-testid="wizard-next" onClick={() => goTo(afterInput)} disabled={!inputResult?.ok}>
+              {afterInput === 'save' ? 'Next: record' : 'Next: second input'}
+            </button>
+          </div>
+        </>
+      )}
+
+      {step === 'second-input' && secondChannel !== null && (
+        <>
+          <p className="hint">
+            A two-channel unit's channel 2 is read on input channel {secondChannel + 1}, and an interface's inputs can differ by as much as their gain
+            settings do: that input gets a figure of its own, from the same loopback.
+          </p>
+          <LoopbackRead
+            connect={`Move the loop cable from the same output to input channel ${secondChannel + 1} (or split it to both inputs with a Y cable), with no unit in between; leave that input's gain where it will stay for units`}
+            referenceDbfs={referenceDbfs}
+            captured={secondCaptured}
+            live={secondReading}
+            toneOnAt={toneOnAt}
+            generatorOn={generatorOn}
+            available={available}
+            onPlay={() => {
+              setSecondCaptured(null);
+              playReference();
+            }}
+            mute={mute}
+          />
+          <ResultLine result={secondResult} what={`Input ${secondChannel + 1}`} testId="second-input-result" />
+          <div className="row">
+            <button type="button" onClick={() => goTo('input')}>
+              Back
+            </button>
+            <button type="button" className="primary" data-testid="wizard-next" onClick={() => goTo('save')} disabled={!secondResult?.ok}>
               Next: record
             </button>
           </div>
@@ -377,18 +411,24 @@ export function CalibrationWizard({
         >
           <dl className="facts wizard-summary">
             <dt>Setup</dt>
-            <dd>{setup ? `${setup.inputDeviceLabel} (channel ${setup.inputChannel + 1}) → ${setup.outputDeviceLabel}, ${setup.sampleRateHz / 1000} kHz` : 'capture is not running'}</dd>
+            <dd>{setup ? describeSetup(setup) : 'capture is not running'}</dd>
             <dt>Output</dt>
             <dd>{outputDbu !== null ? `${dbu(outputDbu)} at 0 dBFS (meter ${meterText.trim()} at ${signedFixed(referenceDbfs ?? 0, 1)} dBFS)` : '—'}</dd>
             <dt>Input</dt>
             <dd>{inputResult?.ok ? `${dbu(inputResult.dbuAtFullScale)} at 0 dBFS (${method === 'loopback' ? 'loopback' : `stated ${statedText.trim()}`})` : '—'}</dd>
+            {secondChannel !== null && (
+              <>
+                <dt>Input {secondChannel + 1} (unit channel 2)</dt>
+                <dd>{secondResult?.ok ? `${dbu(secondResult.dbuAtFullScale)} at 0 dBFS (loopback)` : '—'}</dd>
+              </>
+            )}
           </dl>
           <label>
             Operator
             <input data-testid="calibration-operator" value={operator} onChange={(e) => setOperator(e.target.value)} maxLength={60} autoComplete="off" />
           </label>
           <div className="row">
-            <button type="button" onClick={() => goTo('input')}>
+            <button type="button" onClick={() => goTo(secondChannel === null ? 'input' : 'second-input')}>
               Back
             </button>
             <button type="submit" className="primary" data-testid="record-calibration" disabled={busy}>
@@ -401,7 +441,8 @@ export function CalibrationWizard({
       {step === 'done' && recorded?.calibration && (
         <>
           <p data-testid="calibration-done">
-            Recorded by {recorded.calibration.operator}: input {dbu(recorded.calibration.input.dbuAtFullScale)}, output{' '}
+            Recorded by {recorded.calibration.operator}: input {dbu(recorded.calibration.input.dbuAtFullScale)}
+            {recorded.calibration.secondInput ? `, input ${recorded.calibration.secondInput.channel + 1} ${dbu(recorded.calibration.secondInput.dbuAtFullScale)}` : ''}, output{' '}
             {dbu(recorded.calibration.output.dbuAtFullScale)} at 0 dBFS. Levels are shown in dBu from now on; run the chain check next.
           </p>
           <button
@@ -411,6 +452,7 @@ export function CalibrationWizard({
               setMeterText('');
               setStatedText('');
               setCaptured(null);
+              setSecondCaptured(null);
               goTo('cautions');
             }}
           >
@@ -425,5 +467,59 @@ export function CalibrationWizard({
         </p>
       )}
     </section>
+  );
+}
+
+/** Plays the reference and waits for the first settled reading of it on one input; shows what it captured. */
+function LoopbackRead({
+  connect,
+  referenceDbfs,
+  captured,
+  live,
+  toneOnAt,
+  generatorOn,
+  available,
+  onPlay,
+  mute,
+}: {
+  /** What to connect, as a sentence without its full stop. */
+  connect: string;
+  referenceDbfs: number | null;
+  captured: Captured | null;
+  live: { reading: Reading | null; at: number } | null;
+  toneOnAt: number | null;
+  generatorOn: boolean;
+  available: boolean;
+  onPlay(): void;
+  mute(): void;
+}) {
+  const reading = live?.reading ?? null;
+  return (
+    <>
+      <p className="hint">
+        {connect}, then play the reference at {referenceDbfs === null ? '—' : signedFixed(referenceDbfs, 1)} dBFS and wait for a settled reading.
+      </p>
+      <div className="row">
+        {generatorOn ? (
+          <button type="button" className="warn" onClick={mute} data-testid="wizard-tone">
+            Mute reference (Esc)
+          </button>
+        ) : (
+          <button type="button" onClick={onPlay} disabled={!available} data-testid="wizard-tone">
+            {captured ? 'Measure again' : 'Play reference and measure'}
+          </button>
+        )}
+      </div>
+      <p className="hint" role="status" data-testid="loopback-status">
+        {captured
+          ? `Captured ${signedFixed(captured.capturedDbfs, 2)} dBFS at ${captured.capturedHz.toFixed(1)} Hz; the reference is muted.`
+          : generatorOn
+            ? reading && (live?.at ?? 0) > (toneOnAt ?? Infinity)
+              ? `Waiting for a settled reading of ${REFERENCE_HZ} Hz: now ${signedFixed(reading.fundamental.levelDbfs, 2)} dBFS at ${reading.measuredFundamentalHz.toFixed(1)} Hz${reading.settled ? '' : ', not settled'}.`
+              : 'Waiting for readings…'
+            : 'The reference is not playing.'}
+      </p>
+      {captured && <p data-testid="captured" data-dbfs={captured.capturedDbfs} data-hz={captured.capturedHz} hidden />}
+    </>
   );
 }

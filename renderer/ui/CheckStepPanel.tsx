@@ -13,9 +13,14 @@ import { MeasurementsTable } from './MeasurementsTable.tsx';
 // A reading older than this is not recorded: the stream has stopped.
 const STALE_READING_MS = 2000;
 
-/** This build captures and analyses one input channel. */
-export const ONE_CHANNEL_BUILD =
-  'This build measures one input channel only, so this two-channel step cannot be measured here. Measure it on a station that reads both channels, or finish the run as FAIL.';
+/** The unit channels this station reads: channel 1 on the input chosen for the unit, channel 2 on the second input. */
+const CHANNELS_READ = [1, 2];
+
+/** A reading of one of the unit's channels as it arrived. */
+export interface ChannelLive {
+  reading: Reading | null;
+  at: number;
+}
 
 /** Two presses of Enter closer than this are one impatient press (common practice for debouncing a double key press). */
 const DOUBLE_PRESS_MS = 500;
@@ -33,11 +38,11 @@ export function CheckStepPanel({
   planned,
   reading,
   readingAt,
+  secondReading,
   generator,
   generatorAvailable,
   onToggleGenerator,
   levels,
-  inputDbuAtFullScale,
   outputCalibration,
   stimulusNote,
   pending,
@@ -46,13 +51,16 @@ export function CheckStepPanel({
 }: {
   step: CheckStep;
   planned: PlannedStep;
+  /** The unit's channel 1 (the input chosen for the unit). */
   reading: Reading | null;
   readingAt: number;
+  /** The unit's channel 2 (the second input), for balance and crosstalk. */
+  secondReading: ChannelLive | null;
   generator: GeneratorCommand;
   generatorAvailable: boolean;
   onToggleGenerator(): void;
+  /** The calibration in use for this setup: each input's figure, the second's only when it holds. */
   levels: StationLevels | null;
-  inputDbuAtFullScale: number | null;
   outputCalibration: LevelCalibration | null;
   stimulusNote: string | null;
   /** A call to main is in flight: Enter does nothing more until it answers. */
@@ -65,20 +73,39 @@ export function CheckStepPanel({
   const recorded = useRef<Reading | null>(null);
   const needs = planned.needs.kind === 'measure' ? planned.needs : null;
   const wantsTone = needs?.generator?.on === true;
-  const twoChannels = step.kind === 'balance' || step.kind === 'crosstalk';
-
-  if (planned.blocked || twoChannels || !needs) {
+  const channels = step.kind === 'balance' || step.kind === 'crosstalk' ? step.channels : [1];
+  const unread = channels.filter((c) => !CHANNELS_READ.includes(c));
+  const blocked =
+    planned.blocked ??
+    (unread.length > 0 ? `Step “${step.id}” reads channel ${unread.join(' and ')}; this station reads the unit's channels 1 and 2 only. Measure it on a station with more inputs, or finish the run as FAIL.` : null);
+  if (blocked || !needs) {
     return (
       <p className="problem" role="alert" data-testid="step-blocked">
-        {planned.blocked ?? ONE_CHANNEL_BUILD}
+        {blocked}
       </p>
     );
   }
 
-  const stale = reading !== null && Date.now() - readingAt > STALE_READING_MS;
-  // The live preview judges the reading as if it had settled, so the value shows against its
-  // limits while it settles; only a settled reading is recorded.
-  const preview = reading && !stale ? measureCheckStep(step, { stimulus: generator, levels, readings: [{ channel: 1, reading: { ...reading, settled: true }, inputDbuAtFullScale }] }) : null;
+  const now = Date.now();
+  const live = channels.map((channel) => {
+    const got = channel === 1 ? { reading, at: readingAt } : secondReading;
+    const current = got?.reading ?? null;
+    return {
+      channel,
+      reading: current,
+      stale: current !== null && now - (got?.at ?? 0) > STALE_READING_MS,
+      inputDbuAtFullScale: channel === 1 ? (levels?.inputDbuAtFullScale ?? null) : (levels?.secondInputDbuAtFullScale ?? null),
+    };
+  });
+  const missing = live.find((c) => c.reading === null) ?? null;
+  const stale = live.some((c) => c.stale);
+  const allSettled = live.every((c) => c.reading?.settled === true);
+  // The live preview judges the readings as if they had settled, so the value shows against its
+  // limits while they settle; only settled readings are recorded.
+  const preview =
+    !missing && !stale
+      ? measureCheckStep(step, { stimulus: generator, levels, readings: live.map((c) => ({ channel: c.channel, reading: { ...(c.reading as Reading), settled: true }, inputDbuAtFullScale: c.inputDbuAtFullScale })) })
+      : null;
   // Until the generator plays this step's tone (a moment after the step opens, or after Esc), Enter turns it on.
   const request = needs.generator;
   const playingThisStep =
@@ -103,15 +130,22 @@ export function CheckStepPanel({
       return onToggleGenerator();
     }
     if (!wantsTone && generator.on) return setMessage('The generator is on: this step measures the unit with it off. Press Esc to mute it.');
-    if (!reading) return setMessage('There is no reading yet: start capture and wait for it.');
+    if (missing) {
+      return setMessage(
+        missing.channel === 1 || channels.length === 1
+          ? 'There is no reading yet: start capture and wait for it.'
+          : `There is no reading of the unit's channel ${missing.channel} yet: choose its input under Audio interface (“channel 2”), connect it, and start capture.`,
+      );
+    }
     if (stale) return setMessage('No new reading for a while: the capture has stopped delivering. Check the interface, then start capture again.');
-    if (!reading.settled) return setMessage('Not recorded: the reading has not settled yet. Wait for “settled”, then press Enter.');
-    if (reading === recorded.current) return setMessage('This reading is already recorded. Wait for the next reading.');
+    if (!allSettled) return setMessage('Not recorded: the reading has not settled yet. Wait for “settled”, then press Enter.');
+    const first = live[0].reading as Reading;
+    if (first === recorded.current) return setMessage('This reading is already recorded. Wait for the next reading.');
     if (preview && !preview.ok) return setMessage(preview.refusal);
     setMessage(null);
     try {
-      const answered = await onRecord(generator, [{ channel: 1, reading }]);
-      if (answered !== null) recorded.current = reading;
+      const answered = await onRecord(generator, live.map((c) => ({ channel: c.channel, reading: c.reading as Reading })));
+      if (answered !== null) recorded.current = first;
     } catch (error) {
       // Main's refusal, as it came.
       setMessage(problemText(error, 'The step was not recorded', 'Press Enter to record it again.'));
@@ -140,9 +174,15 @@ export function CheckStepPanel({
           </button>
         )}
       </div>
-      <Settle reading={waitingForTone ? null : reading} />
+      {live.map((c) => (
+        <Settle
+          key={c.channel}
+          reading={waitingForTone ? null : c.reading}
+          channel={channels.length > 1 ? { number: c.channel, calibration: c.inputDbuAtFullScale === null ? null : { dbuAtFullScale: c.inputDbuAtFullScale } } : null}
+        />
+      ))}
       {preview?.ok && !waitingForTone && <MeasurementsTable measurements={preview.result.measurements} live />}
-      {preview && !preview.ok && !waitingForTone && reading?.settled && (
+      {preview && !preview.ok && !waitingForTone && allSettled && (
         <p className="hint" data-testid="check-preview-refusal">
           {preview.refusal}
         </p>
@@ -160,15 +200,20 @@ export function CheckStepPanel({
   );
 }
 
-/** Progress toward a settled reading, and the time left. */
-function Settle({ reading }: { reading: Reading | null }) {
-  if (!reading) return <p className="hint" data-testid="check-settle">Waiting for a reading…</p>;
+/**
+ * Progress toward a settled reading, and the time left. A step that reads two channels names each,
+ * with its level (through that channel's own input calibration).
+ */
+function Settle({ reading, channel }: { reading: Reading | null; channel: { number: number; calibration: LevelCalibration | null } | null }) {
+  const which = channel === null ? '' : `Channel ${channel.number}${reading ? ` at ${formatLevel(reading.fundamental.levelDbfs, channel.calibration, 2)}` : ''}: `;
+  if (!reading) return <p className="hint" data-testid="check-settle">{which}Waiting for a reading…</p>;
   const left =
     reading.settled ? 'Settled: press Enter to record.' : reading.settleRemainingS === null ? 'Waiting for a steady reading…' : `About ${Math.max(1, Math.ceil(reading.settleRemainingS))} s left.`;
   return (
     <div className="settle" data-testid="check-settle" data-settled={reading.settled}>
       <progress max={1} value={reading.settled ? 1 : reading.settleProgress} aria-label="Progress toward a settled reading" />
       <span className="hint">
+        {which}
         {reading.settled ? 'settled' : `settling ${Math.round(reading.settleProgress * 100)} %`} · {left}
       </span>
     </div>

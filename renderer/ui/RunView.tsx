@@ -5,7 +5,7 @@ import type { Reading } from '../../shared/measurement/reading.ts';
 import { isCheckStep, type StationLevels } from '../../shared/procedures/check-steps.ts';
 import type { PlannedStep } from '../../shared/procedures/run-plan.ts';
 import type { GeneratorCommand } from '../worker/messages.ts';
-import { CheckStepPanel } from './CheckStepPanel.tsx';
+import { CheckStepPanel, type ChannelLive } from './CheckStepPanel.tsx';
 import { NoticePanel } from './NoticePanel.tsx';
 import { StepWalk } from './StepWalk.tsx';
 import { TrimPanel } from './TrimPanel.tsx';
@@ -20,6 +20,7 @@ export function RunView({
   planned,
   reading,
   readingAt,
+  secondReading,
   generator,
   generatorAvailable,
   onToggleGenerator,
@@ -39,6 +40,8 @@ export function RunView({
   planned: PlannedStep | null;
   reading: Reading | null;
   readingAt: number;
+  /** The unit's channel 2, read on the second input when one is chosen. */
+  secondReading: ChannelLive | null;
   generator: GeneratorCommand;
   generatorAvailable: boolean;
   onToggleGenerator(): void;
@@ -90,11 +93,11 @@ export function RunView({
           planned={planned}
           reading={reading}
           readingAt={readingAt}
+          secondReading={secondReading}
           generator={generator}
           generatorAvailable={generatorAvailable}
           onToggleGenerator={onToggleGenerator}
           levels={levels}
-          inputDbuAtFullScale={inputCalibration?.dbuAtFullScale ?? null}
           outputCalibration={outputCalibration}
           stimulusNote={stimulusNote}
           pending={run.pending}

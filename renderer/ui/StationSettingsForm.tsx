@@ -20,7 +20,8 @@ const LIMIT_FIELDS: { key: NumericLimit; label: string; unit: string }[] = [
 ];
 
 export function describeSetup(setup: AudioSetup): string {
-  return `${setup.inputDeviceLabel} (channel ${setup.inputChannel + 1}) → ${setup.outputDeviceLabel}, ${setup.sampleRateHz / 1000} kHz`;
+  const channels = setup.secondInputChannel == null ? `channel ${setup.inputChannel + 1}` : `channels ${setup.inputChannel + 1} and ${setup.secondInputChannel + 1}`;
+  return `${setup.inputDeviceLabel} (${channels}) → ${setup.outputDeviceLabel}, ${setup.sampleRateHz / 1000} kHz`;
 }
 
 type Draft = Record<NumericLimit | 'noiseAWeightedMaxDbu' | 'calibrationExpiryDays', string>;

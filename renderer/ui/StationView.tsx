@@ -81,6 +81,7 @@ export function StationView({
   audio,
   reading,
   readingAt,
+  secondReading,
   generatorOn,
   applyGenerator,
   mute,
@@ -98,6 +99,8 @@ export function StationView({
   audio: BenchAudio | null;
   reading: Reading | null;
   readingAt: number;
+  /** The second input's reading, for calibrating it. */
+  secondReading: { reading: Reading; at: number } | null;
   generatorOn: boolean;
   applyGenerator(command: GeneratorCommand): void;
   mute(): void;
@@ -161,6 +164,7 @@ export function StationView({
             setup={setup}
             reading={reading}
             readingAt={readingAt}
+            secondReading={secondReading}
             generatorOn={generatorOn}
             applyGenerator={applyGenerator}
             mute={mute}

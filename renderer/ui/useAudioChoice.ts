@@ -16,6 +16,7 @@ export function useAudioChoice(stationCalibration: StationCalibration | null, on
     outputDeviceId: '',
     sampleRateHz: 48000,
     channel: 0,
+    secondChannel: null,
     mainsHz: 50,
     sharedClock: false,
   });
@@ -61,6 +62,7 @@ export function useAudioChoice(stationCalibration: StationCalibration | null, on
             inputDeviceId: defaultAudio.inputDeviceId,
             outputDeviceId: defaultAudio.outputDeviceId,
             channel: defaultAudio.inputChannel,
+            secondChannel: defaultAudio.secondInputChannel ?? null,
             sampleRateHz: defaultAudio.sampleRateHz,
           }
         : {}),
@@ -79,12 +81,14 @@ export function useAudioChoice(stationCalibration: StationCalibration | null, on
         inputDeviceId: choice.inputDeviceId,
         inputDeviceLabel: label(choice.inputDeviceId, devices?.inputs, choice.inputDeviceId === '' ? 'System default input' : 'Input'),
         inputChannel: choice.channel,
+        // The demo bench is one simulated channel.
+        secondInputChannel: choice.inputDeviceId === DEMO_INPUT ? null : choice.secondChannel,
         outputDeviceId: choice.outputDeviceId,
         outputDeviceLabel: label(choice.outputDeviceId, devices?.outputs, choice.outputDeviceId === '' ? 'System default output' : 'Output'),
         sampleRateHz: rateHz,
       };
     },
-    [choice.inputDeviceId, choice.outputDeviceId, choice.channel, devices],
+    [choice.inputDeviceId, choice.outputDeviceId, choice.channel, choice.secondChannel, devices],
   );
 
   return { devices, choice, chooseAudio, setMainsHz, refreshDevices, describeChoice };

@@ -34,11 +34,14 @@ export function useCapture({
   /** When the latest reading arrived (ms): a stream that stops delivering must not leave a "settled" reading behind. */
   const [readingAt, setReadingAt] = useState(0);
   const [spectrum, setSpectrum] = useState<{ hz: Float32Array; dbfs: Float32Array } | null>(null);
+  /** The latest reading of a two-channel unit's channel 2, and when it arrived. */
+  const [secondReading, setSecondReading] = useState<{ reading: Reading; at: number } | null>(null);
   const stoppedTo = useRef(onStopped);
   stoppedTo.current = onStopped;
 
   const clearLive = useCallback(() => {
     setReading(null);
+    setSecondReading(null);
     setSpectrum(null);
     setDiscontinuities(0);
   }, []);
@@ -66,6 +69,7 @@ export function useCapture({
             setReadingAt(Date.now());
             setSpectrum({ hz, dbfs });
           },
+          onSecondReading: (next) => current() && setSecondReading({ reading: next, at: Date.now() }),
           onStatus: (status) => current() && setDiscontinuities(status.discontinuities),
           onProblem: (message) => {
             if (!current()) return;
@@ -73,6 +77,7 @@ export function useCapture({
             stoppedTo.current();
             // Nothing may be recorded from a reading taken before the device went away.
             setReading(null);
+            setSecondReading(null);
             audioRef.current = null;
             setAudio(null);
           },
@@ -97,5 +102,5 @@ export function useCapture({
     stoppedTo.current();
   }, [audioRef, clearLive]);
 
-  return { audio, starting, problem, setProblem, discontinuities, reading, readingAt, spectrum, start, stop };
+  return { audio, starting, problem, setProblem, discontinuities, reading, readingAt, secondReading, spectrum, start, stop };
 }

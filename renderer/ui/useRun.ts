@@ -25,8 +25,11 @@ export interface OpenRunRequest {
  * call replaces it with main's answer; nothing here judges or re-derives what main holds.
  * A step call made while another is in flight is ignored (an impatient double Enter records once).
  */
-export function useRun() {
+export function useRun(setup: AudioSetup | null) {
   const [detail, setDetail] = useState<RunDetail | null>(null);
+  // Sent with every reading: main checks it against the run's calibration.
+  const setupRef = useRef(setup);
+  setupRef.current = setup;
   const [pending, setPending] = useState(false);
   const inFlight = useRef(false);
   const detailRef = useRef(detail);
@@ -62,7 +65,7 @@ export function useRun() {
 
   const recordPoint = useCallback(async (position: number, reading: Reading, live: LiveSeries, stimulus: StimulusSettingRequest, unsettled: UnsettledChoice) => {
     // Shown as recorded only after main has written it (and its assessment) to the database.
-    const { detail: next } = await call('recordTrimPoint', { runId: runId(), position, reading, live, stimulus, unsettled });
+    const { detail: next } = await call('recordTrimPoint', { runId: runId(), position, reading, live, stimulus, unsettled, setup: setupRef.current });
     keep(next);
   }, []);
 
@@ -91,7 +94,7 @@ export function useRun() {
   const completeTrim = useCallback((stepId: string) => once(async () => keep(await call('completeTrim', { runId: runId(), stepId }))), [once]);
   const recordCheckStep = useCallback(
     (stepId: string, stimulus: StimulusSettingRequest, readings: { channel: number; reading: Reading }[]) =>
-      once(async () => keep(await call('recordCheckStep', { runId: runId(), stepId, stimulus, readings }))),
+      once(async () => keep(await call('recordCheckStep', { runId: runId(), stepId, stimulus, readings, setup: setupRef.current }))),
     [once],
   );
 

@@ -12,10 +12,13 @@ declare const self: DedicatedWorkerGlobalScope;
 const SPECTRUM_COLUMNS = 480;
 const SPECTRUM_LOW_HZ = 5;
 
-let settings: MeterSettings = { channel: 0, expectedFundamentalHz: null, harmonicCount: 10, mainsHz: 50, stimulusLocked: false, chainFloorThdDb: null };
+let settings: MeterSettings = { channel: 0, secondChannel: null, expectedFundamentalHz: null, harmonicCount: 10, mainsHz: 50, stimulusLocked: false, chainFloorThdDb: null };
 let session: MeterSession | null = null;
+/** The meter of a two-channel unit's channel 2, on the same settings; only on a captured stream. */
+let secondSession: MeterSession | null = null;
 let spectrumRateHz = 0;
 let block = new Float32Array(4096);
+let secondBlock = new Float32Array(4096);
 let spectrumHz = new Float32Array(SPECTRUM_COLUMNS + 1);
 const spectrumDbfs = new Float32Array(SPECTRUM_COLUMNS);
 const continuity = new TimestampContinuity();
@@ -58,6 +61,22 @@ function analyse(samples: Float32Array, length: number, sampleRateHz: number, ch
   }
 }
 
+/** Channel 2's samples, when a second input is read: its own meter, the same breaks as channel 1. */
+function analyseSecond(samples: Float32Array, length: number, sampleRateHz: number, gap: boolean): void {
+  if (settings.secondChannel === null) return;
+  secondSession ??= new MeterSession(settings, { sampleGuard: true });
+  if (gap) secondSession.captureGap(sampleRateHz);
+  const live = secondSession.push(samples, length, sampleRateHz);
+  if (live) post({ type: 'second-reading', reading: live.reading });
+}
+
+/** Copies one plane of a captured block; a channel the device does not (yet) deliver is silence. */
+function copyPlane(audio: AudioDataLike, channel: number, into: Float32Array): void {
+  // The fake and some real devices start as mono for a few blocks.
+  if (channel < audio.numberOfChannels) audio.copyTo(into, { planeIndex: channel, format: 'f32-planar' });
+  else into.fill(0, 0, audio.numberOfFrames);
+}
+
 async function readTrack(readable: ReadableStream<AudioDataLike>): Promise<void> {
   const reader = readable.getReader();
   continuity.reset();
@@ -67,15 +86,19 @@ async function readTrack(readable: ReadableStream<AudioDataLike>): Promise<void>
       if (done) break;
       try {
         const frames = audio.numberOfFrames;
-        if (block.length < frames) block = new Float32Array(frames); // grows once to the device's block size
-        // The fake and some real devices start as mono for a few blocks: a missing channel is silence.
-        if (settings.channel < audio.numberOfChannels) {
-          audio.copyTo(block, { planeIndex: settings.channel, format: 'f32-planar' });
-        } else {
-          block.fill(0, 0, frames);
+        if (block.length < frames) {
+          // Grows once to the device's block size.
+          block = new Float32Array(frames);
+          secondBlock = new Float32Array(frames);
         }
-        if (continuity.isGap(audio.timestamp, frames, audio.sampleRate)) sessionFor(audio.sampleRate).captureGap(audio.sampleRate);
+        copyPlane(audio, settings.channel, block);
+        const gap = continuity.isGap(audio.timestamp, frames, audio.sampleRate);
+        if (gap) sessionFor(audio.sampleRate).captureGap(audio.sampleRate);
         analyse(block, frames, audio.sampleRate, audio.numberOfChannels);
+        if (settings.secondChannel !== null) {
+          copyPlane(audio, settings.secondChannel, secondBlock);
+          analyseSecond(secondBlock, frames, audio.sampleRate, gap);
+        }
       } finally {
         audio.close();
       }
@@ -133,9 +156,12 @@ self.onmessage = (event: MessageEvent<ToWorker>) => {
     case 'configure':
       settings = message.settings;
       session?.configure(settings);
+      if (settings.secondChannel === null) secondSession = null;
+      else secondSession?.configure(settings);
       break;
     case 'stimulus-changed':
       session?.stimulusChanged();
+      secondSession?.stimulusChanged();
       break;
     case 'track-stream':
       stopRequested = false;
@@ -169,9 +195,12 @@ self.onmessage = (event: MessageEvent<ToWorker>) => {
         demo.chain.playOnce(message.samples, message.captureFrames);
       }
       break;
-    case 'trimmer-moved':
-      session?.trimmerMoved(demo ? demo.unit.setTrimmer(message.turns) : 0);
+    case 'trimmer-moved': {
+      const moveSeconds = demo ? demo.unit.setTrimmer(message.turns) : 0;
+      session?.trimmerMoved(moveSeconds);
+      secondSession?.trimmerMoved(moveSeconds);
       break;
+    }
     case 'stop':
       stopRequested = true;
       if (demo) clearInterval(demo.timer);

@@ -5,8 +5,10 @@ import type { MeterSessionSettings } from '../../shared/measurement/meter-sessio
 import type { Reading } from '../../shared/measurement/reading.ts';
 
 export interface MeterSettings extends MeterSessionSettings {
-  /** Input channel (0-based) that carries the unit's output. */
+  /** Input channel (0-based) that carries the unit's output (its channel 1). */
   channel: number;
+  /** Input channel (0-based) that carries a two-channel unit's channel 2, read by a meter of its own; null for one channel. */
+  secondChannel: number | null;
 }
 
 export type ToWorker =
@@ -35,7 +37,10 @@ export type ToWorker =
   | { type: 'stop' };
 
 export type FromWorker =
+  /** A reading of the unit's channel 1 with the spectrum shown. */
   | { type: 'reading'; reading: Reading; spectrumHz: Float32Array; spectrumDbfs: Float32Array }
+  /** A reading of the unit's channel 2 (its input is `MeterSettings.secondChannel`). */
+  | { type: 'second-reading'; reading: Reading }
   | { type: 'status'; discontinuities: number; channelCount: number; sampleRateHz: number }
   | { type: 'capture-ended' }
   /** The answer to `demo-play-once`: the capture, or why there is none. */

@@ -8,8 +8,14 @@ import type { ChainCheckJudgement, ChainCheckResult } from './chain-check.ts';
 export interface AudioSetup {
   inputDeviceId: string;
   inputDeviceLabel: string;
-  /** 0-based channel of the input that carries the unit. */
+  /** 0-based channel of the input that carries the unit (its channel 1). */
   inputChannel: number;
+  /**
+   * 0-based channel of the input that carries a two-channel unit's channel 2, or null (absent in
+   * setups stored before two channels were read). Not part of what voids the calibration: the
+   * second input has a figure of its own (`Calibration.secondInput`) or none.
+   */
+  secondInputChannel?: number | null;
   outputDeviceId: string;
   outputDeviceLabel: string;
   sampleRateHz: number;
@@ -28,6 +34,16 @@ export type InputCalibration =
   | { method: 'loopback'; dbuAtFullScale: number; generatorDbfs: number; capturedDbfs: number; capturedHz: number }
   | { method: 'stated'; dbuAtFullScale: number; statedEntry: string };
 
+/** The second capture input, calibrated by the same loopback as the first (the output's reference tone). */
+export interface SecondInputCalibration {
+  /** 0-based capture input channel. */
+  channel: number;
+  dbuAtFullScale: number;
+  generatorDbfs: number;
+  capturedDbfs: number;
+  capturedHz: number;
+}
+
 export interface Calibration {
   id: number;
   madeAt: string;
@@ -36,6 +52,8 @@ export interface Calibration {
   setup: AudioSetup;
   output: OutputCalibration;
   input: InputCalibration;
+  /** The input carrying a two-channel unit's channel 2; null (or absent in older records) when not calibrated. */
+  secondInput?: SecondInputCalibration | null;
 }
 
 export interface ChainCheckRecord {
@@ -54,6 +72,8 @@ export interface CalibrationUsed {
   expiresAt: string;
   inputDbuAtFullScale: number;
   outputDbuAtFullScale: number;
+  /** The second input's figure and its capture channel; null (or absent) when the calibration has none. */
+  secondInput?: { channel: number; dbuAtFullScale: number } | null;
   /** The chain's residual THD at the frequency nearest the trim's, and its noise floor; null without a chain check. */
   chainFloor: { residualThdDb: number | null; residualAtHz: number | null; noiseAWeightedDbu: number | null; checkedAt: string; pass: boolean } | null;
 }
@@ -115,6 +135,24 @@ export function calibrationStatus(
     };
   }
   return { state: 'valid', expiresAt, message: `Calibrated ${calibration.madeAt.slice(0, 10)}, valid until ${expiresAt.slice(0, 10)}.` };
+}
+
+/**
+ * The dBu at 0 dBFS of the capture input that reads the unit's channel (1 or 2), or null when that
+ * input has no figure: channel 1 is read on the calibrated input itself (the setup check makes sure
+ * of it); channel 2 only on the second input the calibration measured, and only if the setup still
+ * routes channel 2 through it.
+ */
+export function inputDbuAtFullScaleFor(
+  unitChannel: number,
+  used: Pick<CalibrationUsed, 'inputDbuAtFullScale' | 'secondInput'> | null,
+  setup: Pick<AudioSetup, 'secondInputChannel'> | null,
+): number | null {
+  if (!used) return null;
+  if (unitChannel === 1) return used.inputDbuAtFullScale;
+  const second = used.secondInput ?? null;
+  if (unitChannel === 2 && second !== null && setup !== null && setup.secondInputChannel === second.channel) return second.dbuAtFullScale;
+  return null;
 }
 
 /** How close to the chain's own residual a reading's THD may come before it is flagged at-floor (common practice: within 6 dB the chain contributes at least a quarter of the power). */

@@ -20,11 +20,16 @@ export const audioSetupSchema = z
     inputDeviceId: z.string().max(512),
     inputDeviceLabel: plainText('input device name', 200),
     inputChannel: z.number().int().min(0).max(63),
+    secondInputChannel: z.number().int().min(0).max(63).nullable().optional(),
     outputDeviceId: z.string().max(512),
     outputDeviceLabel: plainText('output device name', 200),
     sampleRateHz: z.number().int().min(8000).max(768_000),
   })
-  .strict();
+  .strict()
+  .refine((setup) => setup.secondInputChannel == null || setup.secondInputChannel !== setup.inputChannel, {
+    message: 'The two channels of a unit must come in on two different inputs.',
+    path: ['secondInputChannel'],
+  });
 audioSetupSchema satisfies z.ZodType<AudioSetup>;
 
 export const chainLimitsSchema = z
@@ -77,6 +82,11 @@ export const calibrationSchema = z.object({
   setup: audioSetupSchema,
   output: outputCalibrationSchema,
   input: inputCalibrationSchema,
+  secondInput: z
+    .object({ channel: z.number().int().min(0).max(63), dbuAtFullScale, generatorDbfs: dbfs, capturedDbfs: dbfs, capturedHz: hz })
+    .strict()
+    .nullable()
+    .optional(),
 });
 calibrationSchema satisfies z.ZodType<Calibration>;
 
@@ -94,6 +104,8 @@ export const calibrationRequestSchema = z
       z.object({ method: z.literal('loopback'), generatorDbfs: dbfs, capturedDbfs: dbfs, capturedHz: hz }).strict(),
       z.object({ method: z.literal('stated'), statedEntry: z.string().trim().min(1).max(64) }).strict(),
     ]),
+    /** The loopback read on the input that carries a two-channel unit's channel 2 (the setup's second input). */
+    secondInput: z.object({ generatorDbfs: dbfs, capturedDbfs: dbfs, capturedHz: hz }).strict().nullable().default(null),
   })
   .strict();
 
@@ -173,6 +185,7 @@ export const calibrationUsedSchema = z.object({
   expiresAt: z.string(),
   inputDbuAtFullScale: finite,
   outputDbuAtFullScale: finite,
+  secondInput: z.object({ channel: z.number().int().min(0).max(63), dbuAtFullScale: finite }).strict().nullable().optional(),
   chainFloor: z
     .object({
       residualThdDb: finite.nullable(),

@@ -451,6 +451,8 @@ export const contract = {
         stimulus: stimulusSettingSchema,
         /** 'record-marked' is the deliberate, distinct action for a reading that has not settled. */
         unsettled: z.enum(['refuse', 'record-marked']).default('refuse'),
+        /** The audio setup in use: main checks it against the run's calibration. */
+        setup: audioSetupSchema.nullable().default(null),
       })
       .strict(),
     response: recordedPointResponse,
@@ -493,6 +495,8 @@ export const contract = {
           .min(1)
           .max(2)
           .refine((rs) => unique(rs.map((r) => r.channel)), 'Each channel may appear once.'),
+        /** The audio setup in use: main checks it against the run's calibration and reads channel 2's input figure by it. */
+        setup: audioSetupSchema.nullable().default(null),
       })
       .strict(),
     response: runDetailSchema,

@@ -24,6 +24,8 @@ export type { Verdict };
 export interface StationLevels {
   outputDbuAtFullScale: number;
   inputDbuAtFullScale: number;
+  /** The input that reads a two-channel unit's channel 2, when the calibration measured it and the setup still uses it. */
+  secondInputDbuAtFullScale?: number | null;
 }
 
 /**
@@ -179,12 +181,26 @@ export function generatorFor(step: CheckStep, levels: StationLevels | null): Gen
 export function whyStepCannotRun(step: CheckStep, levels: StationLevels | null): string | null {
   const generator = generatorFor(step, levels);
   if (!generator.ok) return generator.refusal;
+  if (step.kind === 'balance' || step.kind === 'crosstalk') return whyChannelsNotComparable(step, levels?.inputDbuAtFullScale ?? null, levels?.secondInputDbuAtFullScale ?? null);
   if (levels) return null;
   // These report a level at the unit's terminals (or a gain between two of them): only a calibrated
   // input can say it.
   if (step.kind === 'gain') return `Step “${step.id}” measures gain from the calibrated output and input levels, and this station has no calibration that holds: calibrate it in Station settings.`;
   if (step.kind === 'noise' || step.kind === 'hum') return `Step “${step.id}” measures ${step.kind} in dBu, and this station has no calibration that holds: calibrate it in Station settings.`;
   return null;
+}
+
+/**
+ * Why a step that compares two channels cannot be judged with these inputs, or null. Each channel
+ * comes in on its own capture input, and an interface's inputs differ by as much as their gain
+ * settings do (a knob a quarter-turn apart is several dB): a difference of the two dBFS readings
+ * would judge the interface, not the unit. So both inputs need their own calibration (common
+ * practice: each measurement channel is calibrated, or the cables swapped and the two results averaged).
+ */
+function whyChannelsNotComparable(step: Extract<CheckStep, { kind: 'balance' | 'crosstalk' }>, first: number | null, second: number | null): string | null {
+  if (first !== null && second !== null) return null;
+  const uncalibrated = [first === null ? step.channels[0] : null, second === null ? step.channels[1] : null].filter((c) => c !== null);
+  return `Step “${step.id}” compares channels ${step.channels[0]} and ${step.channels[1]}, and the capture input of channel ${uncalibrated.join(' and ')} has no level calibration, so the two inputs' gains may differ: in Station settings, choose the input for the unit's channel 2 and calibrate the station with the loopback read on both inputs.`;
 }
 
 // ---- may the reading be judged ---------------------------------------------------------------
@@ -295,7 +311,8 @@ const powerSumDb = (levelsDb: readonly number[]) => 10 * Math.log10(levelsDb.red
 export function measureCheckStep(step: CheckStep, input: CheckInput): CheckOutcome {
   const generator = generatorFor(step, input.levels);
   if (!generator.ok) return { ok: false, refusal: generator.refusal };
-  const cannot = whyStepCannotRun(step, input.levels);
+  // Two-channel steps are judged on the figures given with each reading (checked below), not the plan's.
+  const cannot = step.kind === 'balance' || step.kind === 'crosstalk' ? null : whyStepCannotRun(step, input.levels);
   if (cannot) return { ok: false, refusal: cannot };
 
   const channelsWanted = step.kind === 'balance' || step.kind === 'crosstalk' ? step.channels : [1];
@@ -303,6 +320,10 @@ export function measureCheckStep(step: CheckStep, input: CheckInput): CheckOutco
   const missing = channelsWanted.filter((_, i) => readings[i] === null);
   if (missing.length > 0) return { ok: false, refusal: `Step “${step.id}” needs a reading of channel ${missing.join(' and ')}: take it before judging the step.` };
   const [first, second] = readings as ChannelReading[];
+  if (step.kind === 'balance' || step.kind === 'crosstalk') {
+    const incomparable = whyChannelsNotComparable(step, first.inputDbuAtFullScale, second.inputDbuAtFullScale);
+    if (incomparable) return { ok: false, refusal: incomparable };
+  }
 
   const request = generator.request;
   if (!request.on) {
@@ -463,17 +484,13 @@ function measureHum(step: Extract<CheckStep, { kind: 'hum' }>, reading: Reading,
   return result(step, [{ m: measurement('humDbu', value, limit, notes.join('; ')), label: 'Hum' }]);
 }
 
-function twoChannel(step: Extract<CheckStep, { kind: 'balance' | 'crosstalk' }>, first: ChannelReading, second: ChannelReading, quantity: string, limit: Limit, label: string, extraNote: string | null): CheckOutcome {
-  const bothCalibrated = first.inputDbuAtFullScale !== null && second.inputDbuAtFullScale !== null;
-  if (!bothCalibrated && (first.inputDbuAtFullScale !== null || second.inputDbuAtFullScale !== null)) {
-    return { ok: false, refusal: `Step “${step.id}”: only one of channels ${first.channel} and ${second.channel} has a calibrated input, so their levels cannot be compared. Calibrate both inputs, or neither.` };
-  }
-  // Both channels see the same drive, so the difference of their output levels is the difference of
-  // their gains (balance), or the undriven channel's level relative to the driven one (crosstalk).
-  const a = bothCalibrated ? first.reading.fundamental.levelDbfs + (first.inputDbuAtFullScale as number) : first.reading.fundamental.levelDbfs;
-  const b = bothCalibrated ? second.reading.fundamental.levelDbfs + (second.inputDbuAtFullScale as number) : second.reading.fundamental.levelDbfs;
-  const notes = [bothCalibrated ? null : 'the capture inputs are not calibrated: assumes both have the same gain', extraNote].filter((n): n is string => n !== null);
-  return { ok: true, result: result(step, [{ m: measurement(quantity, b - a, limit, notes.join('; ') || null), label }]) };
+function twoChannel(step: Extract<CheckStep, { kind: 'balance' | 'crosstalk' }>, first: ChannelReading, second: ChannelReading, quantity: string, limit: Limit, label: string, note: string | null): CheckOutcome {
+  // Both channels see the same drive, so the difference of their output levels in dBu is the
+  // difference of their gains (balance), or the undriven channel's level relative to the driven
+  // one (crosstalk). measureCheckStep has made sure both inputs are calibrated.
+  const a = first.reading.fundamental.levelDbfs + (first.inputDbuAtFullScale as number);
+  const b = second.reading.fundamental.levelDbfs + (second.inputDbuAtFullScale as number);
+  return { ok: true, result: result(step, [{ m: measurement(quantity, b - a, limit, note), label }]) };
 }
 
 /** Check steps are the kinds with limits; notice and trim are judged elsewhere. */

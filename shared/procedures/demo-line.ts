@@ -42,6 +42,8 @@ export interface LineStation {
   mainsHz: 50 | 60;
   /** The station's calibration the run was opened under. */
   levels: StationLevels;
+  /** The audio setup the line records with, as the page sends it with every reading. */
+  setup: AudioSetup;
 }
 
 /** What the demo line prints for one unit, from the run as main stored it. */
@@ -122,7 +124,7 @@ async function trimUnit(bench: HeadlessBench, planned: PlannedStep, procedure: P
   let previous: number | null = null;
   let points = 0;
   for (;;) {
-    const recorded = await call('recordTrimPoint', { runId, position, ...pointOf(settled(bench, planned.stepId)), stimulus });
+    const recorded = await call('recordTrimPoint', { runId, position, ...pointOf(settled(bench, planned.stepId)), stimulus, setup: station.setup });
     points++;
     const move = nextMove(recorded.assessment, previous, points, habits);
     if (move.kind === 'give-up') break;
@@ -130,7 +132,7 @@ async function trimUnit(bench: HeadlessBench, planned: PlannedStep, procedure: P
       // The final setting: set there and recorded, unless the trimmer already is there.
       if (move.position !== position) {
         bench.moveTrimmer(move.position);
-        await call('recordTrimPoint', { runId, position: move.position, ...pointOf(settled(bench, planned.stepId)), stimulus });
+        await call('recordTrimPoint', { runId, position: move.position, ...pointOf(settled(bench, planned.stepId)), stimulus, setup: station.setup });
       }
       break;
     }
@@ -168,7 +170,7 @@ async function checkStep(bench: HeadlessBench, planned: PlannedStep, procedure: 
     taken = again;
     waited += again.seconds;
   }
-  return call('recordCheckStep', { runId, stepId: planned.stepId, stimulus, readings: [{ channel: 1, reading: taken.reading }] });
+  return call('recordCheckStep', { runId, stepId: planned.stepId, stimulus, readings: [{ channel: 1, reading: taken.reading }], setup: station.setup });
 }
 
 /** The settled reading, or the latest one when it never settled (main then refuses or marks it). */

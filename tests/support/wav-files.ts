@@ -7,20 +7,26 @@ import { tone, type TonePartial } from './signals.ts';
 
 export function writeToneWav(
   path: string,
-  { frequencyHz, levelDbfs, partials = [], seconds = 1, sampleRateHz = 44100, channels = 2 }: {
+  { frequencyHz, levelDbfs, partials = [], seconds = 1, sampleRateHz = 44100, channels = 2, channelOffsetsDb = [] }: {
     frequencyHz: number;
     levelDbfs: number;
     partials?: TonePartial[];
     seconds?: number;
     sampleRateHz?: number;
     channels?: number;
+    /** Each channel's level relative to `levelDbfs` (dB; a missing entry is 0). */
+    channelOffsetsDb?: number[];
   },
 ): string {
   const length = Math.round(seconds * sampleRateHz);
   const cycles = (frequencyHz * length) / sampleRateHz;
   if (Math.abs(cycles - Math.round(cycles)) > 1e-9) throw new Error(`${frequencyHz} Hz does not fit whole cycles in the file`);
   const samples = Float32Array.from(tone(length, sampleRateHz, frequencyHz, 10 ** (levelDbfs / 20), { partials }));
-  writeFileSync(path, encodeWavFloat32(Array.from({ length: channels }, () => samples), sampleRateHz));
+  const channel = (c: number) => {
+    const gain = 10 ** ((channelOffsetsDb[c] ?? 0) / 20);
+    return gain === 1 ? samples : samples.map((x) => x * gain);
+  };
+  writeFileSync(path, encodeWavFloat32(Array.from({ length: channels }, (_, c) => channel(c)), sampleRateHz));
   return path;
 }
 

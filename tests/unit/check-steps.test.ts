@@ -422,9 +422,25 @@ describe('two channels: balance and crosstalk from the same drive', () => {
     const step: CheckStep = { ...base, id: 'xtalk', kind: 'crosstalk', limits: { crosstalkDb: { high: -50, unit: 'dB' } } };
     const driven = handReading(1000, 20 * Math.log10(1.0));
     const quiet = handReading(1000, 20 * Math.log10(0.001), { measuredFundamentalHz: 50 });
-    const result = expectMeasured(measureCheckStep(step, { stimulus, levels: null, readings: [{ channel: 1, reading: driven, inputDbuAtFullScale: null }, { channel: 2, reading: quiet, inputDbuAtFullScale: null }] }));
+    // Both inputs read full scale at +18 dBu (an invented interface); −60 dB is 20·log10(0.001/1) (the decibel's definition).
+    const result = expectMeasured(measureCheckStep(step, { stimulus, levels: null, readings: [{ channel: 1, reading: driven, inputDbuAtFullScale: 18 }, { channel: 2, reading: quiet, inputDbuAtFullScale: 18 }] }));
     expect(result.measurements[0].value).toBeCloseTo(-60, 9);
     expect(result.verdict).toBe('pass');
+  });
+
+  it('two inputs without their own calibration are refused, never compared in dBFS as if their gains matched (common practice)', () => {
+    // An interface's inputs differ by their gain settings: input 2 set 6 dB hotter than input 1 makes
+    // a unit 6 dB out of balance read as balanced. Only calibrated inputs may be compared.
+    const step: CheckStep = { ...base, id: 'bal', kind: 'balance', limits: { balanceDb: { low: -0.5, high: 0.5, unit: 'dB' } } };
+    const one = handReading(1000, -12);
+    const two = handReading(1000, -12);
+    const outcome = measureCheckStep(step, { stimulus, levels: null, readings: [{ channel: 1, reading: one, inputDbuAtFullScale: null }, { channel: 2, reading: two, inputDbuAtFullScale: null }] });
+    expect(outcome.ok).toBe(false);
+    if (!outcome.ok) expect(outcome.refusal).toMatch(/channel 1 and 2 has no level calibration/);
+    // The plan says so before anything is played: a calibration without the second input blocks the step.
+    const procedure = { steps: [step] };
+    expect(runPlan(procedure, { outputDbuAtFullScale: 18, inputDbuAtFullScale: 18 })[0].blocked).toMatch(/channel 2 has no level calibration/);
+    expect(runPlan(procedure, { outputDbuAtFullScale: 18, inputDbuAtFullScale: 18, secondInputDbuAtFullScale: 12 })[0].blocked).toBeNull();
   });
 
   it('balance is the second channel gain minus the first; inputs calibrated differently are taken into account', () => {

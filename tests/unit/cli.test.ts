@@ -535,10 +535,10 @@ describe('sheet of a run walked through its steps in main', () => {
       await call('completeTrim', { runId, stepId: 'lf-trim' });
       const at4Dbu = (frequencyHz: number) => ({ on: true, frequencyHz, levelDbfs: 4 - OUT_FS });
       const at14 = readingWithThd(h3Db, { fundamental: { frequencyHz: 14, levelDbfs: 4 - IN_FS, phaseDeg: 0 } });
-      await call('recordCheckStep', { runId, stepId: 'thd-14hz', stimulus: at4Dbu(14), readings: [{ channel: 1, reading: at14 }] });
+      await call('recordCheckStep', { runId, stepId: 'thd-14hz', stimulus: at4Dbu(14), readings: [{ channel: 1, reading: at14 }], setup });
       // 0.3 dB of gain: the output reads 4.3 dBu for the 4 dBu played.
       const at1k = readingWithThd(-90, { fundamental: { frequencyHz: 1000, levelDbfs: 4.3 - IN_FS, phaseDeg: 0 }, harmonics: [{ order: 3, frequencyHz: 3000, levelDbc: -90, phaseDeg: 0 }] });
-      await call('recordCheckStep', { runId, stepId: 'gain-1khz', stimulus: at4Dbu(1000), readings: [{ channel: 1, reading: at1k }] });
+      await call('recordCheckStep', { runId, stepId: 'gain-1khz', stimulus: at4Dbu(1000), readings: [{ channel: 1, reading: at1k }], setup });
       await call('finishRun', { runId });
     } finally {
       station.close();

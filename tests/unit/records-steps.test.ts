@@ -107,15 +107,15 @@ async function throughTheTrim(serial: string): Promise<number> {
   expect(detail.judgement.nextStepId).toBe('thd-14hz');
   return runId;
 }
-const distortion = (runId: number, a: number) => call('recordCheckStep', { runId, stepId: 'thd-14hz', stimulus: at4Dbu(14), readings: [{ channel: 1, reading: cubicAt14Hz(a) }] });
-const gain = (runId: number, gainDb: number) => call('recordCheckStep', { runId, stepId: 'gain-1khz', stimulus: at4Dbu(1000), readings: [{ channel: 1, reading: withGainAt1kHz(gainDb) }] });
+const distortion = (runId: number, a: number) => call('recordCheckStep', { runId, stepId: 'thd-14hz', stimulus: at4Dbu(14), readings: [{ channel: 1, reading: cubicAt14Hz(a) }], setup: SETUP });
+const gain = (runId: number, gainDb: number) => call('recordCheckStep', { runId, stepId: 'gain-1khz', stimulus: at4Dbu(1000), readings: [{ channel: 1, reading: withGainAt1kHz(gainDb) }], setup: SETUP });
 const rows = (table: string) => (station.db.prepare(`SELECT COUNT(*) AS n FROM ${table}`).get() as { n: number }).n;
 
 describe('the step walk, recorded in main', () => {
   it('refuses steps out of order, of the wrong kind or not in the procedure, and stores nothing then', async () => {
     const runId = (await openUnit('MG20-2611-0101')).run.id;
     expect(await refusal('completeTrim', { runId, stepId: 'lf-trim' })).toMatch(/steps are recorded in order, and step “safety” has no result yet/);
-    expect(await refusal('recordCheckStep', { runId, stepId: 'thd-14hz', stimulus: at4Dbu(14), readings: [{ channel: 1, reading: cubicAt14Hz(0.002) }] })).toMatch(/in order/);
+    expect(await refusal('recordCheckStep', { runId, stepId: 'thd-14hz', stimulus: at4Dbu(14), readings: [{ channel: 1, reading: cubicAt14Hz(0.002) }], setup: SETUP })).toMatch(/in order/);
     expect(await refusal('acknowledgeNotice', { runId, stepId: 'lf-trim' })).toMatch(/“lf-trim” is a trim step, not a notice step/);
     expect(await refusal('acknowledgeNotice', { runId, stepId: 'no-such-step' })).toMatch(/not in procedure MG20-WALK revision A/);
     expect(rows('step_results')).toBe(0);
@@ -168,12 +168,12 @@ describe('the step walk, recorded in main', () => {
     expect(failed.judgement).toMatchObject({ stoppedAt: 'thd-14hz', nextStepId: null, finished: true, verdict: 'fail' });
     const [thd, h3] = failed.stepResults.at(-1)!.measurements;
     expect([thd.verdict, h3.verdict]).toEqual(['pass', 'fail']);
-    expect(await refusal('recordCheckStep', { runId, stepId: 'gain-1khz', stimulus: at4Dbu(1000), readings: [{ channel: 1, reading: withGainAt1kHz(0) }] })).toMatch(
+    expect(await refusal('recordCheckStep', { runId, stepId: 'gain-1khz', stimulus: at4Dbu(1000), readings: [{ channel: 1, reading: withGainAt1kHz(0) }], setup: SETUP })).toMatch(
       /Step “thd-14hz” failed, and a failure there ends the run/,
     );
     // Nor the failed step itself again: measured until it passes, the failure would be hidden. The
     // unit is tested again in a retest, which names this run and why.
-    expect(await refusal('recordCheckStep', { runId, stepId: 'thd-14hz', stimulus: at4Dbu(14), readings: [{ channel: 1, reading: cubicAt14Hz(0.002) }] })).toMatch(/ends the run/);
+    expect(await refusal('recordCheckStep', { runId, stepId: 'thd-14hz', stimulus: at4Dbu(14), readings: [{ channel: 1, reading: cubicAt14Hz(0.002) }], setup: SETUP })).toMatch(/ends the run/);
     expect(await refusal('finishRun', { runId })).toMatch(/cannot pass:[\s\S]*thd-14hz.*stops the run.*H3/);
     const finished = await call('finishRun', { runId, asFailure: true });
     expect(finished.run.verdict).toBe('fail');
@@ -229,11 +229,11 @@ describe('the step walk, recorded in main', () => {
     const before = [rows('step_results'), rows('measurements')];
     // The tone captured at 15.5 Hz while the generator plays 14 Hz: another source (10.7 % off).
     const other = readingWithThd(-70, { fundamental: { frequencyHz: 15.5, levelDbfs: 4 - IN_FS, phaseDeg: 0 }, harmonics: [{ order: 3, frequencyHz: 46.5, levelDbc: -70, phaseDeg: 0 }] });
-    expect(await refusal('recordCheckStep', { runId, stepId: 'thd-14hz', stimulus: at4Dbu(14), readings: [{ channel: 1, reading: other }] })).toMatch(
+    expect(await refusal('recordCheckStep', { runId, stepId: 'thd-14hz', stimulus: at4Dbu(14), readings: [{ channel: 1, reading: other }], setup: SETUP })).toMatch(
       /Step “thd-14hz” was not recorded\. The captured tone is at 15\.50 Hz, not the generator's 14\.00 Hz/,
     );
     // The generator off for a step that plays a tone.
-    expect(await refusal('recordCheckStep', { runId, stepId: 'thd-14hz', stimulus: { ...at4Dbu(14), on: false }, readings: [{ channel: 1, reading: cubicAt14Hz(0.002) }] })).toMatch(/not recorded/);
+    expect(await refusal('recordCheckStep', { runId, stepId: 'thd-14hz', stimulus: { ...at4Dbu(14), on: false }, readings: [{ channel: 1, reading: cubicAt14Hz(0.002) }], setup: SETUP })).toMatch(/not recorded/);
     expect([rows('step_results'), rows('measurements')]).toEqual(before);
   });
 
@@ -314,5 +314,99 @@ describe('the step channels validate their payloads', () => {
       expect(result.ok ? 'accepted' : result.error.name, `${channel} ${JSON.stringify(payload).slice(0, 120)}`).toBe('InvalidRequest');
     }
     expect(rows('step_results')).toBe(0);
+  });
+});
+
+describe('the setup a run was calibrated with, checked at every reading (a calibration holds only for the setup it was made with: common practice)', () => {
+  it('refuses a check step or trim point taken on another setup, or with none given, and stores nothing', async () => {
+    const runId = await throughTheTrim('MG20-2611-0120');
+    const step = { runId, stepId: 'thd-14hz', stimulus: at4Dbu(14), readings: [{ channel: 1, reading: cubicAt14Hz(0.002) }] };
+    expect(await refusal('recordCheckStep', { ...step, setup: { ...SETUP, sampleRateHz: 44100 } })).toMatch(/the sample rate \(calibrated at 48000 Hz\)/);
+    expect(await refusal('recordCheckStep', { ...step, setup: { ...SETUP, inputChannel: 1 } })).toMatch(/the input channel \(calibrated on 1\)/);
+    expect(await refusal('recordCheckStep', step)).toMatch(/audio setup in use was not given/);
+    expect(await refusal('recordTrimPoint', { runId, position: 4.7, reading: onPhasorLine(4.7, 5), live: STEADY_LIVE, stimulus: TRIM_STIMULUS, setup: { ...SETUP, outputDeviceId: 'out-2' } })).toMatch(/the output device/);
+    expect(rows('step_results')).toBe(2); // the notice and the trim, nothing more
+    expect((await call('recordCheckStep', { ...step, setup: SETUP })).stepResults.at(-1)!.stepId).toBe('thd-14hz');
+  });
+});
+
+/**
+ * A two-channel unit: channel 1 comes in on input 1 (the calibrated one: −18 dBFS read for −20
+ * played), channel 2 on input 2, whose gain knob sits 6 dB lower: the same loop reads −24 dBFS there.
+ * Balance and crosstalk are then differences of dBu at the unit's outputs (the decibel's definition),
+ * which a difference of the raw dBFS readings would get 6 dB wrong.
+ */
+describe('balance and crosstalk through two calibrated inputs', () => {
+  const SETUP2 = { ...SETUP, secondInputChannel: 1 };
+  const IN2_FS = -20 + OUT_FS + 24;
+  /** The unit's answer at 1 kHz: `dbu1` at channel 1's output, `dbu2` at channel 2's. */
+  const pair = (dbu1: number, dbu2: number, quietSecond = false) => [
+    { channel: 1, reading: readingWithThd(-90, { fundamental: { frequencyHz: 1000, levelDbfs: dbu1 - IN_FS, phaseDeg: 0 }, harmonics: [{ order: 3, frequencyHz: 3000, levelDbc: -90, phaseDeg: 0 }] }) },
+    { channel: 2, reading: readingWithThd(quietSecond ? -10 : -90, { fundamental: { frequencyHz: 1000, levelDbfs: dbu2 - IN2_FS, phaseDeg: 0 }, harmonics: [{ order: 3, frequencyHz: 3000, levelDbc: quietSecond ? -10 : -90, phaseDeg: 0 }] }) },
+  ];
+
+  async function twoChannelRun(serial: string, secondInput: object | null): Promise<number> {
+    await call('recordCalibration', {
+      operator: 'A. Tester',
+      setup: secondInput ? SETUP2 : SETUP,
+      output: { referenceHz: 1000, referenceDbfs: -20, meterEntry: '0.7746 V' },
+      input: { method: 'loopback', generatorDbfs: -20, capturedDbfs: -18, capturedHz: 1000.2 },
+      secondInput,
+    });
+    const file = JSON.parse(readFileSync(RESOURCE, 'utf8'));
+    file.code = 'MG22-STEREO';
+    file.revision = 'A';
+    file.model = { ...file.model, channels: 2 };
+    const common = { frequencyHz: 1000, level: { value: 4, unit: 'dBu' }, onFail: 'continue', instructions: ['Both channels connected as the step says.'] };
+    file.steps = [
+      ...file.steps.filter((s: { id: string }) => ['safety', 'lf-trim'].includes(s.id)),
+      { ...common, id: 'balance', title: 'Balance at 1 kHz', kind: 'balance', channels: [1, 2], limits: { balanceDb: { low: -0.5, high: 0.5, unit: 'dB' } } },
+      { ...common, id: 'crosstalk', title: 'Crosstalk 1 → 2', kind: 'crosstalk', channels: [1, 2], limits: { crosstalkDb: { high: -70, unit: 'dB' } } },
+    ];
+    const path = join(dir.path, 'stereo.json');
+    writeFileSync(path, JSON.stringify(file));
+    const imported = await call<{ id: number }>('importProcedure', {}, { ...noCaller, chooseProcedureFile: async () => path });
+    const runId = (await call('openRun', { serial, procedureId: imported.id, operator: 'A. Tester', setup: secondInput ? SETUP2 : SETUP })).run.id;
+    await call('acknowledgeNotice', { runId, stepId: 'safety' });
+    await trim(runId);
+    await call('completeTrim', { runId, stepId: 'lf-trim' });
+    return runId;
+  }
+
+  it('reads each channel through its own input figure: 1 dB out of balance fails, 80 dB apart is −80 dB crosstalk', async () => {
+    const runId = await twoChannelRun('MG20-2611-0201', { generatorDbfs: -20, capturedDbfs: -24, capturedHz: 999.9 });
+    const balance = await call('recordCheckStep', { runId, stepId: 'balance', stimulus: at4Dbu(1000), readings: pair(4, 3), setup: SETUP2 });
+    const b = balance.stepResults.at(-1)!;
+    expect(b.measurements[0].value).toBeCloseTo(-1, 9); // 3 dBu − 4 dBu, not the −7 dB of the raw dBFS
+    expect(b.verdict).toBe('fail');
+    const crosstalk = await call('recordCheckStep', { runId, stepId: 'crosstalk', stimulus: at4Dbu(1000), readings: pair(4, -76, true), setup: SETUP2 });
+    const c = crosstalk.stepResults.at(-1)!;
+    expect(c.measurements[0].value).toBeCloseTo(-80, 9);
+    expect(c.verdict).toBe('pass');
+  });
+
+  it('refuses to compare channels when channel 2’s input has no figure, or the setup reads it on another input', async () => {
+    const runId = await twoChannelRun('MG20-2611-0202', null);
+    expect(await refusal('recordCheckStep', { runId, stepId: 'balance', stimulus: at4Dbu(1000), readings: pair(4, 4), setup: SETUP })).toMatch(/channel 2 has no level calibration/);
+    expect(await refusal('recordCheckStep', { runId, stepId: 'balance', stimulus: at4Dbu(1000), readings: pair(4, 4), setup: SETUP2 })).toMatch(/channel 2 has no level calibration/);
+    const calibrated = await twoChannelRun('MG20-2611-0203', { generatorDbfs: -20, capturedDbfs: -24, capturedHz: 1000 });
+    expect(await refusal('recordCheckStep', { runId: calibrated, stepId: 'balance', stimulus: at4Dbu(1000), readings: pair(4, 4), setup: { ...SETUP2, secondInputChannel: 3 } })).toMatch(/channel 2 has no level calibration/);
+  });
+
+  it('stores a second input only when the setup names it, by the same loopback rules as the first', async () => {
+    const request = (setup: object, secondInput: object | null) => ({
+      operator: 'A. Tester',
+      setup,
+      output: { referenceHz: 1000, referenceDbfs: -20, meterEntry: '0.7746 V' },
+      input: { method: 'loopback', generatorDbfs: -20, capturedDbfs: -18, capturedHz: 1000.2 },
+      secondInput,
+    });
+    expect(await refusal('recordCalibration', request(SETUP, { generatorDbfs: -20, capturedDbfs: -24, capturedHz: 1000 }))).toMatch(/names no input for the unit's channel 2/);
+    expect(await refusal('recordCalibration', request(SETUP2, null))).toMatch(/input 2, and that input was not measured/);
+    expect(await refusal('recordCalibration', request(SETUP2, { generatorDbfs: -20, capturedDbfs: -24, capturedHz: 50 }))).toMatch(/input 2 heard 50\.0 Hz/);
+    expect(await refusal('recordCalibration', request({ ...SETUP, secondInputChannel: 0 }, { generatorDbfs: -20, capturedDbfs: -24, capturedHz: 1000 }))).toMatch(/two different inputs/);
+    const stored = await call<{ calibration: { secondInput: { channel: number; dbuAtFullScale: number } } }>('recordCalibration', request(SETUP2, { generatorDbfs: -20, capturedDbfs: -24, capturedHz: 1000 }));
+    expect(stored.calibration.secondInput.channel).toBe(1);
+    expect(stored.calibration.secondInput.dbuAtFullScale).toBeCloseTo(IN2_FS, 9);
   });
 });

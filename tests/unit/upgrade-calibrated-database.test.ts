@@ -142,6 +142,8 @@ describe.each(FIXTURES)('a database written by the schema-$schema release ($comm
       setup: SETUP,
       output: { dbuAtFullScale: 18, referenceHz: 1000, referenceDbfs: -20, meterEntry: '-2 dBu' },
       input: { method: 'loopback', dbuAtFullScale: 20, generatorDbfs: -20, capturedDbfs: -22, capturedHz: 1000 },
+      // Those releases read one input: no second input was calibrated.
+      secondInput: null,
     });
     expect(list[0].chainChecks).toHaveLength(1);
     const [check] = list[0].chainChecks;
@@ -187,6 +189,7 @@ describe.each(FIXTURES)('a database written by the schema-$schema release ($comm
         expiresAt: EXPIRES_AT,
         inputDbuAtFullScale: 20,
         outputDbuAtFullScale: 18,
+        secondInput: null,
         chainFloor: { residualThdDb: -95, residualAtHz: 20, noiseAWeightedDbu: -92, checkedAt: CHECKED_AT, pass: true },
       });
     }
