@@ -197,7 +197,7 @@ function sheetCalibration(used: CalibrationUsed | null): SheetCalibration {
     operator: used.operator,
     madeAt: used.madeAt,
     expiresAt: used.expiresAt,
-    levels: `0 dBFS = ${signedFixed(used.inputDbuAtFullScale, 1)} dBu in, ${signedFixed(used.outputDbuAtFullScale, 1)} dBu out`,
+    levels: `0 dBFS = ${signedFixed(used.inputDbuAtFullScale, 1)} dBu in${used.secondInput ? ` (input ${used.secondInput.channel + 1}, channel 2: ${signedFixed(used.secondInput.dbuAtFullScale, 1)} dBu)` : ''}, ${signedFixed(used.outputDbuAtFullScale, 1)} dBu out`,
     chainFloor: floor
       ? {
           text: [

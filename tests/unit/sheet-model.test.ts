@@ -200,6 +200,9 @@ describe('the sheet model', () => {
     expect(sheet.trim!.points[0].fundamental).toBe(`−${Math.abs(expectedDbu).toFixed(2)} (−12.00)`);
     expect(sheet.trim!.fundamentalHeading).toBe('Fundamental, dBu (dBFS)');
     expect(sheet.calibration).toMatchObject({ used: true, levels: '0 dBFS = +6.0 dBu in, +8.0 dBu out' });
+    // A two-channel unit's channel 2 read on input 2 with its own figure: the sheet names it beside the first.
+    const twoInputs = runDetailSchema.parse({ ...withCalibration, calibration: { ...withCalibration.calibration, secondInput: { channel: 1, dbuAtFullScale: 9 } } });
+    expect(buildSheetModel(twoInputs).calibration).toMatchObject({ levels: '0 dBFS = +6.0 dBu in (input 2, channel 2: +9.0 dBu), +8.0 dBu out' });
   });
 
   it('a run finished before step results were kept keeps its stored verdict, its steps “not recorded”', () => {
