@@ -219,8 +219,9 @@ describe('the demo procedure walked whole', () => {
     const expectedNoiseDbu = db(noiseFs * Math.SQRT2) + 10 * Math.log10((22000 - 22) / 24000) + aWeightedWhiteNoiseDb(22, 22000) + 20;
     expect(Math.abs(stored(detail, 'noise-a', 'noiseDbu') - expectedNoiseDbu)).toBeLessThan(1.5);
     // Hum: the demo's invented −105 dBFS of 50 Hz is −85 dBu. Read as the hum; or, when the meter
-    // reports no hum standing apart, as the step's stated upper bound: the unweighted noise in
-    // 20 Hz–20 kHz with the strongest tone (here the hum itself), which add in power (uncorrelated).
+    // reports no hum standing apart, as the step's upper bound: 10 dB over the noise in the
+    // window's few-hertz bandwidth at each order, far under the unweighted noise in 20 Hz–20 kHz,
+    // so that noise with the hum added in power (uncorrelated) is a ceiling for it either way.
     const humDbu = DEMO_UNIT_PARAMETERS.humDbfs + 20;
     const unweightedNoiseDbu = db(noiseFs * Math.SQRT2) + 10 * Math.log10((20000 - 20) / 24000) + 20;
     const humBoundDbu = 10 * Math.log10(10 ** (humDbu / 10) + 10 ** (unweightedNoiseDbu / 10));

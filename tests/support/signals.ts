@@ -31,3 +31,24 @@ export function tone(
 }
 
 export const dbc = (ratio: number) => 20 * Math.log10(ratio);
+
+/**
+ * Equivalent noise bandwidth of a cosine-sum window w[n] = Σ (−1)^k a_k cos(2πkn/N), in bins:
+ * Harris 1978's ENBW = N·Σw²/(Σw)². Over whole periods the cosines are orthogonal, so Σw = N·a₀ and
+ * Σw² = N·(a₀² + ½·Σ_{k≥1} a_k²), which gives (a₀² + ½·Σ_{k≥1} a_k²)/a₀² (about 1.5 for Hann).
+ */
+export function enbwBinsOfCosineSum(coefficients: readonly number[]): number {
+  const [a0, ...rest] = coefficients;
+  return (a0 * a0 + 0.5 * rest.reduce((sum, a) => sum + a * a, 0)) / (a0 * a0);
+}
+
+/**
+ * The level (dBFS of a sine, AES17) that stands `marginDb` above white noise of variance σ² in a
+ * bandwidth of `enbwBins` bins of an N-sample frame: the noise's one-sided density is σ²/(fs/2)
+ * per Hz and a bin is fs/N wide, so the band holds σ²·2·ENBW/N of mean square; a full-scale sine's
+ * mean square is ½.
+ */
+export function levelAboveWhiteNoiseDbfs(variance: number, frameSize: number, enbwBins: number, marginDb: number): number {
+  const inBand = (variance * 2 * enbwBins) / frameSize;
+  return 10 * Math.log10((inBand * 10 ** (marginDb / 10)) / 0.5);
+}
