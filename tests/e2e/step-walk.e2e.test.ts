@@ -10,6 +10,7 @@ import { dispatch, type CallerContext } from '../../electron/services/handlers.t
 import type { RunDetail } from '../../shared/ipc/contract.ts';
 import { DEMO_UNIT_PARAMETERS } from '../../shared/sim/demo-unit.ts';
 import { openBench, type Bench, POLL } from '../harness/bench-harness.ts';
+import { aWeightedWhiteNoiseDb } from '../support/signals.ts';
 import { readingWithThd } from '../support/station.ts';
 
 const RESOURCE = fileURLToPath(new URL('../../resources/procedures/mg20-lf-trim.json', import.meta.url));
@@ -78,19 +79,6 @@ async function trimToRecommendation(page: Page) {
   }
   await useRecommended.click();
   await recordHere();
-}
-
-/** 10·log10 of the mean of |A(f)|² over white noise in [low, high] Hz: the IEC 61672-1 A-weighting (its analytic form, with the +2.00 dB normalisation at 1 kHz). */
-function aWeightedWhiteNoiseDb(lowHz: number, highHz: number): number {
-  const weight = (f: number) => {
-    const f2 = f * f;
-    const ra = (12194 ** 2 * f2 * f2) / ((f2 + 20.6 ** 2) * Math.sqrt((f2 + 107.7 ** 2) * (f2 + 737.9 ** 2)) * (f2 + 12194 ** 2));
-    return (ra * 10 ** (2.0 / 20)) ** 2;
-  };
-  let sum = 0;
-  const steps = 20000;
-  for (let i = 0; i < steps; i++) sum += weight(lowHz + ((i + 0.5) * (highHz - lowHz)) / steps);
-  return 10 * Math.log10(sum / steps);
 }
 
 const db = (ratio: number) => 20 * Math.log10(ratio);

@@ -52,3 +52,16 @@ export function levelAboveWhiteNoiseDbfs(variance: number, frameSize: number, en
   const inBand = (variance * 2 * enbwBins) / frameSize;
   return 10 * Math.log10((inBand * 10 ** (marginDb / 10)) / 0.5);
 }
+
+/** 10·log10 of the mean of |A(f)|² over white noise in [low, high] Hz: the IEC 61672-1 A-weighting (its analytic form, with the +2.00 dB normalisation at 1 kHz). */
+export function aWeightedWhiteNoiseDb(lowHz: number, highHz: number): number {
+  const weight = (f: number) => {
+    const f2 = f * f;
+    const ra = (12194 ** 2 * f2 * f2) / ((f2 + 20.6 ** 2) * Math.sqrt((f2 + 107.7 ** 2) * (f2 + 737.9 ** 2)) * (f2 + 12194 ** 2));
+    return (ra * 10 ** (2.0 / 20)) ** 2;
+  };
+  let sum = 0;
+  const steps = 20000;
+  for (let i = 0; i < steps; i++) sum += weight(lowHz + ((i + 0.5) * (highHz - lowHz)) / steps);
+  return 10 * Math.log10(sum / steps);
+}
