@@ -19,7 +19,7 @@ import {
   type StationLevels,
 } from '../../shared/procedures/check-steps.ts';
 import { checkProcedureFile, type CheckStep, type ProcedureFile } from '../../shared/procedures/procedure-file.ts';
-import { runPlan } from '../../shared/procedures/run-plan.ts';
+import { generatorWanted, runPlan } from '../../shared/procedures/run-plan.ts';
 import { BLACKMAN_HARRIS_7 } from '../../shared/dsp/windows.ts';
 import { DEMO_UNIT_PARAMETERS } from '../../shared/sim/demo-unit.ts';
 import { HeadlessBench } from '../../shared/sim/headless-bench.ts';
@@ -534,6 +534,29 @@ describe('two channels: balance and crosstalk from the same drive', () => {
     expect(result.measurements[0].value).toBeCloseTo(0, 9);
     // Only one input calibrated: the levels cannot be compared.
     expect(measureCheckStep(step, { stimulus, levels: null, readings: [{ channel: 1, reading: one, inputDbuAtFullScale: dbuOfVolts(2.0) }, { channel: 2, reading: two, inputDbuAtFullScale: null }] }).ok).toBe(false);
+  });
+});
+
+describe('generatorWanted: what the live readout and the step walk expect of the generator', () => {
+  it('off for the safety notice, noise and hum; on for the trim and the tone checks; no claim with no step or a step that cannot run', () => {
+    // docs/procedures.md: safety first (the notice is acknowledged before any tone), noise and hum
+    // are measured with the generator off; the demo file's trim and distortion steps play a tone.
+    const plan = runPlan(DEMO, { outputDbuAtFullScale: 18, inputDbuAtFullScale: 18 });
+    expect(plan.map((s) => [s.stepId, generatorWanted(s)])).toEqual([
+      ['safety', false],
+      ['lf-trim', true],
+      ['thd-14hz', true],
+      ['thd-20hz', true],
+      ['thd-50hz', true],
+      ['thd-1khz', true],
+      ['thd-10khz', true],
+      ['gain-1khz', true],
+      ['noise-a', false],
+      ['hum', false],
+    ]);
+    expect(generatorWanted(null)).toBeNull();
+    // Uncalibrated, a dBu step cannot run: nothing is claimed of the generator for it.
+    expect(generatorWanted(runPlan(DEMO, null).find((s) => s.stepId === 'thd-14hz')!)).toBeNull();
   });
 });
 
