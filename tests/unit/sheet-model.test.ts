@@ -146,6 +146,20 @@ describe('the sheet model', () => {
     expect(sheet.documentTitle).toBe('MG20-2611-0042 · FAIL');
   });
 
+  it('numbers the measurements’ notes as footnotes: in step order, a note given twice numbered once (common practice for footnotes)', () => {
+    const results = allPassing();
+    const mains = '50.00 Hz mains; the power sum of the fundamental';
+    const stored = results.map((r) =>
+      r.stepId === 'noise-a' ? { ...r, measurements: [m('noiseDbu', -91.3, 'dBu', null, -85, 'pass', mains)] } : r.stepId === 'hum' ? { ...r, measurements: [m('humDbu', -88.0, 'dBu', null, -80, 'pass', mains)] } : r,
+    );
+    const sheet = buildSheetModel(detail({ stepResults: stored, verdict: 'pass' }));
+    // The gain step's note comes first in the file's order, then the one note noise and hum share.
+    expect(sheet.notes).toEqual(['+4.12 dBu out for +4.00 dBu in', mains]);
+    const measured = (id: string) => sheet.steps.find((s) => s.id === id)!.measurements[0];
+    expect([measured('gain-1khz').noteNumber, measured('noise-a').noteNumber, measured('hum').noteNumber]).toEqual([1, 2, 2]);
+    expect(measured('thd-50hz').noteNumber).toBeNull();
+  });
+
   it('says so when the stored verdict and the stored steps disagree, keeping the stored one', () => {
     const results = allPassing();
     const failedNoise = result('noise-a', 'fail', [m('noiseDbu', -80.2, 'dBu', null, -85, 'fail')], ['Noise −80.2 dBu is above the high limit of −85 dBu.']);
