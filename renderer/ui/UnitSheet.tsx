@@ -1,5 +1,6 @@
 import type { RunDetail } from '../../shared/ipc/contract.ts';
 import { Fragment, useEffect, useMemo, useRef } from 'react';
+import { asSentences } from '../../shared/format.ts';
 import { buildSheetModel, type SheetCalibration, type SheetModel, type SheetStep } from '../../shared/sheet/sheet-model.ts';
 import { localDateTime, localTime, zoneLabel } from './format.ts';
 import { TrimPlot } from './TrimPlot.tsx';
@@ -323,7 +324,7 @@ function StepTable({ steps, notes }: { steps: SheetStep[]; notes: string[] }) {
                     {step.conditions}
                     {step.attempts > 1 && ` · recorded ${step.attempts} times, the latest counts`}
                   </span>
-                  {step.reasons.length > 0 && <span className="conditions failing">{step.reasons.join(' ')}</span>}
+                  {step.reasons.length > 0 && <span className="conditions failing">{asSentences(step.reasons)}</span>}
                 </th>
               </>
             );
