@@ -429,16 +429,32 @@ async function sheet(args: string[]): Promise<string> {
   return values.json ? JSON.stringify(model) : sheetText(model);
 }
 
-/** The sheet's gist as lines: the verdict, then each step with its values against their limits. */
+/**
+ * The sheet's gist as lines: the verdict, the invented-values label, each step with its values
+ * against their limits (a note's number in brackets), then the notes the page prints under the
+ * steps and the trim's final reading with its notes.
+ */
 function sheetText(model: SheetModel): string {
   const lines = [
     `${model.unit.serial} — run ${model.runId}, ${model.procedure.code} revision ${model.procedure.revision}: ${model.verdict.text}`,
     ...model.verdict.reasons.map((reason) => `  ${reason}`),
     ...(model.verdict.discrepancy ? [`  ${model.verdict.discrepancy}`] : []),
+    ...(model.procedure.inventedLabel ? [model.procedure.inventedLabel] : []),
   ];
   for (const step of model.steps) {
     lines.push(`${String(step.number).padStart(2)} ${step.id.padEnd(16)} ${step.statusText}`);
-    for (const m of step.measurements) lines.push(`     ${m.label.padEnd(10)} ${m.valueText.padStart(14)}   limit ${m.limitText}${m.failing ? '   FAIL' : ''}`);
+    for (const m of step.measurements) {
+      const mark = m.noteNumber === null ? '' : `   [${m.noteNumber}]`;
+      lines.push(`     ${m.label.padEnd(10)} ${m.valueText.padStart(14)}   limit ${m.limitText}${m.failing ? '   FAIL' : ''}${mark}`);
+    }
+  }
+  if (model.notes.length > 0) lines.push('Notes', ...model.notes.map((note, i) => `  [${i + 1}] ${note}`));
+  if (model.stepsNote) lines.push(model.stepsNote);
+  const trim = model.trim;
+  if (trim && trim.points.length > 0) {
+    lines.push(`Trim: ${trim.finalReading}`);
+    for (const w of trim.warnings) lines.push(`  ${w.title} ${w.change} at ${w.position} ${trim.positionUnit}, after point ${w.afterSequence}: ${w.seen}`);
+    for (const note of [trim.atFloorNote, trim.unsettledNote, trim.warningsNote]) if (note) lines.push(`  ${note}`);
   }
   return lines.join('\n');
 }

@@ -12,3 +12,15 @@ export function percent(value: number): string {
   const decimals = value >= 1 ? 2 : Math.min(6, 1 - Math.floor(Math.log10(value)));
   return `${value.toFixed(decimals)} %`;
 }
+
+/**
+ * Reasons, each one plain sentence, run together as prose. A reason that ends on a quoted message
+ * or a figure without its full stop gets one, so two never read as one ("there is one The final …").
+ */
+export function asSentences(parts: readonly string[]): string {
+  return parts
+    .map((part) => part.trim())
+    .filter((part) => part.length > 0)
+    .map((part) => (/[.!?…][”’"')\]]*$/.test(part) ? part : `${part}.`))
+    .join(' ');
+}

@@ -20,6 +20,7 @@ import {
 } from '../../shared/ipc/contract.ts';
 import { inputDbuAtFullScaleFor, setupChanges, type AudioSetup } from '../../shared/calibration/station-calibration.ts';
 import type { StationSettings } from '../../shared/calibration/station-settings.ts';
+import { asSentences } from '../../shared/format.ts';
 import { procedureSchema, type Procedure } from '../../shared/procedures/procedure.ts';
 import { checkProcedureFile, procedureFileSchema, upgradeProcedure, type ProcedureFile, type ProcedureStep } from '../../shared/procedures/procedure-file.ts';
 import { isCheckStep, measureCheckStep, measurement, type Measurement, type StationLevels } from '../../shared/procedures/check-steps.ts';
@@ -1180,7 +1181,7 @@ export function createRecords(
         // "done" is taken only for a trim that passes; otherwise the reasons, and the choice is the
         // technician's: trim on, or finish the run as FAIL with these reasons.
         if (judged.verdict === 'fail') {
-          throw new ExpectedFailure(`The trim does not pass yet: ${judged.reasons.join(' ')} Keep trimming, or finish the run as FAIL with these reasons.`);
+          throw new ExpectedFailure(`The trim does not pass yet: ${asSentences(judged.reasons)} Keep trimming, or finish the run as FAIL with these reasons.`);
         }
         const thd = trimThdMeasurement(finalThdDb, trim);
         storeStepResult(row.id, step, { verdict: judged.verdict, reasons: judged.reasons, measurements: [thd], stimulus: null, readings: null });
@@ -1270,7 +1271,7 @@ export function createRecords(
         const finish = {
           finished_at: timestamp(),
           verdict,
-          verdict_reason: reasons.join(' ') || null,
+          verdict_reason: asSentences(reasons) || null,
           verdict_reasons_json: toStoredJson(reasons),
           final_thd_db: finalThdDb,
         };

@@ -1,6 +1,6 @@
 import { useCallback, useEffect, useMemo, useRef, useState } from 'react';
 import { checkStimulus } from '../../shared/records/stimulus-check.ts';
-import { runPlan } from '../../shared/procedures/run-plan.ts';
+import { generatorWanted, runPlan } from '../../shared/procedures/run-plan.ts';
 import { noiseBandFor } from '../../shared/procedures/check-steps.ts';
 import type { StationSettings } from '../../shared/calibration/station-settings.ts';
 import type { BenchAudio } from '../audio/bench-audio.ts';
@@ -241,6 +241,7 @@ export function App() {
             <LiveReadout
               reading={capture.reading}
               generatorOn={generator.generator.on}
+              generatorWanted={generatorWanted(walk.mode === 'measure' ? planned : null)}
               limitThdDb={walk.mode === 'measure' && planned?.kind === 'trim' && procedure ? procedure.trim.limitThdDb : null}
               harmonicCount={HARMONIC_COUNT}
               inputCalibration={calibration.inputCalibration}

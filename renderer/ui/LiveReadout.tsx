@@ -21,6 +21,7 @@ function Big({ value, testId }: { value: string | null; testId: string }) {
 export function LiveReadout({
   reading,
   generatorOn,
+  generatorWanted,
   limitThdDb,
   harmonicCount,
   stimulusCheck,
@@ -30,6 +31,8 @@ export function LiveReadout({
   /** The station's input calibration while it holds; null shows levels in dBFS only. */
   inputCalibration?: LevelCalibration | null;
   generatorOn: boolean;
+  /** Whether the step being measured wants the generator on (generatorWanted in run-plan.ts); null when none does. */
+  generatorWanted: boolean | null;
   /** Whether the reading is the open unit's answer to the stimulus playing; null with no unit open. */
   stimulusCheck: StimulusCheck | null;
   /** The open unit's THD limit; null with no unit open. */
@@ -96,12 +99,21 @@ export function LiveReadout({
           )}
         </div>
       </div>
-      {quietByDesign && (
-        <p className="hint" role="status" data-testid="generator-off-note">
-          The generator is off, so there is no tone to measure yet. Turn it on (<kbd>G</kbd>) when the unit is connected.
+      {quietByDesign &&
+        (generatorWanted === false ? (
+          <p className="hint" role="status" data-testid="generator-off-note">
+            The generator stays off for this step: the reading is the unit’s output with no tone.
+          </p>
+        ) : (
+          <p className="hint" role="status" data-testid="generator-off-note">
+            The generator is off, so there is no tone to measure yet. Turn it on (<kbd>G</kbd>) when the unit is connected.
+          </p>
+        ))}
+      {generatorOn && generatorWanted === false ? (
+        <p className="problem" role="alert" data-testid="generator-unwanted">
+          The generator is on, and this step is done with it off. Press <kbd>Esc</kbd> to mute it.
         </p>
-      )}
-      {notTheStimulus ? (
+      ) : notTheStimulus ? (
         <p className="problem" role="alert" data-testid="stimulus-problem">
           Not recordable: {notTheStimulus}
         </p>

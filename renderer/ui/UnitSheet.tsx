@@ -1,5 +1,6 @@
 import type { RunDetail } from '../../shared/ipc/contract.ts';
 import { Fragment, useEffect, useMemo, useRef } from 'react';
+import { asSentences } from '../../shared/format.ts';
 import { buildSheetModel, type SheetCalibration, type SheetModel, type SheetStep } from '../../shared/sheet/sheet-model.ts';
 import { localDateTime, localTime, zoneLabel } from './format.ts';
 import { TrimPlot } from './TrimPlot.tsx';
@@ -92,7 +93,7 @@ export function UnitSheet({
         </dl>
         <RunFacts sheet={sheet} />
         <h2>Steps</h2>
-        <StepTable steps={sheet.steps} />
+        <StepTable steps={sheet.steps} notes={sheet.notes} />
         {sheet.stepsNote && <p className="note">{sheet.stepsNote}</p>}
         {trim && (
           <>
@@ -288,14 +289,7 @@ function CalibrationFacts({ calibration: c }: { calibration: SheetCalibration })
  * Every step in procedure order, one row per measurement, failing rows marked. A measurement's note
  * is a numbered footnote under the table, so each row stays one line.
  */
-function StepTable({ steps }: { steps: SheetStep[] }) {
-  const notes: string[] = [];
-  const noteMark = (note: string | null) => {
-    if (note === null) return null;
-    const at = notes.indexOf(note);
-    const number = at >= 0 ? at + 1 : notes.push(note);
-    return <sup>{number}</sup>;
-  };
+function StepTable({ steps, notes }: { steps: SheetStep[]; notes: string[] }) {
   return (
     <>
       <table className="points steps" data-testid="sheet-steps">
@@ -330,7 +324,7 @@ function StepTable({ steps }: { steps: SheetStep[] }) {
                     {step.conditions}
                     {step.attempts > 1 && ` · recorded ${step.attempts} times, the latest counts`}
                   </span>
-                  {step.reasons.length > 0 && <span className="conditions failing">{step.reasons.join(' ')}</span>}
+                  {step.reasons.length > 0 && <span className="conditions failing">{asSentences(step.reasons)}</span>}
                 </th>
               </>
             );
@@ -355,7 +349,7 @@ function StepTable({ steps }: { steps: SheetStep[] }) {
                     {i === 0 && head}
                     <td className="quantity">
                       {m.label}
-                      {noteMark(m.note)}
+                      {m.noteNumber !== null && <sup>{m.noteNumber}</sup>}
                     </td>
                     <td>{m.valueText}</td>
                     <td>{m.limitText}</td>

@@ -1,6 +1,6 @@
 import { useEffect, useState } from 'react';
 import { NoCoherentFrequency, planTestFrequency } from '../../shared/measurement/frequency-planner.ts';
-import { plannedStimulus, type PlannedStep } from '../../shared/procedures/run-plan.ts';
+import { generatorWanted, plannedStimulus, type PlannedStep } from '../../shared/procedures/run-plan.ts';
 import { problemText } from '../problem-text.ts';
 import type { GeneratorCommand } from '../worker/messages.ts';
 
@@ -41,7 +41,7 @@ export function useStepStimulus({
   // A new step: its setting, off.
   useEffect(() => {
     if (!needs) return;
-    if (needs.kind === 'acknowledge' || (needs.kind === 'measure' && (!needs.generator || !needs.generator.on))) {
+    if (needs.kind === 'acknowledge' || generatorWanted(step) !== true) {
       setNote(null);
       return mute();
     }

@@ -100,6 +100,11 @@ const fields = {
       components: z.array(z.object({ order: z.number().int().min(1), frequencyHz: finite.nonnegative(), levelDbfs: dbLevel })).max(8),
     })
     .nullable(),
+  // Readings stored before the meter reported how it looked for hum give no bound for it.
+  humSearch: z
+    .object({ mainsHz: z.union([z.literal(50), z.literal(60)]), orders: z.array(z.number().int().min(1)).max(8), thresholdDbfs: dbLevel })
+    .nullable()
+    .default(null),
   // Readings stored before the band was kept were all summed over the meter's 20 Hz–20 kHz.
   bandHz: z.object({ lowHz: finite.nonnegative(), highHz: finite.nonnegative() }).default({ lowHz: 20, highHz: 20000 }),
   mainsCoincidentOrders: z.array(z.number().int().min(2)).max(64).default([]),
@@ -150,6 +155,15 @@ export const boundedReadingSchema = z
       })
       .strict()
       .nullable(),
+    humSearch: z
+      .object({
+        mainsHz: z.union([z.literal(50), z.literal(60)]),
+        orders: z.array(z.number().int().min(1).max(8)).max(8).refine(unique, 'Each mains order may appear once.'),
+        thresholdDbfs: dbfs,
+      })
+      .strict()
+      .nullable()
+      .default(null),
     bandHz: z.object({ lowHz: frequencyHz, highHz: frequencyHz }).strict().refine((b) => b.lowHz < b.highHz, 'The band must end above where it starts.'),
     mainsCoincidentOrders: z
       .array(harmonicOrder)

@@ -10,7 +10,7 @@ import { aWeightingGain } from '../dsp/a-weighting.ts';
 import { ComplexSolver } from '../dsp/complex-solve.ts';
 import { BLACKMAN_HARRIS_7, fillWindow, WindowKernel, windowProperties, type CosineSumWindow } from '../dsp/windows.ts';
 import { dbFromRatio, wrapDegrees } from '../levels.ts';
-import { FLOOR_DB, type HarmonicAnalysis, type HarmonicLevel, type HumComponent } from './reading.ts';
+import { FLOOR_DB, type HarmonicAnalysis, type HarmonicLevel, type HumComponent, type HumSearch } from './reading.ts';
 
 export interface AnalyzerOptions {
   /** Highest harmonic order counted (H2..HN). */
@@ -107,6 +107,7 @@ export class FrameAnalyzer {
     levelDbfs: FLOOR_DB,
     components: [],
   };
+  private readonly humSearchResult: HumSearch;
 
   constructor(frameSize: number, sampleRateHz: number, options: Partial<AnalyzerOptions> = {}) {
     if (!Number.isInteger(Math.log2(frameSize)) || frameSize < 256) {
@@ -135,6 +136,7 @@ export class FrameAnalyzer {
       this.harmonicPool.push({ order, frequencyHz: 0, levelDbc: 0, phaseDeg: 0 });
     }
     this.humPool = Array.from({ length: HUM_ORDERS }, (_, i) => ({ order: i + 1, frequencyHz: 0, levelDbfs: 0 }));
+    this.humSearchResult = { mainsHz: this.options.mainsHz, orders: [], thresholdDbfs: FLOOR_DB };
     const maxComponents = 1 + this.options.harmonicCount + HUM_ORDERS;
     this.compBins = new Float64Array(maxComponents);
     this.compKind = new Int8Array(maxComponents);
@@ -167,8 +169,15 @@ export class FrameAnalyzer {
 
     out.flags.length = 0;
     const f0 = this.locateFundamental(knownFundamentalHz, out);
-    this.buildComponents(f0);
+    this.buildComponents(f0, true);
     this.fitComponents(-1);
+    const hasSignal = dbFromRatio(2 * Math.hypot(this.compRe[0], this.compIm[0])) >= this.options.noSignalDbfs;
+    if (!hasSignal) {
+      // With no signal the strongest tone is noise or hum, and it has no harmonics to read:
+      // multiples of it must not hide the hum orders they fall on, which would then go unread.
+      this.buildComponents(f0, false);
+      this.fitComponents(-1);
+    }
     this.measureBins(f0);
     this.refineHum();
 
@@ -177,7 +186,6 @@ export class FrameAnalyzer {
     out.fundamental.frequencyHz = f0 * this.binHz;
     out.fundamental.levelDbfs = dbFromRatio(fundamentalAmplitude);
     out.fundamental.phaseDeg = wrapDegrees(fundamentalPhase * RAD_TO_DEG);
-    const hasSignal = out.fundamental.levelDbfs >= this.options.noSignalDbfs;
     if (!hasSignal) out.flags.push('no-signal');
 
     this.writeHarmonics(out, fundamentalAmplitude, fundamentalPhase, hasSignal);
@@ -362,7 +370,7 @@ export class FrameAnalyzer {
 
   // ---- components ---------------------------------------------------------------------------
 
-  private buildComponents(f0: number): void {
+  private buildComponents(f0: number, withHarmonics: boolean): void {
     const nyquistLimit = this.frameSize / 2 - FIT_HALF_WIDTH - this.options.window.mainLobeBins;
     let count = 0;
     const add = (bin: number, kind: number, order: number) => {
@@ -374,7 +382,7 @@ export class FrameAnalyzer {
       count++;
     };
     add(f0, FUNDAMENTAL, 1);
-    for (let order = 2; order <= this.options.harmonicCount && order * f0 <= nyquistLimit; order++) add(order * f0, HARMONIC, order);
+    for (let order = 2; withHarmonics && order <= this.options.harmonicCount && order * f0 <= nyquistLimit; order++) add(order * f0, HARMONIC, order);
     const mainsBin = this.options.mainsHz / this.binHz;
     const unitTones = count;
     for (let order = 1; order <= HUM_ORDERS; order++) {
@@ -514,7 +522,10 @@ export class FrameAnalyzer {
 
   /** Mean-square power a hum component must exceed to count as present. */
   private humThreshold(): number {
-    const aboveNoise = this.noisePerBin * this.enbwBins * 10 ** (HUM_PRESENT_DB / 10);
+    // The noise in the window's equivalent noise bandwidth, as a mean square: a bin of the
+    // normalised spectrum holds noisePerBin, which is 2·noisePerBin/ENBW of mean square (as in
+    // writeNoise), and ENBW bins of it hold 2·noisePerBin.
+    const aboveNoise = 2 * this.noisePerBin * 10 ** (HUM_PRESENT_DB / 10);
     // A sine at L dBFS has mean square 10^(L/10)/2.
     return Math.max(aboveNoise, 0.5 * 10 ** (HUM_FLOOR_DBFS / 10));
   }
@@ -667,11 +678,17 @@ export class FrameAnalyzer {
 
   private writeHum(out: HarmonicAnalysis): void {
     const present = this.humThreshold();
+    const search = this.humSearchResult;
+    search.orders.length = 0;
+    // A sine of mean square P is at 10·log10(2P) dBFS.
+    search.thresholdDbfs = 10 * Math.log10(2 * present);
+    out.humSearch = search;
     let standsOut = false;
     let components = 0;
     let mainsBin = 0;
     for (let i = 0; i < this.compCount; i++) {
       if (this.compKind[i] !== HUM) continue;
+      search.orders.push(this.compOrder[i]);
       const power = 2 * (this.compRe[i] ** 2 + this.compIm[i] ** 2);
       if (power > present) standsOut = true;
       const c = this.humPool[components++];

@@ -4,7 +4,7 @@
 
 import { GlitchGuard } from '../capture/glitch-guard.ts';
 import { DEFAULT_ANALYZER_OPTIONS, FrameAnalyzer } from './frame-analyzer.ts';
-import { createHarmonicAnalysis, type HarmonicAnalysis, type HumComponent, type HumLevel, type Reading } from './reading.ts';
+import { createHarmonicAnalysis, FLOOR_DB, type HarmonicAnalysis, type HumComponent, type HumLevel, type HumSearch, type Reading } from './reading.ts';
 import { SettleTracker } from './settle.ts';
 import { SubAudioMeter } from './sub-audio.ts';
 import { averageLockedFrames } from './synchronous-average.ts';
@@ -98,6 +98,7 @@ export class LiveMeter {
   /** The newest single frame's analysis, for the hum (synchronous averaging cancels it, unlocked as it is). */
   private readonly single: HarmonicAnalysis;
   private readonly hum: HumLevel;
+  private readonly humSearch: HumSearch;
   private written = 0;
   private cleanFrom = 0;
   private nextReadingAt = 0;
@@ -141,6 +142,7 @@ export class LiveMeter {
     };
     this.single = createHarmonicAnalysis();
     this.hum = { frequencyHz: 0, levelDbfs: 0, components: [] };
+    this.humSearch = { mainsHz: this.config.mainsHz, orders: [], thresholdDbfs: FLOOR_DB };
   }
 
   /** Capture discontinuities seen so far (found in the samples or announced by the capture path). */
@@ -202,11 +204,16 @@ export class LiveMeter {
       averageLockedFrames(this.ring, this.written, size, 1, this.frame);
       this.analyzer.analyze(this.frame, this.single, this.knownFundamentalHz);
       copyHum(this.single.hum, this.hum);
+      // The threshold hum was judged against in that frame goes with it.
+      copyHumSearch(this.single.humSearch, this.humSearch);
     }
     averageLockedFrames(this.ring, this.written, size, frames, this.frame);
 
     this.analyzer.analyze(this.frame, reading, this.knownFundamentalHz);
-    if (frames > 1) reading.hum = this.single.hum ? this.hum : null;
+    if (frames > 1) {
+      reading.hum = this.single.hum ? this.hum : null;
+      reading.humSearch = this.single.humSearch ? this.humSearch : null;
+    }
     reading.sequence++;
     reading.discontinuities = this.discontinuities;
     reading.subAudioDbfs = this.subAudio?.levelDbfs() ?? null;
@@ -278,4 +285,13 @@ function copyHum(from: HumLevel | null, to: HumLevel): void {
     components[i].frequencyHz = from.components[i].frequencyHz;
     components[i].levelDbfs = from.components[i].levelDbfs;
   }
+}
+
+/** Copies a hum search into `to` (owned by the meter), reusing its array. */
+function copyHumSearch(from: HumSearch | null, to: HumSearch): void {
+  if (!from) return;
+  to.mainsHz = from.mainsHz;
+  to.thresholdDbfs = from.thresholdDbfs;
+  to.orders.length = 0;
+  for (const order of from.orders) to.orders.push(order);
 }

@@ -39,6 +39,27 @@ export interface HumLevel {
   components: HumComponent[];
 }
 
+/**
+ * How the meter looked for hum in a frame, so that "no hum stands out" can be turned into an upper
+ * bound for it (shared/procedures/check-steps.ts).
+ */
+export interface HumSearch {
+  /** The nominal mains it looked at (the exact frequency is searched within ±0.5 Hz of it). */
+  mainsHz: 50 | 60;
+  /**
+   * The mains orders it fitted. An order within a bin of the strongest tone or one of its multiples
+   * is left out: that tone is read in its place (and reported only when it is a signal).
+   */
+  orders: number[];
+  /**
+   * The level (dBFS of a sine) a fitted order had to exceed to be reported as hum: 10 dB above the
+   * noise in the analysis window's equivalent noise bandwidth, that noise taken as the mean over
+   * the spectrum away from every tone (or −150 dBFS, whichever is higher). With `hum` null, no
+   * fitted order exceeded it.
+   */
+  thresholdDbfs: number;
+}
+
 export interface HarmonicAnalysis {
   /** coherent: the stimulus frequency is known and fits whole cycles in the frame; windowed: it was estimated. */
   mode: 'coherent' | 'windowed';
@@ -70,6 +91,11 @@ export interface HarmonicAnalysis {
   noiseAWeightedDbfs: number;
   /** Mains hum, or null when none stands above the noise. */
   hum: HumLevel | null;
+  /**
+   * What the hum was looked for with; null on a reading stored before the meter reported it, and on
+   * a whole recording whose frames did not all agree that no hum stood out.
+   */
+  humSearch: HumSearch | null;
   /**
    * The band THD+N and noise were summed over, Hz (the top capped at Nyquist): a noise figure means
    * nothing without it, so a check step's limit is judged only on a reading of its own band.
@@ -115,6 +141,7 @@ export function createHarmonicAnalysis(): HarmonicAnalysis {
     noiseDbfs: FLOOR_DB,
     noiseAWeightedDbfs: FLOOR_DB,
     hum: null,
+    humSearch: null,
     bandHz: { lowHz: 0, highHz: 0 },
     mainsCoincidentOrders: [],
     flags: [],

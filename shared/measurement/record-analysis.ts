@@ -120,6 +120,9 @@ class Accumulator {
   private humFrames = 0;
   private humFrequency = 0;
   private readonly humPower = new Map<number, { power: number; frequencyHz: number }>();
+  /** The hum threshold's mean power and the orders every frame fitted, while every frame reported its search. */
+  private humSearch: { mainsHz: 50 | 60; orders: number[]; thresholdPower: number } | null = null;
+  private humSearchFrames = 0;
   private readonly flags = new Set<ReadingFlag>();
   private readonly mainsCoincident = new Set<number>();
 
@@ -166,6 +169,13 @@ class Accumulator {
         entry.frequencyHz += c.frequencyHz;
         this.humPower.set(c.order, entry);
       }
+    }
+    if (frame.humSearch) {
+      const { mainsHz, orders, thresholdDbfs } = frame.humSearch;
+      if (!this.humSearch) this.humSearch = { mainsHz, orders: [...orders], thresholdPower: 0 };
+      this.humSearch.orders = this.humSearch.orders.filter((order) => orders.includes(order));
+      this.humSearch.thresholdPower += 10 ** (thresholdDbfs / 10);
+      this.humSearchFrames++;
     }
     for (const flag of frame.flags) this.flags.add(flag);
     for (const order of frame.mainsCoincidentOrders) this.mainsCoincident.add(order);
@@ -216,6 +226,12 @@ class Accumulator {
             components: humComponents,
           }
         : null,
+      // A bound for hum that does not stand out holds only when it stood out in no frame: each
+      // frame's order then lay under its own threshold, so their mean power under the mean threshold.
+      humSearch:
+        this.humFrames === 0 && this.humSearch && this.humSearchFrames === n
+          ? { mainsHz: this.humSearch.mainsHz, orders: this.humSearch.orders, thresholdDbfs: 10 * Math.log10(this.humSearch.thresholdPower / n) }
+          : null,
       bandHz: { ...this.bandHz },
       mainsCoincidentOrders: [...this.mainsCoincident].sort((a, b) => a - b),
       flags: [...this.flags],

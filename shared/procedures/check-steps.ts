@@ -6,7 +6,7 @@
 // Only types come from procedure-file.ts: the page uses this module and must not pull zod in.
 
 import { MAINS_MULTIPLES, RESOLVABLE_BINS } from '../measurement/frame-analyzer.ts';
-import { FLOOR_DB, type Reading } from '../measurement/reading.ts';
+import { FLOOR_DB, type HumSearch, type Reading } from '../measurement/reading.ts';
 import type { StimulusSetting } from '../dsp/sine-source.ts';
 import { whyReadingInconsistent, thdDbFromHarmonics } from '../records/reading-check.ts';
 import { whyNotRecordable } from '../records/stimulus-check.ts';
@@ -434,54 +434,65 @@ function measureNoise(step: Extract<CheckStep, { kind: 'noise' }>, reading: Read
 
 function measureHum(step: Extract<CheckStep, { kind: 'hum' }>, reading: Reading, levels: StationLevels): CheckResult {
   const limit = step.limits.humDbu;
-  // With the generator off the meter takes the strongest tone for its fundamental (whyNotQuiet has
-  // made sure it is mains or a multiple, or no signal) and leaves it and its harmonics out of the
-  // noise and of the hum: those tones may be the hum itself, so they count as hum here.
-  const toneLevels = [reading.fundamental.levelDbfs, ...reading.harmonics.map((h) => reading.fundamental.levelDbfs + h.levelDbc)];
-  if (reading.hum === null) {
-    // No hum component stands 10 dB above the noise in its own bandwidth; the noise over the whole
-    // band holds thousands of such bandwidths, so it bounds the hum from above, with the tones added back.
-    const bound = dbuOf(powerSumDb([reading.noiseDbfs, ...toneLevels]), levels.inputDbuAtFullScale);
-    const note = `no hum stands apart from the noise: the value is the unweighted noise in the band with the strongest tone found and its harmonics, an upper bound for the hum`;
-    return result(step, [{ m: measurement('humDbu', bound, limit, note), label: 'Hum (upper bound)' }]);
+  const found = reading.hum;
+  const search = reading.humSearch;
+  if (!found && !search) {
+    const note = 'no hum stood out, and the reading does not say the level it had to exceed to stand out, so no bound can be given: take a new reading';
+    return result(step, [{ m: measurement('humDbu', null, limit, note), label: 'Hum (upper bound)' }]);
   }
-  const mainsHz = reading.hum.frequencyHz;
+  // With hum standing out, its components are read at the mains frequency found; otherwise the
+  // meter fitted every order at nominal mains and none exceeded its threshold, so each fitted
+  // order's component is at most that threshold (10 dB above the noise in the window's equivalent
+  // noise bandwidth): the power sum of those thresholds bounds the hum from above. The fit at
+  // nominal reads a drifted component a little low (under 0.5 dB up to the 5th order for a grid
+  // within 0.2 Hz of nominal, common practice, at the meter's 1.46 Hz bins); the bound does not add that.
+  const bound = found === null;
+  const mainsHz = found ? found.frequencyHz : (search as HumSearch).mainsHz;
   const resolutionHz = RESOLVABLE_BINS * (reading.sampleRateHz / reading.frameSize);
+  // With the generator off the meter takes the strongest tone for its fundamental (whyNotQuiet has
+  // made sure it is mains or a multiple, or no signal) and leaves any hum order on it or its
+  // harmonics out of the hum: that tone is the hum there.
   const unitTones = [{ frequencyHz: reading.fundamental.frequencyHz, levelDbfs: reading.fundamental.levelDbfs }, ...reading.harmonics.map((h) => ({ frequencyHz: h.frequencyHz, levelDbfs: reading.fundamental.levelDbfs + h.levelDbc }))];
   const summed: number[] = [];
-  const parts: string[] = [];
+  const read: number[] = [];
+  const asTone: number[] = [];
   const aboveNyquist: number[] = [];
   const unread: number[] = [];
   for (let order = 1; order <= step.mainsHarmonics; order++) {
-    const name = order === 1 ? 'the fundamental' : `harmonic ${order}`;
-    const component = reading.hum.components.find((c) => c.order === order);
-    if (component) {
-      summed.push(component.levelDbfs);
-      parts.push(name);
-      continue;
-    }
     if (order * mainsHz >= reading.sampleRateHz / 2) {
       aboveNyquist.push(order);
       continue;
     }
-    // The meter leaves out a hum order lying on the strongest tone or its harmonics: that tone is it.
-    const tone = unitTones.find((t) => Math.abs(t.frequencyHz - order * mainsHz) < resolutionHz);
-    if (tone) {
-      summed.push(tone.levelDbfs);
-      parts.push(`${name} (read as the strongest tone's)`);
-      continue;
+    const level = found ? found.components.find((c) => c.order === order)?.levelDbfs : (search as HumSearch).orders.includes(order) ? (search as HumSearch).thresholdDbfs : undefined;
+    // At nominal mains the order may lie up to the drift the meter allows from where it is.
+    const tone = unitTones.find((t) => Math.abs(t.frequencyHz - order * mainsHz) < resolutionHz + (bound ? order * MAINS_DRIFT_HZ : 0));
+    if (level !== undefined) {
+      summed.push(level);
+      read.push(order);
     }
-    unread.push(order);
+    // A tone beside a fitted order is added too when only a bound is given: it is the loudest thing there.
+    if (tone && (level === undefined || bound)) {
+      summed.push(tone.levelDbfs);
+      asTone.push(order);
+    }
+    if (level === undefined && !tone) unread.push(order);
   }
-  const notes = [`${hz(mainsHz)} mains; the power sum of ${parts.join(', ') || 'no component'}`];
-  if (aboveNyquist.length > 0) notes.push(`harmonic${aboveNyquist.length === 1 ? '' : 's'} ${aboveNyquist.join(', ')} at or above Nyquist, not in the sum`);
+  const orders = (list: number[]) => `harmonic${list.length === 1 ? '' : 's'} ${list.join(', ')}`;
+  const notes = bound
+    ? [
+        `no component of ${hz(mainsHz)} mains stood 10 dB above the noise in the meter's bandwidth: an upper bound for the hum` +
+          (read.length > 0 ? `, the power sum of the level each of ${orders(read)} had to exceed (${round((search as HumSearch).thresholdDbfs)} dBFS)` : ''),
+      ]
+    : [`${hz(mainsHz)} mains; the power sum of ${read.map((o) => (o === 1 ? 'the fundamental' : `harmonic ${o}`)).join(', ') || 'no component'}`];
+  if (asTone.length > 0) notes.push(`${orders(asTone)} read as the strongest tone's`);
+  if (aboveNyquist.length > 0) notes.push(`${orders(aboveNyquist)} at or above Nyquist, not in the sum`);
   // A component the step asks for and the meter did not read may be the loudest: no value, no pass.
   if (unread.length > 0) {
-    const note = `mains harmonic${unread.length === 1 ? '' : 's'} ${unread.join(', ')} not read by the meter, so the hum the step asks for was not measured`;
-    return result(step, [{ m: measurement('humDbu', null, limit, note), label: 'Hum' }]);
+    const note = `mains ${orders(unread)} not read by the meter, so the hum the step asks for was not measured`;
+    return result(step, [{ m: measurement('humDbu', null, limit, note), label: bound ? 'Hum (upper bound)' : 'Hum' }]);
   }
   const value = summed.length > 0 ? dbuOf(powerSumDb(summed), levels.inputDbuAtFullScale) : null;
-  return result(step, [{ m: measurement('humDbu', value, limit, notes.join('; ')), label: 'Hum' }]);
+  return result(step, [{ m: measurement('humDbu', value, limit, notes.join('; ')), label: bound ? 'Hum (upper bound)' : 'Hum' }]);
 }
 
 function twoChannel(step: Extract<CheckStep, { kind: 'balance' | 'crosstalk' }>, first: ChannelReading, second: ChannelReading, quantity: string, limit: Limit, label: string, note: string | null): CheckOutcome {

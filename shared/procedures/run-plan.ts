@@ -82,6 +82,24 @@ export function runPlan(procedure: Pick<ProcedureFile, 'steps'>, levels: Station
   });
 }
 
+/**
+ * Whether the step being measured wants the generator playing: off for a notice (nothing is played
+ * before the safety notice is acknowledged) and for noise and hum, on for the trim and for checks
+ * that play a tone. Null when no step is being measured, or the step cannot run on this station:
+ * then the generator is the technician's to use.
+ */
+export function generatorWanted(step: Pick<PlannedStep, 'needs'> | null): boolean | null {
+  if (!step) return null;
+  switch (step.needs.kind) {
+    case 'acknowledge':
+      return false;
+    case 'trim':
+      return true;
+    case 'measure':
+      return step.needs.generator ? step.needs.generator.on : null;
+  }
+}
+
 export interface PlannedStimulus extends StimulusSetting {
   /** Why this frequency: the planner's reason, or why the step's own frequency is used as it is. */
   reason: string;

@@ -4,6 +4,7 @@
 
 import type { ProcedureFile, ProcedureStep } from './procedure-file.ts';
 import type { Verdict } from './check-steps.ts';
+import { asSentences } from '../format.ts';
 
 /** One step's result as recorded: a check's verdict, the trim's judgement, an acknowledged notice (pass). */
 export interface StepOutcome {
@@ -31,7 +32,7 @@ export interface UnitJudgement {
 type Judged = Pick<ProcedureFile, 'steps'> & Partial<Pick<ProcedureFile, 'code' | 'revision'>>;
 
 const named = (step: ProcedureStep) => `Step “${step.id}” (${step.title})`;
-const joined = (reasons: readonly string[]) => (reasons.length > 0 ? `: ${reasons.join(' ')}` : '.');
+const joined = (reasons: readonly string[]) => (reasons.length > 0 ? `: ${asSentences(reasons)}` : '.');
 
 /**
  * PASS only when every step has a result and every result passed. A step without a result is not a

@@ -34,6 +34,8 @@ export interface SheetMeasurement {
   /** The limit as stored with the value; inclusive (docs/procedures.md), so written ≤ and ≥. */
   limitText: string;
   note: string | null;
+  /** The note's number among the sheet's `notes` (a footnote, so each row stays one line); null without a note. */
+  noteNumber: number | null;
 }
 
 export interface SheetStep {
@@ -128,6 +130,8 @@ export interface SheetModel {
     discrepancy: string | null;
   };
   steps: SheetStep[];
+  /** The measurements' notes, numbered from 1 in the order the steps first give them, each once. */
+  notes: string[];
   stepsNote: string | null;
   trim: SheetTrim | null;
   footer: string;
@@ -135,8 +139,10 @@ export interface SheetModel {
 
 const INVENTED_LABEL = 'Demo procedure — the maker, product, limits and values on this sheet are invented for practice.';
 
-function sheetMeasurement(m: StoredMeasurement): SheetMeasurement {
+function sheetMeasurement(m: StoredMeasurement, notes: string[]): SheetMeasurement {
   const decimals = quantityDecimals(m.quantity);
+  const at = m.note === null ? -1 : notes.indexOf(m.note);
+  const noteNumber = m.note === null ? null : at >= 0 ? at + 1 : notes.push(m.note);
   return {
     quantity: m.quantity,
     label: quantityLabel(m.quantity),
@@ -149,6 +155,7 @@ function sheetMeasurement(m: StoredMeasurement): SheetMeasurement {
     valueText: m.value === null ? 'not measured' : `${signedFixed(m.value, decimals)} ${m.unit}`,
     limitText: limitText(m, decimals),
     note: m.note,
+    noteNumber,
   };
 }
 
@@ -163,7 +170,7 @@ function conditionsOf(step: ProcedureStep, result: StepResult | undefined): stri
 
 const STATUS_TEXT: Record<SheetStep['status'], string> = { pass: 'PASS', fail: 'FAIL', 'not-run': 'not run', 'not-recorded': 'not recorded' };
 
-function sheetSteps(detail: RunDetail, legacy: boolean): SheetStep[] {
+function sheetSteps(detail: RunDetail, legacy: boolean, notes: string[]): SheetStep[] {
   const judged = new Map(detail.judgement.steps.map((s) => [s.stepId, s.status]));
   return detail.procedureFile.steps.map((step, index) => {
     const results = detail.stepResults.filter((r) => r.stepId === step.id);
@@ -183,7 +190,7 @@ function sheetSteps(detail: RunDetail, legacy: boolean): SheetStep[] {
       attempts: results.length,
       recordedAt: shown?.recordedAt ?? null,
       reasons: shown?.reasons ?? [],
-      measurements: (shown?.measurements ?? []).map(sheetMeasurement),
+      measurements: (shown?.measurements ?? []).map((m) => sheetMeasurement(m, notes)),
     };
   });
 }
@@ -309,6 +316,8 @@ export function buildSheetModel(detail: RunDetail): SheetModel {
   const { run, procedureFile: file } = detail;
   const legacy = !run.walked;
   const verdict = sheetVerdict(detail, legacy);
+  const notes: string[] = [];
+  const steps = sheetSteps(detail, legacy, notes);
   return {
     runId: run.id,
     documentTitle: `${run.serial} · ${verdict.text}`,
@@ -336,7 +345,8 @@ export function buildSheetModel(detail: RunDetail): SheetModel {
     },
     calibration: sheetCalibration(detail.calibration),
     verdict,
-    steps: sheetSteps(detail, legacy),
+    steps,
+    notes,
     stepsNote: legacy ? 'This run was recorded before results were kept step by step: its verdict is the trim’s, below.' : null,
     trim: sheetTrim(detail, legacy),
     footer: 'Made with Trimbench. Trimbench measures; it does not certify electrical safety.',

@@ -66,7 +66,12 @@ describe('audio problems', () => {
       await page.getByLabel('Operator').fill('A. Tester');
       await page.getByTestId('serial-input').fill('MG20-2611-0042');
       await page.getByTestId('serial-input').press('Enter');
+      // The safety notice is read with the generator off (docs/procedures.md: safety first): the note
+      // says it stays off, not to turn it on.
+      await expect.poll(() => page.getByTestId('generator-off-note').textContent(), { timeout: 15_000 }).toMatch(/stays off for this step/);
       await acknowledgeNotice(page);
+      // The trim plays a tone: now the note asks for it.
+      await expect.poll(() => page.getByTestId('generator-off-note').textContent(), { timeout: 15_000 }).toMatch(/Turn it on/);
       await page.getByTestId('position-input').press('g');
       // Said by the shared stimulus check now (the one main applies before recording), whose wording
       // names the causes rather than "the input channel": the check is that silence is called out.

@@ -10,6 +10,7 @@ import { dispatch, type CallerContext } from '../../electron/services/handlers.t
 import type { RunDetail } from '../../shared/ipc/contract.ts';
 import { DEMO_UNIT_PARAMETERS } from '../../shared/sim/demo-unit.ts';
 import { openBench, type Bench, POLL } from '../harness/bench-harness.ts';
+import { aWeightedWhiteNoiseDb } from '../support/signals.ts';
 import { readingWithThd } from '../support/station.ts';
 
 const RESOURCE = fileURLToPath(new URL('../../resources/procedures/mg20-lf-trim.json', import.meta.url));
@@ -78,19 +79,6 @@ async function trimToRecommendation(page: Page) {
   }
   await useRecommended.click();
   await recordHere();
-}
-
-/** 10·log10 of the mean of |A(f)|² over white noise in [low, high] Hz: the IEC 61672-1 A-weighting (its analytic form, with the +2.00 dB normalisation at 1 kHz). */
-function aWeightedWhiteNoiseDb(lowHz: number, highHz: number): number {
-  const weight = (f: number) => {
-    const f2 = f * f;
-    const ra = (12194 ** 2 * f2 * f2) / ((f2 + 20.6 ** 2) * Math.sqrt((f2 + 107.7 ** 2) * (f2 + 737.9 ** 2)) * (f2 + 12194 ** 2));
-    return (ra * 10 ** (2.0 / 20)) ** 2;
-  };
-  let sum = 0;
-  const steps = 20000;
-  for (let i = 0; i < steps; i++) sum += weight(lowHz + ((i + 0.5) * (highHz - lowHz)) / steps);
-  return 10 * Math.log10(sum / steps);
 }
 
 const db = (ratio: number) => 20 * Math.log10(ratio);
@@ -219,8 +207,9 @@ describe('the demo procedure walked whole', () => {
     const expectedNoiseDbu = db(noiseFs * Math.SQRT2) + 10 * Math.log10((22000 - 22) / 24000) + aWeightedWhiteNoiseDb(22, 22000) + 20;
     expect(Math.abs(stored(detail, 'noise-a', 'noiseDbu') - expectedNoiseDbu)).toBeLessThan(1.5);
     // Hum: the demo's invented −105 dBFS of 50 Hz is −85 dBu. Read as the hum; or, when the meter
-    // reports no hum standing apart, as the step's stated upper bound: the unweighted noise in
-    // 20 Hz–20 kHz with the strongest tone (here the hum itself), which add in power (uncorrelated).
+    // reports no hum standing apart, as the step's upper bound: 10 dB over the noise in the
+    // window's few-hertz bandwidth at each order, far under the unweighted noise in 20 Hz–20 kHz,
+    // so that noise with the hum added in power (uncorrelated) is a ceiling for it either way.
     const humDbu = DEMO_UNIT_PARAMETERS.humDbfs + 20;
     const unweightedNoiseDbu = db(noiseFs * Math.SQRT2) + 10 * Math.log10((20000 - 20) / 24000) + 20;
     const humBoundDbu = 10 * Math.log10(10 ** (humDbu / 10) + 10 ** (unweightedNoiseDbu / 10));

@@ -47,6 +47,7 @@ export function readingWithThd(thdDb: number, overrides: Partial<Reading> = {}):
     noiseDbfs: -120,
     noiseAWeightedDbfs: -122,
     hum: null,
+    humSearch: null,
     bandHz: { lowHz: 20, highHz: 20000 },
     mainsCoincidentOrders: [],
     flags: [],

@@ -19,7 +19,12 @@ import {
   type StationLevels,
 } from '../../shared/procedures/check-steps.ts';
 import { checkProcedureFile, type CheckStep, type ProcedureFile } from '../../shared/procedures/procedure-file.ts';
-import { runPlan } from '../../shared/procedures/run-plan.ts';
+import { generatorWanted, runPlan } from '../../shared/procedures/run-plan.ts';
+import { BLACKMAN_HARRIS_7 } from '../../shared/dsp/windows.ts';
+import { DEMO_UNIT_PARAMETERS } from '../../shared/sim/demo-unit.ts';
+import { HeadlessBench } from '../../shared/sim/headless-bench.ts';
+import { gaussian, seededRandom } from '../support/random.ts';
+import { enbwBinsOfCosineSum, levelAboveWhiteNoiseDbfs } from '../support/signals.ts';
 import { judgeUnit, type StepOutcome } from '../../shared/procedures/unit-verdict.ts';
 
 // ---- construction helpers ---------------------------------------------------------------------
@@ -318,22 +323,115 @@ describe('levels from the station calibration (dBu definition: 0 dBu = √0.6 V 
     expect(measureCheckStep(demoStep('hum'), { stimulus: OFF, levels, readings: [{ channel: 1, reading: ripple, inputDbuAtFullScale: levels.inputDbuAtFullScale }] }).ok).toBe(true);
   });
 
-  it('with no hum above the noise, the band noise in dBu stands as an upper bound, and says so', () => {
-    const reading = handReading(0, FLOOR_DB, { hum: null, noiseDbfs: -110, noiseAWeightedDbfs: -113 });
+  it('with no hum above the noise, the level each asked order had to exceed bounds it: their power sum, said to be a bound', () => {
+    // The meter fitted all eight orders at 50 Hz and none exceeded −110 dBFS: the demo's five orders
+    // are each at most that, and uncorrelated tones add in power: −110 + 10·log10(5) dBFS.
+    const humSearch = { mainsHz: 50 as const, orders: [1, 2, 3, 4, 5, 6, 7, 8], thresholdDbfs: -110 };
+    const reading = handReading(0, FLOOR_DB, { hum: null, humSearch, noiseDbfs: -90, noiseAWeightedDbfs: -93 });
     const result = expectMeasured(measureCheckStep(demoStep('hum'), { stimulus: OFF, levels, readings: [{ channel: 1, reading, inputDbuAtFullScale: levels.inputDbuAtFullScale }] }));
-    expect(result.measurements[0].value).toBeCloseTo(dbuOfVolts(2.0 * 10 ** (-110 / 20)), 9);
-    expect(result.measurements[0].note).toMatch(/upper bound/);
+    expect(result.measurements[0].value).toBeCloseTo(-110 + 10 * Math.log10(5) + dbuOfVolts(2.0), 9);
+    expect(result.measurements[0].note).toMatch(/upper bound.*harmonics 1, 2, 3, 4, 5.*−110\.0 dBFS/);
+    // A reading that does not say what hum had to exceed gives no bound: no value, no pass.
+    const unsaid = expectMeasured(measureCheckStep(demoStep('hum'), { stimulus: OFF, levels, readings: [{ channel: 1, reading: { ...reading, humSearch: null }, inputDbuAtFullScale: levels.inputDbuAtFullScale }] }));
+    expect(unsaid.measurements[0]).toMatchObject({ value: null, verdict: 'fail' });
+    // An asked order the meter neither fitted nor read as a tone (hidden under a multiple of a noise
+    // peak it does not report): it may be the loudest, so no value either.
+    const hidden = expectMeasured(measureCheckStep(demoStep('hum'), { stimulus: OFF, levels, readings: [{ channel: 1, reading: { ...reading, humSearch: { ...humSearch, orders: [1, 2, 3, 5, 6, 7, 8] } }, inputDbuAtFullScale: levels.inputDbuAtFullScale }] }));
+    expect(hidden.measurements[0]).toMatchObject({ value: null, verdict: 'fail' });
+    expect(hidden.measurements[0].note).toMatch(/harmonic 4 not read/);
   });
 
   it('hum louder than the noise, read by a quiet meter as its strongest tone, is not bounded by the noise alone', () => {
     // The generator off, 50 Hz hum at −85 dBFS is the strongest tone: the meter takes it for its
-    // fundamental and reports no hum. Its RMS (AES17: dBFS of a sine) and the noise's add in power.
-    const reading = handReading(50, -85, { hum: null, noiseDbfs: -110, noiseAWeightedDbfs: -113 });
+    // fundamental, fits the other orders (none above −110 dBFS) and reports no hum. The tone (AES17:
+    // dBFS of a sine) and the four other orders' bounds add in power.
+    const humSearch = { mainsHz: 50 as const, orders: [2, 3, 4, 5, 6, 7, 8], thresholdDbfs: -110 };
+    const reading = handReading(50, -85, { hum: null, humSearch, noiseDbfs: -100, noiseAWeightedDbfs: -103 });
     const result = expectMeasured(measureCheckStep(demoStep('hum'), { stimulus: OFF, levels, readings: [{ channel: 1, reading, inputDbuAtFullScale: levels.inputDbuAtFullScale }] }));
-    const volts = Math.hypot(2.0 * 10 ** (-85 / 20), 2.0 * 10 ** (-110 / 20));
-    expect(result.measurements[0].value).toBeCloseTo(dbuOfVolts(volts), 9);
+    const expected = 10 * Math.log10(10 ** (-85 / 10) + 4 * 10 ** (-110 / 10)) + dbuOfVolts(2.0);
+    expect(result.measurements[0].value).toBeCloseTo(expected, 9);
+    expect(result.measurements[0].note).toMatch(/harmonic 1 read as the strongest tone/);
     // 2 V RMS at full scale is +8.2 dBu, so −85 dBFS is about −77 dBu: over the demo's −80 dBu limit.
     expect(result.verdict).toBe('fail');
+  });
+});
+
+describe('hum that does not stand out: bounded by the noise in the meter’s bandwidth, not the whole band', () => {
+  // Input: 2.0 V RMS reads full scale (+8.24 dBu, dBu definition).
+  const levels: StationLevels = { outputDbuAtFullScale: dbuOfVolts(1.0), inputDbuAtFullScale: dbuOfVolts(2.0) };
+  // The meter's window: the 7-term Blackman-Harris (Albrecht 2001's coefficients); its ENBW by
+  // Harris 1978's definition; the 10 dB margin is the meter's rule for hum standing out.
+  const enbw = enbwBinsOfCosineSum(BLACKMAN_HARRIS_7.coefficients);
+  const MARGIN_DB = 10;
+  const noise = (seed: number, sigma: number) => {
+    const random = gaussian(seededRandom(seed));
+    return Float64Array.from({ length: FRAME }, () => sigma * random());
+  };
+  const judge = (samples: Float64Array, step: CheckStep) => {
+    const analysis = new FrameAnalyzer(FRAME, RATE, { mainsHz: 50 }).analyze(samples, createHarmonicAnalysis(), null);
+    const reading = settled(structuredClone(analysis));
+    return { reading, result: expectMeasured(measureCheckStep(step, { stimulus: OFF, levels, readings: [{ channel: 1, reading, inputDbuAtFullScale: levels.inputDbuAtFullScale }] })) };
+  };
+  const varianceOf = (samples: Float64Array) => samples.reduce((sum, x) => sum + x * x, 0) / samples.length;
+
+  it('white noise over the hum limit in the whole band, well under it in the window’s bandwidth near mains: passes', () => {
+    const samples = noise(17, 10 ** (-82 / 20));
+    const variance = varianceOf(samples);
+    // The premise, from the construction: white noise's one-sided density is σ²/(fs/2), so the
+    // meter's 20 Hz–20 kHz holds σ²·19 980/24 000 of mean square; as dBFS of a sine (AES17), in dBu
+    // on this input it is about −71 dBu, over the demo's −80 dBu limit.
+    const bandDbu = 10 * Math.log10((variance * (20000 - 20)) / (RATE / 2) / 0.5) + levels.inputDbuAtFullScale;
+    expect(bandDbu).toBeGreaterThan(-80 + 5);
+    // Each of the demo's five orders is at most 10 dB over the noise in ENBW bins of N = 16 384 at
+    // 48 kHz, and they add in power: 10·log10(5) dB more.
+    const expected = levelAboveWhiteNoiseDbfs(variance, FRAME, enbw, MARGIN_DB) + 10 * Math.log10(5) + levels.inputDbuAtFullScale;
+    expect(expected).toBeLessThan(-80 - 5);
+    const { reading, result } = judge(samples, demoStep('hum'));
+    expect(reading.hum).toBeNull();
+    // Tolerance: the meter's noise is the mean of about 8000 bins (hundredths of a dB).
+    expect(Math.abs((result.measurements[0].value as number) - expected)).toBeLessThan(0.3);
+    expect(result.measurements[0].note).toMatch(/upper bound/);
+    expect(result.verdict).toBe('pass');
+  });
+
+  it('a real 50 Hz component 2 dB under the level hum must exceed to stand out is inside the bound', () => {
+    const samples = noise(23, 10 ** (-82 / 20));
+    const variance = varianceOf(samples);
+    const componentDbfs = levelAboveWhiteNoiseDbfs(variance, FRAME, enbw, MARGIN_DB) - 2;
+    // A sine of peak A is at 20·log10(A) dBFS (AES17).
+    const peak = 10 ** (componentDbfs / 20);
+    for (let i = 0; i < FRAME; i++) samples[i] += peak * Math.sin((2 * Math.PI * 50 * i) / RATE + 0.7);
+    const componentDbu = componentDbfs + levels.inputDbuAtFullScale;
+    // Mains alone asked: the bound is that one order's, with nothing from other orders to hide a bound too low.
+    const mainsOnly = { ...(demoStep('hum') as Extract<CheckStep, { kind: 'hum' }>), mainsHarmonics: 1 };
+    const { reading, result } = judge(samples, mainsOnly);
+    // Under the threshold: the meter reports no hum, and the bound must still hold the component.
+    expect(reading.hum).toBeNull();
+    expect(result.measurements[0].value as number).toBeGreaterThanOrEqual(componentDbu);
+    // A limit between the component and the bound fails: the bound cannot vouch for less.
+    const between = expectMeasured(
+      measureCheckStep({ ...mainsOnly, limits: { humDbu: { high: componentDbu + 0.5, unit: 'dBu' } } }, { stimulus: OFF, levels, readings: [{ channel: 1, reading, inputDbuAtFullScale: levels.inputDbuAtFullScale }] }),
+    );
+    expect(between.verdict).toBe('fail');
+    // The demo's five orders: a value (every order fitted or read as a tone), and it holds the component.
+    const five = judge(samples, demoStep('hum')).result.measurements[0];
+    expect(five.value).not.toBeNull();
+    expect(five.value as number).toBeGreaterThanOrEqual(componentDbu);
+  });
+
+  it('a noisy demo unit with no hum at all passes the demo hum step (it failed while the whole band bounded hum)', () => {
+    // The demo batch's noisy driver (ten times the design's noise voltage) with its hum removed.
+    // Its noise at the output is about 3e-4 V of 10 V full scale: −87.5 dBFS as a sine's level,
+    // −69.5 dBu on the demo's +18 dBu input, 10 dB over the −80 dBu limit across the band.
+    const parameters = { ...DEMO_UNIT_PARAMETERS, driverNoiseVolts: DEMO_UNIT_PARAMETERS.driverNoiseVolts * 10, humDbfs: -400 };
+    const bench = new HeadlessBench(48000, parameters, 5, { expectedFundamentalHz: null, harmonicCount: 10, mainsHz: 50, stimulusLocked: true, chainFloorThdDb: null });
+    bench.setStimulus(OFF, { expectedFundamentalHz: null, harmonicCount: 10, mainsHz: 50, stimulusLocked: true, chainFloorThdDb: null });
+    const taken = bench.settle(20)!;
+    expect(taken.reading.settled).toBe(true);
+    const demoLevels: StationLevels = { outputDbuAtFullScale: 18, inputDbuAtFullScale: 18 };
+    expect(taken.reading.noiseDbfs + 18).toBeGreaterThan(-80);
+    const result = expectMeasured(measureCheckStep(demoStep('hum'), { stimulus: OFF, levels: demoLevels, readings: [{ channel: 1, reading: taken.reading, inputDbuAtFullScale: 18 }] }));
+    expect(result.verdict).toBe('pass');
   });
 });
 
@@ -452,6 +550,29 @@ describe('two channels: balance and crosstalk from the same drive', () => {
     expect(result.measurements[0].value).toBeCloseTo(0, 9);
     // Only one input calibrated: the levels cannot be compared.
     expect(measureCheckStep(step, { stimulus, levels: null, readings: [{ channel: 1, reading: one, inputDbuAtFullScale: dbuOfVolts(2.0) }, { channel: 2, reading: two, inputDbuAtFullScale: null }] }).ok).toBe(false);
+  });
+});
+
+describe('generatorWanted: what the live readout and the step walk expect of the generator', () => {
+  it('off for the safety notice, noise and hum; on for the trim and the tone checks; no claim with no step or a step that cannot run', () => {
+    // docs/procedures.md: safety first (the notice is acknowledged before any tone), noise and hum
+    // are measured with the generator off; the demo file's trim and distortion steps play a tone.
+    const plan = runPlan(DEMO, { outputDbuAtFullScale: 18, inputDbuAtFullScale: 18 });
+    expect(plan.map((s) => [s.stepId, generatorWanted(s)])).toEqual([
+      ['safety', false],
+      ['lf-trim', true],
+      ['thd-14hz', true],
+      ['thd-20hz', true],
+      ['thd-50hz', true],
+      ['thd-1khz', true],
+      ['thd-10khz', true],
+      ['gain-1khz', true],
+      ['noise-a', false],
+      ['hum', false],
+    ]);
+    expect(generatorWanted(null)).toBeNull();
+    // Uncalibrated, a dBu step cannot run: nothing is claimed of the generator for it.
+    expect(generatorWanted(runPlan(DEMO, null).find((s) => s.stepId === 'thd-14hz')!)).toBeNull();
   });
 });
 

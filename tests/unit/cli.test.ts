@@ -568,4 +568,25 @@ describe('sheet of a run walked through its steps in main', () => {
     // The calibration the run used, by the voltmeter's and the loop's figures above.
     expect(sheet.calibration.levels).toBe(`0 dBFS = +${IN_FS.toFixed(1)} dBu in, +${OUT_FS.toFixed(1)} dBu out`);
   });
+
+  it('without --json, prints what the page shows besides the values: the invented-values label and the notes', () => {
+    const json = JSON.parse(run('sheet', '--data', data, '--run', String(runId), '--json').stdout);
+    const result = run('sheet', '--data', data, '--run', String(runId));
+    expect(result.stderr).toBe('');
+    expect(result.status).toBe(0);
+    const lines = result.stdout.split('\n');
+    // The demo file says "invented": the sheet says its values are invented, as the page does.
+    expect(json.procedure.inventedLabel).toMatch(/invented/);
+    expect(lines).toContain(json.procedure.inventedLabel);
+    // The gain step's note: the levels it was measured from, 4.3 dBu out for the 4 dBu played (above).
+    const gainNote = json.steps.find((s: { id: string }) => s.id === 'gain-1khz').measurements[0];
+    expect(gainNote.note).toBe('4.30 dBu out for 4.00 dBu in');
+    const gainLine = lines.find((l) => /^\s+Gain\s/.test(l))!;
+    expect(gainLine).toMatch(new RegExp(`\\[${gainNote.noteNumber}\\]$`));
+    expect(lines).toContain(`  [${gainNote.noteNumber}] 4.30 dBu out for 4.00 dBu in`);
+    // Every note of the sheet, each once, numbered as the page numbers them.
+    json.notes.forEach((note: string, i: number) => expect(lines.filter((l) => l === `  [${i + 1}] ${note}`)).toHaveLength(1));
+    // The trim's final reading, with the trimmer where it was left.
+    expect(lines.some((l) => l.startsWith('Trim: THD ') && l.includes(json.trim.finalReading))).toBe(true);
+  });
 });

@@ -6,7 +6,8 @@ import { FrameAnalyzer, type AnalyzerOptions } from '../../shared/measurement/fr
 import { createHarmonicAnalysis } from '../../shared/measurement/reading.ts';
 import { wrapDegrees } from '../../shared/levels.ts';
 import { gaussian, seededRandom } from '../support/random.ts';
-import { dbc, tone, type TonePartial } from '../support/signals.ts';
+import { dbc, enbwBinsOfCosineSum, levelAboveWhiteNoiseDbfs, tone, type TonePartial } from '../support/signals.ts';
+import { BLACKMAN_HARRIS_4, BLACKMAN_HARRIS_7, HANN } from '../../shared/dsp/windows.ts';
 
 function analyse(samples: Float64Array, rate: number, options: Partial<AnalyzerOptions> = {}, known: number | null = null) {
   return new FrameAnalyzer(samples.length, rate, options).analyze(samples, createHarmonicAnalysis(), known);
@@ -111,6 +112,48 @@ describe('fundamental and harmonics (expected values from the construction)', ()
     const random = gaussian(seededRandom(3));
     const signal = tone(32768, 48000, 1000, 0.5).map((x) => x + 1e-6 * random());
     expect(analyse(signal, 48000).hum).toBeNull();
+  });
+
+  it('says the level hum had to exceed: 10 dB above white noise in the window’s equivalent noise bandwidth (Harris 1978)', () => {
+    // The helper's closed form against Harris 1978, table 1 (from memory): Hann 1.50 bins, 4-term
+    // Blackman-Harris (−92 dB) 2.00 bins.
+    expect(enbwBinsOfCosineSum(HANN.coefficients)).toBeCloseTo(1.5, 12);
+    expect(enbwBinsOfCosineSum(BLACKMAN_HARRIS_4.coefficients)).toBeCloseTo(2.0, 2);
+    const rate = 48000;
+    const n = 16384;
+    const random = gaussian(seededRandom(41));
+    const samples = Float64Array.from({ length: n }, () => 1e-4 * random());
+    // The variance of the samples as constructed (not the nominal σ², a few tenths of a dB apart at most).
+    const variance = samples.reduce((sum, x) => sum + x * x, 0) / n;
+    const result = analyse(samples, rate, { mainsHz: 50 });
+    expect(result.hum).toBeNull();
+    // The meter's window is the 7-term Blackman-Harris of Albrecht 2001 (its published coefficients).
+    const expected = levelAboveWhiteNoiseDbfs(variance, n, enbwBinsOfCosineSum(BLACKMAN_HARRIS_7.coefficients), 10);
+    // Tolerance: the meter's noise is the mean of about 8000 bins (a few hundredths of a dB); 0.3 dB
+    // still catches a bin power taken for mean square (ENBW/2, 1.2 dB for this window).
+    console.info(`hum threshold ${result.humSearch!.thresholdDbfs.toFixed(3)} dBFS, expected ${expected.toFixed(3)} dBFS`);
+    expect(Math.abs(result.humSearch!.thresholdDbfs - expected)).toBeLessThan(0.3);
+    expect(result.humSearch!.mainsHz).toBe(50);
+    // The orders fitted are mains orders of the meter's range (1st to 8th), each once.
+    expect(result.humSearch!.orders.length).toBeGreaterThan(0);
+    expect(result.humSearch!.orders.every((o) => o >= 1 && o <= 8)).toBe(true);
+    expect(new Set(result.humSearch!.orders).size).toBe(result.humSearch!.orders.length);
+  });
+
+  it('a quiet frame whose strongest tone is weak hum off nominal mains still fits the other mains orders', () => {
+    // 50.5 Hz at −100 dBFS over −130 dBFS noise, no signal: the meter takes the tone for its
+    // fundamental. Its multiples (101, 151.5, … Hz) lie within a bin (2.93 Hz at 16 384 samples,
+    // 48 kHz) of mains orders 2–5, but a frame with no signal has no harmonics to read, so those
+    // orders must be fitted as hum, not left out unread.
+    const rate = 48000;
+    const n = 16384;
+    const random = gaussian(seededRandom(5));
+    const samples = tone(n, rate, 50.5, 10 ** (-100 / 20)).map((x) => x + 10 ** (-130 / 20) * random());
+    const result = analyse(samples, rate, { mainsHz: 50 });
+    expect(result.flags).toContain('no-signal');
+    expect(result.fundamental.frequencyHz).toBeCloseTo(50.5, 1);
+    expect(result.harmonics).toEqual([]);
+    expect(result.humSearch!.orders).toEqual([2, 3, 4, 5, 6, 7, 8]);
   });
 
   it('leaves out harmonics that reach Nyquist, and says which', () => {

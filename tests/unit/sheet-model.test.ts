@@ -9,6 +9,7 @@ import { runDetailSchema, type RunDetail, type StepResult } from '../../shared/i
 import { procedureFileSchema } from '../../shared/procedures/procedure-file.ts';
 import { judgeUnit } from '../../shared/procedures/unit-verdict.ts';
 import { buildSheetModel } from '../../shared/sheet/sheet-model.ts';
+import { asSentences } from '../../shared/format.ts';
 import { readingWithThd } from '../support/station.ts';
 
 const DEMO_FILE_TEXT = readFileSync(new URL('../../resources/procedures/mg20-lf-trim.json', import.meta.url), 'utf8');
@@ -144,6 +145,38 @@ describe('the sheet model', () => {
     expect(sheet.verdict).toMatchObject({ verdict: 'fail', text: 'FAIL', reasons: [`Step “hum” (Hum (invented limit)) failed: ${reason}`], discrepancy: null });
     // The running header of every PDF page carries the serial and the verdict.
     expect(sheet.documentTitle).toBe('MG20-2611-0042 · FAIL');
+  });
+
+  it('numbers the measurements’ notes as footnotes: in step order, a note given twice numbered once (common practice for footnotes)', () => {
+    const results = allPassing();
+    const mains = '50.00 Hz mains; the power sum of the fundamental';
+    const stored = results.map((r) =>
+      r.stepId === 'noise-a' ? { ...r, measurements: [m('noiseDbu', -91.3, 'dBu', null, -85, 'pass', mains)] } : r.stepId === 'hum' ? { ...r, measurements: [m('humDbu', -88.0, 'dBu', null, -80, 'pass', mains)] } : r,
+    );
+    const sheet = buildSheetModel(detail({ stepResults: stored, verdict: 'pass' }));
+    // The gain step's note comes first in the file's order, then the one note noise and hum share.
+    expect(sheet.notes).toEqual(['+4.12 dBu out for +4.00 dBu in', mains]);
+    const measured = (id: string) => sheet.steps.find((s) => s.id === id)!.measurements[0];
+    expect([measured('gain-1khz').noteNumber, measured('noise-a').noteNumber, measured('hum').noteNumber]).toEqual([1, 2, 2]);
+    expect(measured('thd-50hz').noteNumber).toBeNull();
+  });
+
+  it('runs a step’s reasons together as sentences: each ends with its full stop (common practice in English prose)', () => {
+    // The trim's reasons as judgeTrimRun words them when one point locates no null: the first ends
+    // on the fit's own message, which has no full stop of its own.
+    const reasons = [
+      'The null was not located: the trim fit needs at least two points; there is one',
+      'The final point (1, at 3.00 turns) was recorded before its reading settled.',
+      'A warning stands at the final point: level wandering by 0.4 dB',
+    ];
+    expect(asSentences(reasons)).toBe(
+      'The null was not located: the trim fit needs at least two points; there is one. The final point (1, at 3.00 turns) was recorded before its reading settled. A warning stands at the final point: level wandering by 0.4 dB.',
+    );
+    // A sentence ending in a quotation or a question keeps its own mark.
+    expect(asSentences(['It said “check the cable.”', 'Is the unit on?'])).toBe('It said “check the cable.” Is the unit on?');
+    // The unit's verdict names the failed trim with its reasons, as sentences.
+    const judged = judgeUnit(DEMO_FILE, [result('safety', 'pass'), result('lf-trim', 'fail', [m('thdDb', -57.2, 'dB', null, -60, 'fail')], reasons)]);
+    expect(judged.reasons[0]).toMatch(/there is one\. The final point .* settled\. A warning stands .* 0\.4 dB\.$/);
   });
 
   it('says so when the stored verdict and the stored steps disagree, keeping the stored one', () => {

@@ -32,6 +32,7 @@ function reading(position: number, extra: { lf?: number; thdDb?: number; frequen
     noiseDbfs: -110,
     noiseAWeightedDbfs: -112,
     hum: null,
+    humSearch: null,
     bandHz: { lowHz: 20, highHz: 20000 },
     mainsCoincidentOrders: [],
     flags: extra.flags ?? [],
