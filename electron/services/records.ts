@@ -648,14 +648,6 @@ export function createRecords(
   }
 
   /**
-   * Reads a run whole or not at all: a record in it that fails its checks makes the run unreadable,
-   * said in words with the serial, while every other run still opens. The detail goes to the log.
-   */
-  /**
-   * Why a run that needs a calibrated station no longer has one: the calibration it was started under
-   * expired since. Null when it holds, or when the run's procedure needs none.
-   */
-  /**
    * Why the run's calibration no longer holds for what is being recorded, or null: it expired (for a
    * procedure that requires one), or the audio setup in use is not the one it was made with. A
    * step judged in dBu needs the setup (`setupNeeded`): without it main cannot tell.
@@ -678,6 +670,10 @@ export function createRecords(
     return runDetail(latest.id);
   }
 
+  /**
+   * Reads a run whole or not at all: a record in it that fails its checks makes the run unreadable,
+   * said in words with the serial, while every other run still opens. The detail goes to the log.
+   */
   function runDetail(runId: number): RunDetail {
     let row: RunRow | undefined;
     try {
@@ -700,12 +696,22 @@ export function createRecords(
    * Each row is sealed, but a damaged index can hide whole rows and leave every one read intact: a
    * run missing its latest point or the assessment after it would read as an older, whole-looking
    * run. Points are numbered 1, 2, 3… and, since assessments were kept, each is stored with the
-   * assessment made after it, so a gap in either is a missing record.
+   * assessment made after it, so a gap in either is a missing record. The last point and its
+   * assessment can be hidden together; a finished run's own row (sealed) holds the THD of its final
+   * point, so there the last point read must be that one.
    */
-  function checkComplete(runId: number, points: readonly TrimPoint[], assessments: readonly { afterSequence: number }[]): void {
+  function checkComplete(row: RunRow, points: readonly TrimPoint[], assessments: readonly { afterSequence: number }[]): void {
+    const runId = row.id;
     points.forEach((point, i) => {
       if (point.sequence !== i + 1) throw new UnreadableRecord(`trim point ${i + 1} of run ${runId}`, `points read: ${points.map((p) => p.sequence).join(', ')}`);
     });
+    if (row.finished_at !== null && row.final_thd_db !== null) {
+      const last = points.at(-1);
+      const lastThdDb = last ? thdDbFromHarmonics(last.reading.harmonics) : null;
+      if (lastThdDb === null || !(Math.abs(lastThdDb - row.final_thd_db) < 1e-6)) {
+        throw new UnreadableRecord(`final trim point of run ${runId}`, `the run's final THD is ${row.final_thd_db} dB; the last point read (${points.length}) has ${lastThdDb} dB`);
+      }
+    }
     const latestAssessed = assessments.reduce((latest, a) => Math.max(latest, a.afterSequence), 0);
     if (assessments.length > 0 && points.length > 0 && latestAssessed < points.length) {
       throw new UnreadableRecord(`assessment after trim point ${points.length} of run ${runId}`, `latest assessment read is after point ${latestAssessed}`);
@@ -720,7 +726,7 @@ export function createRecords(
     const warm = statements.latestWarmCheck.get(runId);
     if (warm) checkSealed('warm_checks', warm, `warm re-check of run ${runId}`);
     const points = trimPoints(runId);
-    checkComplete(runId, points, assessments);
+    checkComplete(row, points, assessments);
     return {
       run: toRun(row),
       trimPoints: points,

@@ -10,6 +10,7 @@
 
 import { copyFileSync, cpSync, readdirSync, readFileSync, truncateSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
+import Database from 'better-sqlite3';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { dispatch } from '../../electron/services/handlers.ts';
 import { DATABASE_FILE, openStation } from '../../electron/services/station.ts';
@@ -147,6 +148,41 @@ describe('a damaged database', () => {
     expect(outcomes.refusedAtStart).toBeGreaterThan(0);
     expect(outcomes.runsReadWhole).toBeGreaterThan(0);
   }, 120_000);
+
+  it('reads a run whose rows are hidden (as a damaged index hides them) as unreadable, never as an older whole-looking run', () => {
+    // Every row left is intact, so no check of a row can see what is missing; only the run as a
+    // whole can. Rows are deleted here with the never-delete triggers dropped, as an index pointing
+    // past them would leave them unread.
+    const cases: { name: string; hide: string[] }[] = [
+      { name: 'a middle point', hide: ['DELETE FROM trim_points WHERE run_id = @run AND sequence = 2'] },
+      {
+        name: 'the last point and the assessment made after it',
+        hide: [
+          'DELETE FROM trim_assessments WHERE run_id = @run AND id = (SELECT MAX(id) FROM trim_assessments WHERE run_id = @run)',
+          'DELETE FROM trim_points WHERE run_id = @run AND sequence = 4',
+        ],
+      },
+    ];
+    const finishedRun = [...serials.keys()].find((id) => JSON.parse(written.get(id)!).run.finishedAt !== null)!;
+    for (const { name, hide } of cases) {
+      const dir = tempDir('trimbench-hidden-');
+      try {
+        cpSync(original.path, dir.path, { recursive: true });
+        const db = new Database(join(dir.path, DATABASE_FILE));
+        for (const trigger of ['trim_points_never_deleted', 'assessments_never_deleted']) db.exec(`DROP TRIGGER ${trigger}`);
+        for (const statement of hide) db.prepare(statement).run({ run: finishedRun });
+        db.close();
+        const station = openStation({ dataDir: dir.path, stationName: 'test-bench-1', log: { record: () => '' } });
+        try {
+          expect(() => station.records.getRun(finishedRun), name).toThrow(new RegExp(`Run ${finishedRun} \\(serial .*\\) cannot be read`));
+        } finally {
+          station.close();
+        }
+      } finally {
+        dir.remove();
+      }
+    }
+  });
 
   it('names the last backup in the message when the file is found damaged', async () => {
     const dir = tempDir('trimbench-damaged-');
