@@ -70,7 +70,7 @@ export interface CalibrationRequest {
   output: { referenceHz: number; referenceDbfs: number; meterEntry: string };
   input: { method: 'loopback'; generatorDbfs: number; capturedDbfs: number; capturedHz: number } | { method: 'stated'; statedEntry: string };
   /** The same loopback read on the setup's second input; null when the setup reads one channel. */
-  secondInput?: LoopbackObservation | null;
+  secondInput?: (LoopbackObservation & { channel: number }) | null;
 }
 
 interface LoopbackObservation {
@@ -184,8 +184,16 @@ export function createCalibrations(
       if (second === null && secondChannel !== null) {
         refuse(`the setup reads the unit's channel 2 on input ${secondChannel + 1}, and that input was not measured: loop the output to it and read the reference there too.`);
       }
+      if (second !== null && second.channel !== secondChannel) {
+        refuse(`the second input was read on input ${second.channel + 1}, but the setup reads the unit's channel 2 on input ${(secondChannel ?? 0) + 1}: read it again on that input.`);
+      }
+      // Both inputs' figures must come from the same reference (the calibrated output) for their
+      // difference to be the interface's, not a data sheet's error against a measurement.
+      if (second !== null && input.method !== 'loopback') refuse('the second input is found by loopback, so the first must be too: choose the loopback for the input level.');
       const secondInput =
-        second !== null && secondChannel !== null ? { channel: secondChannel, dbuAtFullScale: loopbackInput(second, `input ${secondChannel + 1}`), ...second } : null;
+        second !== null && secondChannel !== null
+          ? { channel: secondChannel, dbuAtFullScale: loopbackInput(second, `input ${secondChannel + 1}`), generatorDbfs: second.generatorDbfs, capturedDbfs: second.capturedDbfs, capturedHz: second.capturedHz }
+          : null;
       const id = insertSealed('calibrations', {
         made_at: now().toISOString(),
         operator: request.operator,

@@ -23,7 +23,7 @@ import type { StationSettings } from '../../shared/calibration/station-settings.
 import { asSentences } from '../../shared/format.ts';
 import { procedureSchema, type Procedure } from '../../shared/procedures/procedure.ts';
 import { checkProcedureFile, procedureFileSchema, upgradeProcedure, type ProcedureFile, type ProcedureStep } from '../../shared/procedures/procedure-file.ts';
-import { isCheckStep, measureCheckStep, measurement, type Measurement, type StationLevels } from '../../shared/procedures/check-steps.ts';
+import { isCheckStep, measureCheckStep, measurement, runLevels, type Measurement } from '../../shared/procedures/check-steps.ts';
 import { judgeUnit, laterStepResult } from '../../shared/procedures/unit-verdict.ts';
 import { quantityLabel } from '../../shared/procedures/step-text.ts';
 import { trimView } from '../../shared/procedures/trim-view.ts';
@@ -650,7 +650,7 @@ export function createRecords(
   /**
    * Why the run's calibration no longer holds for what is being recorded, or null: it expired (for a
    * procedure that requires one), or the audio setup in use is not the one it was made with. A
-   * step judged in dBu needs the setup (`setupNeeded`): without it main cannot tell.
+   * reading needs the setup (`setupNeeded`): without it main cannot tell.
    */
   function calibrationNotHolding(row: RunRow, setup: AudioSetup | null | undefined, setupNeeded: boolean): string | null {
     if (runProcedure(row).requiresCalibration && row.calibration_expires_at !== null && now().getTime() >= Date.parse(row.calibration_expires_at)) {
@@ -1011,7 +1011,7 @@ export function createRecords(
           `Trimmer position ${position} is outside ${trim.positionMin}–${trim.positionMax} ${trim.positionUnit}.`,
         );
       }
-      const lapsed = calibrationNotHolding(row, request.setup, false);
+      const lapsed = calibrationNotHolding(row, request.setup, true);
       if (lapsed) throw new ExpectedFailure(`This point was not recorded. ${lapsed} Otherwise finish the run as FAIL, calibrate the station, then retest the unit.`);
       const refusal = whyNotRecordable(reading, stimulus, trim, request.unsettled ?? 'refuse');
       if (refusal) throw new ExpectedFailure(`This reading cannot be recorded. ${refusal}`);
@@ -1210,9 +1210,7 @@ export function createRecords(
         if (!isCheckStep(step)) throw new ExpectedFailure(`Step “${step.id}” is not a check step.`);
         const used = calibrationUsed(row);
         const setup = request.setup ?? null;
-        const levels: StationLevels | null = used
-          ? { outputDbuAtFullScale: used.outputDbuAtFullScale, inputDbuAtFullScale: used.inputDbuAtFullScale, secondInputDbuAtFullScale: inputDbuAtFullScaleFor(2, used, setup) }
-          : null;
+        const levels = runLevels(used, setup);
         // Each of the unit's channels is read through its own capture input, with that input's figure
         // from the run's calibration (none for an input it did not measure: a two-channel step is then refused).
         const readings = request.readings.map(({ channel, reading }) => ({ channel, reading, inputDbuAtFullScale: inputDbuAtFullScaleFor(channel, used, setup) }));

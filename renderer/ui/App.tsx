@@ -1,7 +1,7 @@
 import { useCallback, useEffect, useMemo, useRef, useState } from 'react';
 import { checkStimulus } from '../../shared/records/stimulus-check.ts';
 import { generatorWanted, runPlan } from '../../shared/procedures/run-plan.ts';
-import { noiseBandFor } from '../../shared/procedures/check-steps.ts';
+import { noiseBandFor, runLevels } from '../../shared/procedures/check-steps.ts';
 import type { StationSettings } from '../../shared/calibration/station-settings.ts';
 import type { BenchAudio } from '../audio/bench-audio.ts';
 import type { MeterSettings } from '../worker/messages.ts';
@@ -66,7 +66,9 @@ export function App() {
   const run = useRun(setup);
   const detail = run.detail;
   const walk = useWalk(detail);
-  const plan = useMemo(() => (detail ? runPlan(detail.procedureFile, calibration.levels) : null), [detail?.procedureFile, calibration.levels]); // eslint-disable-line react-hooks/exhaustive-deps
+  // The open run is planned and previewed with the calibration it was started under, as main judges it.
+  const levelsOfRun = useMemo(() => (detail ? runLevels(detail.calibration, setup) : null), [detail?.calibration, setup?.secondInputChannel]); // eslint-disable-line react-hooks/exhaustive-deps
+  const plan = useMemo(() => (detail ? runPlan(detail.procedureFile, levelsOfRun) : null), [detail?.procedureFile, levelsOfRun]); // eslint-disable-line react-hooks/exhaustive-deps
   const planned = plan?.find((p) => p.stepId === walk.current) ?? null;
   const stimulusNote = useStepStimulus({
     runId: detail?.run.id ?? null,
@@ -263,7 +265,7 @@ export function App() {
                 generatorAvailable={audio !== null}
                 onToggleGenerator={generator.toggle}
                 stimulusNote={stimulusNote}
-                levels={calibration.levels}
+                levels={levelsOfRun}
                 inputCalibration={calibration.inputCalibration}
                 outputCalibration={calibration.outputCalibration}
                 positionInputRef={positionInputRef}

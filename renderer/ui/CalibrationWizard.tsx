@@ -115,7 +115,18 @@ export function CalibrationWizard({
   const outputDbu = outputResult?.ok ? outputResult.dbuAtFullScale : null;
   const demo = setup?.inputDeviceId === DEMO_INPUT;
   const secondChannel = setup?.secondInputChannel ?? null;
-  const steps = secondChannel === null ? STEPS.filter((s) => s.step !== 'second-input') : STEPS;
+  // The list stays whole while on the second input's step, even if capture stops under it.
+  const steps = secondChannel === null && step !== 'second-input' ? STEPS.filter((s) => s.step !== 'second-input') : STEPS;
+  // A second input is found by loopback only, and then so is the first (both from the same reference).
+  const inputMethod = secondChannel === null ? method : 'loopback';
+
+  // What was captured belongs to the setup it was captured on: a change of device, channel or rate
+  // (or capture stopping) discards it, so no figure is ever stored under another input's name.
+  const setupKey = setup ? [setup.inputDeviceId, setup.inputChannel, setup.secondInputChannel ?? '', setup.outputDeviceId, setup.sampleRateHz].join('|') : '';
+  useEffect(() => {
+    setCaptured(null);
+    setSecondCaptured(null);
+  }, [setupKey]);
 
   // The tone stops whenever the wizard ends or is left (another view, another station panel).
   const muteRef = useRef(mute);
@@ -157,14 +168,14 @@ export function CalibrationWizard({
   useEffect(() => {
     if (!generatorOn || !loopbackReady || !loopbackReading) return;
     const taken = { capturedDbfs: loopbackReading.fundamental.levelDbfs, capturedHz: loopbackReading.measuredFundamentalHz };
-    if (step === 'input' && method === 'loopback' && !captured) setCaptured(taken);
+    if (step === 'input' && inputMethod === 'loopback' && !captured) setCaptured(taken);
     else if (step === 'second-input' && !secondCaptured) setSecondCaptured(taken);
     else return;
     mute();
-  }, [step, method, captured, secondCaptured, generatorOn, loopbackReady, loopbackReading, mute]);
+  }, [step, inputMethod, captured, secondCaptured, generatorOn, loopbackReady, loopbackReading, mute]);
 
   const inputResult: CalibrationResult | null =
-    method === 'loopback'
+    inputMethod === 'loopback'
       ? captured && outputDbu !== null && referenceDbfs !== null
         ? inputCalibrationFromLoopback({ outputDbuAtFullScale: outputDbu, generatorDbfs: referenceDbfs, capturedDbfs: captured.capturedDbfs })
         : null
@@ -191,8 +202,8 @@ export function CalibrationWizard({
         operator: operator.trim(),
         setup,
         output: { referenceHz: REFERENCE_HZ, referenceDbfs, meterEntry: meterText.trim() },
-        input: method === 'loopback' && captured ? { method: 'loopback', generatorDbfs: referenceDbfs, ...captured } : { method: 'stated', statedEntry: statedText.trim() },
-        secondInput: secondChannel !== null && secondCaptured ? { generatorDbfs: referenceDbfs, ...secondCaptured } : null,
+        input: inputMethod === 'loopback' && captured ? { method: 'loopback', generatorDbfs: referenceDbfs, ...captured } : { method: 'stated', statedEntry: statedText.trim() },
+        secondInput: secondChannel !== null && secondCaptured ? { channel: secondChannel, generatorDbfs: referenceDbfs, ...secondCaptured } : null,
       });
       localStorage.setItem('trimbench.operator', operator.trim());
       setRecorded(next);
@@ -208,7 +219,7 @@ export function CalibrationWizard({
   }
 
   const stepIndex = steps.findIndex((s) => s.step === step);
-  const title = step === 'done' ? 'Calibration recorded' : steps[stepIndex].title;
+  const title = step === 'done' ? 'Calibration recorded' : (steps[stepIndex]?.title ?? '');
   const afterInput: Step = secondChannel === null ? 'save' : 'second-input';
 
   return (
@@ -327,15 +338,18 @@ export function CalibrationWizard({
           <fieldset className="choice">
             <legend>How to find the input's level</legend>
             <label className="check">
-              <input type="radio" name="input-method" checked={method === 'loopback'} onChange={() => setMethod('loopback')} data-testid="method-loopback" />
+              <input type="radio" name="input-method" checked={inputMethod === 'loopback'} onChange={() => setMethod('loopback')} data-testid="method-loopback" />
               Loopback: the output, just calibrated, looped to the input by a cable
             </label>
             <label className="check">
-              <input type="radio" name="input-method" checked={method === 'stated'} onChange={() => setMethod('stated')} data-testid="method-stated" />
+              <input type="radio" name="input-method" checked={inputMethod === 'stated'} onChange={() => setMethod('stated')} disabled={secondChannel !== null} data-testid="method-stated" />
               Fixed input: the interface's stated level for 0 dBFS
             </label>
+            {secondChannel !== null && (
+              <p className="hint">A second input is in use: both inputs are found by loopback, from the same reference, so their difference is the interface's own.</p>
+            )}
           </fieldset>
-          {method === 'loopback' ? (
+          {inputMethod === 'loopback' ? (
             <>
               <LoopbackRead
                 connect={`Connect the output to input channel ${setup ? setup.inputChannel + 1 : '—'}, with no unit in between`}
@@ -370,6 +384,16 @@ export function CalibrationWizard({
         </>
       )}
 
+      {step === 'second-input' && secondChannel === null && (
+        <>
+          <p className="problem" role="alert" data-testid="second-input-missing">
+            No second input is in use now (capture stopped, or the unit's channel 2 input was set to none). Start capture with that input chosen, or go back.
+          </p>
+          <button type="button" onClick={() => goTo('input')}>
+            Back
+          </button>
+        </>
+      )}
       {step === 'second-input' && secondChannel !== null && (
         <>
           <p className="hint">
@@ -415,7 +439,7 @@ export function CalibrationWizard({
             <dt>Output</dt>
             <dd>{outputDbu !== null ? `${dbu(outputDbu)} at 0 dBFS (meter ${meterText.trim()} at ${signedFixed(referenceDbfs ?? 0, 1)} dBFS)` : '—'}</dd>
             <dt>Input</dt>
-            <dd>{inputResult?.ok ? `${dbu(inputResult.dbuAtFullScale)} at 0 dBFS (${method === 'loopback' ? 'loopback' : `stated ${statedText.trim()}`})` : '—'}</dd>
+            <dd>{inputResult?.ok ? `${dbu(inputResult.dbuAtFullScale)} at 0 dBFS (${inputMethod === 'loopback' ? 'loopback' : `stated ${statedText.trim()}`})` : '—'}</dd>
             {secondChannel !== null && (
               <>
                 <dt>Input {secondChannel + 1} (unit channel 2)</dt>

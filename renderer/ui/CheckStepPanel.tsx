@@ -134,7 +134,9 @@ export function CheckStepPanel({
       return setMessage(
         missing.channel === 1 || channels.length === 1
           ? 'There is no reading yet: start capture and wait for it.'
-          : `There is no reading of the unit's channel ${missing.channel} yet: choose its input under Audio interface (“channel 2”), connect it, and start capture.`,
+          : levels?.secondInputDbuAtFullScale == null
+            ? `There is no reading of the unit's channel ${missing.channel}: choose its input under Audio interface (“channel 2”) and start capture.`
+            : `No reading arrives for the unit's channel ${missing.channel}: the interface does not deliver that input on this capture path (it may read one channel only). Check the interface's channel count and the input chosen, then start capture again.`,
       );
     }
     if (stale) return setMessage('No new reading for a while: the capture has stopped delivering. Check the interface, then start capture again.');

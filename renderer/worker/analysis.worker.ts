@@ -16,6 +16,8 @@ let settings: MeterSettings = { channel: 0, secondChannel: null, expectedFundame
 let session: MeterSession | null = null;
 /** The meter of a two-channel unit's channel 2, on the same settings; only on a captured stream. */
 let secondSession: MeterSession | null = null;
+/** The last captured block did not carry the second input (the next that does starts after a break). */
+let secondMissing = false;
 let spectrumRateHz = 0;
 let block = new Float32Array(4096);
 let secondBlock = new Float32Array(4096);
@@ -61,20 +63,24 @@ function analyse(samples: Float32Array, length: number, sampleRateHz: number, ch
   }
 }
 
-/** Channel 2's samples, when a second input is read: its own meter, the same breaks as channel 1. */
-function analyseSecond(samples: Float32Array, length: number, sampleRateHz: number, gap: boolean): void {
-  if (settings.secondChannel === null) return;
+/**
+ * Channel 2's samples, when a second input is read: its own meter, the same breaks as channel 1.
+ * A block that does not carry that channel is skipped, not read as silence (silence would pass a
+ * crosstalk check on a channel never connected), and the next one that does starts after a break.
+ */
+function analyseSecond(audio: AudioDataLike, frames: number, gap: boolean): void {
+  const channel = settings.secondChannel;
+  if (channel === null) return;
+  if (channel >= audio.numberOfChannels) {
+    secondMissing = true;
+    return;
+  }
   secondSession ??= new MeterSession(settings, { sampleGuard: true });
-  if (gap) secondSession.captureGap(sampleRateHz);
-  const live = secondSession.push(samples, length, sampleRateHz);
+  audio.copyTo(secondBlock, { planeIndex: channel, format: 'f32-planar' });
+  if (gap || secondMissing) secondSession.captureGap(audio.sampleRate);
+  secondMissing = false;
+  const live = secondSession.push(secondBlock, frames, audio.sampleRate);
   if (live) post({ type: 'second-reading', reading: live.reading });
-}
-
-/** Copies one plane of a captured block; a channel the device does not (yet) deliver is silence. */
-function copyPlane(audio: AudioDataLike, channel: number, into: Float32Array): void {
-  // The fake and some real devices start as mono for a few blocks.
-  if (channel < audio.numberOfChannels) audio.copyTo(into, { planeIndex: channel, format: 'f32-planar' });
-  else into.fill(0, 0, audio.numberOfFrames);
 }
 
 async function readTrack(readable: ReadableStream<AudioDataLike>): Promise<void> {
@@ -91,14 +97,14 @@ async function readTrack(readable: ReadableStream<AudioDataLike>): Promise<void>
           block = new Float32Array(frames);
           secondBlock = new Float32Array(frames);
         }
-        copyPlane(audio, settings.channel, block);
+        // The fake and some real devices start as mono for a few blocks: the unit's channel 1 is
+        // silence until its plane arrives (the readout then says there is no signal).
+        if (settings.channel < audio.numberOfChannels) audio.copyTo(block, { planeIndex: settings.channel, format: 'f32-planar' });
+        else block.fill(0, 0, frames);
         const gap = continuity.isGap(audio.timestamp, frames, audio.sampleRate);
         if (gap) sessionFor(audio.sampleRate).captureGap(audio.sampleRate);
         analyse(block, frames, audio.sampleRate, audio.numberOfChannels);
-        if (settings.secondChannel !== null) {
-          copyPlane(audio, settings.secondChannel, secondBlock);
-          analyseSecond(secondBlock, frames, audio.sampleRate, gap);
-        }
+        analyseSecond(audio, frames, gap);
       } finally {
         audio.close();
       }

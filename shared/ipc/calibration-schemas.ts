@@ -105,7 +105,7 @@ export const calibrationRequestSchema = z
       z.object({ method: z.literal('stated'), statedEntry: z.string().trim().min(1).max(64) }).strict(),
     ]),
     /** The loopback read on the input that carries a two-channel unit's channel 2 (the setup's second input). */
-    secondInput: z.object({ generatorDbfs: dbfs, capturedDbfs: dbfs, capturedHz: hz }).strict().nullable().default(null),
+    secondInput: z.object({ channel: z.number().int().min(0).max(63), generatorDbfs: dbfs, capturedDbfs: dbfs, capturedHz: hz }).strict().nullable().default(null),
   })
   .strict();
 

@@ -12,6 +12,7 @@ import { whyReadingInconsistent, thdDbFromHarmonics } from '../records/reading-c
 import { whyNotRecordable } from '../records/stimulus-check.ts';
 import type { Verdict } from '../records/verdict.ts';
 import type { CheckStep, Limit, ProcedureStep } from './procedure-file.ts';
+import { inputDbuAtFullScaleFor, type AudioSetup, type CalibrationUsed } from '../calibration/station-calibration.ts';
 
 // One verdict type for the trim and the checks, so a step result is judged alike wherever it comes from.
 export type { Verdict };
@@ -26,6 +27,16 @@ export interface StationLevels {
   inputDbuAtFullScale: number;
   /** The input that reads a two-channel unit's channel 2, when the calibration measured it and the setup still uses it. */
   secondInputDbuAtFullScale?: number | null;
+}
+
+/**
+ * The levels a run's check steps are judged with: those of the calibration the run was started
+ * under (never a newer one), channel 2's input figure only while the setup still reads it there.
+ * Main judges with these; the page plans and previews with the same.
+ */
+export function runLevels(used: Pick<CalibrationUsed, 'inputDbuAtFullScale' | 'outputDbuAtFullScale' | 'secondInput'> | null, setup: Pick<AudioSetup, 'secondInputChannel'> | null): StationLevels | null {
+  if (!used) return null;
+  return { outputDbuAtFullScale: used.outputDbuAtFullScale, inputDbuAtFullScale: used.inputDbuAtFullScale, secondInputDbuAtFullScale: inputDbuAtFullScaleFor(2, used, setup) };
 }
 
 /**
@@ -200,7 +211,7 @@ export function whyStepCannotRun(step: CheckStep, levels: StationLevels | null):
 function whyChannelsNotComparable(step: Extract<CheckStep, { kind: 'balance' | 'crosstalk' }>, first: number | null, second: number | null): string | null {
   if (first !== null && second !== null) return null;
   const uncalibrated = [first === null ? step.channels[0] : null, second === null ? step.channels[1] : null].filter((c) => c !== null);
-  return `Step “${step.id}” compares channels ${step.channels[0]} and ${step.channels[1]}, and the capture input of channel ${uncalibrated.join(' and ')} has no level calibration, so the two inputs' gains may differ: in Station settings, choose the input for the unit's channel 2 and calibrate the station with the loopback read on both inputs.`;
+  return `Step “${step.id}” compares channels ${step.channels[0]} and ${step.channels[1]}, and the capture input of channel ${uncalibrated.join(' and ')} has no level calibration, so the two inputs' gains may differ: choose the input for the unit's channel 2 under Audio interface, calibrate the station with the loopback read on both inputs (Station settings), then start a retest of the unit (a run keeps the calibration it was started under).`;
 }
 
 // ---- may the reading be judged ---------------------------------------------------------------
@@ -323,6 +334,11 @@ export function measureCheckStep(step: CheckStep, input: CheckInput): CheckOutco
   if (step.kind === 'balance' || step.kind === 'crosstalk') {
     const incomparable = whyChannelsNotComparable(step, first.inputDbuAtFullScale, second.inputDbuAtFullScale);
     if (incomparable) return { ok: false, refusal: incomparable };
+    // Two meters on two inputs never agree to the last digit (each has its own noise): the same
+    // reading twice is one channel sent for both, which would make any balance 0 dB.
+    if (JSON.stringify(first.reading) === JSON.stringify(second.reading)) {
+      return { ok: false, refusal: `Step “${step.id}”: channels ${first.channel} and ${second.channel} came with the same reading, so one input was read for both. Check the inputs chosen for the unit's channels.` };
+    }
   }
 
   const request = generator.request;
@@ -363,6 +379,11 @@ export function measureCheckStep(step: CheckStep, input: CheckInput): CheckOutco
       if (inconsistent) return { ok: false, refusal: `Channel ${second.channel}: ${inconsistent}` };
       if (!other.settled) return { ok: false, refusal: `Channel ${second.channel}: the reading has not settled: wait for it.` };
       if (other.flags.includes('clipping')) return { ok: false, refusal: `Channel ${second.channel}: the input is clipping: it is not the undriven channel, or it oscillates.` };
+      // Digital silence is no unit's output (a unit, even a quiet one, has noise): nothing reaches
+      // that input, so a crosstalk figure from it would pass a channel that was never connected.
+      if (other.fundamental.levelDbfs <= FLOOR_DB || other.noiseDbfs <= FLOOR_DB) {
+        return { ok: false, refusal: `Channel ${second.channel}: its input reads digital silence, so nothing from the unit reaches it. Check the input chosen for that channel and its cable.` };
+      }
       const offPercent = (100 * Math.abs(other.fundamental.frequencyHz - input.stimulus.frequencyHz)) / input.stimulus.frequencyHz;
       if (!(offPercent <= CHECK_FREQUENCY_TOLERANCE_PERCENT)) {
         return { ok: false, refusal: `Channel ${second.channel}: its level was read at ${hz(other.fundamental.frequencyHz)}, not at the generator's ${hz(input.stimulus.frequencyHz)}: give the meter the generator's frequency.` };

@@ -368,6 +368,8 @@ function wholeFileProblems(file: Record<string, unknown>): ProcedureProblem[] {
   const firstSeen = new Map<string, number>();
   let trimAt: number | null = null;
   let needsCalibration: string | null = null;
+  /** The channel pairs a balance step has measured so far, as "low-high". */
+  const balanced = new Set<string>();
   steps.forEach((step, index) => {
     const path = `steps[${index}]`;
     const id = at(step, 'id');
@@ -392,6 +394,20 @@ function wholeFileProblems(file: Record<string, unknown>): ProcedureProblem[] {
             if (typeof n === 'number' && n > channels) problems.push({ path: `${path}.channels[${k}]`, message: `channel ${n} does not exist; model.channels is ${channels}` });
           });
         }
+      }
+    }
+    const pairKey = (pair: unknown) => (Array.isArray(pair) && pair.length === 2 ? [...pair].sort().join('-') : null);
+    if (kind === 'balance') {
+      const key = pairKey(at(step, 'channels'));
+      if (key) balanced.add(key);
+    }
+    if (kind === 'crosstalk') {
+      const key = pairKey(at(step, 'channels'));
+      if (key && !balanced.has(key)) {
+        problems.push({
+          path: `${path}.kind`,
+          message: 'a "crosstalk" step must come after a "balance" step of the same two channels: the balance shows that the undriven channel\'s output reaches its input, so a quiet reading there is the unit\'s crosstalk and not a loose cable',
+        });
       }
     }
     // dBu is a level at the unit's terminals: only a calibrated station can set or read it.

@@ -519,11 +519,27 @@ describe('two channels: balance and crosstalk from the same drive', () => {
   it('crosstalk is the undriven channel level relative to the driven one: 1 mV beside 1 V is −60 dB', () => {
     const step: CheckStep = { ...base, id: 'xtalk', kind: 'crosstalk', limits: { crosstalkDb: { high: -50, unit: 'dB' } } };
     const driven = handReading(1000, 20 * Math.log10(1.0));
-    const quiet = handReading(1000, 20 * Math.log10(0.001), { measuredFundamentalHz: 50 });
+    const quiet = handReading(1000, 20 * Math.log10(0.001), { measuredFundamentalHz: 50, noiseDbfs: -110 });
     // Both inputs read full scale at +18 dBu (an invented interface); −60 dB is 20·log10(0.001/1) (the decibel's definition).
     const result = expectMeasured(measureCheckStep(step, { stimulus, levels: null, readings: [{ channel: 1, reading: driven, inputDbuAtFullScale: 18 }, { channel: 2, reading: quiet, inputDbuAtFullScale: 18 }] }));
     expect(result.measurements[0].value).toBeCloseTo(-60, 9);
     expect(result.verdict).toBe('pass');
+  });
+
+  it('refuses a crosstalk read on digital silence (nothing reaches that input) and one reading sent for both channels', () => {
+    // A unit's output always carries its own noise; exact digital silence means no cable or a
+    // channel the interface does not deliver (common practice). −300 dB is the meter's floor.
+    const step: CheckStep = { ...base, id: 'xtalk', kind: 'crosstalk', limits: { crosstalkDb: { high: -50, unit: 'dB' } } };
+    const driven = handReading(1000, -12);
+    const silent = handReading(1000, -300, { noiseDbfs: -300, noiseAWeightedDbfs: -300 });
+    const silence = measureCheckStep(step, { stimulus, levels: null, readings: [{ channel: 1, reading: driven, inputDbuAtFullScale: 18 }, { channel: 2, reading: silent, inputDbuAtFullScale: 18 }] });
+    expect(silence.ok).toBe(false);
+    if (!silence.ok) expect(silence.refusal).toMatch(/Channel 2: its input reads digital silence/);
+    // The same reading for both: a balance of exactly 0 dB that nothing measured.
+    const balance: CheckStep = { ...base, id: 'bal', kind: 'balance', limits: { balanceDb: { low: -0.5, high: 0.5, unit: 'dB' } } };
+    const twice = measureCheckStep(balance, { stimulus, levels: null, readings: [{ channel: 1, reading: driven, inputDbuAtFullScale: 18 }, { channel: 2, reading: { ...driven }, inputDbuAtFullScale: 18 }] });
+    expect(twice.ok).toBe(false);
+    if (!twice.ok) expect(twice.refusal).toMatch(/came with the same reading/);
   });
 
   it('two inputs without their own calibration are refused, never compared in dBFS as if their gains matched (common practice)', () => {

@@ -529,9 +529,9 @@ describe('sheet of a run walked through its steps in main', () => {
       runId = (await call('openRun', { serial: 'MG20-2611-0401', procedureId, operator: 'A. Tester', setup, lot: 'WO-77' })).run.id;
       await call('acknowledgeNotice', { runId, stepId: 'safety' });
       const trimStimulus = { on: true, frequencyHz: 14, levelDbfs: -12 };
-      for (const position of [0, 2.5, 4, 4.5]) station.records.recordTrimPoint({ runId, position, reading: onPhasorLine(position, 5), live: STEADY_LIVE, stimulus: trimStimulus });
+      for (const position of [0, 2.5, 4, 4.5]) station.records.recordTrimPoint({ runId, position, reading: onPhasorLine(position, 5), live: STEADY_LIVE, stimulus: trimStimulus, setup });
       const recommended = station.records.getRun(runId).assessment!.recommendedPosition!;
-      station.records.recordTrimPoint({ runId, position: recommended, reading: onPhasorLine(recommended, 5), live: STEADY_LIVE, stimulus: trimStimulus });
+      station.records.recordTrimPoint({ runId, position: recommended, reading: onPhasorLine(recommended, 5), live: STEADY_LIVE, stimulus: trimStimulus, setup });
       await call('completeTrim', { runId, stepId: 'lf-trim' });
       const at4Dbu = (frequencyHz: number) => ({ on: true, frequencyHz, levelDbfs: 4 - OUT_FS });
       const at14 = readingWithThd(h3Db, { fundamental: { frequencyHz: 14, levelDbfs: 4 - IN_FS, phaseDeg: 0 } });

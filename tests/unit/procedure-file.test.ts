@@ -219,7 +219,17 @@ describe('whole-file rules', () => {
     // The same step on a two-channel model is fine: the rule is the channel count, not the kind.
     expect(checkProcedureFile(withStep(balance, edit('"channels": 1', '"channels": 2'))).ok).toBe(true);
     const crosstalk = balance.replace('"kind": "balance"', '"kind": "crosstalk"').replace('"id": "balance"', '"id": "crosstalk"').replace('"balanceDb": { "low": -0.5, "high": 0.5', '"crosstalkDb": { "high": -70').replace('"channels": [1, 2]', '"channels": [1, 3]');
-    expect(paths(withStep(crosstalk, edit('"channels": 1', '"channels": 2')))).toEqual(['steps[2].channels[1]']);
+    expect(paths(withStep(crosstalk, edit('"channels": 1', '"channels": 2')))).toEqual(['steps[2].channels[1]', 'steps[2].kind']);
+  });
+
+  it('crosstalk comes after a balance of the same two channels, which shows the undriven channel is connected (common practice: prove the path before reading a quiet level on it)', () => {
+    const balance = `{ "id": "balance", "title": "Balance", "kind": "balance", "instructions": ["Drive both channels."], "channels": [1, 2], "frequencyHz": 1000, "level": { "value": -12, "unit": "dBFS" }, "limits": { "balanceDb": { "low": -0.5, "high": 0.5, "unit": "dB" } }, "onFail": "continue" }`;
+    const crosstalk = (pair: string) =>
+      `{ "id": "xtalk", "title": "Crosstalk", "kind": "crosstalk", "instructions": ["Drive channel 1 only."], "channels": ${pair}, "frequencyHz": 1000, "level": { "value": -12, "unit": "dBFS" }, "limits": { "crosstalkDb": { "high": -70, "unit": "dB" } }, "onFail": "continue" }`;
+    const twoChannels = edit('"channels": 1', '"channels": 2');
+    expect(paths(withStep(crosstalk('[2, 1]'), twoChannels))).toEqual(['steps[2].kind']);
+    const balanced = withStep(balance, twoChannels);
+    expect(checkProcedureFile(withStep(crosstalk('[2, 1]'), balanced)).ok).toBe(true);
   });
 
   it('a level in dBu needs a calibrated station (a dBu figure without a calibration is a guess)', () => {

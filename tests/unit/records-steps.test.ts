@@ -92,10 +92,10 @@ const openUnit = (serial: string, extra: object = {}) => call('openRun', { seria
 /** The trim done to the assistant's recommended setting on the constructed line (true null at 5 turns). */
 async function trim(runId: number): Promise<void> {
   for (const position of [0, 2.5, 4, 4.5]) {
-    station.records.recordTrimPoint({ runId, position, reading: onPhasorLine(position, 5), live: STEADY_LIVE, stimulus: TRIM_STIMULUS });
+    station.records.recordTrimPoint({ runId, position, reading: onPhasorLine(position, 5), live: STEADY_LIVE, stimulus: TRIM_STIMULUS, setup: SETUP });
   }
   const recommended = station.records.getRun(runId).assessment!.recommendedPosition!;
-  station.records.recordTrimPoint({ runId, position: recommended, reading: onPhasorLine(recommended, 5), live: STEADY_LIVE, stimulus: TRIM_STIMULUS });
+  station.records.recordTrimPoint({ runId, position: recommended, reading: onPhasorLine(recommended, 5), live: STEADY_LIVE, stimulus: TRIM_STIMULUS, setup: SETUP });
 }
 
 /** Notice acknowledged and trim completed: the run stands at its first check step. */
@@ -327,6 +327,10 @@ describe('the setup a run was calibrated with, checked at every reading (a calib
     expect(await refusal('recordTrimPoint', { runId, position: 4.7, reading: onPhasorLine(4.7, 5), live: STEADY_LIVE, stimulus: TRIM_STIMULUS, setup: { ...SETUP, outputDeviceId: 'out-2' } })).toMatch(/the output device/);
     expect(rows('step_results')).toBe(2); // the notice and the trim, nothing more
     expect((await call('recordCheckStep', { ...step, setup: SETUP })).stepResults.at(-1)!.stepId).toBe('thd-14hz');
+    // A trim point, too, says its setup on a calibrated run.
+    const other = (await openUnit('MG20-2611-0121')).run.id;
+    await call('acknowledgeNotice', { runId: other, stepId: 'safety' });
+    expect(await refusal('recordTrimPoint', { runId: other, position: 0, reading: onPhasorLine(0, 5), live: STEADY_LIVE, stimulus: TRIM_STIMULUS })).toMatch(/audio setup in use was not given/);
   });
 });
 
@@ -374,7 +378,7 @@ describe('balance and crosstalk through two calibrated inputs', () => {
   }
 
   it('reads each channel through its own input figure: 1 dB out of balance fails, 80 dB apart is −80 dB crosstalk', async () => {
-    const runId = await twoChannelRun('MG20-2611-0201', { generatorDbfs: -20, capturedDbfs: -24, capturedHz: 999.9 });
+    const runId = await twoChannelRun('MG20-2611-0201', { channel: 1, generatorDbfs: -20, capturedDbfs: -24, capturedHz: 999.9 });
     const balance = await call('recordCheckStep', { runId, stepId: 'balance', stimulus: at4Dbu(1000), readings: pair(4, 3), setup: SETUP2 });
     const b = balance.stepResults.at(-1)!;
     expect(b.measurements[0].value).toBeCloseTo(-1, 9); // 3 dBu − 4 dBu, not the −7 dB of the raw dBFS
@@ -389,7 +393,7 @@ describe('balance and crosstalk through two calibrated inputs', () => {
     const runId = await twoChannelRun('MG20-2611-0202', null);
     expect(await refusal('recordCheckStep', { runId, stepId: 'balance', stimulus: at4Dbu(1000), readings: pair(4, 4), setup: SETUP })).toMatch(/channel 2 has no level calibration/);
     expect(await refusal('recordCheckStep', { runId, stepId: 'balance', stimulus: at4Dbu(1000), readings: pair(4, 4), setup: SETUP2 })).toMatch(/channel 2 has no level calibration/);
-    const calibrated = await twoChannelRun('MG20-2611-0203', { generatorDbfs: -20, capturedDbfs: -24, capturedHz: 1000 });
+    const calibrated = await twoChannelRun('MG20-2611-0203', { channel: 1, generatorDbfs: -20, capturedDbfs: -24, capturedHz: 1000 });
     expect(await refusal('recordCheckStep', { runId: calibrated, stepId: 'balance', stimulus: at4Dbu(1000), readings: pair(4, 4), setup: { ...SETUP2, secondInputChannel: 3 } })).toMatch(/channel 2 has no level calibration/);
   });
 
@@ -401,11 +405,17 @@ describe('balance and crosstalk through two calibrated inputs', () => {
       input: { method: 'loopback', generatorDbfs: -20, capturedDbfs: -18, capturedHz: 1000.2 },
       secondInput,
     });
-    expect(await refusal('recordCalibration', request(SETUP, { generatorDbfs: -20, capturedDbfs: -24, capturedHz: 1000 }))).toMatch(/names no input for the unit's channel 2/);
+    expect(await refusal('recordCalibration', request(SETUP, { channel: 1, generatorDbfs: -20, capturedDbfs: -24, capturedHz: 1000 }))).toMatch(/names no input for the unit's channel 2/);
     expect(await refusal('recordCalibration', request(SETUP2, null))).toMatch(/input 2, and that input was not measured/);
-    expect(await refusal('recordCalibration', request(SETUP2, { generatorDbfs: -20, capturedDbfs: -24, capturedHz: 50 }))).toMatch(/input 2 heard 50\.0 Hz/);
-    expect(await refusal('recordCalibration', request({ ...SETUP, secondInputChannel: 0 }, { generatorDbfs: -20, capturedDbfs: -24, capturedHz: 1000 }))).toMatch(/two different inputs/);
-    const stored = await call<{ calibration: { secondInput: { channel: number; dbuAtFullScale: number } } }>('recordCalibration', request(SETUP2, { generatorDbfs: -20, capturedDbfs: -24, capturedHz: 1000 }));
+    expect(await refusal('recordCalibration', request(SETUP2, { channel: 1, generatorDbfs: -20, capturedDbfs: -24, capturedHz: 50 }))).toMatch(/input 2 heard 50\.0 Hz/);
+    expect(await refusal('recordCalibration', request({ ...SETUP, secondInputChannel: 0 }, { channel: 1, generatorDbfs: -20, capturedDbfs: -24, capturedHz: 1000 }))).toMatch(/two different inputs/);
+    // Read on another input than the setup names (the setup changed after the reading).
+    expect(await refusal('recordCalibration', request(SETUP2, { channel: 3, generatorDbfs: -20, capturedDbfs: -24, capturedHz: 1000 }))).toMatch(/read on input 4, but the setup reads the unit's channel 2 on input 2/);
+    // A data-sheet figure for input 1 against a measured one for input 2: their difference would be the data sheet's error.
+    expect(
+      await refusal('recordCalibration', { ...request(SETUP2, { channel: 1, generatorDbfs: -20, capturedDbfs: -24, capturedHz: 1000 }), input: { method: 'stated', statedEntry: '+18 dBu' } }),
+    ).toMatch(/the first must be too/);
+    const stored = await call<{ calibration: { secondInput: { channel: number; dbuAtFullScale: number } } }>('recordCalibration', request(SETUP2, { channel: 1, generatorDbfs: -20, capturedDbfs: -24, capturedHz: 1000 }));
     expect(stored.calibration.secondInput.channel).toBe(1);
     expect(stored.calibration.secondInput.dbuAtFullScale).toBeCloseTo(IN2_FS, 9);
   });

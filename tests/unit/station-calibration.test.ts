@@ -192,7 +192,7 @@ describe('a procedure that requires a calibration', () => {
     const runId = (started.value as { run: { id: number } }).run.id;
     await dispatch(station.handlers, 'acknowledgeNotice', { runId, stepId: 'safety' }, noCaller);
     const stimulus = { on: true, frequencyHz: DEMO_PROCEDURE.trim.stimulusHz, levelDbfs: DEMO_PROCEDURE.trim.stimulusLevelDbfs };
-    const point = (position: number) => ({ runId, position, reading: readingWithThd(-40 - position), live: null, stimulus });
+    const point = (position: number) => ({ runId, position, reading: readingWithThd(-40 - position), live: null, stimulus, setup: SETUP });
     expect((await dispatch(station.handlers, 'recordTrimPoint', point(0), noCaller)).ok).toBe(true);
     clock = T0 + 31 * DAY; // past the 30 days from T0
     const refusedPoint = await dispatch(station.handlers, 'recordTrimPoint', point(1), noCaller);

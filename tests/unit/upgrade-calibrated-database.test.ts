@@ -296,7 +296,7 @@ describe.each(FIXTURES)('a database written by the schema-$schema release ($comm
     clock = Date.parse('2026-12-02T09:01:00Z');
     station.records.acknowledgeNotice({ runId: 2, stepId: 'safety' });
     clock = Date.parse('2026-12-02T09:02:00Z');
-    station.records.recordTrimPoint({ runId: 2, position: 3, reading: readingWithThd(-57), live: STEADY_LIVE, stimulus: STIMULUS });
+    station.records.recordTrimPoint({ runId: 2, position: 3, reading: readingWithThd(-57), live: STEADY_LIVE, stimulus: STIMULUS, setup: SETUP });
     clock = Date.parse('2026-12-02T09:03:00Z');
     const finished = station.records.finishRun({ runId: 2, asFailure: true });
     expect(finished.run).toMatchObject({ verdict: 'fail', finishedAt: '2026-12-02T09:03:00.000Z', finalThdDb: -57, operator: 'D. Operator' });
