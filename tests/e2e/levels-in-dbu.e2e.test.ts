@@ -190,7 +190,7 @@ describe('levels in dBu on a calibrated station', () => {
       const levelDbc = 20 * Math.log10(Math.hypot(re, f));
       const reading = readingWithThd(levelDbc, { flags: ['at-floor'] });
       reading.harmonics = [{ order: 3, frequencyHz: 42, levelDbc, phaseDeg: (Math.atan2(f, re) * 180) / Math.PI }];
-      bench.station.records.recordTrimPoint({ runId: run.id, position, reading, live: null, stimulus: { on: true, frequencyHz: 14, levelDbfs: -12 } });
+      bench.station.records.recordTrimPoint({ runId: run.id, position, reading, live: null, stimulus: { on: true, frequencyHz: 14, levelDbfs: -12 }, setup: SETUP });
     }
     const page = await bench.openApp();
     await page.getByLabel('Operator').fill('A. Tester');

@@ -230,7 +230,7 @@ describe('the demo procedure walked whole', () => {
     const { run } = await bench.station.records.openRun({ serial, procedureId: procedure.id, operator: 'A. Tester', setup: SETUP });
     await bench.station.records.acknowledgeNotice({ runId: run.id, stepId: 'safety' });
     // One point at −40 dB THD, far above the trim's −60 dB limit.
-    await bench.station.records.recordTrimPoint({ runId: run.id, position: 0, reading: readingWithThd(-40), live: null, stimulus: { on: true, frequencyHz: 14, levelDbfs: -12 } });
+    await bench.station.records.recordTrimPoint({ runId: run.id, position: 0, reading: readingWithThd(-40), live: null, stimulus: { on: true, frequencyHz: 14, levelDbfs: -12 }, setup: SETUP });
     const page = await bench.openApp();
     await expect.poll(() => page.getByTestId('input-select').inputValue(), POLL).toBe('demo-bench');
     await page.getByRole('button', { name: 'Start capture' }).click();
