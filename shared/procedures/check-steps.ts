@@ -5,7 +5,8 @@
 //
 // Only types come from procedure-file.ts: the page uses this module and must not pull zod in.
 
-import { MAINS_MULTIPLES, RESOLVABLE_BINS } from '../measurement/frame-analyzer.ts';
+import { DEFAULT_ANALYZER_OPTIONS, MAINS_MULTIPLES, RESOLVABLE_BINS } from '../measurement/frame-analyzer.ts';
+import { checkChainFloorDbu } from '../calibration/chain-floor.ts';
 import { FLOOR_DB, type HumSearch, type Reading } from '../measurement/reading.ts';
 import type { StimulusSetting } from '../dsp/sine-source.ts';
 import { whyReadingInconsistent, thdDbFromHarmonics } from '../records/reading-check.ts';
@@ -268,6 +269,9 @@ function whyNotQuiet(reading: Reading, stimulus: StimulusSetting, step: CheckSte
     }
   }
   if (reading.flags.includes('clipping')) return 'The input is clipping with the generator off: the unit is oscillating or something else feeds the input. Check the termination plug and the capture channel.';
+  // Every real output, and every interface input, has noise: digital silence is an input nothing
+  // reaches (a channel not delivered, a muted or unplugged input), and would pass any noise limit.
+  if (reading.noiseDbfs <= FLOOR_DB) return 'The input reads digital silence: nothing from the unit reaches it. Check the capture channel chosen and the cable from the unit, then take a new reading.';
   if (!reading.settled) return 'The reading has not settled: wait for it.';
   // With the generator off the meter takes the strongest tone for its fundamental and leaves it and
   // its harmonics out of the noise (and out of the hum unless it is mains): a stray tone would pass.
@@ -347,7 +351,11 @@ export function measureCheckStep(step: CheckStep, input: CheckInput): CheckOutco
     if (why) return { ok: false, refusal: why };
     // whyStepCannotRun has made sure the station is calibrated.
     const levels = input.levels as StationLevels;
-    if (step.kind === 'noise') return { ok: true, result: measureNoise(step, first.reading, levels) };
+    if (step.kind === 'noise') {
+      const implausible = whyBelowThermalNoise(first.reading, levels);
+      if (implausible) return { ok: false, refusal: implausible };
+      return { ok: true, result: measureNoise(step, first.reading, levels) };
+    }
     if (step.kind === 'hum') return { ok: true, result: measureHum(step, first.reading, levels) };
     return { ok: false, refusal: `Step “${step.id}” (${step.kind}) cannot be measured with the generator off.` };
   }
@@ -403,6 +411,13 @@ export function measureCheckStep(step: CheckStep, input: CheckInput): CheckOutco
  */
 function whyTooFewHarmonics(step: Extract<CheckStep, { kind: 'distortion' }>, reading: Reading): string | null {
   if (!step.limits.thdDb) return null;
+  // THD here sums H2 to H10 (the meter's count): a reading that counted fewer would leave out what
+  // it did not look for, and its THD would pass a unit whose distortion lies higher up.
+  const counted = new Set([...reading.harmonics.map((h) => h.order), ...reading.harmonicsAboveNyquist]);
+  const notCounted = Array.from({ length: DEFAULT_ANALYZER_OPTIONS.harmonicCount - 1 }, (_, i) => i + 2).filter((order) => !counted.has(order));
+  if (notCounted.length > 0) {
+    return `Step “${step.id}” limits THD, which sums H2–H${DEFAULT_ANALYZER_OPTIONS.harmonicCount}, and the reading did not count H${notCounted.join(', H')}: take the reading with the station's meter.`;
+  }
   const nyquist = reading.sampleRateHz / 2;
   const f = reading.fundamental.frequencyHz;
   // H2 and H3 are the two a THD figure cannot do without (even and odd order).
@@ -443,6 +458,18 @@ function measureGain(step: Extract<CheckStep, { kind: 'gain' }>, reading: Readin
   const outputDbu = reading.fundamental.levelDbfs + levels.inputDbuAtFullScale;
   const note = `${round(outputDbu, 2)} dBu out for ${round(inputDbu, 2)} dBu in`;
   return result(step, [{ m: measurement('gainDb', outputDbu - inputDbu, step.limits.gainDb, note), label: 'Gain' }]);
+}
+
+/**
+ * A noise figure below the thermal noise of a 150 Ω source over the reading's band cannot have come
+ * through a real input (the rule the chain check applies to the station's own floor): the input is
+ * not connected to anything that makes noise, or its calibration is wrong.
+ */
+function whyBelowThermalNoise(reading: Reading, levels: StationLevels): string | null {
+  const unweightedDbu = dbuOf(reading.noiseDbfs, levels.inputDbuAtFullScale);
+  const floor = checkChainFloorDbu(unweightedDbu, { bandwidthHz: reading.bandHz.highHz - reading.bandHz.lowHz });
+  if (floor.ok) return null;
+  return `The noise reads ${round(unweightedDbu)} dBu unweighted over ${band(reading.bandHz)}, below the thermal noise of a 150 Ω source over that band (${round(floor.thermalDbu)} dBu), which no real input can read: the input is not connected to the unit, or the station's input calibration is wrong.`;
 }
 
 function measureNoise(step: Extract<CheckStep, { kind: 'noise' }>, reading: Reading, levels: StationLevels): CheckResult {

@@ -4,7 +4,7 @@ import { mkdtempSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import type { AudioSetup } from '../../shared/calibration/station-calibration.ts';
-import type { Reading } from '../../shared/measurement/reading.ts';
+import { FLOOR_DB, type Reading } from '../../shared/measurement/reading.ts';
 import { dispatch, type CallerContext, type Handlers } from '../../electron/services/handlers.ts';
 import { openStation } from '../../electron/services/station.ts';
 
@@ -52,6 +52,21 @@ export function readingWithThd(thdDb: number, overrides: Partial<Reading> = {}):
     mainsCoincidentOrders: [],
     flags: [],
     ...overrides,
+  };
+}
+
+/**
+ * The reading as the station's meter gives it: every harmonic H2–H10 counted, those the reading
+ * does not hold at the meter's floor (a THD check judges only a reading that counted them all).
+ */
+export function withAllHarmonics(reading: Reading): Reading {
+  const f = reading.fundamental.frequencyHz;
+  const listed = new Set([...reading.harmonics.map((h) => h.order), ...reading.harmonicsAboveNyquist]);
+  const missing = [2, 3, 4, 5, 6, 7, 8, 9, 10].filter((order) => !listed.has(order));
+  return {
+    ...reading,
+    harmonics: [...reading.harmonics, ...missing.filter((n) => n * f < reading.sampleRateHz / 2).map((order) => ({ order, frequencyHz: order * f, levelDbc: FLOOR_DB, phaseDeg: 0 }))].sort((a, b) => a.order - b.order),
+    harmonicsAboveNyquist: [...reading.harmonicsAboveNyquist, ...missing.filter((n) => n * f >= reading.sampleRateHz / 2)],
   };
 }
 

@@ -60,6 +60,9 @@ function analysed(cycles: number, amplitudes: Record<number, number>, harmonicCo
 }
 
 /** A reading built by hand: a tone at `levelDbfs` and nothing else measured (no harmonics). */
+/** The harmonic orders the station's meter counts (H2–H10). */
+const ORDERS = [2, 3, 4, 5, 6, 7, 8, 9, 10];
+
 function handReading(frequencyHz: number, levelDbfs: number, overrides: Partial<Reading> = {}): Reading {
   return settled({
     ...createHarmonicAnalysis(),
@@ -67,6 +70,16 @@ function handReading(frequencyHz: number, levelDbfs: number, overrides: Partial<
     fundamental: { frequencyHz, levelDbfs, phaseDeg: 0 },
     measuredFundamentalHz: frequencyHz,
     flags: levelDbfs < -80 ? ['no-signal'] : [],
+    // A pure tone: the meter's H2–H10 all counted, at its floor (those at or past Nyquist listed as
+    // such); with no signal the meter counts none, as FrameAnalyzer does.
+    ...(levelDbfs >= -80 && !overrides.flags?.includes('no-signal') && {
+      harmonics: ORDERS.filter((n) => n * frequencyHz < RATE / 2).map((order) => ({ order, frequencyHz: order * frequencyHz, levelDbc: FLOOR_DB, phaseDeg: 0 })),
+      harmonicsAboveNyquist: ORDERS.filter((n) => n * frequencyHz >= RATE / 2),
+    }),
+    // An interface's own noise, about −140 dBFS unweighted (common practice for a 24-bit converter,
+    // from memory): no real input reads digital silence.
+    noiseDbfs: -140,
+    noiseAWeightedDbfs: -142,
     ...overrides,
   });
 }
@@ -297,6 +310,9 @@ describe('levels from the station calibration (dBu definition: 0 dBu = √0.6 V 
       const a = 10 ** (dbfs / 20);
       for (let i = 0; i < n; i++) samples[i] += a * Math.sin((2 * Math.PI * 50 * Number(order) * i) / RATE + Number(order));
     }
+    // The input's own noise, −140 dBFS RMS (no real input reads digital silence): 50 dB under the buzz.
+    const noise = gaussian(seededRandom(5));
+    for (let i = 0; i < n; i++) samples[i] += 10 ** (-140 / 20) * noise();
     const analysis = new FrameAnalyzer(FRAME, RATE, { mainsHz: 50 }).analyze(samples, createHarmonicAnalysis(), null);
     const reading = settled({ ...structuredClone(analysis), bandHz: { lowHz: 22, highHz: 22000 } });
     const result = expectMeasured(measureCheckStep(demoStep('hum'), { stimulus: OFF, levels, readings: [{ channel: 1, reading, inputDbuAtFullScale: levels.inputDbuAtFullScale }] }));
@@ -305,6 +321,34 @@ describe('levels from the station calibration (dBu definition: 0 dBu = √0.6 V 
     expect(Math.abs((result.measurements[0].value as number) - expected)).toBeLessThan(0.5);
     // About −78 dBu against the demo's −80 dBu limit: buzz the old three-order sum (−86 dBu) passed.
     expect(result.verdict).toBe('fail');
+  });
+
+  it('refuses noise and hum read on digital silence, and a noise figure below the thermal noise of a 150 Ω source (Johnson–Nyquist)', () => {
+    // Digital silence: an input nothing reaches, which would pass any noise or hum limit.
+    const silent = handReading(0, FLOOR_DB, { noiseDbfs: FLOOR_DB, noiseAWeightedDbfs: FLOOR_DB, bandHz: { lowHz: 22, highHz: 22000 } });
+    for (const id of ['noise-a', 'hum']) {
+      const outcome = measureCheckStep(demoStep(id), { stimulus: OFF, levels, readings: [{ channel: 1, reading: silent, inputDbuAtFullScale: levels.inputDbuAtFullScale }] });
+      expect(outcome.ok, id).toBe(false);
+      if (!outcome.ok) expect(outcome.refusal).toMatch(/digital silence/);
+    }
+    // v = √(4kTRB): k = 1.380649e−23 J/K (SI 2019), T = 290 K, R = 150 Ω, B = 22 kHz − 22 Hz; dBu = 20·log10(v/√0.6).
+    const thermalDbu = 20 * Math.log10(Math.sqrt(4 * 1.380649e-23 * 290 * 150 * (22000 - 22)) / Math.sqrt(0.6)); // ≈ −130.6 dBu
+    const noiseAt = (dbu: number) =>
+      handReading(0, FLOOR_DB, { noiseDbfs: dbu - levels.inputDbuAtFullScale, noiseAWeightedDbfs: dbu - levels.inputDbuAtFullScale - 2, bandHz: { lowHz: 22, highHz: 22000 } });
+    const below = measureCheckStep(demoStep('noise-a'), { stimulus: OFF, levels, readings: [{ channel: 1, reading: noiseAt(thermalDbu - 1), inputDbuAtFullScale: levels.inputDbuAtFullScale }] });
+    expect(below.ok).toBe(false);
+    if (!below.ok) expect(below.refusal).toMatch(/below the thermal noise of a 150 Ω source/);
+    expect(measureCheckStep(demoStep('noise-a'), { stimulus: OFF, levels, readings: [{ channel: 1, reading: noiseAt(thermalDbu + 1), inputDbuAtFullScale: levels.inputDbuAtFullScale }] }).ok).toBe(true);
+  });
+
+  it('judges THD only on a reading that counted H2–H10: one that stopped at H3 would leave out H5 (THD sums every harmonic, IEEE 1241)', () => {
+    const step = distortion(1000, -12, { thdDb: { high: -50, unit: 'dB' } });
+    const full = handReading(1000, -12);
+    expect(measureCheckStep(step, { stimulus: on(1000, -12), levels: null, readings: [{ channel: 1, reading: full, inputDbuAtFullScale: null }] }).ok).toBe(true);
+    const short = { ...full, harmonics: full.harmonics.filter((h) => h.order <= 3) };
+    const outcome = measureCheckStep(step, { stimulus: on(1000, -12), levels: null, readings: [{ channel: 1, reading: short, inputDbuAtFullScale: null }] });
+    expect(outcome.ok).toBe(false);
+    if (!outcome.ok) expect(outcome.refusal).toMatch(/did not count H4, H5, H6, H7, H8, H9, H10/);
   });
 
   it('refuses noise and hum readings holding a tone with the generator off (a stray 1 kHz tone, an oscillating unit)', () => {

@@ -10,7 +10,7 @@ import { fileURLToPath } from 'node:url';
 import { encodeWavFloat32 } from '../../shared/audio/wav.ts';
 import { dispatch } from '../../electron/services/handlers.ts';
 import type { RunDetail } from '../../shared/ipc/contract.ts';
-import { noCaller, onPhasorLine, openTestStation, readingWithThd, STEADY_LIVE, tempDir, startUnit } from '../support/station.ts';
+import { noCaller, onPhasorLine, openTestStation, readingWithThd, STEADY_LIVE, tempDir, startUnit, withAllHarmonics } from '../support/station.ts';
 import { encodePcm24 } from '../support/wav-files.ts';
 import { gaussian, seededRandom } from '../support/random.ts';
 import { tone } from '../support/signals.ts';
@@ -534,7 +534,7 @@ describe('sheet of a run walked through its steps in main', () => {
       station.records.recordTrimPoint({ runId, position: recommended, reading: onPhasorLine(recommended, 5), live: STEADY_LIVE, stimulus: trimStimulus, setup });
       await call('completeTrim', { runId, stepId: 'lf-trim' });
       const at4Dbu = (frequencyHz: number) => ({ on: true, frequencyHz, levelDbfs: 4 - OUT_FS });
-      const at14 = readingWithThd(h3Db, { fundamental: { frequencyHz: 14, levelDbfs: 4 - IN_FS, phaseDeg: 0 } });
+      const at14 = withAllHarmonics(readingWithThd(h3Db, { fundamental: { frequencyHz: 14, levelDbfs: 4 - IN_FS, phaseDeg: 0 } }));
       await call('recordCheckStep', { runId, stepId: 'thd-14hz', stimulus: at4Dbu(14), readings: [{ channel: 1, reading: at14 }], setup });
       // 0.3 dB of gain: the output reads 4.3 dBu for the 4 dBu played.
       const at1k = readingWithThd(-90, { fundamental: { frequencyHz: 1000, levelDbfs: 4.3 - IN_FS, phaseDeg: 0 }, harmonics: [{ order: 3, frequencyHz: 3000, levelDbc: -90, phaseDeg: 0 }] });

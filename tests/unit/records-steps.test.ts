@@ -19,7 +19,7 @@ import { dispatch, type CallerContext } from '../../electron/services/handlers.t
 import { DATABASE_FILE, openStation } from '../../electron/services/station.ts';
 import type { Reading } from '../../shared/measurement/reading.ts';
 import type { RunDetail } from '../../shared/ipc/contract.ts';
-import { accepted, noCaller, TEST_SETUP, onPhasorLine, readingWithThd, refusedWith, STEADY_LIVE, tempDir } from '../support/station.ts';
+import { accepted, noCaller, TEST_SETUP, onPhasorLine, readingWithThd, refusedWith, STEADY_LIVE, tempDir, withAllHarmonics } from '../support/station.ts';
 
 const RESOURCE = fileURLToPath(new URL('../../resources/procedures/mg20-lf-trim.json', import.meta.url));
 const SETUP = TEST_SETUP;
@@ -53,7 +53,7 @@ const at4Dbu = (frequencyHz: number) => ({ on: true, frequencyHz, levelDbfs: 4 -
 
 /** The unit's answer at 14 Hz when its stage is y = x − a·x³, at unity gain. */
 const cubicAt14Hz = (a: number): Reading =>
-  readingWithThd(h3OfCubic(a), { fundamental: { frequencyHz: 14, levelDbfs: 4 - IN_FS, phaseDeg: 0 } });
+  withAllHarmonics(readingWithThd(h3OfCubic(a), { fundamental: { frequencyHz: 14, levelDbfs: 4 - IN_FS, phaseDeg: 0 } }));
 /** The unit's answer at 1 kHz with gain `gainDb` (output dBu − input dBu), its distortion far below any limit. */
 const withGainAt1kHz = (gainDb: number): Reading =>
   readingWithThd(-90, {
