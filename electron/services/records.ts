@@ -23,7 +23,7 @@ import type { StationSettings } from '../../shared/calibration/station-settings.
 import { asSentences } from '../../shared/format.ts';
 import { procedureSchema, type Procedure } from '../../shared/procedures/procedure.ts';
 import { checkProcedureFile, procedureFileSchema, upgradeProcedure, type ProcedureFile, type ProcedureStep } from '../../shared/procedures/procedure-file.ts';
-import { isCheckStep, measureCheckStep, measurement, runLevels, type Measurement } from '../../shared/procedures/check-steps.ts';
+import { isCheckStep, judgeLimit, measureCheckStep, measurement, runLevels, type Measurement } from '../../shared/procedures/check-steps.ts';
 import { judgeUnit, laterStepResult } from '../../shared/procedures/unit-verdict.ts';
 import { quantityLabel } from '../../shared/procedures/step-text.ts';
 import { trimView } from '../../shared/procedures/trim-view.ts';
@@ -482,6 +482,24 @@ export function createRecords(
   }
 
   /** The run's step results in the order recorded, each with its measurements, checked as they are read. */
+  /**
+   * Each row is sealed, but a row can be hidden whole (a damaged index): a step's verdict must be
+   * what its measurements, each judged again against its own stored limits, say. A check step
+   * passes exactly when it has measurements and all pass, so a check with none, a PASS whose failing
+   * measurement went missing, or a FAIL with none failing, is a record read incomplete. A trim's FAIL can have other
+   * reasons than its THD, so there only a PASS is checked.
+   */
+  function whyVerdictNotBorneOut(result: StepResult): string | null {
+    const judged = result.measurements.map((m) => judgeLimit(m.value, { low: m.low ?? undefined, high: m.high ?? undefined }));
+    if (result.measurements.some((m, i) => m.verdict !== judged[i])) return 'a measurement’s stored verdict is not its value against its limits';
+    const allPass = judged.length > 0 && judged.every((v) => v === 'pass');
+    if (result.kind === 'notice') return result.verdict === 'pass' && judged.length === 0 ? null : 'a notice has a verdict other than acknowledged, or measurements';
+    if (result.kind === 'trim') return result.verdict === 'pass' && !allPass ? 'a passed trim whose THD does not pass' : null;
+    // A check always stores what it measured; a FAIL stands on at least one failing measurement.
+    if (judged.length === 0) return 'a check with no measurements';
+    return (result.verdict === 'pass') === allPass ? null : `a ${result.verdict} check whose measurements read ${judged.join(', ')}`;
+  }
+
   function stepResults(runId: number): StepResult[] {
     const byResult = new Map<number, Measurement[]>();
     for (const row of statements.measurements.all(runId)) {
@@ -506,6 +524,8 @@ export function createRecords(
         stimulus: row.stimulus_json === null ? null : fromStoredJson(row.stimulus_json, stepStimulusSchema, what),
       });
       if (!parsed.success) throw new UnreadableRecord(what, `does not validate at ${parsed.error.issues[0]?.path.join('.') || '(root)'}`);
+      const whyNot = whyVerdictNotBorneOut(parsed.data);
+      if (whyNot) throw new UnreadableRecord(what, whyNot);
       return parsed.data;
     });
   }

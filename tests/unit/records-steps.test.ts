@@ -14,6 +14,7 @@
 import { cpSync, readFileSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
+import Database from 'better-sqlite3';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { dispatch, type CallerContext } from '../../electron/services/handlers.ts';
 import { DATABASE_FILE, openStation } from '../../electron/services/station.ts';
@@ -235,6 +236,22 @@ describe('the step walk, recorded in main', () => {
     // The generator off for a step that plays a tone.
     expect(await refusal('recordCheckStep', { runId, stepId: 'thd-14hz', stimulus: { ...at4Dbu(14), on: false }, readings: [{ channel: 1, reading: cubicAt14Hz(0.002) }], setup: SETUP })).toMatch(/not recorded/);
     expect([rows('step_results'), rows('measurements')]).toEqual(before);
+  });
+
+  it('makes the run unreadable when a failing measurement is hidden (as a damaged index hides a row), never reading the step as passed', async () => {
+    const runId = await throughTheTrim('MG20-2611-0109');
+    // a = 0.0112: H3 = 20·log10(0.0028/0.9916) ≈ −51.0 dBc, above the step's −52 dBc H3 limit but
+    // within its −50 dB THD limit: one failing measurement beside a passing one.
+    const failed = (await distortion(runId, 0.0112)).stepResults.at(-1)!;
+    expect(failed.verdict).toBe('fail');
+    expect(failed.measurements.map((m) => m.verdict).sort()).toEqual(['fail', 'pass']);
+    station.close();
+    const db = new Database(join(dir.path, DATABASE_FILE));
+    db.exec('DROP TRIGGER measurements_never_deleted');
+    db.prepare("DELETE FROM measurements WHERE step_result_id = ? AND verdict = 'fail'").run(failed.id);
+    db.close();
+    station = open();
+    expect(() => station.records.getRun(runId)).toThrow(/Run \d+ \(serial MG20-2611-0109\) cannot be read/);
   });
 
   it('makes the run unreadable when a byte of a stored measurement changes', async () => {
