@@ -11,11 +11,19 @@ import { AT_FLOOR_MARGIN_DB } from '../calibration/station-calibration.ts';
 import { fixed, percent } from '../format.ts';
 import type { RunDetail, StepResult, StoredMeasurement, TrimPoint } from '../ipc/contract.ts';
 import { dbuFromDbfs, formatLevel, signedFixed, type LevelCalibration } from '../levels.ts';
+import { harmonicLevel } from '../procedures/check-steps.ts';
 import type { ProcedureStep } from '../procedures/procedure-file.ts';
 import { limitText, quantityDecimals, quantityLabel, stepConditions } from '../procedures/step-text.ts';
 import type { StepStatus } from '../procedures/unit-verdict.ts';
 import { describeThermalMargin } from '../trim/trim-assistant.ts';
 import { WARNING_TITLES } from '../trim/warning-titles.ts';
+
+
+/** The trimmed harmonic's level at a point, by the one rule for "the level of harmonic n" (none when not measured). */
+const trimmedHarmonicDbc = (point: TrimPoint, order: number): number | undefined => {
+  const level = harmonicLevel(point.reading, order);
+  return level.measured ? level.levelDbc : undefined;
+};
 
 export type VerdictText = 'PASS' | 'FAIL' | 'NOT FINISHED';
 
@@ -247,7 +255,7 @@ function sheetTrim(detail: RunDetail, legacy: boolean): SheetTrim | null {
       sequence: p.sequence,
       recordedAt: p.recordedAt,
       position: fixed(p.position, 2),
-      harmonicDbc: fixed(p.reading.harmonics.find((h) => h.order === order)?.levelDbc, 1),
+      harmonicDbc: fixed(trimmedHarmonicDbc(p, order), 1),
       thdDb: fixed(p.reading.thdDb, 1),
       atFloor: atFloor(p),
       thdPercent: percent(p.reading.thdPercent).replace(' %', ''),
