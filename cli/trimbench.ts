@@ -8,19 +8,21 @@
 //   npm run -s cli -- procedure check FILE.json
 //   npm run -s cli -- sheet --data DIR --run N [--json]
 //   npm run -s cli -- demo-line --units N --data DIR [--seed S] [--json]
+//   npm run -s cli -- sweep --write OUT.wav --from HZ --to HZ --seconds S --rate HZ --level-dbfs L
+//   npm run -s cli -- response CAPTURE.wav --from HZ --to HZ --seconds S --rate HZ --level-dbfs L [--reference-hz HZ] [--channel N] [--json]
 
 import { existsSync, readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { parseArgs } from 'node:util';
-import { WavFormatError } from '../shared/audio/wav.ts';
 import { dbuFromDbfs, type LevelCalibration } from '../shared/levels.ts';
 import { DEFAULT_MAX_OFFSET_PERCENT, planTestFrequency } from '../shared/measurement/frequency-planner.ts';
 import { checkProcedureFile } from '../shared/procedures/procedure-file.ts';
 import { analyzeRecordSource, type RecordAnalysis } from '../shared/measurement/record-analysis.ts';
 import { adviseTrim, DEFAULT_TRIM_ASSISTANT_OPTIONS, describeThermalMargin } from '../shared/trim/trim-assistant.ts';
-import { parsePlainDecimal, parseTrimCsv, TrimCsvError } from '../shared/trim/trim-csv.ts';
+import { parseTrimCsv, TrimCsvError } from '../shared/trim/trim-csv.ts';
 import { buildSheetModel, type SheetModel } from '../shared/sheet/sheet-model.ts';
-import { openWavFile, type WavFile, WavReadError } from './wav-file.ts';
+import { fileProblem, numberOption, openWavForCommand, refuseNonFinite, UsageProblem } from './cli-input.ts';
+import { responseCommand, sweepCommand, SWEEP_COMMANDS_HELP, SWEEP_COMMANDS_USAGE } from './sweep-commands.ts';
 import { createCalibrations } from '../electron/services/calibrations.ts';
 import { openForReading, type Db } from '../electron/services/database.ts';
 import { createRecords } from '../electron/services/records.ts';
@@ -42,6 +44,7 @@ const USAGE = `usage:
   trimbench procedure check FILE.json
   trimbench sheet --data DIR --run N [--json]
   trimbench demo-line --units N --data DIR [--seed S] [--json]
+${SWEEP_COMMANDS_USAGE}
   trimbench help
 
   analyze   offline analysis of a WAV recording (refuses non-finite samples); with
@@ -57,10 +60,8 @@ const USAGE = `usage:
             (opened for reading only: nothing in it is changed); --json prints the sheet model
   demo-line runs the demo procedure (invented MG-20) on N simulated units with a scripted
             technician and writes the runs into the station database in DIR; --seed S
-            (a whole number, default 1) picks the batch`;
-
-/** A problem with the user's input: printed as one line, exit status 1. */
-class UsageProblem extends Error {}
+            (a whole number, default 1) picks the batch
+${SWEEP_COMMANDS_HELP}`;
 
 /** Several problems with one file: printed one per line as they are, exit status 1. */
 class FileProblems extends Error {
@@ -69,37 +70,6 @@ class FileProblems extends Error {
     super(lines.join('\n'));
     this.lines = lines;
   }
-}
-
-function numberOption(name: string, text: string | undefined, check: (value: number) => boolean, expected: string): number | undefined {
-  if (text === undefined) return undefined;
-  // Plain decimals only, as in the CSV: no hex, exponents, Infinity or blanks.
-  const value = parsePlainDecimal(text.trim());
-  if (value === null || !check(value)) throw new UsageProblem(`--${name} must be ${expected} (a plain decimal), got “${text}”`);
-  return value;
-}
-
-/** The path of the first number in `value` that is NaN or infinite, or null when all are finite. */
-function firstNonFinite(value: unknown, path: string): { path: string; value: number } | null {
-  if (typeof value === 'number') return Number.isFinite(value) ? null : { path, value };
-  if (Array.isArray(value)) {
-    for (let i = 0; i < value.length; i++) {
-      const found = firstNonFinite(value[i], `${path}[${i}]`);
-      if (found) return found;
-    }
-  } else if (value !== null && typeof value === 'object') {
-    for (const [key, item] of Object.entries(value)) {
-      const found = firstNonFinite(item, path ? `${path}.${key}` : key);
-      if (found) return found;
-    }
-  }
-  return null;
-}
-
-/** Refuses to print a result holding NaN or infinity: says which value could not be computed. */
-function refuseNonFinite(file: string, result: unknown, advice: string): void {
-  const bad = firstNonFinite(result, '');
-  if (bad) throw new UsageProblem(`${file}: ${bad.path} could not be computed (it came out as ${bad.value}), so nothing is printed; ${advice}`);
 }
 
 function mainsOption(text: string | undefined): 50 | 60 {
@@ -150,15 +120,7 @@ function analyze(args: string[]): string {
   const calibration: LevelCalibration | null = inputDbu === undefined ? null : { dbuAtFullScale: inputDbu };
 
   // The file is read in pieces (cli/wav-file.ts), never whole, so its size does not bound us.
-  let wav: WavFile;
-  try {
-    wav = openWavFile(file);
-  } catch (error) {
-    if (error instanceof WavFormatError) throw new UsageProblem(`${file}: ${error.message}`);
-    const code = (error as NodeJS.ErrnoException).code;
-    if (code) throw new UsageProblem(`${file}: cannot be read (${code})`);
-    throw error;
-  }
+  const wav = openWavForCommand(file);
   let result: RecordAnalysis;
   try {
     const { layout } = wav;
@@ -173,10 +135,7 @@ function analyze(args: string[]): string {
       fundamentalHz,
     });
   } catch (error) {
-    if (error instanceof RangeError || error instanceof WavReadError) throw new UsageProblem(`${file}: ${error.message}`);
-    const code = (error as NodeJS.ErrnoException).code;
-    if (code && !code.startsWith('ERR_')) throw new UsageProblem(`${file}: cannot be read (${code})`);
-    throw error;
+    throw fileProblem(file, error);
   } finally {
     wav.close();
   }
@@ -519,6 +478,8 @@ async function main(argv: string[]): Promise<number> {
     else if (command === 'procedure') process.stdout.write(`${procedure(rest)}\n`);
     else if (command === 'sheet') process.stdout.write(`${await sheet(rest)}\n`);
     else if (command === 'demo-line') process.stdout.write(`${await demoLine(rest)}\n`);
+    else if (command === 'sweep') process.stdout.write(`${sweepCommand(rest)}\n`);
+    else if (command === 'response') process.stdout.write(`${responseCommand(rest)}\n`);
     else throw new UsageProblem(command ? `unknown command “${command}”\n${USAGE}` : USAGE);
     return 0;
   } catch (error) {

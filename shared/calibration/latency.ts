@@ -4,6 +4,7 @@
 
 import { mulberry32 } from '../dsp/seeded-noise.ts';
 import FFT from 'fft.js';
+import { nextPowerOfTwo, realSpectrum } from '../dsp/fft-real.ts';
 import { peakFromDbfs } from '../levels.ts';
 
 export interface LatencyStimulusOptions {
@@ -123,8 +124,8 @@ export function estimateLatency(played: Float32Array, captured: Float32Array, sa
 
   const size = nextPowerOfTwo(played.length + captured.length);
   const fft = new FFT(size);
-  const playedSpectrum = transformReal(fft, played, size);
-  const capturedSpectrum = transformReal(fft, captured, size);
+  const playedSpectrum = realSpectrum(fft, played);
+  const capturedSpectrum = realSpectrum(fft, captured);
   // C = X_captured · conj(X_played): its inverse is c[k] = Σ captured[n + k]·played[n], lag k at index k.
   const product: number[] = fft.createComplexArray();
   for (let k = 0; k < size; k++) {
@@ -167,17 +168,3 @@ export function estimateLatency(played: Float32Array, captured: Float32Array, sa
     confidence,
   };
 }
-
-function transformReal(fft: FFT, samples: Float32Array, size: number): number[] {
-  const input = new Float64Array(size);
-  input.set(samples);
-  const out: number[] = fft.createComplexArray();
-  fft.realTransform(out, input);
-  fft.completeSpectrum(out);
-  return out;
-}
-
-function nextPowerOfTwo(n: number): number {
-  return 2 ** Math.ceil(Math.log2(Math.max(2, n)));
-}
-

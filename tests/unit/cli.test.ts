@@ -7,13 +7,15 @@ import { cpSync, readFileSync, writeFileSync } from 'node:fs';
 import Database from 'better-sqlite3';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
-import { encodeWavFloat32 } from '../../shared/audio/wav.ts';
+import { decodeWav, encodeWavFloat32 } from '../../shared/audio/wav.ts';
+import { logSweep } from '../../shared/dsp/log-sweep.ts';
 import { dispatch } from '../../electron/services/handlers.ts';
 import type { RunDetail } from '../../shared/ipc/contract.ts';
 import { noCaller, onPhasorLine, openTestStation, readingWithThd, STEADY_LIVE, tempDir, startUnit, withAllHarmonics } from '../support/station.ts';
 import { encodePcm24 } from '../support/wav-files.ts';
 import { gaussian, seededRandom } from '../support/random.ts';
 import { tone } from '../support/signals.ts';
+import { filtered, magnitude, phaseDeg, rcLowPass } from '../support/analogue-filters.ts';
 
 const CLI = fileURLToPath(new URL('../../cli/trimbench.ts', import.meta.url));
 const run = (...args: string[]) => spawnSync(process.execPath, [CLI, ...args], { encoding: 'utf8', timeout: 60_000 });
@@ -588,5 +590,128 @@ describe('sheet of a run walked through its steps in main', () => {
     json.notes.forEach((note: string, i: number) => expect(lines.filter((l) => l === `  [${i + 1}] ${note}`)).toHaveLength(1));
     // The trim's final reading, with the trimmer where it was left.
     expect(lines.some((l) => l.startsWith('Trim: THD ') && l.includes(json.trim.finalReading))).toBe(true);
+  });
+});
+
+describe('sweep and response', () => {
+  // A 3 s sweep from 20 Hz to 20 kHz at 48 kHz, −6 dBFS: the shortest that resolves 20 Hz (4 cycles
+  // in the room between the linear and the 2nd harmonic's impulse responses).
+  const SPEC = ['--from', '20', '--to', '20000', '--seconds', '3', '--rate', '48000', '--level-dbfs', '-6'];
+  const spec = { startHz: 20, endHz: 20000, durationS: 3, sampleRateHz: 48000, levelDbfs: -6 };
+  const DELAY = 2345;
+  const CORNER_HZ = 20000;
+  let sweepFile: string;
+  let captureFile: string;
+
+  beforeAll(() => {
+    sweepFile = join(files.path, 'sweep.wav');
+    const written = run('sweep', '--write', sweepFile, ...SPEC);
+    expect(written.stderr).toBe('');
+    expect(written.status).toBe(0);
+    // The capture a test bench would make: the file through a known delay and a first-order RC
+    // low-pass at 20 kHz, on the second channel of a stereo recording.
+    const played = decodeWav(readFileSync(sweepFile)).channels[0];
+    const unit = filtered(played, 48000, rcLowPass(CORNER_HZ), DELAY);
+    captureFile = join(files.path, 'capture.wav');
+    writeFileSync(captureFile, encodeWavFloat32([new Float64Array(unit.length), unit], 48000));
+  });
+
+  it('sweep --write writes exactly the samples the generator plays, as a mono 32-bit float WAV', () => {
+    const wav = decodeWav(readFileSync(sweepFile));
+    expect(wav.sampleRateHz).toBe(48000);
+    expect(wav.encoding).toBe('float');
+    expect(wav.bitsPerSample).toBe(32);
+    expect(wav.channels).toHaveLength(1);
+    const expected = logSweep(spec);
+    expect(wav.channels[0].length).toBe(expected.length);
+    expect(wav.channels[0].every((v, i) => v === expected[i])).toBe(true);
+  });
+
+  it('response --json prints one object of exactly the documented shape, with the delay and the RC’s response', () => {
+    const result = run('response', captureFile, ...SPEC, '--channel', '1', '--json');
+    expect(result.stderr).toBe('');
+    expect(result.status).toBe(0);
+    const lines = result.stdout.trim().split('\n');
+    expect(lines).toHaveLength(1);
+    const json = JSON.parse(lines[0]);
+    expect(Object.keys(json)).toEqual(['latencySamples', 'referenceHz', 'response', 'harmonics']);
+    for (const p of json.response) expect(Object.keys(p)).toEqual(['frequencyHz', 'levelDb', 'phaseDeg']);
+    for (const h of json.harmonics) {
+      expect(Object.keys(h)).toEqual(['order', 'points']);
+      for (const p of h.points) expect(Object.keys(p)).toEqual(['frequencyHz', 'levelDbc']);
+    }
+    // The delay by construction, exactly; an RC at 20 kHz delays a band-limited pulse by under half a sample.
+    expect(json.latencySamples).toBe(DELAY);
+    expect(json.referenceHz).toBe(1000);
+    // From --from to --to, at most 1/12 octave apart.
+    const f = json.response.map((p: { frequencyHz: number }) => p.frequencyHz);
+    expect(f[0]).toBe(20);
+    expect(f.at(-1)).toBe(20000);
+    for (let i = 1; i < f.length; i++) expect(Math.log2(f[i] / f[i - 1])).toBeLessThanOrEqual(1 / 12 + 1e-12);
+    // |H| = 1/√(1 + (f/fc)²) relative to 1 kHz and ∠H = −atan(f/fc) (first-order RC, any circuits textbook).
+    const h = rcLowPass(CORNER_HZ);
+    for (const p of json.response.filter((_: unknown, i: number) => i % 10 === 0 || i === f.length - 1)) {
+      expect(Math.abs(p.levelDb - 20 * Math.log10(magnitude(h(p.frequencyHz)) / magnitude(h(1000))))).toBeLessThan(0.05);
+      expect(Math.abs(p.phaseDeg - phaseDeg(h(p.frequencyHz)))).toBeLessThan(0.5);
+    }
+    // At 20 kHz the RC is 3 dB down and 45° behind.
+    expect(json.response.at(-1).levelDb).toBeCloseTo(-3.01, 1);
+    expect(json.response.at(-1).phaseDeg).toBeCloseTo(-45, 0);
+    // A linear filter makes no harmonics: H2 to H5 are all read (the sweep is long enough) and lie at the floor.
+    expect(json.harmonics.map((s: { order: number }) => s.order)).toEqual([2, 3, 4, 5]);
+    for (const s of json.harmonics) for (const p of s.points) expect(p.levelDbc).toBeLessThan(-90);
+  });
+
+  it('without --json prints a readable table with the latency', () => {
+    const result = run('response', captureFile, ...SPEC, '--channel', '1');
+    expect(result.status).toBe(0);
+    expect(result.stdout).toMatch(new RegExp(`latency\\s+${DELAY} samples`));
+    expect(result.stdout).toMatch(/frequency Hz\s+level dB\s+phase °\s+H2 dBc\s+H3 dBc\s+H4 dBc\s+H5 dBc/);
+  });
+
+  it.each([
+    ['a capture at another rate', 'rate44k.wav', ['--channel', '0'], /recorded at 44100 Hz, but the sweep was made at --rate 48000 Hz/],
+    ['noise instead of the sweep', 'noise.wav', [], /does not hold the sweep clearly/],
+    ['a channel that does not exist', 'sweep.wav', ['--channel', '2'], /has 1 channel\(s\); --channel 2 does not exist/],
+    ['a reference outside the range', 'sweep.wav', ['--reference-hz', '30000'], /--reference-hz must lie between --from and --to/],
+    ['a missing file', 'missing.wav', [], /missing\.wav: cannot be read \(ENOENT\)/],
+  ])('response refuses %s with one line and status 1', (_what, name, extra, message) => {
+    writeFileSync(join(files.path, 'rate44k.wav'), encodeWavFloat32([logSweep({ ...spec, sampleRateHz: 44100 })], 44100));
+    const noise = gaussian(seededRandom(11));
+    writeFileSync(join(files.path, 'noise.wav'), encodeWavFloat32([Float64Array.from({ length: 48000 * 4 }, () => 0.05 * noise())], 48000));
+    const result = run('response', join(files.path, name), ...SPEC, ...extra);
+    expect(result.status).toBe(1);
+    expect(result.stdout).toBe('');
+    expect(result.stderr.trim().split('\n')).toHaveLength(1);
+    expect(result.stderr).toMatch(message);
+  });
+
+  it('response refuses a capture of another sweep than the one described (a mistyped --from)', () => {
+    const result = run('response', captureFile, '--from', '21', ...SPEC.slice(2), '--channel', '1');
+    expect(result.status).toBe(1);
+    expect(result.stdout).toBe('');
+    expect(result.stderr.trim().split('\n')).toHaveLength(1);
+    expect(result.stderr).toMatch(/does not follow this sweep/);
+  });
+
+  it.each([
+    ['no --seconds', ['--from', '20', '--to', '20000', '--rate', '48000', '--level-dbfs', '-6'], /sweep needs --seconds/],
+    ['an end above Nyquist', ['--from', '20', '--to', '30000', '--seconds', '3', '--rate', '48000', '--level-dbfs', '-6'], /below Nyquist \(24000 Hz\)/],
+    ['a level above full scale', ['--from', '20', '--to', '20000', '--seconds', '3', '--rate', '48000', '--level-dbfs', '3'], /--level-dbfs must be a level in dBFS from -120 to 0/],
+    ['an exponent', ['--from', '2e1', '--to', '20000', '--seconds', '3', '--rate', '48000', '--level-dbfs', '-6'], /--from must be a frequency in Hz above 0 \(a plain decimal\)/],
+    ['a start above the end', ['--from', '2000', '--to', '200', '--seconds', '3', '--rate', '48000', '--level-dbfs', '-6'], /must end above its start/],
+    ['an unknown option', [...SPEC, '--shape', 'linear'], /Unknown option '--shape'/],
+  ])('sweep refuses %s with one line and status 1', (_what, args, message) => {
+    const result = run('sweep', '--write', join(files.path, 'never.wav'), ...args);
+    expect(result.status).toBe(1);
+    expect(result.stdout).toBe('');
+    expect(result.stderr.trim().split('\n')).toHaveLength(1);
+    expect(result.stderr).toMatch(message);
+  });
+
+  it('sweep without --write says so', () => {
+    const result = run('sweep', ...SPEC);
+    expect(result.status).toBe(1);
+    expect(result.stderr).toMatch(/sweep needs --write OUT\.wav/);
   });
 });
