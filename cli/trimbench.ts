@@ -8,6 +8,7 @@
 //   npm run -s cli -- procedure check FILE.json
 //   npm run -s cli -- sheet --data DIR --run N [--json]
 //   npm run -s cli -- demo-line --units N --data DIR [--seed S] [--json]
+//   npm run -s cli -- ringing FILE.csv [--channel N] [--json]
 
 import { existsSync, readFileSync } from 'node:fs';
 import { join } from 'node:path';
@@ -29,6 +30,7 @@ import { DATABASE_FILE } from '../electron/services/station.ts';
 import { DemoLineProblem, runDemoLine, type DemoLineReport } from './demo-line.ts';
 import { ExpectedFailure } from '../electron/services/expected-failure.ts';
 import { LineCallRefused } from '../shared/procedures/demo-line.ts';
+import { RINGING_USAGE, ringingCommand, RingingCommandProblem } from './ringing-command.ts';
 
 // Wider than any audio interface's full scale (about −20 to +30 dBu), so a recording from an
 // unusual chain can still be read; anything outside is a typing error.
@@ -42,6 +44,7 @@ const USAGE = `usage:
   trimbench procedure check FILE.json
   trimbench sheet --data DIR --run N [--json]
   trimbench demo-line --units N --data DIR [--seed S] [--json]
+  ${RINGING_USAGE.line}
   trimbench help
 
   analyze   offline analysis of a WAV recording (refuses non-finite samples); with
@@ -57,7 +60,8 @@ const USAGE = `usage:
             (opened for reading only: nothing in it is changed); --json prints the sheet model
   demo-line runs the demo procedure (invented MG-20) on N simulated units with a scripted
             technician and writes the runs into the station database in DIR; --seed S
-            (a whole number, default 1) picks the batch`;
+            (a whole number, default 1) picks the batch
+${RINGING_USAGE.help}`;
 
 /** A problem with the user's input: printed as one line, exit status 1. */
 class UsageProblem extends Error {}
@@ -519,6 +523,7 @@ async function main(argv: string[]): Promise<number> {
     else if (command === 'procedure') process.stdout.write(`${procedure(rest)}\n`);
     else if (command === 'sheet') process.stdout.write(`${await sheet(rest)}\n`);
     else if (command === 'demo-line') process.stdout.write(`${await demoLine(rest)}\n`);
+    else if (command === 'ringing') process.stdout.write(`${ringingCommand(rest)}\n`);
     else throw new UsageProblem(command ? `unknown command “${command}”\n${USAGE}` : USAGE);
     return 0;
   } catch (error) {
@@ -526,7 +531,7 @@ async function main(argv: string[]): Promise<number> {
       process.stderr.write(`${error.lines.join('\n')}\n`);
       return 1;
     }
-    const expected = error instanceof UsageProblem || (error as { code?: string }).code?.startsWith('ERR_PARSE_ARGS');
+    const expected = error instanceof UsageProblem || error instanceof RingingCommandProblem || (error as { code?: string }).code?.startsWith('ERR_PARSE_ARGS');
     const prefix = `trimbench ${command ?? ''}: `.replace(/^trimbench : /, 'trimbench: ');
     if (expected) {
       process.stderr.write(`${prefix}${(error as Error).message}\n`);
