@@ -10,6 +10,7 @@
 //   npm run -s cli -- demo-line --units N --data DIR [--seed S] [--json]
 //   npm run -s cli -- sweep --write OUT.wav --from HZ --to HZ --seconds S --rate HZ --level-dbfs L
 //   npm run -s cli -- response CAPTURE.wav --from HZ --to HZ --seconds S --rate HZ --level-dbfs L [--reference-hz HZ] [--channel N] [--json]
+//   npm run -s cli -- ringing FILE.csv [--channel N] [--json]
 
 import { existsSync, readFileSync } from 'node:fs';
 import { join } from 'node:path';
@@ -31,6 +32,7 @@ import { DATABASE_FILE } from '../electron/services/station.ts';
 import { DemoLineProblem, runDemoLine, type DemoLineReport } from './demo-line.ts';
 import { ExpectedFailure } from '../electron/services/expected-failure.ts';
 import { LineCallRefused } from '../shared/procedures/demo-line.ts';
+import { RINGING_USAGE, ringingCommand } from './ringing-command.ts';
 
 // Wider than any audio interface's full scale (about −20 to +30 dBu), so a recording from an
 // unusual chain can still be read; anything outside is a typing error.
@@ -45,6 +47,7 @@ const USAGE = `usage:
   trimbench sheet --data DIR --run N [--json]
   trimbench demo-line --units N --data DIR [--seed S] [--json]
 ${SWEEP_COMMANDS_USAGE}
+  ${RINGING_USAGE.line}
   trimbench help
 
   analyze   offline analysis of a WAV recording (refuses non-finite samples); with
@@ -61,7 +64,8 @@ ${SWEEP_COMMANDS_USAGE}
   demo-line runs the demo procedure (invented MG-20) on N simulated units with a scripted
             technician and writes the runs into the station database in DIR; --seed S
             (a whole number, default 1) picks the batch
-${SWEEP_COMMANDS_HELP}`;
+${SWEEP_COMMANDS_HELP}
+${RINGING_USAGE.help}`;
 
 /** Several problems with one file: printed one per line as they are, exit status 1. */
 class FileProblems extends Error {
@@ -480,6 +484,7 @@ async function main(argv: string[]): Promise<number> {
     else if (command === 'demo-line') process.stdout.write(`${await demoLine(rest)}\n`);
     else if (command === 'sweep') process.stdout.write(`${sweepCommand(rest)}\n`);
     else if (command === 'response') process.stdout.write(`${responseCommand(rest)}\n`);
+    else if (command === 'ringing') process.stdout.write(`${ringingCommand(rest)}\n`);
     else throw new UsageProblem(command ? `unknown command “${command}”\n${USAGE}` : USAGE);
     return 0;
   } catch (error) {

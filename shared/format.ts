@@ -24,3 +24,22 @@ export function asSentences(parts: readonly string[]): string {
     .map((part) => (/[.!?…][”’"')\]]*$/.test(part) ? part : `${part}.`))
     .join(' ');
 }
+
+const SI_PREFIXES: ReadonlyArray<[number, string]> = [
+  [1e9, 'G'],
+  [1e6, 'M'],
+  [1e3, 'k'],
+  [1, ''],
+  [1e-3, 'm'],
+  [1e-6, 'µ'],
+  [1e-9, 'n'],
+  [1e-12, 'p'],
+];
+
+/** A value with an SI prefix on its unit and `significant` digits: 955.1 kHz, 1.61 µs, −0.500 V. */
+export function withPrefix(value: number | null | undefined, unit: string, significant = 4): string {
+  if (value === null || value === undefined || !Number.isFinite(value)) return '—';
+  if (value === 0) return `0 ${unit}`;
+  const [factor, prefix] = SI_PREFIXES.find(([f]) => Math.abs(value) >= f * 0.9995) ?? SI_PREFIXES[SI_PREFIXES.length - 1];
+  return `${(value / factor).toPrecision(significant).replace('-', '−')} ${prefix}${unit}`;
+}

@@ -15,6 +15,8 @@ import { noCaller, onPhasorLine, openTestStation, readingWithThd, STEADY_LIVE, t
 import { encodePcm24 } from '../support/wav-files.ts';
 import { gaussian, seededRandom } from '../support/random.ts';
 import { tone } from '../support/signals.ts';
+import { scopeCsvText } from '../support/scope-csv-text.ts';
+import { scopeCapture, settlingFromFormula, squareWaveResponse, textbookOvershoot, textbookRingHz } from '../support/step-response.ts';
 import { filtered, magnitude, phaseDeg, rcLowPass } from '../support/analogue-filters.ts';
 
 const CLI = fileURLToPath(new URL('../../cli/trimbench.ts', import.meta.url));
@@ -713,5 +715,102 @@ describe('sweep and response', () => {
     const result = run('sweep', ...SPEC);
     expect(result.status).toBe(1);
     expect(result.stderr).toMatch(/sweep needs --write OUT\.wav/);
+  });
+});
+
+describe('ringing', () => {
+  // Two periods of a 20 kHz square wave through invented second-order stages (Ogata, Modern Control
+  // Engineering: overshoot exp(−ζπ/√(1−ζ²)), ringing at fn·√(1−ζ²), no overshoot for ζ ≥ 1), as an
+  // 8-bit scope with a screen of ±0.8 V records them: a 1 V step, noise of half a code.
+  const ringingStage = { zeta: 0.5, naturalHz: 2.5e6 };
+  const quietStage = { zeta: 1.5, naturalHz: 1e6 };
+  const dt = 4e-9;
+  const capture = (system: typeof ringingStage, seed: number) =>
+    scopeCapture(squareWaveResponse({ system, squareHz: 20e3, sampleIntervalS: dt, samples: 27500, lowV: -0.5, highV: 0.5, firstEdgeS: 5e-6 }), {
+      screenV: [-0.8, 0.8],
+      bits: 8,
+      noiseV: 0.5 * (1.6 / 256),
+      seed,
+    });
+  const ringing = capture(ringingStage, 21);
+  const quiet = capture(quietStage, 22);
+  const file = (name: string) => join(files.path, name);
+
+  beforeAll(() => {
+    writeFileSync(
+      file('stage.csv'),
+      scopeCsvText(-5e-6, dt, [ringing], {
+        preamble: [
+          ['Instrument', 'Bench scope (invented)'],
+          ['Record Length', '27500'],
+          ['Sample Interval', '4e-9'],
+        ],
+      }),
+    );
+    writeFileSync(file('two-channels.csv'), scopeCsvText(0, dt, [quiet, ringing], { separator: ';', decimalComma: true, header: null }));
+    const lines = scopeCsvText(-5e-6, dt, [ringing]).split('\n');
+    lines[11] = '-4.96e-06,0.5,0.7';
+    writeFileSync(file('broken.csv'), lines.join('\n'));
+    writeFileSync(file('noise.csv'), scopeCsvText(0, dt, [scopeCapture(new Float64Array(5000), { screenV: [-0.8, 0.8], bits: 8, noiseV: 0.01, seed: 23 })]));
+  });
+
+  it('--json prints exactly one object, the medians over the edges as the formulas give them', () => {
+    const result = run('ringing', file('stage.csv'), '--json');
+    expect(result.stderr).toBe('');
+    expect(result.status).toBe(0);
+    const lines = result.stdout.trim().split('\n');
+    expect(lines).toHaveLength(1);
+    const json = JSON.parse(lines[0]);
+    expect(Object.keys(json)).toEqual(['edges', 'ringFrequencyHz', 'dampingRatio', 'overshootPercent', 'settlingTimeS', 'flags']);
+    expect(json.edges).toBe(4);
+    expect(json.flags).toEqual([]);
+    // ζ = 0.5 keeps two peaks above an 8-bit scope's noise: tolerances as in tests/unit/ringing.test.ts.
+    expect(Math.abs(json.ringFrequencyHz / textbookRingHz(ringingStage) - 1)).toBeLessThan(0.03);
+    expect(Math.abs(json.dampingRatio / 0.5 - 1)).toBeLessThan(0.04);
+    expect(Math.abs(json.overshootPercent - 100 * textbookOvershoot(0.5))).toBeLessThan(0.7);
+    // Settling to ±2 % of the step from the 50 % point, found on the formula (no peak lies near 2 %).
+    expect(Math.abs(json.settlingTimeS - settlingFromFormula(ringingStage, 0.02))).toBeLessThan(4 * dt + 0.01 / textbookRingHz(ringingStage));
+  });
+
+  it('--channel N counts the voltage columns from 0: an overdamped stage on 0 gives null and no-ringing', () => {
+    const quietResult = run('ringing', file('two-channels.csv'), '--json');
+    expect(quietResult.status).toBe(0);
+    const quietJson = JSON.parse(quietResult.stdout);
+    expect(quietJson.ringFrequencyHz).toBeNull();
+    expect(quietJson.dampingRatio).toBeNull();
+    expect(quietJson.flags).toEqual(['no-ringing']);
+    expect(quietJson.overshootPercent).toBeLessThan(1);
+    const ringingJson = JSON.parse(run('ringing', file('two-channels.csv'), '--json', '--channel', '1').stdout);
+    expect(Math.abs(ringingJson.ringFrequencyHz / textbookRingHz(ringingStage) - 1)).toBeLessThan(0.03);
+  });
+
+  it('is listed in the usage', () => {
+    expect(run('help').stdout).toMatch(/^  trimbench ringing FILE\.csv \[--channel N\] \[--json\]$/m);
+  });
+
+  it('without --json, a short summary that says why the record comes from an oscilloscope', () => {
+    const result = run('ringing', file('stage.csv'));
+    expect(result.status).toBe(0);
+    expect(result.stdout).toMatch(/^ringing\s+2\.1\d\d MHz, damping ratio 0\.[45]\d\d/m);
+    expect(result.stdout).toMatch(/^edges\s+4 \(2 rising, 2 falling\)$/m);
+    expect(result.stdout).toMatch(/^settling\s+.* to within ±2 % of the step/m);
+    expect(result.stdout).toContain('An audio interface cannot see ringing at 100 kHz and above');
+    expect(result.stdout).toContain('which is why this record comes from an oscilloscope');
+  });
+
+  it.each([
+    ['a broken row', ['broken.csv'], /^trimbench ringing: \S*broken\.csv: line 12: 3 values, expected 2 \(Time, CH1\)$/],
+    ['a missing file', ['missing.csv'], /^trimbench ringing: \S*missing\.csv: cannot be read \(ENOENT\)$/],
+    ['a channel that does not exist', ['stage.csv', '--channel', '1'], /^trimbench ringing: \S*stage\.csv: has 1 voltage column \(“CH1”\); --channel 1 does not exist$/],
+    ['a channel that is not a number', ['stage.csv', '--channel', 'one'], /^trimbench ringing: --channel must be a whole number ≥ 0/],
+    ['noise and no square wave', ['noise.csv'], /^trimbench ringing: \S*noise\.csv: channel 0 \(“CH1”\): the record shows no square wave/],
+  ])('a file or option it cannot use (%s): one line naming it, nothing on stdout, status 1', (_what, args, message) => {
+    const [name, ...options] = args;
+    const result = run('ringing', name.endsWith('.csv') ? file(name) : name, ...options);
+    expect(result.status).toBe(1);
+    expect(result.stdout).toBe('');
+    const lines = result.stderr.trim().split('\n');
+    expect(lines).toHaveLength(1);
+    expect(lines[0]).toMatch(message);
   });
 });

@@ -1,0 +1,129 @@
+// Square-wave responses of a second-order system, built from the textbook step response, and a
+// scope's 8-bit capture of them. Expected ringing figures come from the same textbook formulas
+// (Ogata, Modern Control Engineering, the second-order system's transient response), never from
+// the code under test.
+
+import { gaussian, seededRandom } from './random.ts';
+
+export interface SecondOrder {
+  /** Damping ratio ζ. */
+  zeta: number;
+  /** Natural frequency fn = ωn/2π, Hz. */
+  naturalHz: number;
+}
+
+/**
+ * The unit step response at time t (0 before the step). Underdamped (Ogata):
+ * y = 1 − e^{−ζωn t}(cos ωd t + ζ/√(1−ζ²) sin ωd t), ωd = ωn√(1−ζ²). Critically damped:
+ * y = 1 − e^{−ωn t}(1 + ωn t). Overdamped, with s1,2 = ωn(ζ ± √(ζ²−1)):
+ * y = 1 + ωn/(2√(ζ²−1))·(e^{−s1 t}/s1 − e^{−s2 t}/s2).
+ */
+export function stepResponse({ zeta, naturalHz }: SecondOrder, t: number): number {
+  if (t <= 0) return 0;
+  const wn = 2 * Math.PI * naturalHz;
+  if (zeta < 1) {
+    const root = Math.sqrt(1 - zeta * zeta);
+    const wd = wn * root;
+    return 1 - Math.exp(-zeta * wn * t) * (Math.cos(wd * t) + (zeta / root) * Math.sin(wd * t));
+  }
+  if (zeta === 1) return 1 - Math.exp(-wn * t) * (1 + wn * t);
+  const root = Math.sqrt(zeta * zeta - 1);
+  const s1 = wn * (zeta + root);
+  const s2 = wn * (zeta - root);
+  return 1 + (wn / (2 * root)) * (Math.exp(-s1 * t) / s1 - Math.exp(-s2 * t) / s2);
+}
+
+/** Overshoot as a fraction of the step: exp(−ζπ/√(1−ζ²)) (Ogata). */
+export const textbookOvershoot = (zeta: number) => Math.exp((-zeta * Math.PI) / Math.sqrt(1 - zeta * zeta));
+/** The damped (ringing) frequency fd = fn·√(1−ζ²) (Ogata). */
+export const textbookRingHz = ({ zeta, naturalHz }: SecondOrder) => naturalHz * Math.sqrt(1 - zeta * zeta);
+/** The logarithmic decrement over one period, δ = 2πζ/√(1−ζ²) (Ogata). */
+export const textbookLogDecrement = (zeta: number) => (2 * Math.PI * zeta) / Math.sqrt(1 - zeta * zeta);
+
+/** The first time the step response reaches `level`, by a scan and bisection on the formula. */
+export function timeToReach(system: SecondOrder, level: number): number {
+  // A fine scan forward first: a ringing response reaches the level several times.
+  const fine = 1 / (2000 * system.naturalHz);
+  let hi = fine;
+  while (stepResponse(system, hi) < level) hi += fine;
+  let lo = hi - fine;
+  for (let k = 0; k < 200; k++) {
+    const mid = (lo + hi) / 2;
+    if (stepResponse(system, mid) < level) lo = mid;
+    else hi = mid;
+  }
+  return (lo + hi) / 2;
+}
+
+/**
+ * The textbook settling time measured from the 50 % instant: the time after which |y − 1| stays
+ * within `band`, found on the formula by a fine scan backwards from far beyond and bisection, less
+ * the time y takes to reach 0.5.
+ */
+export function settlingFromFormula(system: SecondOrder, band: number): number {
+  const outside = (t: number) => Math.abs(stepResponse(system, t) - 1) > band;
+  const fine = 1 / (2000 * system.naturalHz);
+  let t = 200 / system.naturalHz;
+  while (!outside(t)) t -= fine;
+  let lo = t;
+  let hi = t + fine;
+  for (let k = 0; k < 200; k++) {
+    const mid = (lo + hi) / 2;
+    if (outside(mid)) lo = mid;
+    else hi = mid;
+  }
+  return (lo + hi) / 2 - timeToReach(system, 0.5);
+}
+
+/** The extrema of y − 1 after the step, t = kπ/ωd (Ogata), as fractions of the step. */
+export function textbookPeaks(system: SecondOrder, count: number): number[] {
+  const wd = 2 * Math.PI * textbookRingHz(system);
+  return Array.from({ length: count }, (_, k) => stepResponse(system, ((k + 1) * Math.PI) / wd) - 1);
+}
+
+export interface SquareWaveRecord {
+  system: SecondOrder;
+  squareHz: number;
+  sampleIntervalS: number;
+  samples: number;
+  lowV: number;
+  highV: number;
+  /** Time of the first (rising) edge of the generator's square wave, from the first sample. */
+  firstEdgeS: number;
+}
+
+/** The system's response to a square wave, by superposition of step responses (linearity). */
+export function squareWaveResponse(r: SquareWaveRecord): Float64Array {
+  const out = new Float64Array(r.samples);
+  const half = 1 / (2 * r.squareHz);
+  const step = r.highV - r.lowV;
+  for (let i = 0; i < r.samples; i++) {
+    const t = i * r.sampleIntervalS;
+    let y = r.lowV;
+    for (let k = 0; r.firstEdgeS + k * half <= t; k++) {
+      y += (k % 2 === 0 ? step : -step) * stepResponse(r.system, t - r.firstEdgeS - k * half);
+    }
+    out[i] = y;
+  }
+  return out;
+}
+
+export interface ScopeCapture {
+  /** The screen's span in volts, which the ADC's codes cover; values beyond are clipped. */
+  screenV: [number, number];
+  bits: number;
+  /** RMS noise added before quantisation, volts. */
+  noiseV: number;
+  seed: number;
+}
+
+/** What a scope's ADC keeps: noise added, rounded to 2^bits codes over the screen, clipped at its edges. */
+export function scopeCapture(values: Float64Array, c: ScopeCapture): Float64Array {
+  const normal = gaussian(seededRandom(c.seed));
+  const codes = 2 ** c.bits;
+  const lsb = (c.screenV[1] - c.screenV[0]) / codes;
+  return values.map((v) => {
+    const code = Math.round((v + c.noiseV * normal() - c.screenV[0]) / lsb);
+    return c.screenV[0] + Math.min(codes - 1, Math.max(0, code)) * lsb;
+  });
+}
