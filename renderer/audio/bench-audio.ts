@@ -263,7 +263,8 @@ export class BenchAudio {
     const changed =
       command.on !== this.generatorCommand.on ||
       command.frequencyHz !== this.generatorCommand.frequencyHz ||
-      command.levelDbfs !== this.generatorCommand.levelDbfs;
+      command.levelDbfs !== this.generatorCommand.levelDbfs ||
+      (command.waveform ?? 'sine') !== (this.generatorCommand.waveform ?? 'sine');
     this.generatorCommand = command;
     if (this.device) this.device.generator.port.postMessage(command);
     else this.worker.postMessage({ type: 'demo-stimulus', setting: command } satisfies ToWorker);

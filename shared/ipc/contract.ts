@@ -334,7 +334,13 @@ measurementSchema satisfies z.ZodType<Measurement>;
 
 /** The generator as it was when the reading was taken (the page holds it; main judges it). */
 const stimulusSettingSchema = z
-  .object({ on: z.boolean(), frequencyHz: finite.positive().max(200_000), levelDbfs: finite.min(-200).max(0) })
+  .object({
+    on: z.boolean(),
+    frequencyHz: finite.positive().max(200_000),
+    levelDbfs: finite.min(-200).max(0),
+    /** Absent on every setting stored before the square wave, which were all sines. */
+    waveform: z.enum(['sine', 'square']).optional(),
+  })
   .strict();
 
 /**

@@ -23,7 +23,7 @@ export const STIMULUS_LEVEL_TOLERANCE_DB = 0.01;
 
 export type { StimulusSetting };
 
-export type StimulusProblem = 'generator-off' | 'no-signal' | 'wrong-frequency' | 'level-low' | 'level-high' | 'clipping';
+export type StimulusProblem = 'generator-off' | 'not-sine' | 'no-signal' | 'wrong-frequency' | 'level-low' | 'level-high' | 'clipping';
 
 export type StimulusCheck = { ok: true } | { ok: false; problem: StimulusProblem; message: string };
 
@@ -45,6 +45,8 @@ export function checkStimulus(reading: Reading, stimulus: StimulusSetting, trim:
   if (!stimulus.on) {
     return { ok: false, problem: 'generator-off', message: 'The generator is off: turn it on to measure the unit.' };
   }
+  const notSine = whyNotSine(stimulus);
+  if (notSine) return { ok: false, problem: 'not-sine', message: notSine };
   if (reading.flags.includes('no-signal')) {
     return {
       ok: false,
@@ -100,11 +102,24 @@ export function checkStimulus(reading: Reading, stimulus: StimulusSetting, trim:
 }
 
 /**
+ * Every reading of the meter is a sine measurement: a square's odd harmonics (a third at −9.5 dB)
+ * would read as the unit's distortion, and its level is not a sine's. So a square is never the
+ * stimulus of a trim point or a check step.
+ */
+function whyNotSine(stimulus: StimulusSetting): string | null {
+  return stimulus.waveform === 'square'
+    ? 'The generator plays a square wave: this measurement needs a sine. Set the generator to sine.'
+    : null;
+}
+
+/**
  * The generator's setting against the procedure: on, at the procedure's level, and no further from
  * its frequency than a planned coherent frequency may be. Null when it is the procedure's stimulus.
  */
 export function checkStimulusSetting(stimulus: StimulusSetting, trim: Pick<Procedure['trim'], 'stimulusHz' | 'stimulusLevelDbfs'>): string | null {
   if (!stimulus.on) return 'The generator is off: turn it on to measure the unit.';
+  const notSine = whyNotSine(stimulus);
+  if (notSine) return notSine;
   const offPercent = (100 * Math.abs(stimulus.frequencyHz - trim.stimulusHz)) / trim.stimulusHz;
   if (!(offPercent <= PLANNED_FREQUENCY_TOLERANCE_PERCENT)) {
     return (

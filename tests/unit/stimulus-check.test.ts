@@ -42,6 +42,16 @@ describe('checkStimulus on the demo bench', () => {
     });
   }
 
+  it('refuses a reading taken with the generator playing a square wave: the meter reads sines (a square’s third harmonic at 1/3, −9.5 dB, would read as distortion; Fourier series of a square)', () => {
+    const reading = demoReadingAt(4.75);
+    expect(checkStimulus(reading, STIMULUS, TRIM).ok).toBe(true);
+    const square = { ...STIMULUS, waveform: 'square' as const };
+    const check = checkStimulus(reading, square, TRIM);
+    expect(check.ok ? null : check.problem).toBe('not-sine');
+    expect(checkStimulusSetting(square, TRIM)).toMatch(/square wave.*needs a sine/);
+    expect(checkStimulusSetting({ ...STIMULUS, waveform: 'sine' }, TRIM)).toBeNull();
+  });
+
   it('refuses the unit’s answer with the generator off, whatever the capture shows', () => {
     const check = checkStimulus(demoReadingAt(0), { ...STIMULUS, on: false }, TRIM);
     expect(check).toMatchObject({ ok: false, problem: 'generator-off' });
