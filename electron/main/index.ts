@@ -82,6 +82,12 @@ function callerContext(sender: WebContents): CallerContext {
       const chosen = window ? await dialog.showOpenDialog(window, options) : await dialog.showOpenDialog(options);
       return chosen.canceled || chosen.filePaths.length === 0 ? null : chosen.filePaths[0];
     },
+    chooseScopeCapture: async () => {
+      const window = BrowserWindow.fromWebContents(sender);
+      const options = { title: 'Attach a scope capture', filters: [{ name: 'Oscilloscope record (CSV)', extensions: ['csv', 'txt'] }], properties: ['openFile' as const] };
+      const chosen = window ? await dialog.showOpenDialog(window, options) : await dialog.showOpenDialog(options);
+      return chosen.canceled || chosen.filePaths.length === 0 ? null : chosen.filePaths[0];
+    },
   };
 }
 

@@ -8,6 +8,7 @@ import { z } from 'zod';
 import { IPC_CHANNELS, type IpcChannel } from '../../shared/ipc/channels.ts';
 import { contract, type IpcResponse, type IpcResult } from '../../shared/ipc/contract.ts';
 import type { ErrorLog } from './error-log.ts';
+import { SCOPE_FILE_MAX_BYTES } from '../../shared/procedures/ringing.ts';
 import { ExpectedFailure } from './expected-failure.ts';
 import type { Calibrations } from './calibrations.ts';
 import type { RecordsRepository } from './records-repository.ts';
@@ -21,6 +22,11 @@ export interface CallerContext {
   print(): Promise<boolean>;
   /** Asks the technician for a procedure file to import (main's own file dialog); null when cancelled. */
   chooseProcedureFile(): Promise<string | null>;
+  /**
+   * Asks the technician for an oscilloscope's CSV export (main's own file dialog); null when
+   * cancelled. Absent where there is no dialog to show (the command line, the headless line).
+   */
+  chooseScopeCapture?(): Promise<string | null>;
 }
 
 export interface Services {
@@ -59,6 +65,13 @@ export function createHandlers({ records, sheets, calibrations, settings, statio
     acknowledgeNotice: (request) => records.acknowledgeNotice(request),
     completeTrim: (request) => records.completeTrim(request),
     recordCheckStep: (request) => records.recordCheckStep(request),
+    attachScopeCapture: async (request, caller) => {
+      if (!caller.chooseScopeCapture) throw new ExpectedFailure('A scope capture is attached from the Trimbench window, where a file can be chosen.');
+      const path = await caller.chooseScopeCapture();
+      if (path === null) return { outcome: 'cancelled' as const, detail: await records.getRun(request.runId) };
+      const text = readBoundedText(path, SCOPE_FILE_MAX_BYTES, 'a scope record', 'Export fewer points (a few periods of the square wave are enough) and attach that file.');
+      return { outcome: 'recorded' as const, detail: await records.recordRingingStep({ ...request, text, fileName: basename(path) }) };
+    },
     finishRun: (request) => records.finishRun(request),
     saveSheetPdf: async ({ runId }, caller) => sheets.savePdf(runId, () => caller.printToPdf()),
     printSheet: async ({ runId }, caller) => {
@@ -83,7 +96,7 @@ export function createHandlers({ records, sheets, calibrations, settings, statio
     importProcedure: async (_request, caller) => {
       const path = await caller.chooseProcedureFile();
       if (path === null) return { outcome: 'cancelled' as const, code: null, revision: null, summary: null };
-      return records.importProcedure(readProcedureText(path), basename(path));
+      return records.importProcedure(readBoundedText(path, PROCEDURE_FILE_MAX_BYTES, 'a procedure file', "Choose the procedure's JSON file."), basename(path));
     },
   };
 }
@@ -91,17 +104,22 @@ export function createHandlers({ records, sheets, calibrations, settings, statio
 /** A procedure file is a few kilobytes; anything far larger is not one, and is not read whole. */
 const PROCEDURE_FILE_MAX_BYTES = 512 * 1024;
 
-function readProcedureText(path: string): string {
+/** A file the technician chose, read as text only when it is no larger than `maxBytes`. */
+function readBoundedText(path: string, maxBytes: number, what: string, whatToDo: string): string {
   let size: number;
   try {
     size = statSync(path).size;
   } catch (error) {
     throw new ExpectedFailure(`${path} cannot be read (${(error as NodeJS.ErrnoException).code ?? 'unknown error'}). Choose the file again.`);
   }
-  if (size > PROCEDURE_FILE_MAX_BYTES) {
-    throw new ExpectedFailure(`${basename(path)} is ${(size / 1024).toFixed(0)} KiB, too large for a procedure file (at most 512 KiB). Choose the procedure's JSON file.`);
+  if (size > maxBytes) {
+    throw new ExpectedFailure(`${basename(path)} is ${(size / 1024).toFixed(0)} KiB, too large for ${what} (at most ${(maxBytes / 1024).toFixed(0)} KiB). ${whatToDo}`);
   }
-  return readFileSync(path, 'utf8');
+  try {
+    return readFileSync(path, 'utf8');
+  } catch (error) {
+    throw new ExpectedFailure(`${path} cannot be read (${(error as NodeJS.ErrnoException).code ?? 'unknown error'}). Choose the file again.`);
+  }
 }
 
 const isChannel = (name: string): name is IpcChannel => (IPC_CHANNELS as readonly string[]).includes(name);
@@ -119,6 +137,7 @@ export const CHANNEL_ACTIONS: Record<IpcChannel, string> = {
   acknowledgeNotice: 'record the acknowledged notice',
   completeTrim: 'complete the trim step',
   recordCheckStep: 'record the check step',
+  attachScopeCapture: 'record the scope capture',
   finishRun: 'finish the run',
   saveSheetPdf: 'save the unit sheet as PDF',
   printSheet: 'print the unit sheet',

@@ -22,6 +22,7 @@ const OPERATIONS = [
   'acknowledgeNotice',
   'completeTrim',
   'recordCheckStep',
+  'recordRingingStep',
   'finishRun',
   'setSheetPath',
 ] as const satisfies readonly (keyof Records)[];

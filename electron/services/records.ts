@@ -8,6 +8,7 @@ import {
   readingSchema,
   runDetailSchema,
   stepResultSchema,
+  scopeRecordSchema,
   trimAssessmentSchema,
   warmCheckSchema,
   type Run,
@@ -23,6 +24,7 @@ import type { StationSettings } from '../../shared/calibration/station-settings.
 import { asSentences } from '../../shared/format.ts';
 import { procedureSchema, type Procedure } from '../../shared/procedures/procedure.ts';
 import { checkProcedureFile, procedureFileSchema, upgradeProcedure, type ProcedureFile, type ProcedureStep } from '../../shared/procedures/procedure-file.ts';
+import { judgeScopeRecord } from '../../shared/procedures/ringing.ts';
 import { isCheckStep, judgeLimit, measureCheckStep, measurement, runLevels, type Measurement } from '../../shared/procedures/check-steps.ts';
 import { judgeUnit, laterStepResult } from '../../shared/procedures/unit-verdict.ts';
 import { quantityLabel } from '../../shared/procedures/step-text.ts';
@@ -522,6 +524,8 @@ export function createRecords(
         reasons: fromStoredJson(row.reasons_json, reasonsSchema, what),
         measurements: byResult.get(row.id) ?? [],
         stimulus: row.stimulus_json === null ? null : fromStoredJson(row.stimulus_json, stepStimulusSchema, what),
+        // A ringing step keeps its scope record where a check keeps its readings.
+        scopeRecord: row.kind === 'ringing' && row.readings_json !== null ? fromStoredJson(row.readings_json, scopeRecordSchema, what) : null,
       });
       if (!parsed.success) throw new UnreadableRecord(what, `does not validate at ${parsed.error.issues[0]?.path.join('.') || '(root)'}`);
       const whyNot = whyVerdictNotBorneOut(parsed.data);
@@ -537,7 +541,7 @@ export function createRecords(
    * may be repeated. A run started before steps were recorded (an older Trimbench) has no results,
    * so it walks from step 1 like a new one.
    */
-  function stepToRecord(row: RunRow, stepId: string, wanted: 'notice' | 'trim' | 'check'): ProcedureStep {
+  function stepToRecord(row: RunRow, stepId: string, wanted: 'notice' | 'trim' | 'check' | 'ringing'): ProcedureStep {
     const file = runProcedureFile(row);
     const step = file.steps.find((s) => s.id === stepId);
     if (!step) throw new ExpectedFailure(`Step “${stepId}” is not in procedure ${file.code} revision ${file.revision}, which run ${row.id} follows.`);
@@ -1238,6 +1242,24 @@ export function createRecords(
         if (!outcome.ok) throw new ExpectedFailure(`Step “${step.id}” was not recorded. ${outcome.refusal}`);
         const { verdict, reasons, measurements } = outcome.result;
         storeStepResult(row.id, step, { verdict, reasons, measurements, stimulus: request.stimulus, readings: request.readings });
+        return runDetail(row.id);
+      }).immediate();
+    },
+
+    /**
+     * A ringing step judged from the scope file main read (`text`, named `fileName`): read, analysed
+     * and judged here against the stored revision's limits (judgeScopeRecord). A file that cannot
+     * be read or judged, or a record of another square wave, is refused and nothing is stored.
+     */
+    recordRingingStep(request: { runId: number; stepId: string; text: string; fileName: string }): RunDetail {
+      refuseUnlessWritable();
+      const row = openRunRow(request.runId, (id) => `Run ${id} is finished; its steps can no longer be recorded.`);
+      return db.transaction(() => {
+        const step = stepToRecord(row, request.stepId, 'ringing');
+        if (step.kind !== 'ringing') throw new ExpectedFailure(`Step “${step.id}” is not a ringing step.`);
+        const outcome = judgeScopeRecord(step, request.text, request.fileName);
+        if (!outcome.ok) throw new ExpectedFailure(`Step “${step.id}” was not recorded. ${outcome.refusal}`);
+        storeStepResult(row.id, step, { verdict: outcome.verdict, reasons: outcome.reasons, measurements: outcome.measurements, stimulus: null, readings: outcome.record });
         return runDetail(row.id);
       }).immediate();
     },

@@ -8,6 +8,8 @@ import { procedureSchema } from '../procedures/procedure.ts';
 import { procedureFileSchema, STEP_KINDS } from '../procedures/procedure-file.ts';
 import type { Measurement } from '../procedures/check-steps.ts';
 import type { UnitJudgement } from '../procedures/unit-verdict.ts';
+import { EDGE_PLOT_MAX_POINTS, type ScopeRecordSummary } from '../procedures/ringing.ts';
+import { RINGING_FLAGS } from '../scope/ringing.ts';
 import type { IpcChannel } from './channels.ts';
 import { plainText } from './plain-text.ts';
 import {
@@ -344,6 +346,30 @@ const stimulusSettingSchema = z
   .strict();
 
 /**
+ * What a ringing step stores beside its measurements: the scope file it was judged from and one edge
+ * with its fitted envelope for the plot (shared/procedures/ringing.ts). Bounded as stored by main.
+ */
+export const scopeRecordSchema = z.object({
+  fileName: z.string().max(260),
+  channel: z.number().int().nonnegative(),
+  channelName: z.string().max(200),
+  edges: z.number().int().nonnegative(),
+  squareHz: finite.positive(),
+  sampleIntervalS: finite.positive(),
+  flags: z.array(z.enum(RINGING_FLAGS)).max(RINGING_FLAGS.length),
+  plot: z.object({
+    polarity: z.enum(['rising', 'falling']),
+    timeS: z.array(finite).max(EDGE_PLOT_MAX_POINTS),
+    values: z.array(finite).max(EDGE_PLOT_MAX_POINTS),
+    unit: z.string().max(40),
+    finalLevelV: finite,
+    stepV: finite,
+    envelope: z.object({ amplitudePercent: finite, decayPerS: finite }).nullable(),
+  }),
+});
+scopeRecordSchema satisfies z.ZodType<ScopeRecordSummary>;
+
+/**
  * One recorded result of a procedure step in a run: an acknowledged notice, the trim as judged when
  * the technician completed it, or a check step's measurements. A step repeated before the run is
  * finished has several; the latest counts (unit-verdict.ts).
@@ -361,6 +387,8 @@ export const stepResultSchema = z.object({
   measurements: z.array(measurementSchema),
   /** The generator while a check step was measured; null for a notice and the trim. */
   stimulus: stimulusSettingSchema.nullable(),
+  /** For a ringing step: the scope record it was judged from; absent or null otherwise. */
+  scopeRecord: scopeRecordSchema.nullable().optional(),
 });
 
 export const unitJudgementSchema = z.object({
@@ -520,6 +548,14 @@ export const contract = {
       })
       .strict(),
     response: runDetailSchema,
+  },
+  /**
+   * A ringing step: main asks for the scope's CSV file in its own dialog, reads it, and judges it
+   * against the stored revision's limits (shared/procedures/ringing.ts). The page sends no figures.
+   */
+  attachScopeCapture: {
+    request: stepRef,
+    response: z.object({ outcome: z.enum(['recorded', 'cancelled']), detail: runDetailSchema }),
   },
   finishRun: {
     request: z.object({ runId: rowId, asFailure: z.boolean().optional() }).strict(),

@@ -13,6 +13,7 @@ import { whyReadingInconsistent, thdDbFromHarmonics } from '../records/reading-c
 import { whyNotRecordable } from '../records/stimulus-check.ts';
 import type { Verdict } from '../records/verdict.ts';
 import type { CheckStep, Limit, ProcedureStep } from './procedure-file.ts';
+import { isUnsignedUnit, quantityDecimals, valueText } from './step-text.ts';
 import { inputDbuAtFullScaleFor, type AudioSetup, type CalibrationUsed } from '../calibration/station-calibration.ts';
 
 // One verdict type for the trim and the checks, so a step result is judged alike wherever it comes from.
@@ -98,15 +99,21 @@ export function measurement(quantity: string, value: number | null, limit: Limit
 /** "−52.0 dBc is above the high limit of −55 dBc" and the like, for a step's reasons. */
 function whyOutside(m: Measurement, label: string): string {
   if (m.value === null) return `${label} was not measured${m.note ? `: ${m.note}` : '.'}`;
-  const value = `${round(m.value)} ${m.unit}`;
-  if (m.high !== null && m.value > m.high) return `${label} ${value} is above the high limit of ${round(m.high)} ${m.unit}.`;
-  if (m.low !== null && m.value < m.low) return `${label} ${value} is below the low limit of ${round(m.low)} ${m.unit}.`;
+  const text = (v: number) => (isUnsignedUnit(m.unit) ? valueText(v, m.unit, quantityDecimals(m.quantity)) : `${round(v)} ${m.unit}`);
+  const value = text(m.value);
+  if (m.high !== null && m.value > m.high) return `${label} ${value} is above the high limit of ${text(m.high)}.`;
+  if (m.low !== null && m.value < m.low) return `${label} ${value} is below the low limit of ${text(m.low)}.`;
   return `${label} ${value} is outside its limits.`;
 }
 
-function result(step: CheckStep, measured: { m: Measurement; label: string }[]): CheckResult {
+/** A step passes exactly when every measurement does; each failing one gives its reason. */
+export function verdictOf(measured: readonly { m: Measurement; label: string }[]): { verdict: Verdict; reasons: string[] } {
   const reasons = measured.filter(({ m }) => m.verdict === 'fail').map(({ m, label }) => whyOutside(m, label));
-  return { stepId: step.id, kind: step.kind, verdict: reasons.length === 0 ? 'pass' : 'fail', measurements: measured.map(({ m }) => m), reasons };
+  return { verdict: reasons.length === 0 && measured.length > 0 ? 'pass' : 'fail', reasons };
+}
+
+function result(step: CheckStep, measured: { m: Measurement; label: string }[]): CheckResult {
+  return { stepId: step.id, kind: step.kind, ...verdictOf(measured), measurements: measured.map(({ m }) => m) };
 }
 
 // ---- the level of harmonic n -------------------------------------------------------------------
@@ -166,27 +173,37 @@ type StimulusStep = Exclude<CheckStep, { kind: 'noise' | 'hum' }>;
  */
 export function generatorFor(step: CheckStep, levels: StationLevels | null): GeneratorOutcome {
   if (step.kind === 'noise' || step.kind === 'hum') return { ok: true, request: { on: false } };
-  const level = step.level;
-  if (level.unit === 'dBFS') {
-    return {
-      ok: true,
-      request: { on: true, frequencyHz: step.frequencyHz, levelDbfs: level.value, levelDbu: levels ? level.value + levels.outputDbuAtFullScale : null },
-    };
-  }
+  const played = playedLevel(step.id, step.level, levels, 0);
+  if (!played.ok) return played;
+  return { ok: true, request: { on: true, frequencyHz: step.frequencyHz, levelDbfs: played.levelDbfs, levelDbu: played.levelDbu } };
+}
+
+/**
+ * A step's level as the generator plays it: dBFS as written, or dBu converted with the output
+ * calibration (dBFS = dBu − the output's dBu at full scale). A dBu level on an uncalibrated station,
+ * or one above `ceilingDbfs` (full scale for a sine, lower for a square), is refused.
+ */
+export function playedLevel(
+  stepId: string,
+  level: { value: number; unit: 'dBFS' | 'dBu' },
+  levels: StationLevels | null,
+  ceilingDbfs: number,
+): { ok: true; levelDbfs: number; levelDbu: number | null } | { ok: false; refusal: string } {
+  if (level.unit === 'dBFS') return { ok: true, levelDbfs: level.value, levelDbu: levels ? level.value + levels.outputDbuAtFullScale : null };
   if (!levels) {
     return {
       ok: false,
-      refusal: `Step “${step.id}” plays ${round(level.value)} dBu, and this station has no calibration that holds: calibrate it in Station settings, then run the step.`,
+      refusal: `Step “${stepId}” plays ${round(level.value)} dBu, and this station has no calibration that holds: calibrate it in Station settings, then run the step.`,
     };
   }
   const levelDbfs = level.value - levels.outputDbuAtFullScale;
-  if (levelDbfs > 0) {
+  if (levelDbfs > ceilingDbfs) {
     return {
       ok: false,
-      refusal: `Step “${step.id}” plays ${round(level.value)} dBu, above the ${round(levels.outputDbuAtFullScale)} dBu this station's output reaches at full scale: use an interface with more output level.`,
+      refusal: `Step “${stepId}” plays ${round(level.value)} dBu, above the ${round(levels.outputDbuAtFullScale + ceilingDbfs)} dBu this station's output reaches${ceilingDbfs < 0 ? ' with this waveform' : ' at full scale'}: use an interface with more output level.`,
     };
   }
-  return { ok: true, request: { on: true, frequencyHz: step.frequencyHz, levelDbfs, levelDbu: level.value } };
+  return { ok: true, levelDbfs, levelDbu: level.value };
 }
 
 /** Why the step cannot be run on this station at all, or null when it can. */
@@ -552,7 +569,10 @@ function twoChannel(step: Extract<CheckStep, { kind: 'balance' | 'crosstalk' }>,
   return { ok: true, result: result(step, [{ m: measurement(quantity, b - a, limit, note), label }]) };
 }
 
-/** Check steps are the kinds with limits; notice and trim are judged elsewhere. */
+/**
+ * Check steps are the kinds judged from the meter's readings (recordCheckStep); notice and trim are
+ * judged elsewhere, and ringing from a scope record (ringing.ts).
+ */
 export function isCheckStep(step: ProcedureStep): step is CheckStep {
-  return step.kind !== 'notice' && step.kind !== 'trim';
+  return step.kind !== 'notice' && step.kind !== 'trim' && step.kind !== 'ringing';
 }

@@ -153,7 +153,8 @@ async function trimUnit(bench: HeadlessBench, planned: PlannedStep, procedure: P
 
 async function checkStep(bench: HeadlessBench, planned: PlannedStep, procedure: ProcedureFile, runId: number, call: LineCalls, station: LineStation): Promise<RunDetail> {
   const step = procedure.steps[planned.index];
-  if (planned.needs.kind !== 'measure' || step.kind === 'notice' || step.kind === 'trim') throw new Error(`step ${planned.stepId} is not a check step`);
+  if (planned.needs.kind === 'scope') throw new LineCallRefused('attachScopeCapture', `Step “${planned.stepId}” needs an oscilloscope record, which the headless line has no way to take.`);
+  if (planned.needs.kind !== 'measure' || step.kind === 'notice' || step.kind === 'trim' || step.kind === 'ringing') throw new Error(`step ${planned.stepId} is not a check step`);
   if (!planned.needs.generator) throw new LineCallRefused('recordCheckStep', `Step “${planned.stepId}” cannot be run on this station.`);
   if (planned.needs.readings.length !== 1) throw new LineCallRefused('recordCheckStep', `Step “${planned.stepId}” needs two channels; the demo unit has one.`);
   const stimulus = generatorOf(plannedStimulus(planned.needs.generator, { sampleRateHz: station.sampleRateHz, mainsHz: station.mainsHz, harmonicCount: HARMONIC_COUNT }));

@@ -9,6 +9,7 @@
 import { z } from 'zod';
 import { PROCEDURE_SCHEMA_VERSION as SCHEMA_1, procedureSchema as schema1, type Procedure as ProcedureV1 } from './procedure.ts';
 import { joinPath, readJsonText } from './json-text.ts';
+import { SQUARE_MAX_LEVEL_DBFS } from '../dsp/square-wave.ts';
 
 export const PROCEDURE_FILE_SCHEMA_VERSION = 2;
 
@@ -27,10 +28,19 @@ export const PROCEDURE_RANGES = {
   // Noise and hum below −160 dBu are under the thermal noise of any source; above +30 dBu is not noise.
   noiseDbu: { min: -160, max: 30 },
   trimPosition: { min: -1000, max: 1000 },
+  // Ringing after a square wave's edge: a transformer output stage rings from tens of kHz (its
+  // leakage resonance) to a few MHz; a scope record of it covers microseconds to milliseconds.
+  ringFrequencyHz: { min: 1_000, max: 100_000_000 },
+  // The damping ratio of a ringing (underdamped) response lies between 0 and 1.
+  dampingRatio: { min: 0, max: 1 },
+  overshootPercent: { min: 0, max: 100 },
+  settlingTimeS: { min: 0, max: 1 },
+  // A scope exports a handful of channels; the voltage columns are counted from 0.
+  scopeChannel: { min: 0, max: 15 },
   channels: { min: 1, max: 16 },
 } as const;
 
-export const STEP_KINDS = ['notice', 'trim', 'distortion', 'gain', 'noise', 'hum', 'balance', 'crosstalk'] as const;
+export const STEP_KINDS = ['notice', 'trim', 'distortion', 'gain', 'noise', 'hum', 'balance', 'crosstalk', 'ringing'] as const;
 export type StepKind = (typeof STEP_KINDS)[number];
 export const CHECK_KINDS = ['distortion', 'gain', 'noise', 'hum', 'balance', 'crosstalk'] as const satisfies readonly StepKind[];
 /** Kinds that compare two of the unit's channels. */
@@ -198,6 +208,32 @@ export const crosstalkStepSchema = z.strictObject({
   onFail,
 });
 
+/**
+ * Square-wave ringing from an oscilloscope record (shared/procedures/ringing.ts judges it). The level
+ * sets the square's flat top as the peak of a sine at that level; the square's edges keep inside full
+ * scale only up to SQUARE_MAX_LEVEL_DBFS.
+ */
+export const ringingStepSchema = z.strictObject({
+  ...stepBase,
+  kind: z.literal('ringing'),
+  squareHz: inRange({ min: 20, max: 48_000 }, 'Hz'),
+  level: level.refine((l) => l.unit !== 'dBFS' || l.value <= SQUARE_MAX_LEVEL_DBFS, {
+    message: `a square wave's level must be at most ${SQUARE_MAX_LEVEL_DBFS.toFixed(1)} dBFS (its edges' overshoot reaches full scale there)`,
+    path: ['value'],
+  }),
+  /** The scope's voltage column holding the unit's output, counted from 0 as the ringing command counts them. */
+  channel: z.number().int('must be a whole number').min(PROCEDURE_RANGES.scopeChannel.min, 'voltage columns are counted from 0').max(PROCEDURE_RANGES.scopeChannel.max, `must be at most ${PROCEDURE_RANGES.scopeChannel.max}`),
+  limits: z
+    .strictObject({
+      ringFrequencyHz: limit('Hz', PROCEDURE_RANGES.ringFrequencyHz).optional(),
+      dampingRatio: limit('ratio', PROCEDURE_RANGES.dampingRatio).optional(),
+      overshootPercent: limit('%', PROCEDURE_RANGES.overshootPercent).optional(),
+      settlingTimeS: limit('s', PROCEDURE_RANGES.settlingTimeS).optional(),
+    })
+    .refine(atLeastOneLimit, 'needs at least one of ringFrequencyHz, dampingRatio, overshootPercent or settlingTimeS'),
+  onFail,
+});
+
 const stepSchemas = {
   notice: noticeStepSchema,
   trim: trimStepSchema,
@@ -207,6 +243,7 @@ const stepSchemas = {
   hum: humStepSchema,
   balance: balanceStepSchema,
   crosstalk: crosstalkStepSchema,
+  ringing: ringingStepSchema,
 } as const;
 
 export const procedureStepSchema = z.discriminatedUnion('kind', [
@@ -218,6 +255,7 @@ export const procedureStepSchema = z.discriminatedUnion('kind', [
   humStepSchema,
   balanceStepSchema,
   crosstalkStepSchema,
+  ringingStepSchema,
 ]);
 
 export const procedureFileSchema = z.strictObject({
@@ -246,6 +284,7 @@ export const procedureFileSchema = z.strictObject({
 export type ProcedureFile = z.infer<typeof procedureFileSchema>;
 export type ProcedureStep = ProcedureFile['steps'][number];
 export type CheckStep = Extract<ProcedureStep, { kind: (typeof CHECK_KINDS)[number] }>;
+export type RingingStep = Extract<ProcedureStep, { kind: 'ringing' }>;
 export type ProcedureProblem = { path: string; message: string };
 export type ProcedureCheck = { ok: true; procedure: ProcedureFile; summary: string } | { ok: false; problems: ProcedureProblem[] };
 

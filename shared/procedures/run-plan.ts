@@ -7,6 +7,7 @@ import type { StimulusSetting } from '../dsp/sine-source.ts';
 import { NoCoherentFrequency, planTestFrequency } from '../measurement/frequency-planner.ts';
 import { generatorFor, whyStepCannotRun, type GeneratorRequest, type StationLevels } from './check-steps.ts';
 import type { ProcedureFile, ProcedureStep } from './procedure-file.ts';
+import { ringingStimulus } from './ringing.ts';
 
 export type StepNeeds =
   | { kind: 'acknowledge'; acknowledgement: string }
@@ -26,6 +27,13 @@ export type StepNeeds =
       inputTermination: string | null;
       /** For noise: the band and weighting the meter must measure over; null otherwise. */
       band: { lowHz: number; highHz: number; weighting: 'unweighted' | 'A' } | null;
+    }
+  | {
+      kind: 'scope';
+      /** The square wave to play while the technician captures the unit's output; null when it cannot be played here (see `blocked`). */
+      generator: StimulusSetting | null;
+      /** The scope's voltage column the step reads, counted from 0. */
+      channel: number;
     };
 
 export interface PlannedStep {
@@ -55,6 +63,15 @@ export function runPlan(procedure: Pick<ProcedureFile, 'steps'>, levels: Station
           needs: { kind: 'trim', generator: { on: true, frequencyHz: step.stimulusHz, levelDbfs: step.stimulusLevelDbfs }, limitThdDb: step.limitThdDb },
           blocked: null,
         };
+      case 'ringing': {
+        const square = ringingStimulus(step, levels);
+        return {
+          ...base,
+          onFail: step.onFail,
+          needs: { kind: 'scope', generator: square.ok ? square.stimulus : null, channel: step.channel },
+          blocked: square.ok ? null : square.refusal,
+        };
+      }
       default: {
         const generator = generatorFor(step, levels);
         const twoChannels = step.kind === 'balance' || step.kind === 'crosstalk';
@@ -96,6 +113,7 @@ export function generatorWanted(step: Pick<PlannedStep, 'needs'> | null): boolea
     case 'trim':
       return true;
     case 'measure':
+    case 'scope':
       return step.needs.generator ? step.needs.generator.on : null;
   }
 }

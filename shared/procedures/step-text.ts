@@ -2,7 +2,7 @@
 // sheet and in the procedures view. Limits are inclusive (docs/procedures.md), so a bound is
 // written ≤ or ≥, and a two-sided limit as a range.
 
-import { fixed } from '../format.ts';
+import { fixed, withPrefix } from '../format.ts';
 import { signedFixed } from '../levels.ts';
 import type { Limit, ProcedureStep } from './procedure-file.ts';
 
@@ -14,6 +14,10 @@ const QUANTITY_LABELS: Record<string, string> = {
   humDbu: 'Hum',
   balanceDb: 'Balance',
   crosstalkDb: 'Crosstalk',
+  ringFrequencyHz: 'Ringing frequency',
+  dampingRatio: 'Damping ratio',
+  overshootPercent: 'Overshoot',
+  settlingTimeS: 'Settling time',
 };
 
 /** A measured quantity's name on the page: "thdDb" → "THD", "harmonicsDbc.H3" → "H3". */
@@ -22,15 +26,30 @@ export function quantityLabel(quantity: string): string {
   return QUANTITY_LABELS[quantity] ?? quantity;
 }
 
-/** Gain and balance limits are fractions of a dB wide: they need the hundredths. */
-export const quantityDecimals = (quantity: string): number => (quantity === 'gainDb' || quantity === 'balanceDb' ? 2 : 1);
+/** Gain and balance limits are fractions of a dB wide, a damping ratio a fraction of 1: they need the hundredths. */
+export const quantityDecimals = (quantity: string): number => (quantity === 'gainDb' || quantity === 'balanceDb' || quantity === 'dampingRatio' ? 2 : 1);
+
+/** Units whose values span decades (µs to ms, kHz to MHz): written with an SI prefix, not a sign. */
+const PREFIXED_UNITS = new Set(['s', 'Hz']);
+
+/** Quantities that are never negative (times, frequencies, percentages, ratios): written without a sign. */
+export const isUnsignedUnit = (unit: string): boolean => PREFIXED_UNITS.has(unit) || unit === '%' || unit === 'ratio';
+
+/** A value in its unit: "−52.0 dB", "0.45 ratio", "12.3 µs", "215 kHz". */
+export function valueText(value: number, unit: string, decimals: number): string {
+  if (PREFIXED_UNITS.has(unit)) return withPrefix(value, unit);
+  if (unit === '%' || unit === 'ratio') return `${fixed(value, decimals)}${unit === '%' ? ' %' : ''}`;
+  return `${signedFixed(value, decimals)} ${unit}`;
+}
 
 /** "≤ −50.0 dB", "≥ 3.0 dB", "−0.50 to +0.50 dB". */
 export function limitText(limit: { low: number | null; high: number | null; unit: string }, decimals: number): string {
-  const f = (v: number) => signedFixed(v, decimals);
-  if (limit.low !== null && limit.high !== null) return `${f(limit.low)} to ${f(limit.high)} ${limit.unit}`;
-  if (limit.high !== null) return `≤ ${f(limit.high)} ${limit.unit}`;
-  if (limit.low !== null) return `≥ ${f(limit.low)} ${limit.unit}`;
+  // Without a sign the unit goes once, at the end, as a signed range writes it.
+  const f = (v: number) => (PREFIXED_UNITS.has(limit.unit) ? withPrefix(v, limit.unit) : limit.unit === '%' || limit.unit === 'ratio' ? fixed(v, decimals) : signedFixed(v, decimals));
+  const unit = PREFIXED_UNITS.has(limit.unit) || limit.unit === 'ratio' ? '' : ` ${limit.unit}`;
+  if (limit.low !== null && limit.high !== null) return `${f(limit.low)} to ${f(limit.high)}${unit}`;
+  if (limit.high !== null) return `≤ ${f(limit.high)}${unit}`;
+  if (limit.low !== null) return `≥ ${f(limit.low)}${unit}`;
   return 'no limit';
 }
 
@@ -56,6 +75,8 @@ export function stepConditions(step: ProcedureStep): string {
       return `generator off; ${step.weighting === 'A' ? 'A-weighted' : 'unweighted'}, ${hzText(step.band.lowHz)} to ${hzText(step.band.highHz)}`;
     case 'hum':
       return `generator off; mains${step.mainsHarmonics > 1 ? ` and harmonics to the ${ordinal(step.mainsHarmonics)}` : ' fundamental'}`;
+    case 'ringing':
+      return `square wave ${hzText(step.squareHz)} at ${signedFixed(step.level.value, 1)} ${step.level.unit}; oscilloscope record, voltage column ${step.channel}`;
   }
 }
 

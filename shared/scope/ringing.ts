@@ -32,7 +32,8 @@ export interface RingingOptions {
 export const DEFAULT_RINGING_OPTIONS: Readonly<RingingOptions> = { settlingBandPercent: 2 };
 
 export type EdgeFlag = 'no-ringing' | 'not-settled' | 'noisy' | 'undersampled' | 'not-decaying';
-export type RingingFlag = EdgeFlag | 'too-few-edges' | 'irregular-edges' | 'clipped-record' | 'some-edges-without-ringing';
+export const RINGING_FLAGS = ['no-ringing', 'not-settled', 'noisy', 'undersampled', 'not-decaying', 'too-few-edges', 'irregular-edges', 'clipped-record', 'some-edges-without-ringing'] as const;
+export type RingingFlag = (typeof RINGING_FLAGS)[number];
 
 /** What each flag means and what to do about it, one sentence each, for every place that shows one. */
 export const RINGING_FLAG_TEXT: Readonly<Record<RingingFlag, string>> = {

@@ -13,7 +13,7 @@ import type { RunDetail, StepResult, StoredMeasurement, TrimPoint } from '../ipc
 import { dbuFromDbfs, formatLevel, signedFixed, type LevelCalibration } from '../levels.ts';
 import { harmonicLevel } from '../procedures/check-steps.ts';
 import type { ProcedureStep } from '../procedures/procedure-file.ts';
-import { limitText, quantityDecimals, quantityLabel, stepConditions } from '../procedures/step-text.ts';
+import { limitText, quantityDecimals, quantityLabel, stepConditions, valueText } from '../procedures/step-text.ts';
 import type { StepStatus } from '../procedures/unit-verdict.ts';
 import { describeThermalMargin } from '../trim/trim-assistant.ts';
 import { WARNING_TITLES } from '../trim/warning-titles.ts';
@@ -160,7 +160,7 @@ function sheetMeasurement(m: StoredMeasurement, notes: string[]): SheetMeasureme
     high: m.high,
     verdict: m.verdict,
     failing: m.verdict === 'fail',
-    valueText: m.value === null ? 'not measured' : `${signedFixed(m.value, decimals)} ${m.unit}`,
+    valueText: m.value === null ? 'not measured' : valueText(m.value, m.unit, decimals),
     limitText: limitText(m, decimals),
     note: m.note,
     noteNumber,
@@ -169,6 +169,8 @@ function sheetMeasurement(m: StoredMeasurement, notes: string[]): SheetMeasureme
 
 function conditionsOf(step: ProcedureStep, result: StepResult | undefined): string {
   const conditions = step.kind === 'trim' ? `${stepConditions(step)}; the trim is below` : stepConditions(step);
+  // The figures of a ringing step come from a file: the sheet names it, so the record can be found.
+  if (result?.scopeRecord) return `${conditions}; record “${result.scopeRecord.fileName}”, ${result.scopeRecord.edges} edges`;
   // The planner may move a step's frequency a little off mains: the frequency played is said too.
   const nominal = 'frequencyHz' in step ? step.frequencyHz : null;
   const played = result?.stimulus?.frequencyHz;

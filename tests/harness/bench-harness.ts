@@ -70,6 +70,8 @@ export interface Bench {
   page: Page;
   /** What main's file dialog answers when the page imports a procedure (null: cancelled). */
   procedureFileChoice: { path: string | null };
+  /** What main's file dialog answers when the page attaches a scope capture (null: cancelled). */
+  scopeFileChoice: { path: string | null };
   context: BrowserContext;
   station: ReturnType<typeof openStation>;
   origin: string;
@@ -118,6 +120,7 @@ export async function openBench({ captureWav, dataDir, microphone = 'granted' }:
   }
   let page = context.pages()[0] ?? (await context.newPage());
   const procedureFileChoice: { path: string | null } = { path: null };
+  const scopeFileChoice: { path: string | null } = { path: null };
 
   const caller: CallerContext = {
     // The same sheet view that Electron's printToPDF renders, through Chromium's own PDF path.
@@ -133,6 +136,7 @@ export async function openBench({ captureWav, dataDir, microphone = 'granted' }:
     print: async () => false, // no printer here: reported to the page as cancelled
     // Stands in for main's file dialog: a test sets the file the technician "chooses" (null: cancel).
     chooseProcedureFile: async () => procedureFileChoice.path,
+    chooseScopeCapture: async () => scopeFileChoice.path,
   };
   // The station's error log in the data folder, as in the app, so browser tests see the technician's messages.
   const errorLog = station.errorLog;
@@ -153,6 +157,7 @@ export async function openBench({ captureWav, dataDir, microphone = 'granted' }:
     context,
     station,
     procedureFileChoice,
+    scopeFileChoice,
     origin: server.origin,
     dataDir: data,
     async openApp(beforeLoad) {
