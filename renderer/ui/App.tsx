@@ -265,6 +265,7 @@ export function App() {
                 generatorAvailable={audio !== null}
                 onToggleGenerator={generator.toggle}
                 stimulusNote={stimulusNote}
+                sampleRateHz={captureRate ?? choice.sampleRateHz}
                 levels={levelsOfRun}
                 inputCalibration={calibration.inputCalibration}
                 outputCalibration={calibration.outputCalibration}

@@ -1,4 +1,6 @@
-import { useEffect, useState } from 'react';
+import { useEffect, useRef, useState } from 'react';
+import { SQUARE_MAX_LEVEL_DBFS } from '../../shared/dsp/square-wave.ts';
+import { fixed } from '../../shared/format.ts';
 import type { GeneratorCommand } from '../worker/messages.ts';
 
 const MIN_FREQUENCY_HZ = 5;
@@ -52,6 +54,94 @@ function CommitField({
   );
 }
 
+const MAX_STEPS = 64;
+const MIN_DWELL_S = 0.2;
+const MAX_DWELL_S = 600;
+
+/** The frequencies typed for a stepped sine, or why they cannot be played. */
+function parseSteps(text: string): { ok: true; hz: number[] } | { ok: false; problem: string } {
+  const parts = text.split(/[\s,;]+/).filter((p) => p !== '');
+  if (parts.length === 0) return { ok: false, problem: 'Enter the frequencies, e.g. 20, 100, 1000, 10000.' };
+  if (parts.length > MAX_STEPS) return { ok: false, problem: `At most ${MAX_STEPS} frequencies.` };
+  const hz = parts.map(Number);
+  const bad = hz.findIndex((f) => !Number.isFinite(f) || f < MIN_FREQUENCY_HZ || f > MAX_FREQUENCY_HZ);
+  if (bad >= 0) return { ok: false, problem: `“${parts[bad]}” is not a frequency between ${MIN_FREQUENCY_HZ} and ${MAX_FREQUENCY_HZ} Hz.` };
+  return { ok: true, hz };
+}
+
+/**
+ * A sine stepped through a list of frequencies, each held for the dwell time, at the generator's
+ * level. Each step is an ordinary frequency change (phase-continuous; the meter starts a fresh
+ * stretch). Anything that mutes the generator (Esc, the button, a stopped capture) stops it.
+ */
+function SteppedSine({ command, onChange, disabled }: { command: GeneratorCommand; onChange(command: GeneratorCommand): void; disabled: boolean }) {
+  const [listText, setListText] = useState('20, 100, 1000, 10000, 20000');
+  const [dwellText, setDwellText] = useState('2');
+  const [problem, setProblem] = useState<string | null>(null);
+  const [progress, setProgress] = useState<{ hz: number[]; index: number } | null>(null);
+  const timer = useRef<ReturnType<typeof setTimeout> | null>(null);
+  const latest = useRef(command);
+  latest.current = command;
+
+  const stop = () => {
+    if (timer.current !== null) clearTimeout(timer.current);
+    timer.current = null;
+    setProgress(null);
+  };
+  // Muted from anywhere (Esc included): the stepping ends with it.
+  useEffect(() => {
+    if (!command.on && progress) stop();
+  }, [command.on]); // eslint-disable-line react-hooks/exhaustive-deps
+  useEffect(() => stop, []);
+
+  function start() {
+    const steps = parseSteps(listText);
+    const dwell = Number(dwellText);
+    if (!steps.ok) return setProblem(steps.problem);
+    if (!(dwell >= MIN_DWELL_S && dwell <= MAX_DWELL_S)) return setProblem(`The dwell time must be between ${MIN_DWELL_S} and ${MAX_DWELL_S} s.`);
+    setProblem(null);
+    const play = (index: number) => {
+      if (index >= steps.hz.length) {
+        onChange({ ...latest.current, on: false });
+        return stop();
+      }
+      setProgress({ hz: steps.hz, index });
+      onChange({ ...latest.current, frequencyHz: steps.hz[index], waveform: 'sine', on: true });
+      timer.current = setTimeout(() => play(index + 1), dwell * 1000);
+    };
+    play(0);
+  }
+
+  return (
+    <fieldset className="stepped-sine" data-testid="stepped-sine">
+      <legend>Stepped sine</legend>
+      <label>
+        Frequencies, Hz
+        <input value={listText} onChange={(e) => setListText(e.target.value)} disabled={progress !== null} />
+      </label>
+      <label>
+        Dwell, s
+        <input inputMode="decimal" value={dwellText} onChange={(e) => setDwellText(e.target.value)} disabled={progress !== null} />
+      </label>
+      {progress ? (
+        <>
+          <p data-testid="stepped-progress" aria-live="polite">
+            Step {progress.index + 1} of {progress.hz.length}: {progress.hz[progress.index]} Hz. Esc stops.
+          </p>
+          <button type="button" onClick={() => onChange({ ...latest.current, on: false })} data-testid="stepped-stop">
+            Stop (Esc)
+          </button>
+        </>
+      ) : (
+        <button type="button" onClick={start} disabled={disabled} data-testid="stepped-start">
+          Step through
+        </button>
+      )}
+      {problem && <span className="problem">{problem}</span>}
+    </fieldset>
+  );
+}
+
 export function GeneratorControls({
   command,
   set,
@@ -86,6 +176,24 @@ export function GeneratorControls({
         check={(dbfs) => (dbfs > 0 || dbfs < -120 ? 'Between −120 and 0 dBFS.' : null)}
         onCommit={(levelDbfs) => onChange({ ...command, levelDbfs })}
       />
+      <label>
+        Waveform
+        <select
+          value={command.waveform ?? 'sine'}
+          disabled={!set}
+          onChange={(e) => onChange({ ...command, waveform: e.target.value === 'square' ? 'square' : 'sine' })}
+          data-testid="generator-waveform"
+        >
+          <option value="sine">sine</option>
+          <option value="square">square (band-limited)</option>
+        </select>
+      </label>
+      {command.waveform === 'square' && (
+        <p className="hint">
+          A square’s level sets its flat top (its RMS is 3 dB above a sine’s of that level); the top is held at or below {fixed(SQUARE_MAX_LEVEL_DBFS, 1)} dBFS so its edges never clip. The meter
+          reads sines: nothing is recorded from a square.
+        </p>
+      )}
       <button
         type="button"
         className={command.on ? '' : 'primary'}
@@ -96,6 +204,7 @@ export function GeneratorControls({
         {command.on ? 'Turn off (G)' : 'Turn on (G)'}
       </button>
       {note && <p className="hint">{note}</p>}
+      <SteppedSine command={command} onChange={onChange} disabled={!available || !set} />
       {!set && <p className="hint">Opening a unit sets the stimulus from its procedure.</p>}
       {set && !available && <p className="hint">Start capture to use the generator.</p>}
     </section>

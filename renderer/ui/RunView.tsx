@@ -7,6 +7,7 @@ import type { PlannedStep } from '../../shared/procedures/run-plan.ts';
 import type { GeneratorCommand } from '../worker/messages.ts';
 import { CheckStepPanel, type ChannelLive } from './CheckStepPanel.tsx';
 import { NoticePanel } from './NoticePanel.tsx';
+import { RingingPanel } from './RingingPanel.tsx';
 import { StepWalk } from './StepWalk.tsx';
 import { TrimPanel } from './TrimPanel.tsx';
 import type { useRun } from './useRun.ts';
@@ -25,6 +26,7 @@ export function RunView({
   generatorAvailable,
   onToggleGenerator,
   stimulusNote,
+  sampleRateHz,
   levels,
   inputCalibration,
   outputCalibration,
@@ -46,6 +48,8 @@ export function RunView({
   generatorAvailable: boolean;
   onToggleGenerator(): void;
   stimulusNote: string | null;
+  /** The rate the generator plays at (capture's, or the chosen one before it starts). */
+  sampleRateHz: number;
   levels: StationLevels | null;
   inputCalibration: LevelCalibration | null;
   outputCalibration: LevelCalibration | null;
@@ -83,6 +87,22 @@ export function RunView({
           onWarningChanges={(changes) => void run.logWarningChanges(changes)}
           onTrimDone={async () => void (await run.completeTrim(step.id))}
           result={latest(step.id)}
+        />
+      );
+    } else if (step.kind === 'ringing') {
+      panel = (
+        <RingingPanel
+          key={`${detail.run.id}/${step.id}`}
+          step={step}
+          planned={planned}
+          generator={generator}
+          generatorAvailable={generatorAvailable}
+          sampleRateHz={sampleRateHz}
+          onToggleGenerator={onToggleGenerator}
+          pending={run.pending}
+          primaryRef={primaryRef}
+          result={latest(step.id)}
+          onAttach={() => run.attachScopeCapture(step.id)}
         />
       );
     } else if (isCheckStep(step)) {

@@ -1,6 +1,7 @@
 import type { StepResult } from '../../shared/ipc/contract.ts';
 import { localTime } from './format.ts';
 import { MeasurementsTable } from './MeasurementsTable.tsx';
+import { RingingPlot } from './RingingPlot.tsx';
 
 /** A step's result as main stored and judged it. */
 export function StepResultView({ result }: { result: StepResult }) {
@@ -18,6 +19,7 @@ export function StepResultView({ result }: { result: StepResult }) {
         </ul>
       )}
       {result.measurements.length > 0 && <MeasurementsTable measurements={result.measurements} live={false} />}
+      {result.scopeRecord && <RingingPlot key={result.id} plot={result.scopeRecord.plot} fileName={result.scopeRecord.fileName} />}
     </div>
   );
 }

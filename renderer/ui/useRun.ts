@@ -99,6 +99,16 @@ export function useRun(setup: AudioSetup | null) {
   );
 
   /** Refused with the reasons when the run has not earned a PASS, unless it is finished as a FAIL. */
+  /** Main asks for the scope's file in its own dialog and judges it; resolves 'cancelled' when the technician cancels. */
+  const attachScopeCapture = useCallback(
+    (stepId: string) =>
+      once(async () => {
+        const { outcome, detail } = await call('attachScopeCapture', { runId: runId(), stepId });
+        keep(detail);
+        return outcome;
+      }),
+    [once],
+  );
   const finish = useCallback(
     (asFailure: boolean) =>
       once(async () => {
@@ -111,5 +121,5 @@ export function useRun(setup: AudioSetup | null) {
 
   const close = useCallback(() => setDetail(null), []);
 
-  return { detail, pending, open, recordPoint, includePoint, logWarningChanges, recordWarmCheck, acknowledgeNotice, completeTrim, recordCheckStep, finish, close };
+  return { detail, pending, open, recordPoint, includePoint, logWarningChanges, recordWarmCheck, acknowledgeNotice, completeTrim, recordCheckStep, attachScopeCapture, finish, close };
 }

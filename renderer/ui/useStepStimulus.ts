@@ -35,7 +35,7 @@ export function useStepStimulus({
   const [note, setNote] = useState<string | null>(null);
   const needs = step?.needs ?? null;
   // The step's setting is part of its key: a calibration that comes to hold (or lapses) changes it.
-  const setting = needs && needs.kind !== 'acknowledge' ? (needs.generator?.on ? `${needs.generator.frequencyHz}@${needs.generator.levelDbfs}` : 'off') : 'none';
+  const setting = needs && needs.kind !== 'acknowledge' ? (needs.generator?.on ? `${needs.kind === 'scope' ? 'square' : 'sine'}:${needs.generator.frequencyHz}@${needs.generator.levelDbfs}` : 'off') : 'none';
   const stepKey = step ? `${runId}/${step.stepId}/${setting}` : null;
 
   // A new step: its setting, off.
@@ -47,7 +47,7 @@ export function useStepStimulus({
     }
     const target = needs.generator;
     if (!target?.on) return;
-    apply({ frequencyHz: target.frequencyHz, levelDbfs: target.levelDbfs, on: false });
+    apply({ frequencyHz: target.frequencyHz, levelDbfs: target.levelDbfs, on: false, ...(needs.kind === 'scope' ? { waveform: 'square' as const } : {}) });
   }, [stepKey]); // eslint-disable-line react-hooks/exhaustive-deps
 
   // On one interface clock the stimulus is planned to whole cycles per frame, clear of mains;
@@ -60,6 +60,11 @@ export function useStepStimulus({
       const now = current();
       if (now.frequencyHz !== frequencyHz || now.levelDbfs !== request.levelDbfs) apply({ ...now, frequencyHz, levelDbfs: request.levelDbfs });
     };
+    if (needs.kind === 'scope') {
+      // The square is played at the step's own frequency: the scope, not the meter, reads the unit.
+      setNote(null);
+      return move(request.frequencyHz);
+    }
     if (needs.kind === 'measure') {
       // A check step's tone is always planned clear of mains (plannedStimulus), as main re-judges it.
       const planned = plannedStimulus(needs.generator!, { sampleRateHz, mainsHz, harmonicCount: HARMONIC_COUNT });

@@ -1,4 +1,5 @@
-// Generator worklet: runs the shared sine source and copies it to every output channel.
+// Generator worklet: runs the shared stimulus source (sine or band-limited square) and copies it to
+// every output channel.
 
 import { SineSource, type StimulusSetting } from '../../shared/dsp/sine-source.ts';
 
