@@ -9,7 +9,8 @@ import { UPlotChart } from './UPlotChart.tsx';
 export function RingingPlot({ plot, fileName }: { plot: EdgePlot; fileName: string }) {
   // Microseconds on the axis: a 20 kHz square's half period is 25 µs.
   const data = useMemo<uPlot.AlignedData>(() => {
-    const envelope = plot.timeS.map((t) => (t >= 0 ? envelopeAt(plot, t) : null));
+    const from = plot.envelopeFromS ?? 0;
+    const envelope = plot.timeS.map((t) => (t >= from ? envelopeAt(plot, t) : null));
     return [plot.timeS.map((t) => t * 1e6), plot.values, envelope.map((e) => e?.upper ?? null), envelope.map((e) => e?.lower ?? null)];
   }, [plot]);
   const options = useMemo<Omit<uPlot.Options, 'width' | 'height'> & { height: number }>(

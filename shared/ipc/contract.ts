@@ -365,6 +365,7 @@ export const scopeRecordSchema = z.object({
     finalLevelV: finite,
     stepV: finite,
     envelope: z.object({ amplitudePercent: finite, decayPerS: finite }).nullable(),
+    envelopeFromS: finite.nullable(),
   }),
 });
 scopeRecordSchema satisfies z.ZodType<ScopeRecordSummary>;

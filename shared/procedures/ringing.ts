@@ -49,6 +49,8 @@ export interface EdgePlot {
   stepV: number;
   /** The fitted envelope ±amplitudePercent·e^{−decayPerS·t} of the step about the final level; null without ringing. */
   envelope: { amplitudePercent: number; decayPerS: number } | null;
+  /** Where the fit begins, seconds from the 50 % instant: the first peak (before it the edge is still rising). */
+  envelopeFromS: number | null;
 }
 
 /** What is stored with a ringing step's result besides its measurements: where the figures came from. */
@@ -185,5 +187,6 @@ function edgePlot(values: ArrayLike<number>, unit: string, analysis: RingingAnal
     timeS.push(i * dt - edge.timeS);
     kept.push(values[i]);
   }
-  return { polarity: edge.polarity, timeS, values: kept, unit, finalLevelV: edge.finalLevelV, stepV: edge.stepV, envelope: edge.envelope };
+  const envelopeFromS = edge.envelope && edge.peaks.length > 0 ? edge.peaks[0].timeS - edge.timeS : null;
+  return { polarity: edge.polarity, timeS, values: kept, unit, finalLevelV: edge.finalLevelV, stepV: edge.stepV, envelope: edge.envelope, envelopeFromS };
 }

@@ -6,7 +6,7 @@ import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import type { RingingStep } from '../../shared/procedures/procedure-file.ts';
 import { scopeCsvText } from './scope-csv-text.ts';
-import { scopeCapture, squareWaveResponse, type SecondOrder } from './step-response.ts';
+import { scopeView, squareWaveResponse, type SecondOrder } from './step-response.ts';
 
 const DEMO = fileURLToPath(new URL('../../resources/procedures/mg20-lf-trim.json', import.meta.url));
 
@@ -51,13 +51,6 @@ export function ringingProcedureFile(dir: string, step: RingingStep = RINGING_ST
 export function scopeRecordText(system: SecondOrder, squareHz: number, samplesPerRing = 100): string {
   const dt = 1 / (samplesPerRing * system.naturalHz);
   const clean = squareWaveResponse({ system, squareHz, sampleIntervalS: dt, samples: Math.round(2.2 / squareHz / dt), lowV: -0.5, highV: 0.5, firstEdgeS: 0.1 / squareHz });
-  let min = Infinity;
-  let max = -Infinity;
-  for (const v of clean) {
-    min = Math.min(min, v);
-    max = Math.max(max, v);
-  }
-  const pad = 0.08 * (max - min);
-  const captured = scopeCapture(clean, { screenV: [min - pad, max + pad], bits: 8, noiseV: (0.5 * (max - min + 2 * pad)) / 256, seed: 7 });
+  const captured = scopeView(clean, 7);
   return scopeCsvText(0, dt, [captured], { preamble: [['Record Length', String(captured.length)], ['Sample Interval', dt.toExponential(6)]], header: ['TIME', 'CH1'] });
 }

@@ -127,3 +127,15 @@ export function scopeCapture(values: Float64Array, c: ScopeCapture): Float64Arra
     return c.screenV[0] + Math.min(codes - 1, Math.max(0, code)) * lsb;
   });
 }
+
+/** A scope's usual view of a trace: the screen 8 % wider than the trace each way, 8 bits, `noiseCodes` codes of noise. */
+export function scopeView(clean: Float64Array, seed = 1, noiseCodes = 0.5): Float64Array {
+  let min = Infinity;
+  let max = -Infinity;
+  for (const v of clean) {
+    min = Math.min(min, v);
+    max = Math.max(max, v);
+  }
+  const pad = 0.08 * (max - min);
+  return scopeCapture(clean, { screenV: [min - pad, max + pad], bits: 8, noiseV: (noiseCodes * (max - min + 2 * pad)) / 256, seed });
+}

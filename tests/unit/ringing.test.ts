@@ -11,6 +11,7 @@ import { describe, expect, it } from 'vitest';
 import { analyzeRinging, DEFAULT_RINGING_OPTIONS, RingingError, type RingingAnalysis } from '../../shared/scope/ringing.ts';
 import {
   scopeCapture,
+  scopeView,
   settlingFromFormula,
   squareWaveResponse,
   stepResponse,
@@ -48,17 +49,7 @@ function record(system: SecondOrder, squareHz: number, samplesPerPeriod = SAMPLE
   return { clean, dt, firstEdgeS, ringHz };
 }
 
-/** The scope's view: the screen 8 % wider than the trace each way, 8 bits, noise of half a code. */
-function captured(clean: Float64Array, seed = 1, noiseCodes = 0.5): Float64Array {
-  let min = Infinity;
-  let max = -Infinity;
-  for (const v of clean) {
-    min = Math.min(min, v);
-    max = Math.max(max, v);
-  }
-  const pad = 0.08 * (max - min);
-  return scopeCapture(clean, { screenV: [min - pad, max + pad], bits: 8, noiseV: (noiseCodes * (max - min + 2 * pad)) / 256, seed });
-}
+const captured = scopeView;
 
 const relative = (measured: number | null, expected: number) => Math.abs((measured ?? NaN) / expected - 1);
 
