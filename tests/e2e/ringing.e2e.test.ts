@@ -88,6 +88,21 @@ describe('the ringing step', () => {
     await page.keyboard.press('Escape');
     await expect.poll(() => page.getByTestId('mute').isEnabled(), POLL).toBe(false);
 
+    // The stepped sine: each frequency held for the dwell, its progress shown; Esc stops it and mutes.
+    const stepped = page.getByTestId('stepped-sine');
+    await stepped.getByLabel('Frequencies, Hz').fill('100, 200, 300');
+    await stepped.getByLabel('Dwell, s').fill('0.5');
+    await page.getByTestId('stepped-start').click();
+    await expect.poll(() => page.getByTestId('stepped-progress').textContent(), POLL).toMatch(/^Step 1 of 3: 100 Hz/);
+    expect(await page.getByLabel('Frequency, Hz (Enter applies)').inputValue()).toBe('100');
+    expect(await page.getByTestId('generator-waveform').inputValue()).toBe('sine');
+    await expect.poll(() => page.getByTestId('stepped-progress').textContent(), POLL).toMatch(/^Step 2 of 3: 200 Hz/);
+    await page.keyboard.press('Escape');
+    await expect.poll(() => page.getByTestId('mute').isEnabled(), POLL).toBe(false);
+    expect(await page.getByTestId('stepped-progress').count()).toBe(0);
+    await page.waitForTimeout(700);
+    expect(await page.getByTestId('mute').isEnabled()).toBe(false);
+
     // Finished as FAIL (the trim was not run): the sheet carries the ringing step's figures and the file.
     await page.getByTestId('finish-run').click();
     await page.getByTestId('finish-as-fail').click();
