@@ -11,7 +11,7 @@ import { dispatch, type CallerContext } from '../../electron/services/handlers.t
 import { openStation } from '../../electron/services/station.ts';
 import type { RunDetail } from '../../shared/ipc/contract.ts';
 import { buildSheetModel } from '../../shared/sheet/sheet-model.ts';
-import { noCaller, tempDir } from '../support/station.ts';
+import { noCaller, onPhasorLine, STEADY_LIVE, tempDir } from '../support/station.ts';
 import { ringingProcedureFile, scopeRecordText } from '../support/ringing-procedure.ts';
 import { textbookOvershoot, textbookRingHz } from '../support/step-response.ts';
 
@@ -98,6 +98,16 @@ describe('attachScopeCapture', () => {
     expect(ringingResults()).toEqual([]);
     const headless = await dispatch(station.handlers, 'attachScopeCapture', { runId, stepId: 'ringing-20k' }, noCaller);
     expect(!headless.ok && headless.error.message).toMatch(/attached from the Trimbench window/);
+  });
+
+  it('main never records a trim point read with a square wave playing: the meter reads sines', async () => {
+    expect((await attach(write('ok.csv', scopeRecordText({ zeta: 0.45, naturalHz: 300e3 }, 20e3)))).ok).toBe(true);
+    const stimulus = { on: true, frequencyHz: 14, levelDbfs: -12 };
+    const point = (waveform: 'sine' | 'square') =>
+      dispatch(station.handlers, 'recordTrimPoint', { runId, position: 0, reading: onPhasorLine(0, 5), live: STEADY_LIVE, stimulus: { ...stimulus, waveform } }, noCaller);
+    const square = await point('square');
+    expect(!square.ok && square.error.message).toMatch(/square wave: this measurement needs a sine/);
+    expect((await point('sine')).ok).toBe(true);
   });
 
   it('the check step channel refuses the ringing step, and the ringing channel refuses a check step', async () => {
