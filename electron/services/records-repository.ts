@@ -22,6 +22,7 @@ const OPERATIONS = [
   'acknowledgeNotice',
   'completeTrim',
   'recordCheckStep',
+  'recordMaxLevel',
   'finishRun',
   'setSheetPath',
 ] as const satisfies readonly (keyof Records)[];

@@ -104,7 +104,7 @@ function whyOutside(m: Measurement, label: string): string {
   return `${label} ${value} is outside its limits.`;
 }
 
-function result(step: CheckStep, measured: { m: Measurement; label: string }[]): CheckResult {
+export function checkResult(step: CheckStep, measured: { m: Measurement; label: string }[]): CheckResult {
   const reasons = measured.filter(({ m }) => m.verdict === 'fail').map(({ m, label }) => whyOutside(m, label));
   return { stepId: step.id, kind: step.kind, verdict: reasons.length === 0 ? 'pass' : 'fail', measurements: measured.map(({ m }) => m), reasons };
 }
@@ -157,7 +157,7 @@ export type GeneratorRequest =
 export type GeneratorOutcome = { ok: true; request: GeneratorRequest } | { ok: false; refusal: string };
 
 /** The check kinds that play a tone. */
-type StimulusStep = Exclude<CheckStep, { kind: 'noise' | 'hum' }>;
+export type StimulusStep = Exclude<CheckStep, { kind: 'noise' | 'hum' }>;
 
 /**
  * What the step asks of the generator: off for noise and hum; otherwise its frequency and its level
@@ -166,27 +166,34 @@ type StimulusStep = Exclude<CheckStep, { kind: 'noise' | 'hum' }>;
  */
 export function generatorFor(step: CheckStep, levels: StationLevels | null): GeneratorOutcome {
   if (step.kind === 'noise' || step.kind === 'hum') return { ok: true, request: { on: false } };
-  const level = step.level;
-  if (level.unit === 'dBFS') {
-    return {
-      ok: true,
-      request: { on: true, frequencyHz: step.frequencyHz, levelDbfs: level.value, levelDbu: levels ? level.value + levels.outputDbuAtFullScale : null },
-    };
-  }
+  // A max-level step starts at its start level (shared/procedures/max-level.ts plans the rise).
+  const level = step.kind === 'max-level' ? step.startLevel : step.level;
+  const played = generatorLevel(step.id, level, levels);
+  if (!played.ok) return played;
+  return { ok: true, request: { on: true, frequencyHz: step.frequencyHz, levelDbfs: played.levelDbfs, levelDbu: played.levelDbu } };
+}
+
+/**
+ * A procedure's level as the generator plays it: dBFS as written, dBu converted with the output
+ * calibration (dBFS = dBu − the output's dBu at full scale). A dBu level on an uncalibrated
+ * station, or one the output cannot reach, is refused.
+ */
+export function generatorLevel(stepId: string, level: { value: number; unit: 'dBFS' | 'dBu' }, levels: StationLevels | null): { ok: true; levelDbfs: number; levelDbu: number | null } | { ok: false; refusal: string } {
+  if (level.unit === 'dBFS') return { ok: true, levelDbfs: level.value, levelDbu: levels ? level.value + levels.outputDbuAtFullScale : null };
   if (!levels) {
     return {
       ok: false,
-      refusal: `Step “${step.id}” plays ${round(level.value)} dBu, and this station has no calibration that holds: calibrate it in Station settings, then run the step.`,
+      refusal: `Step “${stepId}” plays ${round(level.value)} dBu, and this station has no calibration that holds: calibrate it in Station settings, then run the step.`,
     };
   }
   const levelDbfs = level.value - levels.outputDbuAtFullScale;
   if (levelDbfs > 0) {
     return {
       ok: false,
-      refusal: `Step “${step.id}” plays ${round(level.value)} dBu, above the ${round(levels.outputDbuAtFullScale)} dBu this station's output reaches at full scale: use an interface with more output level.`,
+      refusal: `Step “${stepId}” plays ${round(level.value)} dBu, above the ${round(levels.outputDbuAtFullScale)} dBu this station's output reaches at full scale: use an interface with more output level.`,
     };
   }
-  return { ok: true, request: { on: true, frequencyHz: step.frequencyHz, levelDbfs, levelDbu: level.value } };
+  return { ok: true, levelDbfs, levelDbu: level.value };
 }
 
 /** Why the step cannot be run on this station at all, or null when it can. */
@@ -194,6 +201,12 @@ export function whyStepCannotRun(step: CheckStep, levels: StationLevels | null):
   const generator = generatorFor(step, levels);
   if (!generator.ok) return generator.refusal;
   if (step.kind === 'balance' || step.kind === 'crosstalk') return whyChannelsNotComparable(step, levels?.inputDbuAtFullScale ?? null, levels?.secondInputDbuAtFullScale ?? null);
+  if (step.kind === 'max-level') {
+    // Its ceiling is the loudest it plays: a station that cannot reach it cannot run the step.
+    const ceiling = generatorLevel(step.id, step.ceiling, levels);
+    if (!ceiling.ok) return ceiling.refusal;
+    if (!levels) return `Step “${step.id}” reports the unit's maximum output level in dBu, and this station has no calibration that holds: calibrate it in Station settings.`;
+  }
   if (levels) return null;
   // These report a level at the unit's terminals (or a gain between two of them): only a calibrated
   // input can say it.
@@ -228,7 +241,7 @@ function whyChannelsNotComparable(step: Extract<CheckStep, { kind: 'balance' | '
 export const CHECK_LEVEL_WINDOW_DB = 20;
 
 /** Why a reading with the generator playing may not be judged as this step's, or null when it may. */
-function whyNotOfStimulus(reading: Reading, stimulus: StimulusSetting, step: StimulusStep, requested: GeneratorRequest & { on: true }, inputDbuAtFullScale: number | null): string | null {
+export function whyNotOfStimulus(reading: Reading, stimulus: StimulusSetting, step: StimulusStep, requested: GeneratorRequest & { on: true }, inputDbuAtFullScale: number | null): string | null {
   // The same rules as a trim point: a consistent, settled reading of the tone at the step's frequency
   // and level. The gain step judges the level by its limits; the others must read about what a
   // unity-gain stage gives: the level played, carried to the input's dBFS when both ends are calibrated.
@@ -367,6 +380,8 @@ export function measureCheckStep(step: CheckStep, input: CheckInput): CheckOutco
   if (why) return { ok: false, refusal: step.kind === 'balance' || step.kind === 'crosstalk' ? `Channel ${first.channel}: ${why}` : why };
 
   switch (step.kind) {
+    case 'max-level':
+      return { ok: false, refusal: `Step “${step.id}” is a max-level step: it is judged from its whole sequence of readings, never from one.` };
     case 'distortion': {
       const few = whyTooFewHarmonics(step, first.reading);
       if (few) return { ok: false, refusal: few };
@@ -448,7 +463,7 @@ function measureDistortion(step: Extract<CheckStep, { kind: 'distortion' }>, rea
       label: name,
     });
   }
-  return result(step, measured);
+  return checkResult(step, measured);
 }
 
 function measureGain(step: Extract<CheckStep, { kind: 'gain' }>, reading: Reading, stimulus: StimulusSetting, levels: StationLevels): CheckResult {
@@ -457,7 +472,7 @@ function measureGain(step: Extract<CheckStep, { kind: 'gain' }>, reading: Readin
   const inputDbu = stimulus.levelDbfs + levels.outputDbuAtFullScale;
   const outputDbu = reading.fundamental.levelDbfs + levels.inputDbuAtFullScale;
   const note = `${round(outputDbu, 2)} dBu out for ${round(inputDbu, 2)} dBu in`;
-  return result(step, [{ m: measurement('gainDb', outputDbu - inputDbu, step.limits.gainDb, note), label: 'Gain' }]);
+  return checkResult(step, [{ m: measurement('gainDb', outputDbu - inputDbu, step.limits.gainDb, note), label: 'Gain' }]);
 }
 
 /**
@@ -477,7 +492,7 @@ function measureNoise(step: Extract<CheckStep, { kind: 'noise' }>, reading: Read
   // scale carries it to dBu unchanged.
   const dbfs = step.weighting === 'A' ? reading.noiseAWeightedDbfs : reading.noiseDbfs;
   const note = `${step.weighting === 'A' ? 'A-weighted (IEC 61672)' : 'unweighted'}, ${band(reading.bandHz)}; tones (mains hum, any stray tone) are taken out of it`;
-  return result(step, [{ m: measurement('noiseDbu', dbuOf(dbfs, levels.inputDbuAtFullScale), step.limits.noiseDbu, note), label: step.weighting === 'A' ? 'Noise (A-weighted)' : 'Noise' }]);
+  return checkResult(step, [{ m: measurement('noiseDbu', dbuOf(dbfs, levels.inputDbuAtFullScale), step.limits.noiseDbu, note), label: step.weighting === 'A' ? 'Noise (A-weighted)' : 'Noise' }]);
 }
 
 function measureHum(step: Extract<CheckStep, { kind: 'hum' }>, reading: Reading, levels: StationLevels): CheckResult {
@@ -486,7 +501,7 @@ function measureHum(step: Extract<CheckStep, { kind: 'hum' }>, reading: Reading,
   const search = reading.humSearch;
   if (!found && !search) {
     const note = 'no hum stood out, and the reading does not say the level it had to exceed to stand out, so no bound can be given: take a new reading';
-    return result(step, [{ m: measurement('humDbu', null, limit, note), label: 'Hum (upper bound)' }]);
+    return checkResult(step, [{ m: measurement('humDbu', null, limit, note), label: 'Hum (upper bound)' }]);
   }
   // With hum standing out, its components are read at the mains frequency found; otherwise the
   // meter fitted every order at nominal mains and none exceeded its threshold, so each fitted
@@ -537,10 +552,10 @@ function measureHum(step: Extract<CheckStep, { kind: 'hum' }>, reading: Reading,
   // A component the step asks for and the meter did not read may be the loudest: no value, no pass.
   if (unread.length > 0) {
     const note = `mains ${orders(unread)} not read by the meter, so the hum the step asks for was not measured`;
-    return result(step, [{ m: measurement('humDbu', null, limit, note), label: bound ? 'Hum (upper bound)' : 'Hum' }]);
+    return checkResult(step, [{ m: measurement('humDbu', null, limit, note), label: bound ? 'Hum (upper bound)' : 'Hum' }]);
   }
   const value = summed.length > 0 ? dbuOf(powerSumDb(summed), levels.inputDbuAtFullScale) : null;
-  return result(step, [{ m: measurement('humDbu', value, limit, notes.join('; ')), label: bound ? 'Hum (upper bound)' : 'Hum' }]);
+  return checkResult(step, [{ m: measurement('humDbu', value, limit, notes.join('; ')), label: bound ? 'Hum (upper bound)' : 'Hum' }]);
 }
 
 function twoChannel(step: Extract<CheckStep, { kind: 'balance' | 'crosstalk' }>, first: ChannelReading, second: ChannelReading, quantity: string, limit: Limit, label: string, note: string | null): CheckOutcome {
@@ -549,7 +564,7 @@ function twoChannel(step: Extract<CheckStep, { kind: 'balance' | 'crosstalk' }>,
   // one (crosstalk). measureCheckStep has made sure both inputs are calibrated.
   const a = first.reading.fundamental.levelDbfs + (first.inputDbuAtFullScale as number);
   const b = second.reading.fundamental.levelDbfs + (second.inputDbuAtFullScale as number);
-  return { ok: true, result: result(step, [{ m: measurement(quantity, b - a, limit, note), label }]) };
+  return { ok: true, result: checkResult(step, [{ m: measurement(quantity, b - a, limit, note), label }]) };
 }
 
 /** Check steps are the kinds with limits; notice and trim are judged elsewhere. */

@@ -14,6 +14,7 @@ const QUANTITY_LABELS: Record<string, string> = {
   humDbu: 'Hum',
   balanceDb: 'Balance',
   crosstalkDb: 'Crosstalk',
+  maxLevelDbu: 'Maximum output level',
 };
 
 /** A measured quantity's name on the page: "thdDb" → "THD", "harmonicsDbc.H3" → "H3". */
@@ -56,6 +57,8 @@ export function stepConditions(step: ProcedureStep): string {
       return `generator off; ${step.weighting === 'A' ? 'A-weighted' : 'unweighted'}, ${hzText(step.band.lowHz)} to ${hzText(step.band.highHz)}`;
     case 'hum':
       return `generator off; mains${step.mainsHarmonics > 1 ? ` and harmonics to the ${ordinal(step.mainsHarmonics)}` : ' fundamental'}`;
+    case 'max-level':
+      return `${hzText(step.frequencyHz)} rising from ${signedFixed(step.startLevel.value, 1)} to at most ${signedFixed(step.ceiling.value, 1)} ${step.ceiling.unit} in ${fixed(step.stepDb, 2)} dB steps, until THD+N reaches ${fixed(step.thdnThresholdPercent, 2)} %`;
   }
 }
 
@@ -73,6 +76,8 @@ export function stepDetails(step: ProcedureStep): string[] {
     case 'noise':
     case 'hum':
       return [step.inputTermination];
+    case 'max-level':
+      return ['loud: stops at once if the station\'s input clips; Esc stops it and mutes the generator'];
     default:
       return [];
   }
