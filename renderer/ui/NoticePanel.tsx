@@ -1,5 +1,6 @@
 import { useState, type RefObject } from 'react';
 import { problemText } from '../problem-text.ts';
+import { secondPressTooSoon } from './primary-press.ts';
 
 /** A notice step: the technician reads it and acknowledges it (Enter). Nothing plays meanwhile. */
 export function NoticePanel({
@@ -15,6 +16,8 @@ export function NoticePanel({
 }) {
   const [message, setMessage] = useState<string | null>(null);
   async function acknowledge() {
+    // Noted, so that a second Enter landing on the next step's panel is taken as this press.
+    secondPressTooSoon();
     try {
       await onAcknowledge();
       setMessage(null);

@@ -6,6 +6,7 @@ import { isCheckStep, type StationLevels } from '../../shared/procedures/check-s
 import type { PlannedStep } from '../../shared/procedures/run-plan.ts';
 import type { GeneratorCommand } from '../worker/messages.ts';
 import { CheckStepPanel, type ChannelLive } from './CheckStepPanel.tsx';
+import { MaxLevelPanel } from './MaxLevelPanel.tsx';
 import { NoticePanel } from './NoticePanel.tsx';
 import { StepWalk } from './StepWalk.tsx';
 import { TrimPanel } from './TrimPanel.tsx';
@@ -24,6 +25,8 @@ export function RunView({
   generator,
   generatorAvailable,
   onToggleGenerator,
+  applyGenerator,
+  mute,
   stimulusNote,
   levels,
   inputCalibration,
@@ -45,6 +48,9 @@ export function RunView({
   generator: GeneratorCommand;
   generatorAvailable: boolean;
   onToggleGenerator(): void;
+  /** Sets the generator (a max-level step raises its level), and mutes it. */
+  applyGenerator(command: GeneratorCommand): void;
+  mute(): void;
   stimulusNote: string | null;
   levels: StationLevels | null;
   inputCalibration: LevelCalibration | null;
@@ -83,6 +89,24 @@ export function RunView({
           onWarningChanges={(changes) => void run.logWarningChanges(changes)}
           onTrimDone={async () => void (await run.completeTrim(step.id))}
           result={latest(step.id)}
+        />
+      );
+    } else if (step.kind === 'max-level') {
+      panel = (
+        <MaxLevelPanel
+          key={`${detail.run.id}/${step.id}`}
+          step={step}
+          planned={planned}
+          reading={reading}
+          generator={generator}
+          generatorAvailable={generatorAvailable}
+          apply={applyGenerator}
+          mute={mute}
+          levels={levels}
+          stimulusNote={stimulusNote}
+          pending={run.pending}
+          primaryRef={primaryRef}
+          onRecord={(points) => run.recordMaxLevel(step.id, points)}
         />
       );
     } else if (isCheckStep(step)) {

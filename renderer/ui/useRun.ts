@@ -98,6 +98,13 @@ export function useRun(setup: AudioSetup | null) {
     [once],
   );
 
+  /** A max-level step's whole sequence: main re-runs its rules on every reading and judges it. */
+  const recordMaxLevel = useCallback(
+    (stepId: string, points: { stimulus: StimulusSettingRequest; reading: Reading }[]) =>
+      once(async () => keep(await call('recordMaxLevel', { runId: runId(), stepId, points, setup: setupRef.current }))),
+    [once],
+  );
+
   /** Refused with the reasons when the run has not earned a PASS, unless it is finished as a FAIL. */
   const finish = useCallback(
     (asFailure: boolean) =>
@@ -111,5 +118,5 @@ export function useRun(setup: AudioSetup | null) {
 
   const close = useCallback(() => setDetail(null), []);
 
-  return { detail, pending, open, recordPoint, includePoint, logWarningChanges, recordWarmCheck, acknowledgeNotice, completeTrim, recordCheckStep, finish, close };
+  return { detail, pending, open, recordPoint, includePoint, logWarningChanges, recordWarmCheck, acknowledgeNotice, completeTrim, recordCheckStep, recordMaxLevel, finish, close };
 }

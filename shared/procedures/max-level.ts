@@ -6,6 +6,7 @@
 // Only types come from procedure-file.ts: the page uses this module and must not pull zod in.
 
 import type { StimulusSetting } from '../dsp/sine-source.ts';
+import { signedFixed } from '../levels.ts';
 import type { Reading } from '../measurement/reading.ts';
 import { whyReadingInconsistent } from '../records/reading-check.ts';
 import { checkStimulusSetting } from '../records/stimulus-check.ts';
@@ -27,7 +28,7 @@ export interface MaxLevelPlan {
   levelsDbu: number[];
 }
 
-const signed = (value: number, decimals = 1) => `${value >= 0 ? '+' : '−'}${Math.abs(value).toFixed(decimals)}`;
+const signed = (value: number) => signedFixed(value, 1);
 const percent = (value: number) => `${value < 1 ? value.toPrecision(2) : value.toFixed(value < 10 ? 1 : 0)} %`;
 
 /**
@@ -86,7 +87,7 @@ export function maxLevelNext(step: MaxLevelStep, plan: MaxLevelPlan, levels: Sta
       next: 'stop',
       why: 'clipped',
       message:
-        `The station's input clipped at the generator's ${signed(plan.levelsDbu[index] as number)} dBu, before THD+N reached ${percent(step.thdnThresholdPercent)}: ` +
+        `the station's input clipped at the generator's ${signed(plan.levelsDbu[index] as number)} dBu, before THD+N reached ${percent(step.thdnThresholdPercent)}: ` +
         `the unit's maximum level could not be measured on this input. Put a pad in front of the input (and calibrate with it), or lower the ceiling, then retest.`,
     };
   }
