@@ -6,16 +6,14 @@ import { judgeMaxLevel, maxLevelPlan, outputDbuOf, type MaxLevelPoint, type MaxL
 import type { PlannedStep } from '../../shared/procedures/run-plan.ts';
 import { problemText } from '../problem-text.ts';
 import type { GeneratorCommand } from '../worker/messages.ts';
-import { fixed } from './format.ts';
+import { compactNumber } from '../../shared/format.ts';
+import { percent } from './format.ts';
 import { MaxLevelPlot } from './MaxLevelPlot.tsx';
 import { MeasurementsTable } from './MeasurementsTable.tsx';
 import { secondPressTooSoon } from './primary-press.ts';
 import { StepReasons } from './StepResultView.tsx';
 import { secondsLeft, useMaxLevelSequence, type SequenceState } from './useMaxLevelSequence.ts';
 
-/** 1, 0.25, 10: a setting as the file gives it, without trailing zeros. */
-const compact = (value: number) => String(Number(value.toFixed(2)));
-const thdn = (percent: number) => `${percent < 1 ? percent.toPrecision(2) : fixed(percent, percent < 10 ? 2 : 1)} %`;
 
 /**
  * A max-level step: the caution, Enter to start, the levels rising with each one's THD+N, progress
@@ -105,7 +103,7 @@ export function MaxLevelPanel({
         )}
       </div>
       {state.phase === 'running' && <Progress state={state} levelCount={plan.levelsDbu.length} levelDbu={plan.levelsDbu[state.index] as number} reading={reading} />}
-      <MaxLevelPlot points={points} thresholdPercent={step.thdnThresholdPercent} />
+      <MaxLevelPlot points={points} thresholdPercent={step.thdnThresholdPercent} rangeDbu={[plan.levelsDbu[0] as number, plan.levelsDbu.at(-1) as number]} />
       <LevelsTable state={state} levelsDbu={plan.levelsDbu} outputs={points} thresholdPercent={step.thdnThresholdPercent} />
       {state.phase === 'stopped' && (
         <p className="problem" role="alert" data-testid="max-level-stopped">
@@ -158,8 +156,8 @@ function MaxLevelCaution({ step, plan }: { step: MaxLevelStep; plan: { levelsDbu
   return (
     <div className="caution" data-testid="max-level-caution">
       <p>
-        <strong>Loud test.</strong> The generator plays {step.frequencyHz} Hz from {signedFixed(plan.levelsDbu[0] as number, 1)} dBu, rising {compact(step.stepDb)} dB at a time up to at most{' '}
-        {signedFixed(plan.levelsDbu.at(-1) as number, 1)} dBu ({plan.levelsDbu.length} levels), until the unit's THD+N reaches {compact(step.thdnThresholdPercent)} %.
+        <strong>Loud test.</strong> The generator plays {step.frequencyHz} Hz from {signedFixed(plan.levelsDbu[0] as number, 1)} dBu, rising {compactNumber(step.stepDb)} dB at a time up to at most{' '}
+        {signedFixed(plan.levelsDbu.at(-1) as number, 1)} dBu ({plan.levelsDbu.length} levels), until the unit's THD+N reaches {compactNumber(step.thdnThresholdPercent)} %.
       </p>
       <ul className="cautions">
         <li>Mute or disconnect monitor speakers and headphones; wear hearing protection near the unit.</li>
@@ -213,7 +211,7 @@ function LevelsTable({ state, levelsDbu, outputs, thresholdPercent }: { state: S
               <td>{i + 1}</td>
               <td>{signedFixed(levelsDbu[i] as number, 1)} dBu</td>
               <td>{signedFixed(o.outputDbu, 2)} dBu</td>
-              <td className={o.thdnPercent >= thresholdPercent ? 'verdict-cell fail' : ''}>{thdn(o.thdnPercent)}</td>
+              <td className={o.thdnPercent >= thresholdPercent ? 'verdict-cell fail' : ''}>{percent(o.thdnPercent)}</td>
             </tr>
           ))}
           {state.phase === 'running' && (

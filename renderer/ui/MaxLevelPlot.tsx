@@ -5,13 +5,22 @@ import { useMemo } from 'react';
 import type uPlot from 'uplot';
 import { UPlotChart } from './UPlotChart.tsx';
 
-export function MaxLevelPlot({ points, thresholdPercent }: { points: readonly { outputDbu: number; thdnPercent: number }[]; thresholdPercent: number }) {
-  // uPlot wants x ascending; a stage against its rails can give the same output twice.
+export function MaxLevelPlot({
+  points,
+  thresholdPercent,
+  rangeDbu,
+}: {
+  points: readonly { outputDbu: number; thdnPercent: number }[];
+  thresholdPercent: number;
+  /** The levels the step plays, first and last: the axis spans them from the start, with the threshold across. */
+  rangeDbu: readonly [number, number];
+}) {
+  // uPlot wants x ascending; a stage against its rails can give the same output twice. The range's
+  // ends carry the threshold line only, so it is drawn across from the first reading on.
   const data = useMemo<uPlot.AlignedData>(() => {
-    const sorted = [...points].sort((a, b) => a.outputDbu - b.outputDbu);
-    const x = sorted.map((p) => p.outputDbu);
-    return [x, sorted.map((p) => p.thdnPercent), x.map(() => thresholdPercent)];
-  }, [points, thresholdPercent]);
+    const rows = [...points.map((p) => ({ x: p.outputDbu, y: p.thdnPercent as number | null })), { x: rangeDbu[0], y: null }, { x: rangeDbu[1], y: null }].sort((a, b) => a.x - b.x);
+    return [rows.map((r) => r.x), rows.map((r) => r.y), rows.map(() => thresholdPercent)];
+  }, [points, thresholdPercent, rangeDbu]);
   const options = useMemo<Omit<uPlot.Options, 'width' | 'height'> & { height: number }>(
     () => ({
       height: 200,
@@ -25,7 +34,7 @@ export function MaxLevelPlot({ points, thresholdPercent }: { points: readonly { 
       axes: [{ label: 'Output, dBu' }, { label: 'THD+N, %', size: 60 }],
       series: [
         {},
-        { label: 'THD+N', stroke: '#1f5fa8', width: 2, points: { show: true, size: 6 } },
+        { label: 'THD+N', stroke: '#1f5fa8', width: 2, spanGaps: true, points: { show: true, size: 6 } },
         { label: `${thresholdPercent} %`, stroke: '#b04a2f', width: 1, dash: [6, 4], points: { show: false } },
       ],
     }),

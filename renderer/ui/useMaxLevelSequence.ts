@@ -76,6 +76,16 @@ export function useMaxLevelSequence({
 
   const reset = useCallback(() => setState(READY), []);
 
+  // Leaving the step while it runs (another step opened, the unit closed) leaves nothing playing.
+  const muteRef = useRef(mute);
+  muteRef.current = mute;
+  useEffect(
+    () => () => {
+      if (stateRef.current.phase === 'running') muteRef.current();
+    },
+    [],
+  );
+
   // Esc stops at once (useGenerator mutes on it too, from anywhere).
   useEffect(() => {
     if (state.phase !== 'running') return;

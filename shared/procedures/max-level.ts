@@ -6,6 +6,7 @@
 // Only types come from procedure-file.ts: the page uses this module and must not pull zod in.
 
 import type { StimulusSetting } from '../dsp/sine-source.ts';
+import { compactNumber, percent } from '../format.ts';
 import { signedFixed } from '../levels.ts';
 import type { Reading } from '../measurement/reading.ts';
 import { whyReadingInconsistent } from '../records/reading-check.ts';
@@ -29,7 +30,8 @@ export interface MaxLevelPlan {
 }
 
 const signed = (value: number) => signedFixed(value, 1);
-const percent = (value: number) => `${value < 1 ? value.toPrecision(2) : value.toFixed(value < 10 ? 1 : 0)} %`;
+/** The step's threshold as the file gives it. */
+const threshold = (step: MaxLevelStep) => `${compactNumber(step.thdnThresholdPercent)} %`;
 
 /**
  * The step's levels on this station. Each is start + k·stepDb computed afresh (not summed step by
@@ -87,7 +89,7 @@ export function maxLevelNext(step: MaxLevelStep, plan: MaxLevelPlan, levels: Sta
       next: 'stop',
       why: 'clipped',
       message:
-        `the station's input clipped at the generator's ${signed(plan.levelsDbu[index] as number)} dBu, before THD+N reached ${percent(step.thdnThresholdPercent)}: ` +
+        `the station's input clipped at the generator's ${signed(plan.levelsDbu[index] as number)} dBu, before THD+N reached ${threshold(step)}: ` +
         `the unit's maximum level could not be measured on this input. Put a pad in front of the input (and calibrate with it), or lower the ceiling, then retest.`,
     };
   }
@@ -100,7 +102,7 @@ export function maxLevelNext(step: MaxLevelStep, plan: MaxLevelPlan, levels: Sta
     return {
       next: 'stop',
       why: 'ceiling',
-      message: `The ceiling (${signed(plan.levelsDbu[index] as number)} dBu from the generator) was reached with THD+N at ${percent(reading.thdnPercent)}, below ${percent(step.thdnThresholdPercent)}: the unit's maximum level is at least the output measured there.`,
+      message: `The ceiling (${signed(plan.levelsDbu[index] as number)} dBu from the generator) was reached with THD+N at ${percent(reading.thdnPercent)}, below ${threshold(step)}: the unit's maximum level is at least the output measured there.`,
     };
   }
   return { next: 'go-on', levelDbfs: following };
@@ -159,7 +161,7 @@ export function judgeMaxLevel(step: MaxLevelStep, levels: StationLevels | null, 
   }
   const ended = end as MaxLevelNext;
   if (ended.next === 'go-on') {
-    return { ok: false, refusal: `The sequence stopped at ${signed(plan.levelsDbu[points.length - 1] as number)} dBu, below the ceiling, with THD+N still under ${percent(step.thdnThresholdPercent)}: nothing was measured. Run the step to its end.` };
+    return { ok: false, refusal: `The sequence stopped at ${signed(plan.levelsDbu[points.length - 1] as number)} dBu, below the ceiling, with THD+N still under ${threshold(step)}: nothing was measured. Run the step to its end.` };
   }
   const limit = step.limits.maxLevelDbu;
   const label = 'Maximum output level';
@@ -170,16 +172,16 @@ export function judgeMaxLevel(step: MaxLevelStep, levels: StationLevels | null, 
   }
   if (ended.next === 'stop') {
     const highest = Math.max(...outputs.map((o) => o.outputDbu));
-    const note = `a lower bound: the ceiling was reached with THD+N at ${percent(outputs.at(-1)!.thdnPercent)}, under the ${percent(step.thdnThresholdPercent)} threshold, so the unit reaches at least this at ${at}`;
+    const note = `a lower bound: the ceiling was reached with THD+N at ${percent(outputs.at(-1)!.thdnPercent)}, under the ${threshold(step)} threshold, so the unit reaches at least this at ${at}`;
     return { ok: true, result: checkResult(step, [{ m: measurement('maxLevelDbu', highest, limit, note), label: `${label} (lower bound)` }]) };
   }
   const above = outputs.at(-1)!;
   const below = outputs.at(-2);
   if (!below) {
-    const note = `THD+N was already ${percent(above.thdnPercent)} at the first level (${signed(above.outputDbu)} dBu out), past the ${percent(step.thdnThresholdPercent)} threshold: the crossing lies below where the step starts. Start the step lower.`;
+    const note = `THD+N was already ${percent(above.thdnPercent)} at the first level (${signed(above.outputDbu)} dBu out), past the ${threshold(step)} threshold: the crossing lies below where the step starts. Start the step lower.`;
     return { ok: true, result: checkResult(step, [{ m: measurement('maxLevelDbu', null, limit, note), label }]) };
   }
   const value = crossingDbu(below, above, step.thdnThresholdPercent);
-  const note = `THD+N reached ${percent(step.thdnThresholdPercent)} at ${at} between ${signed(below.outputDbu)} dBu (${percent(below.thdnPercent)}) and ${signed(above.outputDbu)} dBu out (${percent(above.thdnPercent)}); interpolated in dB of THD+N`;
+  const note = `THD+N reached ${threshold(step)} at ${at} between ${signed(below.outputDbu)} dBu (${percent(below.thdnPercent)}) and ${signed(above.outputDbu)} dBu out (${percent(above.thdnPercent)}); interpolated in dB of THD+N`;
   return { ok: true, result: checkResult(step, [{ m: measurement('maxLevelDbu', value, limit, note), label }]) };
 }

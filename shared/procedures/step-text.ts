@@ -2,7 +2,7 @@
 // sheet and in the procedures view. Limits are inclusive (docs/procedures.md), so a bound is
 // written ≤ or ≥, and a two-sided limit as a range.
 
-import { fixed } from '../format.ts';
+import { compactNumber, fixed } from '../format.ts';
 import { signedFixed } from '../levels.ts';
 import type { Limit, ProcedureStep } from './procedure-file.ts';
 
@@ -14,7 +14,7 @@ const QUANTITY_LABELS: Record<string, string> = {
   humDbu: 'Hum',
   balanceDb: 'Balance',
   crosstalkDb: 'Crosstalk',
-  maxLevelDbu: 'Maximum output level',
+  maxLevelDbu: 'Max level',
 };
 
 /** A measured quantity's name on the page: "thdDb" → "THD", "harmonicsDbc.H3" → "H3". */
@@ -58,7 +58,7 @@ export function stepConditions(step: ProcedureStep): string {
     case 'hum':
       return `generator off; mains${step.mainsHarmonics > 1 ? ` and harmonics to the ${ordinal(step.mainsHarmonics)}` : ' fundamental'}`;
     case 'max-level':
-      return `${hzText(step.frequencyHz)} rising from ${signedFixed(step.startLevel.value, 1)} to at most ${signedFixed(step.ceiling.value, 1)} ${step.ceiling.unit} in ${fixed(step.stepDb, 2)} dB steps, until THD+N reaches ${fixed(step.thdnThresholdPercent, 2)} %`;
+      return `${hzText(step.frequencyHz)} rising from ${signedFixed(step.startLevel.value, 1)} to at most ${signedFixed(step.ceiling.value, 1)} ${step.ceiling.unit} in ${compactNumber(step.stepDb)} dB steps, until THD+N reaches ${compactNumber(step.thdnThresholdPercent)} %`;
   }
 }
 

@@ -166,6 +166,18 @@ describe('max-level on the demo bench', () => {
     expect(await page.getByTestId('max-level-stopped').textContent()).toMatch(/Esc.*nothing was recorded/);
     await page.screenshot({ path: `${SHOTS}/max-level-esc.png`, fullPage: true });
     expect(bench.station.records.getRun(runOf('ML-0001').id).stepResults.filter((r) => r.stepId === STEP.id)).toHaveLength(1);
+
+    // Onto the sheet through its generic step rows (the run finished as FAIL: its trim was not done).
+    await page.getByTestId('finish-run').click();
+    await page.getByTestId('finish-as-fail').click();
+    await expect.poll(() => page.getByTestId('sheet-verdict').isVisible(), POLL).toBe(true);
+    const rows = page.getByTestId('sheet-steps').locator(`tr[data-step="${STEP.id}"]`);
+    const text = (await rows.allTextContents()).join(' ');
+    expect(text).toMatch(/Max level/);
+    expect(text).toContain(`${found >= 0 ? '+' : '−'}${Math.abs(found).toFixed(1)} dBu`);
+    expect(text).toMatch(/≥ \+12\.0 dBu/);
+    await page.getByTestId('sheet-steps').scrollIntoViewIfNeeded();
+    await page.screenshot({ path: `${SHOTS}/max-level-sheet.png`, fullPage: true });
   });
 
   it('stops when a unit with more gain drives the station input into clipping: a FAIL with the reason, never a PASS', { timeout: 240_000 }, async () => {

@@ -176,7 +176,7 @@ describe('what main refuses (nothing is judged from it)', () => {
   });
 
   it('a sequence that is not one: cut short, run on past its end, out of order, above the ceiling, or empty', () => {
-    expect(judgeMaxLevel(s, LEVELS, points.slice(0, -1))).toMatchObject({ ok: false, refusal: expect.stringMatching(/below the ceiling, with THD\+N still under 1\.0 %/) });
+    expect(judgeMaxLevel(s, LEVELS, points.slice(0, -1))).toMatchObject({ ok: false, refusal: expect.stringMatching(/below the ceiling, with THD\+N still under 1 %/) });
     const extra = { stimulus: { ...points.at(-1)!.stimulus, levelDbfs: points.at(-1)!.stimulus.levelDbfs + 1 }, reading: cubic(A)(points.at(-1)!.stimulus.levelDbfs + 1) };
     expect(judgeMaxLevel(s, LEVELS, [...points, extra])).toMatchObject({ ok: false, refusal: expect.stringMatching(/ended at reading \d+ \(THD\+N reached the threshold\)/) });
     const reversed = [points[1], points[0], ...points.slice(2)];

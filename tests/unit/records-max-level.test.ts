@@ -18,6 +18,7 @@ import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { openStation } from '../../electron/services/station.ts';
 import type { RunDetail } from '../../shared/ipc/contract.ts';
 import type { Reading } from '../../shared/measurement/reading.ts';
+import { buildSheetModel } from '../../shared/sheet/sheet-model.ts';
 import { accepted, noCaller, refusedWith, TEST_SETUP, tempDir } from '../support/station.ts';
 import { cubicCrossingDbu, cubicReading, MAX_LEVEL_STEP, maxLevelProcedureText } from '../support/max-level.ts';
 
@@ -109,7 +110,7 @@ describe('recordMaxLevel', () => {
     const stored = (await record(clipped, points)).stepResults.at(-1)!;
     expect(stored.verdict).toBe('fail');
     expect(stored.measurements[0].value).toBeNull();
-    expect(stored.reasons[0]).toMatch(/input clipped at the generator's \+7\.0 dBu, before THD\+N reached 1\.0 %/);
+    expect(stored.reasons[0]).toMatch(/input clipped at the generator's \+7\.0 dBu, before THD\+N reached 1 %/);
   });
 
   it('a ceiling reached without crossing: a lower bound, a PASS when it meets the limit, and the sheet says it is a bound', async () => {
@@ -121,6 +122,14 @@ describe('recordMaxLevel', () => {
     // +19 dBu played, read through the stage's 1 − 3a/4 at full drive and back through both calibrations.
     const x = 10 ** (levelDbfs(15) / 20);
     expect(result.measurements[0].value!).toBeCloseTo(20 * Math.log10(x * (1 - 0.0075 * x * x)) + OUT_FS, 6);
+    // The sheet's step row, through the generic rows: the value with its limit, the bound as its footnote.
+    const sheet = buildSheetModel(station.records.getRun(runId));
+    const row = sheet.steps.find((s) => s.id === 'max-level')!;
+    expect(row.conditions).toMatch(/^1 kHz rising from \+4\.0 to at most \+19\.0 dBu in 1 dB steps, until THD\+N reaches 1 %/);
+    expect(row.statusText).toBe('PASS');
+    expect(row.measurements[0]).toMatchObject({ label: 'Max level', limitText: '≥ +12.0 dBu', noteNumber: 1 });
+    expect(row.measurements[0].valueText).toBe(`+${(20 * Math.log10(x * (1 - 0.0075 * x * x)) + OUT_FS).toFixed(1)} dBu`);
+    expect(sheet.notes[0]).toMatch(/^a lower bound: the ceiling was reached with THD\+N at 0\.\d+ %, under the 1 % threshold/);
   });
 
   it('refuses a sequence out of order, a reading not of its level, a sequence cut short or run on, and stores nothing', async () => {
@@ -134,7 +143,7 @@ describe('recordMaxLevel', () => {
     const foreign = full.map((p, i) => (i === 1 ? { ...p, reading: { ...p.reading, measuredFundamentalHz: 1100 } } : p));
     expect(await refuse(runId, foreign)).toMatch(/Reading 2 of the sequence: The captured tone is at 1100\.0 Hz/);
     // Cut short while THD+N was still under the threshold; run on past the crossing.
-    expect(await refuse(runId, full.slice(0, -1))).toMatch(/below the ceiling, with THD\+N still under 1\.0 %/);
+    expect(await refuse(runId, full.slice(0, -1))).toMatch(/below the ceiling, with THD\+N still under 1 %/);
     expect(await refuse(runId, sequence(crossingIndex() + 1))).toMatch(/The sequence ended at reading/);
     // A reading that contradicts itself (settled at 40 % progress) was not produced by the meter.
     const forged = full.map((p, i) => (i === 0 ? { ...p, reading: { ...p.reading, settleProgress: 0.4 } } : p));
