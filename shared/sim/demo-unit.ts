@@ -11,7 +11,9 @@
 // primary, so H3 is proportional to R, sign included, and nulls where R = 0. Past the null R < 0
 // eats into the damping of the sub-audio resonance of magnetising inductance and coupling
 // capacitor: sub-audio noise rises, and once R is more negative than the damping network can
-// absorb, the stage oscillates slowly between the driver's rails.
+// absorb, the stage oscillates slowly between the driver's rails. Driven hard, the driver's
+// voltage stage swings softly into its supply past a knee well above the working level, so the
+// stage has a maximum output level where its THD+N rises steeply (the max-level check's subject).
 
 import { GaussianNoise, mulberry32 } from '../dsp/seeded-noise.ts';
 import { SineSource, type StimulusSetting } from '../dsp/sine-source.ts';
