@@ -178,7 +178,7 @@ export function judgeMaxLevel(step: MaxLevelStep, levels: StationLevels | null, 
   const above = outputs.at(-1)!;
   const below = outputs.at(-2);
   if (!below) {
-    const note = `THD+N was already ${percent(above.thdnPercent)} at the first level (${signed(above.outputDbu)} dBu out), past the ${threshold(step)} threshold: the crossing lies below where the step starts. Start the step lower.`;
+    const note = `THD+N was already ${percent(above.thdnPercent)} at the first level (${signed(above.outputDbu)} dBu out), past the ${threshold(step)} threshold: the crossing lies below where the step starts, or the unit's noise alone is above the threshold there. Start the step lower, or check the unit's noise.`;
     return { ok: true, result: checkResult(step, [{ m: measurement('maxLevelDbu', null, limit, note), label }]) };
   }
   const value = crossingDbu(below, above, step.thdnThresholdPercent);

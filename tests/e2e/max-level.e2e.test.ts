@@ -31,7 +31,7 @@ const caller = (path: string | null): CallerContext => ({ printToPdf: async () =
 /** +10 to +20 dBu (−10 to 0 dBFS) in 1 dB steps until THD+N reaches 1 %; the unit must reach +12 dBu. */
 const STEP = { ...MAX_LEVEL_STEP, startLevel: { value: 10, unit: 'dBu' }, ceiling: { value: 20, unit: 'dBu' } };
 /** For the clipping run: a threshold no reading reaches before the input clips. */
-const CLIP_STEP = { ...STEP, thdnThresholdPercent: 10 };
+const CLIP_STEP = { ...STEP, thdnThresholdPercent: 10, instructions: ['The level rises in 1 dB steps until THD+N reaches 10 %.'] };
 
 // ---- the simulated stage at 1 kHz, from its parameters -------------------------------------------
 const p = DEMO_UNIT_PARAMETERS;
