@@ -1,4 +1,4 @@
-import { useEffect, useMemo, useState, type RefObject } from 'react';
+import { useEffect, useMemo, useRef, useState, type RefObject } from 'react';
 import { signedFixed } from '../../shared/levels.ts';
 import type { Reading } from '../../shared/measurement/reading.ts';
 import type { CheckResult, StationLevels } from '../../shared/procedures/check-steps.ts';
@@ -10,7 +10,7 @@ import { compactNumber } from '../../shared/format.ts';
 import { percent } from './format.ts';
 import { MaxLevelPlot } from './MaxLevelPlot.tsx';
 import { MeasurementsTable } from './MeasurementsTable.tsx';
-import { secondPressTooSoon } from './primary-press.ts';
+import { DOUBLE_PRESS_MS, secondPressTooSoon } from './primary-press.ts';
 import { StepReasons } from './StepResultView.tsx';
 import { secondsLeft, useMaxLevelSequence, type SequenceState } from './useMaxLevelSequence.ts';
 
@@ -52,6 +52,9 @@ export function MaxLevelPanel({
   const plan = planned_.ok ? planned_.plan : null;
   const { state, start, reset } = useMaxLevelSequence({ step, plan, levels, reading, generator, apply, mute });
   const [message, setMessage] = useState<string | null>(null);
+  // The Enter that opened this step (a notice acknowledged, the step before recorded) must not start
+  // a loud sequence: a press this soon after the panel appeared is taken as that one.
+  const shownAt = useRef(performance.now());
   const outcome = useMemo(() => (state.phase === 'ended' ? judgeMaxLevel(step, levels, state.points) : null), [state.phase, state.points, step, levels]);
   const blocked = planned.blocked ?? (planned_.ok ? null : planned_.refusal);
   if (blocked || !plan || !levels) {
@@ -63,7 +66,7 @@ export function MaxLevelPanel({
   }
 
   async function primary() {
-    if (pending || secondPressTooSoon()) return;
+    if (pending || secondPressTooSoon() || performance.now() - shownAt.current < DOUBLE_PRESS_MS) return;
     if (state.phase === 'running') return;
     if (state.phase === 'ended' && outcome?.ok) {
       setMessage(null);

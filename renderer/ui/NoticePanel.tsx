@@ -1,6 +1,5 @@
 import { useState, type RefObject } from 'react';
 import { problemText } from '../problem-text.ts';
-import { secondPressTooSoon } from './primary-press.ts';
 
 /** A notice step: the technician reads it and acknowledges it (Enter). Nothing plays meanwhile. */
 export function NoticePanel({
@@ -16,8 +15,6 @@ export function NoticePanel({
 }) {
   const [message, setMessage] = useState<string | null>(null);
   async function acknowledge() {
-    // Noted, so that a second Enter landing on the next step's panel is taken as this press.
-    secondPressTooSoon();
     try {
       await onAcknowledge();
       setMessage(null);

@@ -4,7 +4,7 @@
 // on whichever step, is taken as the same press.
 
 /** Two presses of Enter closer than this are one impatient press (common practice for debouncing a double key press). */
-const DOUBLE_PRESS_MS = 500;
+export const DOUBLE_PRESS_MS = 500;
 /** When the primary action was last pressed, on whichever step: the next step's panel sees the same time. */
 let lastPrimaryAt = Number.NEGATIVE_INFINITY;
 
