@@ -6,6 +6,12 @@ export function fixed(value: number | null | undefined, decimals: number): strin
   return value.toFixed(decimals).replace('-', '−');
 }
 
+/** A setting as a file gives it, without trailing zeros: 1, 0.25, 12.5 (at most `decimals` decimals). */
+export function compactNumber(value: number, decimals = 2): string {
+  if (!Number.isFinite(value)) return '—';
+  return String(Number(value.toFixed(decimals))).replace('-', '−');
+}
+
 export function percent(value: number): string {
   if (!Number.isFinite(value)) return '—';
   if (value === 0) return '0 %';

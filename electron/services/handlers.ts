@@ -72,6 +72,7 @@ export function createHandlers({ records, sheets, calibrations, settings, statio
       const text = readBoundedText(path, SCOPE_FILE_MAX_BYTES, 'a scope record', 'Export fewer points (a few periods of the square wave are enough) and attach that file.');
       return { outcome: 'recorded' as const, detail: await records.recordRingingStep({ ...request, text, fileName: basename(path) }) };
     },
+    recordMaxLevel: (request) => records.recordMaxLevel(request),
     finishRun: (request) => records.finishRun(request),
     saveSheetPdf: async ({ runId }, caller) => sheets.savePdf(runId, () => caller.printToPdf()),
     printSheet: async ({ runId }, caller) => {
@@ -138,6 +139,7 @@ export const CHANNEL_ACTIONS: Record<IpcChannel, string> = {
   completeTrim: 'complete the trim step',
   recordCheckStep: 'record the check step',
   attachScopeCapture: 'record the scope capture',
+  recordMaxLevel: 'record the max-level step',
   finishRun: 'finish the run',
   saveSheetPdf: 'save the unit sheet as PDF',
   printSheet: 'print the unit sheet',

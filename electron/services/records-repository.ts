@@ -23,6 +23,7 @@ const OPERATIONS = [
   'completeTrim',
   'recordCheckStep',
   'recordRingingStep',
+  'recordMaxLevel',
   'finishRun',
   'setSheetPath',
 ] as const satisfies readonly (keyof Records)[];

@@ -23,9 +23,10 @@ import { inputDbuAtFullScaleFor, setupChanges, type AudioSetup } from '../../sha
 import type { StationSettings } from '../../shared/calibration/station-settings.ts';
 import { asSentences } from '../../shared/format.ts';
 import { procedureSchema, type Procedure } from '../../shared/procedures/procedure.ts';
-import { checkProcedureFile, procedureFileSchema, upgradeProcedure, type ProcedureFile, type ProcedureStep } from '../../shared/procedures/procedure-file.ts';
+import { checkProcedureFile, procedureFileSchema, upgradeProcedure, type CheckStep, type ProcedureFile, type ProcedureStep } from '../../shared/procedures/procedure-file.ts';
 import { judgeScopeRecord } from '../../shared/procedures/ringing.ts';
-import { isCheckStep, judgeLimit, measureCheckStep, measurement, runLevels, type Measurement } from '../../shared/procedures/check-steps.ts';
+import { judgeMaxLevel, type MaxLevelPoint } from '../../shared/procedures/max-level.ts';
+import { isCheckStep, judgeLimit, measureCheckStep, measurement, runLevels, type CheckOutcome, type Measurement } from '../../shared/procedures/check-steps.ts';
 import { judgeUnit, laterStepResult } from '../../shared/procedures/unit-verdict.ts';
 import { quantityLabel } from '../../shared/procedures/step-text.ts';
 import { trimView } from '../../shared/procedures/trim-view.ts';
@@ -584,6 +585,30 @@ export function createRecords(
         `Step “${measured.stepId}” after the trim has been measured at the trimmer's setting, so ${what} can no longer change this run. Finish it, then start a retest with the reason to trim the unit again.`,
       );
     }
+  }
+
+  /**
+   * A check step judged in main and stored, or refused with the reason and nothing stored: the run
+   * open and writable, its calibration holding for the setup, the step the walk's next (or a
+   * repeat), then `judge` on the run's calibration and setup inside one write transaction.
+   */
+  function recordCheck(
+    request: { runId: number; stepId: string; setup?: AudioSetup | null },
+    judge: (step: CheckStep, used: ReturnType<typeof calibrationUsed>, setup: AudioSetup | null) => { outcome: CheckOutcome; stimulus: StimulusSetting; readings: unknown },
+  ): RunDetail {
+    refuseUnlessWritable();
+    const row = openRunRow(request.runId, (id) => `Run ${id} is finished; its steps can no longer be recorded.`);
+    const lapsed = calibrationNotHolding(row, request.setup, true);
+    if (lapsed) throw new ExpectedFailure(`This step was not recorded. ${lapsed} Otherwise finish the run as FAIL, calibrate the station, then retest the unit.`);
+    return db.transaction(() => {
+      const step = stepToRecord(row, request.stepId, 'check');
+      if (!isCheckStep(step)) throw new ExpectedFailure(`Step “${step.id}” is not a check step.`);
+      const { outcome, stimulus, readings } = judge(step, calibrationUsed(row), request.setup ?? null);
+      if (!outcome.ok) throw new ExpectedFailure(`Step “${step.id}” was not recorded. ${outcome.refusal}`);
+      const { verdict, reasons, measurements } = outcome.result;
+      storeStepResult(row.id, step, { verdict, reasons, measurements, stimulus, readings });
+      return runDetail(row.id);
+    }).immediate();
   }
 
   /** Stores a step's result with its measurements; called inside the caller's write transaction. */
@@ -1225,25 +1250,26 @@ export function createRecords(
      * with the reason, and nothing is stored.
      */
     recordCheckStep(request: { runId: number; stepId: string; stimulus: StimulusSetting; readings: readonly { channel: number; reading: Reading }[]; setup?: AudioSetup | null }): RunDetail {
-      refuseUnlessWritable();
-      const row = openRunRow(request.runId, (id) => `Run ${id} is finished; its steps can no longer be recorded.`);
-      const lapsed = calibrationNotHolding(row, request.setup, true);
-      if (lapsed) throw new ExpectedFailure(`This step was not recorded. ${lapsed} Otherwise finish the run as FAIL, calibrate the station, then retest the unit.`);
-      return db.transaction(() => {
-        const step = stepToRecord(row, request.stepId, 'check');
-        if (!isCheckStep(step)) throw new ExpectedFailure(`Step “${step.id}” is not a check step.`);
-        const used = calibrationUsed(row);
-        const setup = request.setup ?? null;
+      return recordCheck(request, (step, used, setup) => {
         const levels = runLevels(used, setup);
         // Each of the unit's channels is read through its own capture input, with that input's figure
         // from the run's calibration (none for an input it did not measure: a two-channel step is then refused).
         const readings = request.readings.map(({ channel, reading }) => ({ channel, reading, inputDbuAtFullScale: inputDbuAtFullScaleFor(channel, used, setup) }));
-        const outcome = measureCheckStep(step, { stimulus: request.stimulus, levels, readings });
-        if (!outcome.ok) throw new ExpectedFailure(`Step “${step.id}” was not recorded. ${outcome.refusal}`);
-        const { verdict, reasons, measurements } = outcome.result;
-        storeStepResult(row.id, step, { verdict, reasons, measurements, stimulus: request.stimulus, readings: request.readings });
-        return runDetail(row.id);
-      }).immediate();
+        return { outcome: measureCheckStep(step, { stimulus: request.stimulus, levels, readings }), stimulus: request.stimulus, readings: request.readings };
+      });
+    },
+
+    /**
+     * A max-level step's whole sequence, judged here (judgeMaxLevel) against the stored revision's
+     * limits with the run's calibration: every reading must be of the level the sequence plays at
+     * its place, and the sequence must end where its rules end it. Otherwise nothing is stored.
+     */
+    recordMaxLevel(request: { runId: number; stepId: string; points: readonly MaxLevelPoint[]; setup?: AudioSetup | null }): RunDetail {
+      return recordCheck(request, (step, used, setup) => {
+        if (step.kind !== 'max-level') throw new ExpectedFailure(`Step “${step.id}” is a ${step.kind} step, not a max-level step: nothing was recorded.`);
+        // The last level played stands for the step's stimulus; every level is in the readings.
+        return { outcome: judgeMaxLevel(step, runLevels(used, setup), request.points), stimulus: request.points.at(-1)!.stimulus, readings: request.points };
+      });
     },
 
     /**

@@ -264,6 +264,8 @@ export function App() {
                 generator={generator.generator}
                 generatorAvailable={audio !== null}
                 onToggleGenerator={generator.toggle}
+                applyGenerator={generator.apply}
+                mute={generator.mute}
                 stimulusNote={stimulusNote}
                 sampleRateHz={captureRate ?? choice.sampleRateHz}
                 levels={levelsOfRun}

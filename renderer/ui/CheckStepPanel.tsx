@@ -9,6 +9,7 @@ import type { GeneratorCommand } from '../worker/messages.ts';
 import { problemText } from '../problem-text.ts';
 import { fixed } from './format.ts';
 import { MeasurementsTable } from './MeasurementsTable.tsx';
+import { secondPressTooSoon } from './primary-press.ts';
 
 // A reading older than this is not recorded: the stream has stopped.
 const STALE_READING_MS = 2000;
@@ -22,10 +23,6 @@ export interface ChannelLive {
   at: number;
 }
 
-/** Two presses of Enter closer than this are one impatient press (common practice for debouncing a double key press). */
-const DOUBLE_PRESS_MS = 500;
-/** When the primary action was last pressed, on whichever step: the next step's panel sees the same time. */
-let lastPrimaryAt = Number.NEGATIVE_INFINITY;
 
 /**
  * A check step being measured: the generator as the step plans it (off for noise and hum, with the
@@ -120,10 +117,7 @@ export function CheckStepPanel({
     // An impatient second Enter lands on the next step once the first has recorded: it must not
     // turn that step's tone on (a loud tone nobody asked for), so a press this soon after the last
     // one is taken as the same press.
-    const now = performance.now();
-    const tooSoon = now - lastPrimaryAt < DOUBLE_PRESS_MS;
-    lastPrimaryAt = now;
-    if (tooSoon) return;
+    if (secondPressTooSoon()) return;
     if (waitingForTone) {
       if (!generatorAvailable) return setMessage('Start capture (Audio interface) first: the generator plays through it.');
       setMessage(null);

@@ -6,6 +6,7 @@ import { isCheckStep, type StationLevels } from '../../shared/procedures/check-s
 import type { PlannedStep } from '../../shared/procedures/run-plan.ts';
 import type { GeneratorCommand } from '../worker/messages.ts';
 import { CheckStepPanel, type ChannelLive } from './CheckStepPanel.tsx';
+import { MaxLevelPanel } from './MaxLevelPanel.tsx';
 import { NoticePanel } from './NoticePanel.tsx';
 import { RingingPanel } from './RingingPanel.tsx';
 import { StepWalk } from './StepWalk.tsx';
@@ -25,6 +26,8 @@ export function RunView({
   generator,
   generatorAvailable,
   onToggleGenerator,
+  applyGenerator,
+  mute,
   stimulusNote,
   sampleRateHz,
   levels,
@@ -47,6 +50,9 @@ export function RunView({
   generator: GeneratorCommand;
   generatorAvailable: boolean;
   onToggleGenerator(): void;
+  /** Sets the generator (a max-level step raises its level), and mutes it. */
+  applyGenerator(command: GeneratorCommand): void;
+  mute(): void;
   stimulusNote: string | null;
   /** The rate the generator plays at (capture's, or the chosen one before it starts). */
   sampleRateHz: number;
@@ -103,6 +109,24 @@ export function RunView({
           primaryRef={primaryRef}
           result={latest(step.id)}
           onAttach={() => run.attachScopeCapture(step.id)}
+        />
+      );
+    } else if (step.kind === 'max-level') {
+      panel = (
+        <MaxLevelPanel
+          key={`${detail.run.id}/${step.id}`}
+          step={step}
+          planned={planned}
+          reading={reading}
+          generator={generator}
+          generatorAvailable={generatorAvailable}
+          apply={applyGenerator}
+          mute={mute}
+          levels={levels}
+          stimulusNote={stimulusNote}
+          pending={run.pending}
+          primaryRef={primaryRef}
+          onRecord={(points) => run.recordMaxLevel(step.id, points)}
         />
       );
     } else if (isCheckStep(step)) {

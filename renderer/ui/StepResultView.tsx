@@ -11,15 +11,21 @@ export function StepResultView({ result }: { result: StepResult }) {
         <strong>{result.verdict === 'pass' ? 'Passed' : 'Failed'}</strong>
         {result.attempt > 1 ? ` (attempt ${result.attempt})` : ''} · recorded {localTime(result.recordedAt)}
       </p>
-      {result.reasons.length > 0 && (
-        <ul className="step-reasons">
-          {result.reasons.map((r) => (
-            <li key={r}>{r}</li>
-          ))}
-        </ul>
-      )}
+      <StepReasons reasons={result.reasons} />
       {result.measurements.length > 0 && <MeasurementsTable measurements={result.measurements} live={false} />}
       {result.scopeRecord && <RingingPlot key={result.id} plot={result.scopeRecord.plot} fileName={result.scopeRecord.fileName} />}
     </div>
+  );
+}
+
+/** Why a step failed, one sentence each; nothing on a pass. */
+export function StepReasons({ reasons }: { reasons: readonly string[] }) {
+  if (reasons.length === 0) return null;
+  return (
+    <ul className="step-reasons">
+      {reasons.map((r) => (
+        <li key={r}>{r}</li>
+      ))}
+    </ul>
   );
 }

@@ -98,7 +98,13 @@ export function useRun(setup: AudioSetup | null) {
     [once],
   );
 
-  /** Refused with the reasons when the run has not earned a PASS, unless it is finished as a FAIL. */
+  /** A max-level step's whole sequence: main re-runs its rules on every reading and judges it. */
+  const recordMaxLevel = useCallback(
+    (stepId: string, points: { stimulus: StimulusSettingRequest; reading: Reading }[]) =>
+      once(async () => keep(await call('recordMaxLevel', { runId: runId(), stepId, points, setup: setupRef.current }))),
+    [once],
+  );
+
   /** Main asks for the scope's file in its own dialog and judges it; resolves 'cancelled' when the technician cancels. */
   const attachScopeCapture = useCallback(
     (stepId: string) =>
@@ -109,6 +115,8 @@ export function useRun(setup: AudioSetup | null) {
       }),
     [once],
   );
+
+  /** Refused with the reasons when the run has not earned a PASS, unless it is finished as a FAIL. */
   const finish = useCallback(
     (asFailure: boolean) =>
       once(async () => {
@@ -121,5 +129,5 @@ export function useRun(setup: AudioSetup | null) {
 
   const close = useCallback(() => setDetail(null), []);
 
-  return { detail, pending, open, recordPoint, includePoint, logWarningChanges, recordWarmCheck, acknowledgeNotice, completeTrim, recordCheckStep, attachScopeCapture, finish, close };
+  return { detail, pending, open, recordPoint, includePoint, logWarningChanges, recordWarmCheck, acknowledgeNotice, completeTrim, recordCheckStep, recordMaxLevel, attachScopeCapture, finish, close };
 }

@@ -14,6 +14,7 @@ export const IPC_CHANNELS = [
   'completeTrim',
   'recordCheckStep',
   'attachScopeCapture',
+  'recordMaxLevel',
   'finishRun',
   'saveSheetPdf',
   'printSheet',

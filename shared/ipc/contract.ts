@@ -5,7 +5,7 @@ import { z } from 'zod';
 import type { Reading } from '../measurement/reading.ts';
 import type { TrimAssessment } from '../trim/assessment.ts';
 import { procedureSchema } from '../procedures/procedure.ts';
-import { procedureFileSchema, STEP_KINDS } from '../procedures/procedure-file.ts';
+import { MAX_LEVEL_RANGES, procedureFileSchema, STEP_KINDS } from '../procedures/procedure-file.ts';
 import type { Measurement } from '../procedures/check-steps.ts';
 import type { UnitJudgement } from '../procedures/unit-verdict.ts';
 import { EDGE_PLOT_MAX_POINTS, type ScopeRecordSummary } from '../procedures/ringing.ts';
@@ -557,6 +557,26 @@ export const contract = {
   attachScopeCapture: {
     request: stepRef,
     response: z.object({ outcome: z.enum(['recorded', 'cancelled']), detail: runDetailSchema }),
+  },
+  /**
+   * A max-level step's whole sequence, each level's generator setting with its reading, in the
+   * order played: main re-runs the step's rules on every reading (judgeMaxLevel) and computes the
+   * crossing itself.
+   */
+  recordMaxLevel: {
+    request: z
+      .object({
+        runId: rowId,
+        stepId: z.string().min(1).max(40),
+        points: z
+          .array(z.object({ stimulus: stimulusSettingSchema, reading: boundedReadingSchema }).strict())
+          .min(1)
+          .max(MAX_LEVEL_RANGES.steps.max),
+        /** The audio setup in use: main checks it against the run's calibration. */
+        setup: audioSetupSchema.nullable().default(null),
+      })
+      .strict(),
+    response: runDetailSchema,
   },
   finishRun: {
     request: z.object({ runId: rowId, asFailure: z.boolean().optional() }).strict(),

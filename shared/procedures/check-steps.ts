@@ -112,7 +112,7 @@ export function verdictOf(measured: readonly { m: Measurement; label: string }[]
   return { verdict: reasons.length === 0 && measured.length > 0 ? 'pass' : 'fail', reasons };
 }
 
-function result(step: CheckStep, measured: { m: Measurement; label: string }[]): CheckResult {
+export function checkResult(step: CheckStep, measured: { m: Measurement; label: string }[]): CheckResult {
   return { stepId: step.id, kind: step.kind, ...verdictOf(measured), measurements: measured.map(({ m }) => m) };
 }
 
@@ -164,7 +164,7 @@ export type GeneratorRequest =
 export type GeneratorOutcome = { ok: true; request: GeneratorRequest } | { ok: false; refusal: string };
 
 /** The check kinds that play a tone. */
-type StimulusStep = Exclude<CheckStep, { kind: 'noise' | 'hum' }>;
+export type StimulusStep = Exclude<CheckStep, { kind: 'noise' | 'hum' }>;
 
 /**
  * What the step asks of the generator: off for noise and hum; otherwise its frequency and its level
@@ -173,7 +173,8 @@ type StimulusStep = Exclude<CheckStep, { kind: 'noise' | 'hum' }>;
  */
 export function generatorFor(step: CheckStep, levels: StationLevels | null): GeneratorOutcome {
   if (step.kind === 'noise' || step.kind === 'hum') return { ok: true, request: { on: false } };
-  const played = playedLevel(step.id, step.level, levels, 0);
+  // A max-level step starts at its start level (shared/procedures/max-level.ts plans the rise).
+  const played = playedLevel(step.id, step.kind === 'max-level' ? step.startLevel : step.level, levels, 0);
   if (!played.ok) return played;
   return { ok: true, request: { on: true, frequencyHz: step.frequencyHz, levelDbfs: played.levelDbfs, levelDbu: played.levelDbu } };
 }
@@ -211,6 +212,12 @@ export function whyStepCannotRun(step: CheckStep, levels: StationLevels | null):
   const generator = generatorFor(step, levels);
   if (!generator.ok) return generator.refusal;
   if (step.kind === 'balance' || step.kind === 'crosstalk') return whyChannelsNotComparable(step, levels?.inputDbuAtFullScale ?? null, levels?.secondInputDbuAtFullScale ?? null);
+  if (step.kind === 'max-level') {
+    // Its ceiling is the loudest it plays: a station that cannot reach it cannot run the step.
+    const ceiling = playedLevel(step.id, step.ceiling, levels, 0);
+    if (!ceiling.ok) return ceiling.refusal;
+    if (!levels) return `Step “${step.id}” reports the unit's maximum output level in dBu, and this station has no calibration that holds: calibrate it in Station settings.`;
+  }
   if (levels) return null;
   // These report a level at the unit's terminals (or a gain between two of them): only a calibrated
   // input can say it.
@@ -245,7 +252,7 @@ function whyChannelsNotComparable(step: Extract<CheckStep, { kind: 'balance' | '
 export const CHECK_LEVEL_WINDOW_DB = 20;
 
 /** Why a reading with the generator playing may not be judged as this step's, or null when it may. */
-function whyNotOfStimulus(reading: Reading, stimulus: StimulusSetting, step: StimulusStep, requested: GeneratorRequest & { on: true }, inputDbuAtFullScale: number | null): string | null {
+export function whyNotOfStimulus(reading: Reading, stimulus: StimulusSetting, step: StimulusStep, requested: GeneratorRequest & { on: true }, inputDbuAtFullScale: number | null): string | null {
   // The same rules as a trim point: a consistent, settled reading of the tone at the step's frequency
   // and level. The gain step judges the level by its limits; the others must read about what a
   // unity-gain stage gives: the level played, carried to the input's dBFS when both ends are calibrated.
@@ -384,6 +391,8 @@ export function measureCheckStep(step: CheckStep, input: CheckInput): CheckOutco
   if (why) return { ok: false, refusal: step.kind === 'balance' || step.kind === 'crosstalk' ? `Channel ${first.channel}: ${why}` : why };
 
   switch (step.kind) {
+    case 'max-level':
+      return { ok: false, refusal: `Step “${step.id}” is a max-level step: it is judged from its whole sequence of readings, never from one.` };
     case 'distortion': {
       const few = whyTooFewHarmonics(step, first.reading);
       if (few) return { ok: false, refusal: few };
@@ -465,7 +474,7 @@ function measureDistortion(step: Extract<CheckStep, { kind: 'distortion' }>, rea
       label: name,
     });
   }
-  return result(step, measured);
+  return checkResult(step, measured);
 }
 
 function measureGain(step: Extract<CheckStep, { kind: 'gain' }>, reading: Reading, stimulus: StimulusSetting, levels: StationLevels): CheckResult {
@@ -474,7 +483,7 @@ function measureGain(step: Extract<CheckStep, { kind: 'gain' }>, reading: Readin
   const inputDbu = stimulus.levelDbfs + levels.outputDbuAtFullScale;
   const outputDbu = reading.fundamental.levelDbfs + levels.inputDbuAtFullScale;
   const note = `${round(outputDbu, 2)} dBu out for ${round(inputDbu, 2)} dBu in`;
-  return result(step, [{ m: measurement('gainDb', outputDbu - inputDbu, step.limits.gainDb, note), label: 'Gain' }]);
+  return checkResult(step, [{ m: measurement('gainDb', outputDbu - inputDbu, step.limits.gainDb, note), label: 'Gain' }]);
 }
 
 /**
@@ -494,7 +503,7 @@ function measureNoise(step: Extract<CheckStep, { kind: 'noise' }>, reading: Read
   // scale carries it to dBu unchanged.
   const dbfs = step.weighting === 'A' ? reading.noiseAWeightedDbfs : reading.noiseDbfs;
   const note = `${step.weighting === 'A' ? 'A-weighted (IEC 61672)' : 'unweighted'}, ${band(reading.bandHz)}; tones (mains hum, any stray tone) are taken out of it`;
-  return result(step, [{ m: measurement('noiseDbu', dbuOf(dbfs, levels.inputDbuAtFullScale), step.limits.noiseDbu, note), label: step.weighting === 'A' ? 'Noise (A-weighted)' : 'Noise' }]);
+  return checkResult(step, [{ m: measurement('noiseDbu', dbuOf(dbfs, levels.inputDbuAtFullScale), step.limits.noiseDbu, note), label: step.weighting === 'A' ? 'Noise (A-weighted)' : 'Noise' }]);
 }
 
 function measureHum(step: Extract<CheckStep, { kind: 'hum' }>, reading: Reading, levels: StationLevels): CheckResult {
@@ -503,7 +512,7 @@ function measureHum(step: Extract<CheckStep, { kind: 'hum' }>, reading: Reading,
   const search = reading.humSearch;
   if (!found && !search) {
     const note = 'no hum stood out, and the reading does not say the level it had to exceed to stand out, so no bound can be given: take a new reading';
-    return result(step, [{ m: measurement('humDbu', null, limit, note), label: 'Hum (upper bound)' }]);
+    return checkResult(step, [{ m: measurement('humDbu', null, limit, note), label: 'Hum (upper bound)' }]);
   }
   // With hum standing out, its components are read at the mains frequency found; otherwise the
   // meter fitted every order at nominal mains and none exceeded its threshold, so each fitted
@@ -554,10 +563,10 @@ function measureHum(step: Extract<CheckStep, { kind: 'hum' }>, reading: Reading,
   // A component the step asks for and the meter did not read may be the loudest: no value, no pass.
   if (unread.length > 0) {
     const note = `mains ${orders(unread)} not read by the meter, so the hum the step asks for was not measured`;
-    return result(step, [{ m: measurement('humDbu', null, limit, note), label: bound ? 'Hum (upper bound)' : 'Hum' }]);
+    return checkResult(step, [{ m: measurement('humDbu', null, limit, note), label: bound ? 'Hum (upper bound)' : 'Hum' }]);
   }
   const value = summed.length > 0 ? dbuOf(powerSumDb(summed), levels.inputDbuAtFullScale) : null;
-  return result(step, [{ m: measurement('humDbu', value, limit, notes.join('; ')), label: bound ? 'Hum (upper bound)' : 'Hum' }]);
+  return checkResult(step, [{ m: measurement('humDbu', value, limit, notes.join('; ')), label: bound ? 'Hum (upper bound)' : 'Hum' }]);
 }
 
 function twoChannel(step: Extract<CheckStep, { kind: 'balance' | 'crosstalk' }>, first: ChannelReading, second: ChannelReading, quantity: string, limit: Limit, label: string, note: string | null): CheckOutcome {
@@ -566,7 +575,7 @@ function twoChannel(step: Extract<CheckStep, { kind: 'balance' | 'crosstalk' }>,
   // one (crosstalk). measureCheckStep has made sure both inputs are calibrated.
   const a = first.reading.fundamental.levelDbfs + (first.inputDbuAtFullScale as number);
   const b = second.reading.fundamental.levelDbfs + (second.inputDbuAtFullScale as number);
-  return { ok: true, result: result(step, [{ m: measurement(quantity, b - a, limit, note), label }]) };
+  return { ok: true, result: checkResult(step, [{ m: measurement(quantity, b - a, limit, note), label }]) };
 }
 
 /**

@@ -40,9 +40,9 @@ export const PROCEDURE_RANGES = {
   channels: { min: 1, max: 16 },
 } as const;
 
-export const STEP_KINDS = ['notice', 'trim', 'distortion', 'gain', 'noise', 'hum', 'balance', 'crosstalk', 'ringing'] as const;
+export const STEP_KINDS = ['notice', 'trim', 'distortion', 'gain', 'noise', 'hum', 'balance', 'crosstalk', 'max-level', 'ringing'] as const;
 export type StepKind = (typeof STEP_KINDS)[number];
-export const CHECK_KINDS = ['distortion', 'gain', 'noise', 'hum', 'balance', 'crosstalk'] as const satisfies readonly StepKind[];
+export const CHECK_KINDS = ['distortion', 'gain', 'noise', 'hum', 'balance', 'crosstalk', 'max-level'] as const satisfies readonly StepKind[];
 /** Kinds that compare two of the unit's channels. */
 export const TWO_CHANNEL_KINDS = ['balance', 'crosstalk'] as const satisfies readonly StepKind[];
 export const HARMONIC_NAMES = ['H2', 'H3', 'H4', 'H5', 'H6', 'H7', 'H8', 'H9', 'H10'] as const;
@@ -234,6 +234,42 @@ export const ringingStepSchema = z.strictObject({
   onFail,
 });
 
+/**
+ * The rise of a max-level step: steps of at least 0.25 dB (finer is below what a technician's
+ * readings resolve at a knee) and at most 6 dB (coarser would leap over the onset of clipping),
+ * and the THD+N at which the level counts as the maximum: 0.01 % is near the floor of a good
+ * station chain, 30 % is a waveform clipped flat (1 % is the usual rating point, common practice).
+ */
+export const MAX_LEVEL_RANGES = { stepDb: { min: 0.25, max: 6 }, thdnThresholdPercent: { min: 0.01, max: 30 }, steps: { max: 100 } } as const;
+
+export const maxLevelStepSchema = z
+  .strictObject({
+    ...stepBase,
+    kind: z.literal('max-level'),
+    frequencyHz,
+    /** The generator's first level; it then rises by stepDb, never above ceiling. */
+    startLevel: level,
+    stepDb: inRange(MAX_LEVEL_RANGES.stepDb, 'dB'),
+    /** The highest generator level the step may ever play. */
+    ceiling: level,
+    thdnThresholdPercent: inRange(MAX_LEVEL_RANGES.thdnThresholdPercent, '%'),
+    limits: z.strictObject({
+      // A maximum level is a level the unit must reach: judged from below only, so that a lower
+      // bound (the ceiling reached without crossing) that meets it is an earned pass.
+      maxLevelDbu: limit('dBu', PROCEDURE_RANGES.levelDbu).refine((l) => l.low !== undefined && l.high === undefined, 'must have a low bound only: a maximum level is a level the unit must at least reach'),
+    }),
+    onFail,
+  })
+  .superRefine((s, ctx) => {
+    if (s.startLevel.unit !== s.ceiling.unit) {
+      ctx.addIssue({ code: 'custom', message: `must be in the same unit as startLevel ("${s.startLevel.unit}"), so the steps between them are known from the file`, path: ['ceiling', 'unit'] });
+    } else if (!(s.startLevel.value < s.ceiling.value)) {
+      ctx.addIssue({ code: 'custom', message: 'must be above startLevel', path: ['ceiling', 'value'] });
+    } else if (s.stepDb >= MAX_LEVEL_RANGES.stepDb.min && (s.ceiling.value - s.startLevel.value) / s.stepDb + 1 > MAX_LEVEL_RANGES.steps.max) {
+      ctx.addIssue({ code: 'custom', message: `gives more than ${MAX_LEVEL_RANGES.steps.max} levels from startLevel to ceiling: raise stepDb or start higher`, path: ['stepDb'] });
+    }
+  });
+
 const stepSchemas = {
   notice: noticeStepSchema,
   trim: trimStepSchema,
@@ -244,6 +280,7 @@ const stepSchemas = {
   balance: balanceStepSchema,
   crosstalk: crosstalkStepSchema,
   ringing: ringingStepSchema,
+  'max-level': maxLevelStepSchema,
 } as const;
 
 export const procedureStepSchema = z.discriminatedUnion('kind', [
@@ -256,6 +293,7 @@ export const procedureStepSchema = z.discriminatedUnion('kind', [
   balanceStepSchema,
   crosstalkStepSchema,
   ringingStepSchema,
+  maxLevelStepSchema,
 ]);
 
 export const procedureFileSchema = z.strictObject({
@@ -452,7 +490,7 @@ function wholeFileProblems(file: Record<string, unknown>): ProcedureProblem[] {
     // dBu is a level at the unit's terminals: only a calibrated station can set or read it.
     if (needsCalibration === null) {
       if (at(at(step, 'level'), 'unit') === 'dBu') needsCalibration = `${path}.level`;
-      else if (kind === 'gain') needsCalibration = `${path}.kind`;
+      else if (kind === 'gain' || kind === 'max-level') needsCalibration = `${path}.kind`;
       else {
         const limits = at(step, 'limits');
         for (const key of ['noiseDbu', 'humDbu']) if (at(limits, key) !== undefined) needsCalibration = `${path}.limits.${key}`;

@@ -2,7 +2,7 @@
 // sheet and in the procedures view. Limits are inclusive (docs/procedures.md), so a bound is
 // written ≤ or ≥, and a two-sided limit as a range.
 
-import { fixed, withPrefix } from '../format.ts';
+import { compactNumber, fixed, withPrefix } from '../format.ts';
 import { signedFixed } from '../levels.ts';
 import type { Limit, ProcedureStep } from './procedure-file.ts';
 
@@ -18,6 +18,7 @@ const QUANTITY_LABELS: Record<string, string> = {
   dampingRatio: 'Damping ratio',
   overshootPercent: 'Overshoot',
   settlingTimeS: 'Settling time',
+  maxLevelDbu: 'Max level',
 };
 
 /** A measured quantity's name on the page: "thdDb" → "THD", "harmonicsDbc.H3" → "H3". */
@@ -77,6 +78,8 @@ export function stepConditions(step: ProcedureStep): string {
       return `generator off; mains${step.mainsHarmonics > 1 ? ` and harmonics to the ${ordinal(step.mainsHarmonics)}` : ' fundamental'}`;
     case 'ringing':
       return `square wave ${hzText(step.squareHz)} at ${signedFixed(step.level.value, 1)} ${step.level.unit}; oscilloscope record, voltage column ${step.channel}`;
+    case 'max-level':
+      return `${hzText(step.frequencyHz)} rising from ${signedFixed(step.startLevel.value, 1)} to at most ${signedFixed(step.ceiling.value, 1)} ${step.ceiling.unit} in ${compactNumber(step.stepDb)} dB steps, until THD+N reaches ${compactNumber(step.thdnThresholdPercent)} %`;
   }
 }
 
@@ -94,6 +97,8 @@ export function stepDetails(step: ProcedureStep): string[] {
     case 'noise':
     case 'hum':
       return [step.inputTermination];
+    case 'max-level':
+      return ['loud: stops at once if the station\'s input clips; Esc stops it and mutes the generator'];
     default:
       return [];
   }

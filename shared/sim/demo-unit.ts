@@ -11,7 +11,9 @@
 // primary, so H3 is proportional to R, sign included, and nulls where R = 0. Past the null R < 0
 // eats into the damping of the sub-audio resonance of magnetising inductance and coupling
 // capacitor: sub-audio noise rises, and once R is more negative than the damping network can
-// absorb, the stage oscillates slowly between the driver's rails.
+// absorb, the stage oscillates slowly between the driver's rails. Driven hard, the driver's
+// voltage stage swings softly into its supply past a knee well above the working level, so the
+// stage has a maximum output level where its THD+N rises steeply (the max-level check's subject).
 
 import { GaussianNoise, mulberry32 } from '../dsp/seeded-noise.ts';
 import { SineSource, type StimulusSetting } from '../dsp/sine-source.ts';
@@ -22,6 +24,13 @@ export interface DemoUnitParameters {
   /** The driver's own voltage gain relative to nominal (its gain-setting resistors): 1 on a unit built to value. */
   driverGain: number;
   driverRailVolts: number;
+  /**
+   * The driver's voltage stage swings softly into its supply: exactly linear up to the knee, then
+   * knee + span·tanh((|v| − knee)/span) toward the swing limit (span = limit − knee), so THD+N
+   * rises steeply past a known level while the working level (a few volts) is untouched.
+   */
+  driverKneeVolts: number;
+  driverSwingVolts: number;
   /** Driver third-harmonic coefficient on the normalised input: x + d₂·x² − d₃·x³. */
   driverCubic: number;
   /** Driver second-order coefficient (an asymmetric output stage): zero on a unit built to value. */
@@ -50,6 +59,8 @@ export const DEMO_UNIT_PARAMETERS: DemoUnitParameters = {
   driveVoltsPerFullScale: 10,
   driverGain: 1,
   driverRailVolts: 14,
+  driverKneeVolts: 6,
+  driverSwingVolts: 11,
   driverCubic: 2e-3,
   driverSquare: 0,
   driverNoiseVolts: 3e-5,
@@ -69,6 +80,14 @@ export const DEMO_UNIT_PARAMETERS: DemoUnitParameters = {
 /** The trimmer position where the net resistance R0 − R_c(p) is zero, from the parameters alone. */
 export function nullTurnsOf(p: Pick<DemoUnitParameters, 'windingOhms' | 'sourceOhms' | 'compensationOhmsPerTurn'>): number {
   return (p.windingOhms + p.sourceOhms) / p.compensationOhmsPerTurn;
+}
+
+/** The driver's voltage stage: linear to the knee, then a tanh into its swing limit (C¹ at the knee). */
+export function driverSwing(volts: number, p: Pick<DemoUnitParameters, 'driverKneeVolts' | 'driverSwingVolts'>): number {
+  const magnitude = Math.abs(volts);
+  if (magnitude <= p.driverKneeVolts) return volts;
+  const span = p.driverSwingVolts - p.driverKneeVolts;
+  return Math.sign(volts) * (p.driverKneeVolts + span * Math.tanh((magnitude - p.driverKneeVolts) / span));
 }
 
 export class DemoUnit {
@@ -140,7 +159,7 @@ export class DemoUnit {
       const remaining = this.trimmerTarget - this.trimmerTurns;
       this.trimmerTurns = Math.abs(remaining) <= stepTurns ? this.trimmerTarget : this.trimmerTurns + Math.sign(remaining) * stepTurns;
     }
-    const drive = p.driverGain * p.driveVoltsPerFullScale * (x + p.driverSquare * x * x - p.driverCubic * x * x * x) + p.driverNoiseVolts * this.noise.next();
+    const drive = driverSwing(p.driverGain * p.driveVoltsPerFullScale * (x + p.driverSquare * x * x - p.driverCubic * x * x * x), p) + p.driverNoiseVolts * this.noise.next();
     // Classic fourth-order Runge-Kutta on (flux, capacitor volts); the drive is held over the step.
     const psi = this.flux;
     const vc = this.capacitorVolts;

@@ -189,3 +189,22 @@ export async function acknowledgeNotice(page: Page): Promise<void> {
   if (await notice.isVisible()) await page.keyboard.press('Enter');
   await trim.waitFor({ timeout: POLL.timeout });
 }
+
+/** The demo bench's audio setup, as the page chooses it with no interface. */
+export const DEMO_SETUP = { inputDeviceId: 'demo-bench', inputDeviceLabel: 'Demo bench', inputChannel: 0, outputDeviceId: '', outputDeviceLabel: 'Default output', sampleRateHz: 48000 };
+
+/**
+ * Calibrates the bench's station for the demo setup through main's dispatcher: a voltmeter reading
+ * 0.7746 V (0 dBu) while the generator plays −20 dBFS, and the loopback of that tone captured at
+ * `capturedDbfs`.
+ */
+export async function calibrateDemoBench(bench: Bench, capturedDbfs: number): Promise<void> {
+  const noCaller: CallerContext = { printToPdf: async () => new Uint8Array(), print: async () => false, chooseProcedureFile: async () => null };
+  const calibrated = await dispatch(
+    bench.station.handlers,
+    'recordCalibration',
+    { operator: 'C. Calibrator', setup: DEMO_SETUP, output: { referenceHz: 1000, referenceDbfs: -20, meterEntry: '0.7746 V' }, input: { method: 'loopback', generatorDbfs: -20, capturedDbfs, capturedHz: 1000 } },
+    noCaller,
+  );
+  if (!calibrated.ok) throw new Error(calibrated.error.message);
+}

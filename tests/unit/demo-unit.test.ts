@@ -4,7 +4,7 @@
 
 import { describe, expect, it } from 'vitest';
 import { LiveMeter } from '../../shared/measurement/live-meter.ts';
-import { DemoUnit } from '../../shared/sim/demo-unit.ts';
+import { DEMO_UNIT_PARAMETERS, DemoUnit, driverSwing } from '../../shared/sim/demo-unit.ts';
 import { adviseTrim, type TrimAdvice, type TrimPointData } from '../../shared/trim/trim-assistant.ts';
 import { DEMO_PROCEDURE } from '../../shared/procedures/demo-procedure.ts';
 
@@ -116,5 +116,40 @@ describe('demo bench (simulated unit, invented parameters)', () => {
     // And left there, the stage does break into a slow oscillation (the driver reaches its rails).
     recordAt(7, 30);
     expect(unit.railSamples).toBeGreaterThan(0);
+  });
+});
+
+describe('the demo driver swinging into its supply (issue 11, max-level)', () => {
+  // A driver that never reaches its knee: the demo unit as it was before the swing was modelled.
+  const linear = { ...DEMO_UNIT_PARAMETERS, driverKneeVolts: 1e9, driverSwingVolts: 2e9 };
+  const render = (parameters: typeof DEMO_UNIT_PARAMETERS, setting: { frequencyHz: number; levelDbfs: number }, turns: number) => {
+    const unit = new DemoUnit(RATE, parameters, 3);
+    unit.setStimulus({ ...setting, on: true });
+    unit.setTrimmer(turns);
+    const out = new Float32Array(RATE);
+    unit.render(out);
+    return out;
+  };
+
+  it('leaves the working level untouched: the same samples as a driver with no knee, at the trim and the check levels', () => {
+    // The trim at −12 dBFS (2.5 V peak from the driver) and the checks' +4 dBu on a +18 to +20 dBu
+    // station (−14 to −16 dBFS) lie well under the 6 V knee, where the swing is the identity.
+    for (const [setting, turns] of [[STIMULUS, 5], [{ frequencyHz: 1000, levelDbfs: -14 }, 5], [{ frequencyHz: 14, levelDbfs: -12 }, 7]] as const) {
+      const swung = render(DEMO_UNIT_PARAMETERS, setting, turns);
+      const straight = render(linear, setting, turns);
+      expect(swung.reduce((worst, v, i) => Math.max(worst, Math.abs(v - straight[i])), 0)).toBe(0);
+    }
+  });
+
+  it('is linear to the knee, continuous in value and slope there, and approaches the swing limit without passing it', () => {
+    const p = DEMO_UNIT_PARAMETERS;
+    expect(driverSwing(p.driverKneeVolts - 1e-9, p)).toBeCloseTo(p.driverKneeVolts, 6);
+    // Slope 1 on both sides of the knee: d/dx of knee + span·tanh((x − knee)/span) is 1 at x = knee.
+    const h = 1e-6;
+    expect((driverSwing(p.driverKneeVolts + h, p) - driverSwing(p.driverKneeVolts, p)) / h).toBeCloseTo(1, 4);
+    expect(driverSwing(20, p)).toBeLessThan(p.driverSwingVolts);
+    expect(driverSwing(100, p)).toBeLessThanOrEqual(p.driverSwingVolts);
+    expect(driverSwing(100, p)).toBeGreaterThan(p.driverSwingVolts - 1e-6);
+    expect(driverSwing(-8, p)).toBe(-driverSwing(8, p));
   });
 });
