@@ -157,7 +157,7 @@ export type GeneratorRequest =
 export type GeneratorOutcome = { ok: true; request: GeneratorRequest } | { ok: false; refusal: string };
 
 /** The check kinds that play a tone. */
-type StimulusStep = Exclude<CheckStep, { kind: 'noise' | 'hum' }>;
+type StimulusStep = Exclude<CheckStep, { kind: 'noise' | 'hum' | 'response' }>;
 
 /**
  * What the step asks of the generator: off for noise and hum; otherwise its frequency and its level
@@ -165,32 +165,46 @@ type StimulusStep = Exclude<CheckStep, { kind: 'noise' | 'hum' }>;
  * scale). A dBu level on an uncalibrated station, or one the output cannot reach, is refused.
  */
 export function generatorFor(step: CheckStep, levels: StationLevels | null): GeneratorOutcome {
-  if (step.kind === 'noise' || step.kind === 'hum') return { ok: true, request: { on: false } };
-  const level = step.level;
-  if (level.unit === 'dBFS') {
-    return {
-      ok: true,
-      request: { on: true, frequencyHz: step.frequencyHz, levelDbfs: level.value, levelDbu: levels ? level.value + levels.outputDbuAtFullScale : null },
-    };
-  }
+  // A response step plays its sweep (shared/procedures/response.ts), not the tone generator.
+  if (step.kind === 'noise' || step.kind === 'hum' || step.kind === 'response') return { ok: true, request: { on: false } };
+  const level = stepLevelDbfs(step.id, step.level, levels);
+  if (!level.ok) return level;
+  return { ok: true, request: { on: true, frequencyHz: step.frequencyHz, levelDbfs: level.levelDbfs, levelDbu: level.levelDbu } };
+}
+
+/**
+ * A step's level in dBFS at the generator, converted from dBu with the output calibration
+ * (dBFS = dBu − the output's dBu at full scale). A dBu level on an uncalibrated station, or one the
+ * output cannot reach, is refused.
+ */
+export function stepLevelDbfs(
+  stepId: string,
+  level: { value: number; unit: 'dBFS' | 'dBu' },
+  levels: StationLevels | null,
+): { ok: true; levelDbfs: number; levelDbu: number | null } | { ok: false; refusal: string } {
+  if (level.unit === 'dBFS') return { ok: true, levelDbfs: level.value, levelDbu: levels ? level.value + levels.outputDbuAtFullScale : null };
   if (!levels) {
     return {
       ok: false,
-      refusal: `Step “${step.id}” plays ${round(level.value)} dBu, and this station has no calibration that holds: calibrate it in Station settings, then run the step.`,
+      refusal: `Step “${stepId}” plays ${round(level.value)} dBu, and this station has no calibration that holds: calibrate it in Station settings, then run the step.`,
     };
   }
   const levelDbfs = level.value - levels.outputDbuAtFullScale;
   if (levelDbfs > 0) {
     return {
       ok: false,
-      refusal: `Step “${step.id}” plays ${round(level.value)} dBu, above the ${round(levels.outputDbuAtFullScale)} dBu this station's output reaches at full scale: use an interface with more output level.`,
+      refusal: `Step “${stepId}” plays ${round(level.value)} dBu, above the ${round(levels.outputDbuAtFullScale)} dBu this station's output reaches at full scale: use an interface with more output level.`,
     };
   }
-  return { ok: true, request: { on: true, frequencyHz: step.frequencyHz, levelDbfs, levelDbu: level.value } };
+  return { ok: true, levelDbfs, levelDbu: level.value };
 }
 
 /** Why the step cannot be run on this station at all, or null when it can. */
 export function whyStepCannotRun(step: CheckStep, levels: StationLevels | null): string | null {
+  if (step.kind === 'response') {
+    const level = stepLevelDbfs(step.id, step.level, levels);
+    return level.ok ? null : level.refusal;
+  }
   const generator = generatorFor(step, levels);
   if (!generator.ok) return generator.refusal;
   if (step.kind === 'balance' || step.kind === 'crosstalk') return whyChannelsNotComparable(step, levels?.inputDbuAtFullScale ?? null, levels?.secondInputDbuAtFullScale ?? null);
@@ -324,6 +338,7 @@ const powerSumDb = (levelsDb: readonly number[]) => 10 * Math.log10(levelsDb.red
 
 /** Judges a check step from its settled reading(s). Refuses readings that are not of the step's stimulus. */
 export function measureCheckStep(step: CheckStep, input: CheckInput): CheckOutcome {
+  if (step.kind === 'response') return { ok: false, refusal: `Step “${step.id}” measures a response from its sweep: it is recorded from the sweep's capture, not from readings.` };
   const generator = generatorFor(step, input.levels);
   if (!generator.ok) return { ok: false, refusal: generator.refusal };
   // Two-channel steps are judged on the figures given with each reading (checked below), not the plan's.

@@ -5,7 +5,7 @@
 
 import type { StimulusSetting } from '../dsp/sine-source.ts';
 import { NoCoherentFrequency, planTestFrequency } from '../measurement/frequency-planner.ts';
-import { generatorFor, whyStepCannotRun, type GeneratorRequest, type StationLevels } from './check-steps.ts';
+import { generatorFor, stepLevelDbfs, whyStepCannotRun, type GeneratorRequest, type StationLevels } from './check-steps.ts';
 import type { ProcedureFile, ProcedureStep } from './procedure-file.ts';
 
 export type StepNeeds =
@@ -26,6 +26,12 @@ export type StepNeeds =
       inputTermination: string | null;
       /** For noise: the band and weighting the meter must measure over; null otherwise. */
       band: { lowHz: number; highHz: number; weighting: 'unweighted' | 'A' } | null;
+    }
+  | {
+      kind: 'sweep';
+      /** The sweep's band, length and level (dBFS at the generator; dBu when calibrated); null when the level cannot be played here (see `blocked`). */
+      sweep: { fromHz: number; toHz: number; durationS: number; levelDbfs: number; levelDbu: number | null } | null;
+      referenceHz: number;
     };
 
 export interface PlannedStep {
@@ -55,6 +61,11 @@ export function runPlan(procedure: Pick<ProcedureFile, 'steps'>, levels: Station
           needs: { kind: 'trim', generator: { on: true, frequencyHz: step.stimulusHz, levelDbfs: step.stimulusLevelDbfs }, limitThdDb: step.limitThdDb },
           blocked: null,
         };
+      case 'response': {
+        const level = stepLevelDbfs(step.id, step.level, levels);
+        const sweep = level.ok ? { fromHz: step.fromHz, toHz: step.toHz, durationS: step.durationS, levelDbfs: level.levelDbfs, levelDbu: level.levelDbu } : null;
+        return { ...base, onFail: step.onFail, needs: { kind: 'sweep', sweep, referenceHz: step.referenceHz }, blocked: whyStepCannotRun(step, levels) };
+      }
       default: {
         const generator = generatorFor(step, levels);
         const twoChannels = step.kind === 'balance' || step.kind === 'crosstalk';
@@ -97,6 +108,9 @@ export function generatorWanted(step: Pick<PlannedStep, 'needs'> | null): boolea
       return true;
     case 'measure':
       return step.needs.generator ? step.needs.generator.on : null;
+    case 'sweep':
+      // The tone generator stays off: the sweep is played on its own, once, when the technician starts it.
+      return false;
   }
 }
 

@@ -14,6 +14,7 @@ const QUANTITY_LABELS: Record<string, string> = {
   humDbu: 'Hum',
   balanceDb: 'Balance',
   crosstalkDb: 'Crosstalk',
+  maskMarginDb: 'Mask margin',
 };
 
 /** A measured quantity's name on the page: "thdDb" → "THD", "harmonicsDbc.H3" → "H3". */
@@ -56,7 +57,17 @@ export function stepConditions(step: ProcedureStep): string {
       return `generator off; ${step.weighting === 'A' ? 'A-weighted' : 'unweighted'}, ${hzText(step.band.lowHz)} to ${hzText(step.band.highHz)}`;
     case 'hum':
       return `generator off; mains${step.mainsHarmonics > 1 ? ` and harmonics to the ${ordinal(step.mainsHarmonics)}` : ' fundamental'}`;
+    case 'response':
+      return `sweep ${hzText(step.fromHz)} to ${hzText(step.toHz)} in ${fixed(step.durationS, 1)} s at ${signedFixed(step.level.value, 1)} ${step.level.unit}; 0 dB at ${hzText(step.referenceHz)}`;
   }
+}
+
+/** A response mask in words: "20 Hz −0.5/+0.5 dB, 1 kHz …". */
+function maskText(mask: Extract<ProcedureStep, { kind: 'response' }>['mask']): string {
+  const f = (v: number) => signedFixed(v, 1);
+  const bounds = (low: number | undefined, high: number | undefined) =>
+    low !== undefined && high !== undefined ? `${f(low)} to ${f(high)} dB` : low !== undefined ? `≥ ${f(low)} dB` : `≤ ${f(high as number)} dB`;
+  return mask.map((p) => `${hzText(p.frequencyHz)} ${bounds(p.lowDb, p.highDb)}`).join(', ');
 }
 
 /** Everything else the step sets, for the procedures view: the trim's parameters, a check's termination. */
@@ -73,6 +84,8 @@ export function stepDetails(step: ProcedureStep): string[] {
     case 'noise':
     case 'hum':
       return [step.inputTermination];
+    case 'response':
+      return [`mask ${maskText(step.mask)}, linear in log frequency between its points`];
     default:
       return [];
   }
@@ -98,6 +111,11 @@ export function stepLimits(step: ProcedureStep): { quantity: string; label: stri
         ...Object.entries(harmonicsDbc ?? {}).flatMap(([name, limit]) => (limit ? [entry(`harmonicsDbc.${name}`, limit)] : [])),
       ];
     }
+    case 'response':
+      return [
+        { quantity: 'maskMarginDb', label: quantityLabel('maskMarginDb'), text: `inside the mask (≥ ${signedFixed(0, 1)} dB from its bounds)` },
+        ...Object.entries(step.limits?.harmonicsDbc ?? {}).flatMap(([name, limit]) => (limit ? [{ ...entry(`harmonicsDbc.${name}`, limit), text: `${entry(`harmonicsDbc.${name}`, limit).text} over the band` }] : [])),
+      ];
     default:
       return Object.entries(step.limits).map(([quantity, limit]) => entry(quantity, limit as Limit));
   }
