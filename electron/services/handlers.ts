@@ -59,6 +59,7 @@ export function createHandlers({ records, sheets, calibrations, settings, statio
     acknowledgeNotice: (request) => records.acknowledgeNotice(request),
     completeTrim: (request) => records.completeTrim(request),
     recordCheckStep: (request) => records.recordCheckStep(request),
+    recordResponse: (request) => records.recordResponse(request),
     finishRun: (request) => records.finishRun(request),
     saveSheetPdf: async ({ runId }, caller) => sheets.savePdf(runId, () => caller.printToPdf()),
     printSheet: async ({ runId }, caller) => {
@@ -119,6 +120,7 @@ export const CHANNEL_ACTIONS: Record<IpcChannel, string> = {
   acknowledgeNotice: 'record the acknowledged notice',
   completeTrim: 'complete the trim step',
   recordCheckStep: 'record the check step',
+  recordResponse: 'record the frequency response',
   finishRun: 'finish the run',
   saveSheetPdf: 'save the unit sheet as PDF',
   printSheet: 'print the unit sheet',

@@ -22,6 +22,7 @@ const OPERATIONS = [
   'acknowledgeNotice',
   'completeTrim',
   'recordCheckStep',
+  'recordResponse',
   'finishRun',
   'setSheetPath',
 ] as const satisfies readonly (keyof Records)[];

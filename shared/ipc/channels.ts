@@ -13,6 +13,7 @@ export const IPC_CHANNELS = [
   'acknowledgeNotice',
   'completeTrim',
   'recordCheckStep',
+  'recordResponse',
   'finishRun',
   'saveSheetPdf',
   'printSheet',
