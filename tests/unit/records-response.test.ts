@@ -106,7 +106,7 @@ describe('recordResponse', () => {
     // −0.5 dB where x⁴/(1 + x⁴) = 10^(−0.05): x = 1.69, 67.7 Hz; below it the stage is outside the mask.
     const x = ((10 ** -0.05) / (1 - 10 ** -0.05)) ** 0.25;
     expect(x * 40).toBeCloseTo(67.7, 1);
-    const below = failed.curve!.response.filter(([f, db]) => db < -0.5).map(([f]) => f);
+    const below = failed.curve!.response.filter(([, db]) => db < -0.5).map(([f]) => f);
     expect(Math.max(...below)).toBeLessThan(x * 40);
     expect(Math.max(...below)).toBeGreaterThan((x * 40) / 2 ** (1 / 12));
     expect(failed.reasons[0]).toMatch(/leaves its mask by 1[12]\.\d\d dB \(closest at 20\.0 Hz/);
