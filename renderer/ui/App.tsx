@@ -263,6 +263,7 @@ export function App() {
                 secondReading={capture.secondReading}
                 generator={generator.generator}
                 generatorAvailable={audio !== null}
+                audio={audio}
                 onToggleGenerator={generator.toggle}
                 stimulusNote={stimulusNote}
                 levels={levelsOfRun}

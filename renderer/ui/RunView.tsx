@@ -6,6 +6,8 @@ import { isCheckStep, type StationLevels } from '../../shared/procedures/check-s
 import type { PlannedStep } from '../../shared/procedures/run-plan.ts';
 import type { GeneratorCommand } from '../worker/messages.ts';
 import { CheckStepPanel, type ChannelLive } from './CheckStepPanel.tsx';
+import { ResponseStepPanel } from './ResponseStepPanel.tsx';
+import type { BenchAudio } from '../audio/bench-audio.ts';
 import { NoticePanel } from './NoticePanel.tsx';
 import { StepWalk } from './StepWalk.tsx';
 import { TrimPanel } from './TrimPanel.tsx';
@@ -23,6 +25,7 @@ export function RunView({
   secondReading,
   generator,
   generatorAvailable,
+  audio,
   onToggleGenerator,
   stimulusNote,
   levels,
@@ -44,6 +47,8 @@ export function RunView({
   secondReading: ChannelLive | null;
   generator: GeneratorCommand;
   generatorAvailable: boolean;
+  /** The running capture: a response step plays and captures its sweep through it. */
+  audio: BenchAudio | null;
   onToggleGenerator(): void;
   stimulusNote: string | null;
   levels: StationLevels | null;
@@ -83,6 +88,24 @@ export function RunView({
           onWarningChanges={(changes) => void run.logWarningChanges(changes)}
           onTrimDone={async () => void (await run.completeTrim(step.id))}
           result={latest(step.id)}
+        />
+      );
+    } else if (step.kind === 'response') {
+      panel = (
+        <ResponseStepPanel
+          key={`${detail.run.id}/${step.id}`}
+          step={step}
+          planned={planned}
+          audio={audio}
+          levels={levels}
+          outputCalibration={outputCalibration}
+          pending={run.pending}
+          primaryRef={primaryRef}
+          onRecord={async (samples, sampleRateHz) => {
+            // The plot and the verdict are the step's stored result: shown at once, before going on.
+            walk.showAfterRecording(step.id);
+            return run.recordResponse(step.id, samples, sampleRateHz);
+          }}
         />
       );
     } else if (isCheckStep(step)) {
