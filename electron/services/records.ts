@@ -1289,7 +1289,7 @@ export function createRecords(
             `This procedure requires a calibrated station, and the response cannot be corrected by the station's own: ${uncorrectedReason}. Run the chain check with its stepped sine over the step's band (Station settings), then retest the unit (a run keeps the calibration it was started under).`,
           );
         }
-        note = `not corrected for the station's own response (${uncorrectedReason})`;
+        note = `not corrected for the station's own response: ${uncorrectedReason}`;
       }
       const judged = judgeResponse(step, response, { corrected: uncorrectedReason === null, note });
       const curve = responseCurve(response, request.sampleRateHz, uncorrectedReason === null, uncorrectedReason);

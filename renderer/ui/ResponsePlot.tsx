@@ -31,7 +31,7 @@ export function ResponsePlot({ curve, mask }: { curve: ResponseCurve; mask: Resp
   const responseOptions = useMemo<ChartOptions>(
     () => ({
       height: 200,
-      legend: { show: true },
+      legend: { show: true, live: false },
       cursor: { drag: { x: false, y: false } },
       scales: { x: logX, y: { range: [bottom, top] } },
       axes: [{ label: 'Hz' }, { label: `dB re ${curve.referenceHz} Hz`, size: 60 }],
@@ -58,7 +58,7 @@ export function ResponsePlot({ curve, mask }: { curve: ResponseCurve; mask: Resp
   const harmonicOptions = useMemo<ChartOptions>(
     () => ({
       height: 170,
-      legend: { show: true },
+      legend: { show: true, live: false },
       cursor: { drag: { x: false, y: false } },
       scales: { x: { ...logX, range: () => [hz[0], hz[hz.length - 1]] as uPlot.Range.MinMax }, y: { range: [Math.min(-120, Math.floor(worstDbc / 10) * 10 - 40), Math.ceil(worstDbc / 10) * 10 + 10] } },
       axes: [{ label: 'Fundamental, Hz' }, { label: 'dBc', size: 60 }],

@@ -206,10 +206,13 @@ export const MASK_MARGIN_LIMIT = { low: 0, unit: 'dB' } as const;
 export function judgeResponse(step: ResponseStep, response: SweepResponse, correction: { corrected: boolean; note: string }): CheckResult {
   const measured: { m: Measurement; label: string }[] = [];
   const worst = maskMargin(step.mask, response.response);
-  const where = worst
-    ? `closest at ${hz(worst.atHz)}: ${fixedDb(worst.levelDb)} dB against the ${worst.bound} bound; ${correction.note}`
-    : `the response covers none of the mask; ${correction.note}`;
-  measured.push({ m: measurement('maskMarginDb', worst ? round(worst.marginDb, 0.0001) : null, MASK_MARGIN_LIMIT, where), label: 'Mask margin' });
+  let where = 'the response covers none of the mask';
+  if (worst) {
+    const boundDb = worst.bound === 'low' ? worst.levelDb - worst.marginDb : worst.levelDb + worst.marginDb;
+    const side = worst.marginDb >= 0 ? `closest to its ${worst.bound} bound` : worst.bound === 'low' ? 'below its low bound' : 'above its high bound';
+    where = `${fixedDb(worst.levelDb)} dB at ${hz(worst.atHz)}, ${side} of ${fixedDb(boundDb)} dB`;
+  }
+  measured.push({ m: measurement('maskMarginDb', worst ? round(worst.marginDb, 0.0001) : null, MASK_MARGIN_LIMIT, `${where}; ${correction.note}`), label: 'Mask margin' });
   for (const [name, limit] of Object.entries(step.limits?.harmonicsDbc ?? {})) {
     if (!limit) continue;
     const order = Number(name.slice(1));
@@ -228,7 +231,7 @@ export function judgeResponse(step: ResponseStep, response: SweepResponse, corre
     .filter(({ m }) => m.verdict === 'fail')
     .map(({ m, label }) => {
       if (m.value === null) return `${label} was not measured: ${m.note}.`;
-      if (m.quantity === 'maskMarginDb') return `The response leaves its mask by ${fixedDb(-m.value)} dB (${where}).`;
+      if (m.quantity === 'maskMarginDb') return `The response leaves its mask by ${fixedDb(-m.value)} dB: ${where}.`;
       return m.high !== null && m.value > m.high
         ? `${label} reaches ${m.value.toFixed(1)} dBc, above the high limit of ${m.high.toFixed(1)} dBc.`
         : `${label} ${m.value.toFixed(1)} dBc is outside its limits.`;

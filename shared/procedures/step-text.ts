@@ -23,8 +23,8 @@ export function quantityLabel(quantity: string): string {
   return QUANTITY_LABELS[quantity] ?? quantity;
 }
 
-/** Gain and balance limits are fractions of a dB wide: they need the hundredths. */
-export const quantityDecimals = (quantity: string): number => (quantity === 'gainDb' || quantity === 'balanceDb' ? 2 : 1);
+/** Gain and balance limits, and a response's margin inside its mask, are fractions of a dB: they need the hundredths. */
+export const quantityDecimals = (quantity: string): number => (quantity === 'gainDb' || quantity === 'balanceDb' || quantity === 'maskMarginDb' ? 2 : 1);
 
 /** "≤ −50.0 dB", "≥ 3.0 dB", "−0.50 to +0.50 dB". */
 export function limitText(limit: { low: number | null; high: number | null; unit: string }, decimals: number): string {
