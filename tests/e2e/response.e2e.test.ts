@@ -90,6 +90,18 @@ beforeAll(async () => {
   const imported = await dispatch(bench.station.handlers, 'importProcedure', {}, caller(path));
   if (!imported.ok) throw new Error(imported.error.message);
 });
+
+/** Revision B: a mask the stage meets (−0.5 dB at 10 Hz; the circuit gives −0.31 dB), and the run goes on after the step. */
+function revisionB(): string {
+  const file = structuredClone(PROCEDURE);
+  file.revision = 'B';
+  const response = file.steps[1] as { mask: { frequencyHz: number; lowDb: number; highDb: number }[]; onFail: string };
+  response.mask = response.mask.map((p) => ({ ...p, lowDb: -0.5 }));
+  response.onFail = 'continue';
+  const path = join(tmpdir(), 'trimbench-response-e2e-b.json');
+  writeFileSync(path, JSON.stringify(file));
+  return path;
+}
 afterAll(() => bench?.close());
 
 const currentStep = (page: Page) => page.getByTestId('current-step').getAttribute('data-step');
@@ -163,6 +175,31 @@ describe('the response step on the demo bench', () => {
     expect(sheet).toMatch(/Frequency response 10 Hz–20 kHz/);
     expect(sheet).toMatch(/Mask margin/);
     await page.screenshot({ path: `${SHOTS}/response-sheet.png`, fullPage: true });
+
+    // A unit that meets its mask, on revision B: the result shows at once, and Enter goes on to the trim.
+    const imported = await dispatch(bench.station.handlers, 'importProcedure', {}, caller(revisionB()));
+    if (!imported.ok) throw new Error(imported.error.message);
+    await page.getByTestId('sheet-back').click();
+    await page.reload();
+    await expect.poll(() => page.getByTestId('input-select').inputValue(), POLL).toBe('demo-bench');
+    await page.getByRole('button', { name: 'Start capture' }).click();
+    await page.getByLabel('Operator').fill('A. Tester');
+    await page.getByLabel('Procedure').selectOption({ label: 'RESP-E2E rev B' });
+    await page.getByTestId('serial-input').fill('MG20-2611-0301');
+    await page.getByTestId('serial-input').press('Enter');
+    await expect.poll(() => currentStep(page), POLL).toBe('safety');
+    await page.keyboard.press('Enter');
+    await expect.poll(() => currentStep(page), POLL).toBe('response');
+    await expect.poll(() => page.evaluate(() => document.activeElement?.getAttribute('data-testid')), POLL).toBe('sweep-primary');
+    await page.keyboard.press('Enter');
+    await expect.poll(() => stepStatus(page, 'response'), { timeout: 30_000, interval: 250 }).toBe('pass');
+    await expect.poll(() => page.getByTestId('response-plot').isVisible(), POLL).toBe(true);
+    await expect.poll(() => page.evaluate(() => document.activeElement?.getAttribute('data-testid')), POLL).toBe('go-on');
+    await page.screenshot({ path: `${SHOTS}/response-pass.png` });
+    await page.keyboard.press('Enter');
+    await expect.poll(() => currentStep(page), POLL).toBe('lf-trim');
+    // The tone generator stayed off through the step: the trim starts muted, as every step does.
+    expect(await page.getByTestId('mute').textContent()).toBe('Generator muted');
   });
 });
 
