@@ -15,7 +15,8 @@ import { openStation } from '../../electron/services/station.ts';
 import { logSweep, type LogSweepSpec } from '../../shared/dsp/log-sweep.ts';
 import type { RunDetail } from '../../shared/ipc/contract.ts';
 import { accepted, noCaller, refusedWith, tempDir, TEST_SETUP } from '../support/station.ts';
-import { butterworthHighPass2, filtered } from '../support/analogue-filters.ts';
+import { butterworthHighPass2, filtered, type AnalogueResponse } from '../support/analogue-filters.ts';
+import { ISO_266_THIRD_OCTAVE_HZ } from '../../shared/calibration/chain-response.ts';
 
 const RATE = 48000;
 /** From 20 Hz to 20 kHz: at least (4 / 20 Hz / ln 2)·ln(1000) = 2.0 s resolves 20 Hz. */
@@ -155,5 +156,52 @@ describe('recordResponse', () => {
     const id = await importFile(procedure('A', 3, true));
     const runId = await atResponseStep(id, 'X1-0005');
     expect(await refusal('recordResponse', record(runId, unit(specOf(3), 5)))).toMatch(/requires a calibrated station.*no chain check with a frequency response.*Run the chain check/);
+  }, 120_000);
+
+  it('takes the station’s chain out of the response when the run’s chain check measured it: a 4 Hz first-order coupling in the interface leaves the unit’s own response', async () => {
+    // The interface: a first-order high-pass at 4 Hz, |C|² = x²/(1 + x²) (any circuits textbook);
+    // the unit: the second-order high-pass at 5 Hz. In the capture both act; main takes C out.
+    const chainDb = (f: number) => 10 * Math.log10((f / 4) ** 2 / (1 + (f / 4) ** 2));
+    const clock = Date.now();
+    const { calibration } = await call<{ calibration: { id: number } }>('recordCalibration', {
+      operator: 'A. Tester',
+      setup: TEST_SETUP,
+      output: { referenceHz: 1000, referenceDbfs: -20, meterEntry: '0.7746 V' },
+      input: { method: 'loopback', generatorDbfs: -20, capturedDbfs: -20, capturedHz: 1000.2 },
+    });
+    const points = ISO_266_THIRD_OCTAVE_HZ.map((f) => ({ frequencyHz: f, generatorDbfs: -12, capturedDbfs: -12 + chainDb(f), gainDb: 0, relativeDb: 0 }));
+    await call('recordChainCheck', {
+      calibrationId: calibration.id,
+      operator: 'A. Tester',
+      result: {
+        schemaVersion: 1,
+        measuredAt: new Date(clock).toISOString(),
+        sampleRateHz: 48000,
+        inputDbuAtFullScale: null,
+        residuals: [{ frequencyHz: 1000, generatorDbfs: -12, thdDb: -105, thdnDb: -95 }],
+        noiseFloor: null,
+        response: { referenceHz: 1000, referenceGainDb: 0, points },
+        responseRefusal: null,
+        latency: null,
+        latencyRefusal: null,
+      },
+    });
+    const id = await importFile(procedure('A', 3, true));
+    const runId = await atResponseStep(id, 'X1-0006');
+    const both: AnalogueResponse = (f) => {
+      const a = butterworthHighPass2(5)(f);
+      const x = f / 4;
+      const c = { re: (x * x) / (1 + x * x), im: x / (1 + x * x) }; // jx/(1 + jx)
+      return { re: a.re * c.re - a.im * c.im, im: a.re * c.im + a.im * c.re };
+    };
+    const spec = specOf(3);
+    const result = (await call('recordResponse', record(runId, Array.from(filtered(logSweep(spec), RATE, both, 480))))).stepResults.at(-1)!;
+    expect(result.curve).toMatchObject({ corrected: true, uncorrectedReason: null });
+    expect(result.measurements[0].note).toMatch(/corrected by the station's chain response \(chain check of \d{4}-\d\d-\d\d\)$/);
+    const [f20, db20] = result.curve!.response[0];
+    const unitDb = 10 * Math.log10((f20 / 5) ** 4 / (1 + (f20 / 5) ** 4));
+    // Uncorrected it would read about −0.19 dB at 20 Hz; corrected, the unit's own −0.017 dB.
+    expect(Math.abs(db20 - unitDb)).toBeLessThan(0.03);
+    expect(Math.abs(chainDb(20) - chainDb(1000))).toBeGreaterThan(0.15);
   }, 120_000);
 });
