@@ -16,6 +16,7 @@ export function ResponseStepPanel({
   step,
   planned,
   audio,
+  onSweeping,
   levels,
   outputCalibration,
   pending,
@@ -26,6 +27,7 @@ export function ResponseStepPanel({
   planned: PlannedStep;
   /** The running capture, or null when capture has not started. */
   audio: BenchAudio | null;
+  onSweeping(playing: boolean): void;
   levels: StationLevels | null;
   outputCalibration: LevelCalibration | null;
   pending: boolean;
@@ -33,7 +35,7 @@ export function ResponseStepPanel({
   onRecord(samples: Float32Array, sampleRateHz: number): Promise<unknown>;
 }) {
   const send = useCallback((samples: Float32Array, rate: number) => onRecord(samples, rate), [onRecord]);
-  const { state, start } = useResponseSweep(audio, send);
+  const { state, start } = useResponseSweep(audio, send, onSweeping);
   const [message, setMessage] = useState<string | null>(null);
   const needs = planned.needs.kind === 'sweep' ? planned.needs : null;
   if (planned.blocked || !needs?.sweep) {

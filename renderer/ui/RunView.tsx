@@ -26,6 +26,7 @@ export function RunView({
   generator,
   generatorAvailable,
   audio,
+  onSweeping,
   onToggleGenerator,
   stimulusNote,
   levels,
@@ -49,6 +50,7 @@ export function RunView({
   generatorAvailable: boolean;
   /** The running capture: a response step plays and captures its sweep through it. */
   audio: BenchAudio | null;
+  onSweeping(playing: boolean): void;
   onToggleGenerator(): void;
   stimulusNote: string | null;
   levels: StationLevels | null;
@@ -97,6 +99,7 @@ export function RunView({
           step={step}
           planned={planned}
           audio={audio}
+          onSweeping={onSweeping}
           levels={levels}
           outputCalibration={outputCalibration}
           pending={run.pending}

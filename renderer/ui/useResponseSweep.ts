@@ -16,12 +16,20 @@ export type SweepState =
  * main (`send`), which analyses and judges it. The capture is the stimulus's length plus most of
  * RESPONSE_CAPTURE_MARGIN_S, for the round trip: main accepts no more than the whole margin.
  */
-export function useResponseSweep(audio: BenchAudio | null, send: (samples: Float32Array, sampleRateHz: number) => Promise<unknown>) {
+export function useResponseSweep(audio: BenchAudio | null, send: (samples: Float32Array, sampleRateHz: number) => Promise<unknown>, onSweeping: (playing: boolean) => void) {
   const [state, setState] = useState<SweepState>({ phase: 'ready' });
   const running = useRef(false);
+  const sweeping = useRef(onSweeping);
+  sweeping.current = onSweeping;
 
   // Leaving the step (or the panel) stops a sweep still playing.
-  useEffect(() => () => audio?.stopSweep(), [audio]);
+  useEffect(
+    () => () => {
+      audio?.stopSweep();
+      sweeping.current(false);
+    },
+    [audio],
+  );
 
   const start = useCallback(
     async (spec: LogSweepSpec) => {
@@ -29,10 +37,11 @@ export function useResponseSweep(audio: BenchAudio | null, send: (samples: Float
       running.current = true;
       const total = logSweepLayout(spec).totalLength + Math.floor(0.75 * RESPONSE_CAPTURE_MARGIN_S * spec.sampleRateHz);
       setState({ phase: 'playing', fraction: 0, secondsLeft: total / spec.sampleRateHz });
+      sweeping.current(true);
       try {
         const samples = await audio.recordSweep(spec, total, (captured, frames) =>
           setState({ phase: 'playing', fraction: captured / frames, secondsLeft: (frames - captured) / spec.sampleRateHz }),
-        );
+        ).finally(() => sweeping.current(false));
         setState({ phase: 'analysing' });
         await send(samples, spec.sampleRateHz);
         setState({ phase: 'ready' });

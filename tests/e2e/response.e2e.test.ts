@@ -130,10 +130,13 @@ describe('the response step on the demo bench', () => {
     // Enter plays it; Esc stops it at once and nothing is recorded.
     await page.keyboard.press('Enter');
     await expect.poll(() => panel.getAttribute('data-phase'), POLL).toBe('playing');
+    // The header's mute says a sweep plays and stops it too; Esc does the same from anywhere.
+    await expect.poll(() => page.getByTestId('mute').textContent(), POLL).toBe('Stop the sweep (Esc)');
     await page.waitForTimeout(1200);
     await page.keyboard.press('Escape');
     await expect.poll(() => panel.getAttribute('data-phase'), POLL).toBe('stopped');
     expect(await page.getByTestId('sweep-message').textContent()).toMatch(/The sweep was stopped/);
+    expect(await page.getByTestId('mute').textContent()).toBe('Generator muted');
     expect(bench.station.records.getRun(runIdOf()).stepResults.filter((r) => r.stepId === 'response')).toEqual([]);
 
     // Again, to the end: progress and time left while it plays.
