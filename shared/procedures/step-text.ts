@@ -113,7 +113,7 @@ export function stepLimits(step: ProcedureStep): { quantity: string; label: stri
     }
     case 'response':
       return [
-        { quantity: 'maskMarginDb', label: quantityLabel('maskMarginDb'), text: `inside the mask (≥ ${signedFixed(0, 1)} dB from its bounds)` },
+        { quantity: 'maskMarginDb', label: quantityLabel('maskMarginDb'), text: `${limitText({ low: 0, high: null, unit: 'dB' }, quantityDecimals('maskMarginDb'))} inside the mask over its span` },
         ...Object.entries(step.limits?.harmonicsDbc ?? {}).flatMap(([name, limit]) => (limit ? [{ ...entry(`harmonicsDbc.${name}`, limit), text: `${entry(`harmonicsDbc.${name}`, limit).text} over the band` }] : [])),
       ];
     default:
