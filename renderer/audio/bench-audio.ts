@@ -280,6 +280,8 @@ export class BenchAudio {
   /** Sets the stimulus; the analysis starts a fresh stretch so no reading spans the change. */
   setGenerator(command: GeneratorCommand): void {
     if (this.stopped) return;
+    // A tone turned on during a sweep would be captured with it: the sweep stops, and nothing is recorded.
+    if (command.on) this.stopSweep();
     const changed =
       command.on !== this.generatorCommand.on ||
       command.frequencyHz !== this.generatorCommand.frequencyHz ||
