@@ -3,7 +3,7 @@
 // chosen output, and streams the capture to the analysis worker.
 
 import type { Reading } from '../../shared/measurement/reading.ts';
-import type { LogSweepSpec } from '../../shared/dsp/log-sweep.ts';
+import { logSweep, type LogSweepSpec } from '../../shared/dsp/log-sweep.ts';
 import type { DemoMode, GeneratorCommand, LatencyCapture, LatencyRequest, SweepCommand } from '../worker/messages.ts';
 import generatorWorkletUrl from '../worklets/generator.worklet.ts?worker&url';
 import captureWorkletUrl from '../worklets/capture.worklet.ts?worker&url';
@@ -384,8 +384,12 @@ export class BenchAudio {
   }
 
   private playSweep(spec: LogSweepSpec | null): void {
-    if (this.device) this.device.generator.port.postMessage({ sweep: spec } satisfies SweepCommand);
-    else this.worker.postMessage({ type: 'demo-sweep', spec } satisfies ToWorker);
+    if (!this.device) {
+      this.worker.postMessage({ type: 'demo-sweep', spec } satisfies ToWorker);
+      return;
+    }
+    const sweep = spec ? logSweep(spec) : null;
+    this.device.generator.port.postMessage({ sweep } satisfies SweepCommand, sweep ? [sweep.buffer] : []);
   }
 
   /** Stops a sweep at once and drops its capture; nothing is recorded. */

@@ -92,9 +92,10 @@ export interface LatencyCapture {
 export type GeneratorCommand = StimulusSetting;
 
 /**
- * Page → generator worklet: play this sweep once (logSweep(spec), computed there once per sweep),
- * or stop one playing at once (null). A message of its own beside the tone's settings.
+ * Page → generator worklet: play these samples once (logSweep(spec), computed on the page once per
+ * sweep and transferred, so the audio thread never stalls on them), or stop a sweep at once (null).
+ * A message of its own beside the tone's settings.
  */
 export interface SweepCommand {
-  sweep: LogSweepSpec | null;
+  sweep: Float32Array | null;
 }

@@ -2,12 +2,11 @@
 // exponential sweep once on request (the same samples the offline `sweep --write` writes).
 
 import { SineSource, type StimulusSetting } from '../../shared/dsp/sine-source.ts';
-import { logSweep } from '../../shared/dsp/log-sweep.ts';
 import type { SweepCommand } from '../worker/messages.ts';
 
 class SineGenerator extends AudioWorkletProcessor {
   private readonly source = new SineSource(sampleRate);
-  /** The sweep playing and where it is; computed once when asked, dropped when done or stopped. */
+  /** The sweep playing and where it is; handed over once per sweep, dropped when done or stopped. */
   private sweep: Float32Array | null = null;
   private sweepAt = 0;
 
@@ -16,7 +15,7 @@ class SineGenerator extends AudioWorkletProcessor {
     this.port.onmessage = (event: MessageEvent<StimulusSetting | SweepCommand>) => {
       const data = event.data;
       if ('sweep' in data) {
-        this.sweep = data.sweep ? logSweep(data.sweep) : null;
+        this.sweep = data.sweep;
         this.sweepAt = 0;
       } else this.source.set(data);
     };
