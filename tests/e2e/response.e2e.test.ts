@@ -20,6 +20,7 @@ import { dispatch, type CallerContext } from '../../electron/services/handlers.t
 import type { RunDetail } from '../../shared/ipc/contract.ts';
 import { DEMO_UNIT_PARAMETERS as P } from '../../shared/sim/demo-unit.ts';
 import { openBench, type Bench, POLL } from '../harness/bench-harness.ts';
+import { writeToneWav } from '../support/wav-files.ts';
 
 const SHOTS = '/tmp/shots-f';
 const RESOURCE = fileURLToPath(new URL('../../resources/procedures/mg20-lf-trim.json', import.meta.url));
@@ -203,6 +204,41 @@ describe('the response step on the demo bench', () => {
     await expect.poll(() => currentStep(page), POLL).toBe('lf-trim');
     // The tone generator stayed off through the step: the trim starts muted, as every step does.
     expect(await page.getByTestId('mute').textContent()).toBe('Generator muted');
+  });
+});
+
+describe('the response step on a capture device', () => {
+  it('plays the sweep through the generator worklet, captures the device for its whole length, and main refuses a capture that holds no sweep', { timeout: 120_000 }, async () => {
+    // Chromium's fake capture device plays a steady 1 kHz tone from a file and hears nothing of the
+    // output: what it captures during the sweep is not the unit's answer to it.
+    const wav = writeToneWav(join(tmpdir(), 'trimbench-response-tone.wav'), { frequencyHz: 1000, levelDbfs: -20, seconds: 2 });
+    const device = await openBench({ captureWav: wav });
+    try {
+      const path = join(tmpdir(), 'trimbench-response-e2e.json');
+      writeFileSync(path, JSON.stringify(PROCEDURE));
+      const imported = await dispatch(device.station.handlers, 'importProcedure', {}, caller(path));
+      if (!imported.ok) throw new Error(imported.error.message);
+      const page = await device.openApp();
+      await page.getByRole('button', { name: 'Start capture' }).click();
+      await expect.poll(() => page.getByTestId('capture-status').textContent(), POLL).toMatch(/Capturing at 44\.1 kHz/);
+      await page.getByLabel('Operator').fill('A. Tester');
+      await page.getByLabel('Procedure').selectOption({ label: 'RESP-E2E rev A' });
+      await page.getByTestId('serial-input').fill('MG20-2611-0310');
+      await page.getByTestId('serial-input').press('Enter');
+      await expect.poll(() => currentStep(page), POLL).toBe('safety');
+      await page.keyboard.press('Enter');
+      await expect.poll(() => currentStep(page), POLL).toBe('response');
+      expect(await page.getByTestId('response-step').textContent()).toMatch(/\d\.\d s with the silences/);
+      await page.keyboard.press('Enter');
+      const panel = page.getByTestId('response-step');
+      await expect.poll(() => panel.getAttribute('data-phase'), POLL).toBe('playing');
+      await expect.poll(() => panel.getAttribute('data-phase'), { timeout: 30_000, interval: 250 }).toBe('stopped');
+      expect(await page.getByTestId('sweep-message').textContent()).toMatch(/Step “response” was not recorded\. The capture does not (hold|follow) (the|this) sweep/);
+      await page.screenshot({ path: `${SHOTS}/response-refused.png` });
+      expect(await stepStatus(page, 'response')).toBe('not-run');
+    } finally {
+      await device.close();
+    }
   });
 });
 
