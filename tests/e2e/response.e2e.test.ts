@@ -9,11 +9,10 @@
 // primary, which is the magnetising inductance L in parallel with the reflected load RL. With the
 // trimmer at 0 turns, H(jω) = Zp / (R0 + Zc + Zp), Zc = Rd ∥ 1/(jωC), Zp = jωL ∥ RL.
 
-import { mkdirSync, writeFileSync } from 'node:fs';
+import { mkdirSync, readFileSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
-import { readFileSync } from 'node:fs';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Page } from 'playwright-core';
 import { dispatch, type CallerContext } from '../../electron/services/handlers.ts';
