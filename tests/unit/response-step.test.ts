@@ -148,6 +148,17 @@ describe('what a response step refuses', () => {
     expect(whyCaptureUnusable(sweep.subarray(0, sweep.length - 10), SPEC, expected)).toMatch(/less than/);
   });
 
+  it('a sweep the station cannot play at its rate: its fade a twelfth of an octave above 22 kHz passes Nyquist at 44.1 kHz (22 050 / 2^(1/12) = 20 812 Hz)', () => {
+    const plan = sweepSpecFor(STEP, 44100, null);
+    expect(plan.ok).toBe(false);
+    if (!plan.ok) expect(plan.refusal).toMatch(/cannot sweep at 44100 Hz sampling: .*at most at 20812 Hz/);
+    expect(sweepSpecFor({ ...STEP, toHz: 20000 }, 44100, null).ok).toBe(true);
+    // A dBu level needs the output's calibration: refused without it, converted with it (dBFS = dBu − the output's dBu at full scale).
+    const inDbu: ResponseStep = { ...STEP, level: { value: 4, unit: 'dBu' } };
+    expect(sweepSpecFor(inDbu, RATE, null)).toMatchObject({ ok: false, refusal: expect.stringMatching(/no calibration that holds/) });
+    expect(sweepSpecFor(inDbu, RATE, { outputDbuAtFullScale: 18, inputDbuAtFullScale: 18 })).toMatchObject({ ok: true, spec: { levelDbfs: -14 }, levelDbu: 4 });
+  });
+
   it('a sweep that cannot resolve its own start: 4 cycles of fromHz in the room L·ln 2 before H2 (Farina 2000 spacing)', () => {
     const file = (durationS: number): ProcedureFile => ({
       schemaVersion: 2,
