@@ -395,6 +395,8 @@ export class BenchAudio {
   /** Stops a sweep at once and drops its capture; nothing is recorded. */
   stopSweep(): void {
     if (!this.sweepCapture) return;
+    // A progress message already on its way must not start the sweep after this.
+    this.sweepCapture.started = true;
     this.playSweep(null);
     this.worker.postMessage({ type: 'record-cancel' } satisfies ToWorker);
   }
