@@ -139,6 +139,14 @@ describe('the response step on the demo bench', () => {
     expect(await page.getByTestId('mute').textContent()).toBe('Generator muted');
     expect(bench.station.records.getRun(runIdOf()).stepResults.filter((r) => r.stepId === 'response')).toEqual([]);
 
+    // Esc at once after Enter, before the sweep has begun: it never begins (the stage stays quiet).
+    await page.getByTestId('sweep-primary').press('Enter');
+    await page.keyboard.press('Escape');
+    await expect.poll(() => panel.getAttribute('data-phase'), POLL).toBe('stopped');
+    await page.waitForTimeout(2500);
+    const quiet = JSON.parse((await page.getByTestId('reading-json').getAttribute('data-reading'))!) as { fundamental: { levelDbfs: number } };
+    expect(quiet.fundamental.levelDbfs).toBeLessThan(-80);
+
     // Again, to the end: progress and time left while it plays.
     await page.getByTestId('sweep-primary').press('Enter');
     await expect.poll(() => panel.getAttribute('data-phase'), POLL).toBe('playing');
@@ -203,6 +211,8 @@ describe('the response step on the demo bench', () => {
     await expect.poll(() => currentStep(page), POLL).toBe('lf-trim');
     // The tone generator stayed off through the step: the trim starts muted, as every step does.
     expect(await page.getByTestId('mute').textContent()).toBe('Generator muted');
+    // The simulated stage runs in real time while its page is open: closed, it leaves the cores to the next test.
+    await page.close();
   });
 });
 
@@ -228,11 +238,19 @@ describe('the response step on a capture device', () => {
       await page.keyboard.press('Enter');
       await expect.poll(() => currentStep(page), POLL).toBe('response');
       expect(await page.getByTestId('response-step').textContent()).toMatch(/\d\.\d s with the silences/);
-      await page.keyboard.press('Enter');
+      await page.waitForTimeout(600); // a deliberate press, not the notice's Enter again
       const panel = page.getByTestId('response-step');
-      await expect.poll(() => panel.getAttribute('data-phase'), POLL).toBe('playing');
-      await expect.poll(() => panel.getAttribute('data-phase'), { timeout: 30_000, interval: 250 }).toBe('stopped');
-      expect(await page.getByTestId('sweep-message').textContent()).toMatch(/Step “response” was not recorded\. The capture does not (hold|follow) (the|this) sweep/);
+      // Chromium's capture path drops a block now and then (DEVELOPERS.md); a sweep that lost one is
+      // dropped with that message and run again, as the technician would.
+      let said = '';
+      for (let attempt = 0; attempt < 3; attempt++) {
+        await page.getByTestId('sweep-primary').press('Enter');
+        await expect.poll(() => panel.getAttribute('data-phase'), POLL).toBe('playing');
+        await expect.poll(() => panel.getAttribute('data-phase'), { timeout: 30_000, interval: 250 }).toBe('stopped');
+        said = (await page.getByTestId('sweep-message').textContent()) ?? '';
+        if (!/lost a block of samples during the sweep\. Run the sweep again/.test(said)) break;
+      }
+      expect(said).toMatch(/Step “response” was not recorded\. The capture does not (hold|follow) (the|this) sweep/);
       await page.screenshot({ path: `${SHOTS}/response-refused.png` });
       expect(await stepStatus(page, 'response')).toBe('not-run');
     } finally {
