@@ -5,7 +5,7 @@
 import { z } from 'zod';
 import { chainNoiseFloor, judgeChainCheck, type ChainCheckResult } from '../../shared/calibration/chain-check.ts';
 import { checkChainFloorDbu } from '../../shared/calibration/chain-floor.ts';
-import { chainResponse } from '../../shared/calibration/chain-response.ts';
+import { chainResponse, type ChainResponse } from '../../shared/calibration/chain-response.ts';
 import {
   calibrationExpiresAt,
   calibrationStatus,
@@ -289,6 +289,19 @@ export function createCalibrations(
             }
           : null,
       };
+    },
+
+    /**
+     * The chain's frequency response from a run's chain check (output looped to input, stepped sine),
+     * derived again from its raw steps as when it was stored; null without a check or a response.
+     */
+    chainResponseOf(chainCheckId: number | null): { response: ChainResponse; checkedAt: string } | null {
+      const checkRow = chainCheckId === null ? undefined : statements.chainCheckById.get(chainCheckId);
+      if (!checkRow) return null;
+      const check = toChainCheck(checkRow);
+      if (!check.result.response) return null;
+      const derived = chainResponse(check.result.response.points.map(({ frequencyHz, generatorDbfs, capturedDbfs }) => ({ frequencyHz, generatorDbfs, capturedDbfs })));
+      return derived.ok ? { response: derived.response, checkedAt: check.result.measuredAt } : null;
     },
 
     /** The audio setup a calibration was made with (a run measured under it must still use it). */

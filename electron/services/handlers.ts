@@ -73,6 +73,7 @@ export function createHandlers({ records, sheets, calibrations, settings, statio
       return { outcome: 'recorded' as const, detail: await records.recordRingingStep({ ...request, text, fileName: basename(path) }) };
     },
     recordMaxLevel: (request) => records.recordMaxLevel(request),
+    recordResponse: (request) => records.recordResponse(request),
     finishRun: (request) => records.finishRun(request),
     saveSheetPdf: async ({ runId }, caller) => sheets.savePdf(runId, () => caller.printToPdf()),
     printSheet: async ({ runId }, caller) => {
@@ -140,6 +141,7 @@ export const CHANNEL_ACTIONS: Record<IpcChannel, string> = {
   recordCheckStep: 'record the check step',
   attachScopeCapture: 'record the scope capture',
   recordMaxLevel: 'record the max-level step',
+  recordResponse: 'record the frequency response',
   finishRun: 'finish the run',
   saveSheetPdf: 'save the unit sheet as PDF',
   printSheet: 'print the unit sheet',

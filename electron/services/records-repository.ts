@@ -24,6 +24,7 @@ const OPERATIONS = [
   'recordCheckStep',
   'recordRingingStep',
   'recordMaxLevel',
+  'recordResponse',
   'finishRun',
   'setSheetPath',
 ] as const satisfies readonly (keyof Records)[];

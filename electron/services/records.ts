@@ -9,6 +9,7 @@ import {
   runDetailSchema,
   stepResultSchema,
   scopeRecordSchema,
+  responseCurveSchema,
   trimAssessmentSchema,
   warmCheckSchema,
   type Run,
@@ -26,6 +27,8 @@ import { procedureSchema, type Procedure } from '../../shared/procedures/procedu
 import { checkProcedureFile, procedureFileSchema, upgradeProcedure, type CheckStep, type ProcedureFile, type ProcedureStep } from '../../shared/procedures/procedure-file.ts';
 import { judgeScopeRecord } from '../../shared/procedures/ringing.ts';
 import { judgeMaxLevel, type MaxLevelPoint } from '../../shared/procedures/max-level.ts';
+import { correctByChain, expectedCapturePeak, judgeResponse, responseCurve, sweepSpecFor, whyCaptureUnusable } from '../../shared/procedures/response.ts';
+import { analyzeSweepResponse } from '../../shared/measurement/sweep-response.ts';
 import { isCheckStep, judgeLimit, measureCheckStep, measurement, runLevels, type CheckOutcome, type Measurement } from '../../shared/procedures/check-steps.ts';
 import { judgeUnit, laterStepResult } from '../../shared/procedures/unit-verdict.ts';
 import { quantityLabel } from '../../shared/procedures/step-text.ts';
@@ -527,6 +530,8 @@ export function createRecords(
         stimulus: row.stimulus_json === null ? null : fromStoredJson(row.stimulus_json, stepStimulusSchema, what),
         // A ringing step keeps its scope record where a check keeps its readings.
         scopeRecord: row.kind === 'ringing' && row.readings_json !== null ? fromStoredJson(row.readings_json, scopeRecordSchema, what) : null,
+        // A response step stores its analysed curve in place of readings, for its plot.
+        ...(row.kind === 'response' && row.readings_json !== null ? { curve: fromStoredJson(row.readings_json, responseCurveSchema, what) } : {}),
       });
       if (!parsed.success) throw new UnreadableRecord(what, `does not validate at ${parsed.error.issues[0]?.path.join('.') || '(root)'}`);
       const whyNot = whyVerdictNotBorneOut(parsed.data);
@@ -1286,6 +1291,59 @@ export function createRecords(
         const outcome = judgeScopeRecord(step, request.text, request.fileName);
         if (!outcome.ok) throw new ExpectedFailure(`Step “${step.id}” was not recorded. ${outcome.refusal}`);
         storeStepResult(row.id, step, { verdict: outcome.verdict, reasons: outcome.reasons, measurements: outcome.measurements, stimulus: null, readings: outcome.record });
+        return runDetail(row.id);
+      }).immediate();
+    },
+
+    /**
+     * A response step's capture of its sweep, analysed here with the sweep of the stored revision's
+     * step at the capture's rate (the page says only the rate and gives the samples): refused when it
+     * is not the unit's answer to that sweep (another sweep, another rate, clipped, far too quiet).
+     * The response is corrected by the chain response of the run's chain check where it has one that
+     * covers the band; without one it is judged as measured and says so, unless the procedure
+     * requires calibration, which then asks for a chain check first (docs/procedures.md).
+     */
+    recordResponse(request: { runId: number; stepId: string; sampleRateHz: number; samples: readonly number[]; setup?: AudioSetup | null }): RunDetail {
+      refuseUnlessWritable();
+      const row = openRunRow(request.runId, (id) => `Run ${id} is finished; its steps can no longer be recorded.`);
+      const lapsed = calibrationNotHolding(row, request.setup, true);
+      if (lapsed) throw new ExpectedFailure(`This step was not recorded. ${lapsed} Otherwise finish the run as FAIL, calibrate the station, then retest the unit.`);
+      const refuse = (why: string) => new ExpectedFailure(`Step “${request.stepId}” was not recorded. ${why}`);
+      const setup = request.setup ?? null;
+      if (setup && setup.sampleRateHz !== request.sampleRateHz) throw refuse(`The capture is said to run at ${request.sampleRateHz} Hz, and the audio setup runs at ${setup.sampleRateHz} Hz: run the sweep again.`);
+      // Checked (and checked again below) before the analysis, which takes a moment outside the write transaction.
+      const step = stepToRecord(row, request.stepId, 'check');
+      if (step.kind !== 'response') throw new ExpectedFailure(`Step “${step.id}” is a ${step.kind} step, not a response step: nothing was recorded.`);
+      const used = calibrationUsed(row);
+      const plan = sweepSpecFor(step, request.sampleRateHz, runLevels(used, setup));
+      if (!plan.ok) throw refuse(plan.refusal);
+      const unusable = whyCaptureUnusable(request.samples, plan.spec, expectedCapturePeak(plan.spec, plan.levelDbu, inputDbuAtFullScaleFor(1, used, setup)));
+      if (unusable) throw refuse(unusable);
+      const analysed = analyzeSweepResponse(request.samples, plan.spec, { fromHz: step.fromHz, toHz: step.toHz, referenceHz: step.referenceHz });
+      if (!analysed.ok) throw refuse(analysed.reason);
+
+      const chain = calibrations?.chainResponseOf(row.chain_check_id) ?? null;
+      const corrected = chain ? correctByChain(analysed.result, chain.response) : null;
+      let response = analysed.result;
+      let note: string;
+      let uncorrectedReason: string | null = null;
+      if (chain && corrected?.ok) {
+        response = corrected.response;
+        note = `corrected by the station's chain response (chain check of ${chain.checkedAt.slice(0, 10)})`;
+      } else {
+        uncorrectedReason = chain && corrected && !corrected.ok ? corrected.reason : row.calibration_id === null ? 'the run has no calibration' : 'the run\'s calibration has no chain check with a frequency response';
+        if (runProcedureFile(row).requiresCalibration) {
+          throw refuse(
+            `This procedure requires a calibrated station, and the response cannot be corrected by the station's own: ${uncorrectedReason}. Run the chain check with its stepped sine over the step's band (Station settings), then retest the unit (a run keeps the calibration it was started under).`,
+          );
+        }
+        note = `not corrected for the station's own response: ${uncorrectedReason}`;
+      }
+      const judged = judgeResponse(step, response, { corrected: uncorrectedReason === null, note });
+      const curve = responseCurve(response, request.sampleRateHz, uncorrectedReason === null, uncorrectedReason);
+      return db.transaction(() => {
+        const again = stepToRecord(row, request.stepId, 'check');
+        storeStepResult(row.id, again, { verdict: judged.verdict, reasons: judged.reasons, measurements: judged.measurements, stimulus: null, readings: curve });
         return runDetail(row.id);
       }).immediate();
     },

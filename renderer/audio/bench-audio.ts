@@ -3,7 +3,8 @@
 // chosen output, and streams the capture to the analysis worker.
 
 import type { Reading } from '../../shared/measurement/reading.ts';
-import type { DemoMode, GeneratorCommand, LatencyCapture, LatencyRequest } from '../worker/messages.ts';
+import { logSweep, type LogSweepSpec } from '../../shared/dsp/log-sweep.ts';
+import type { DemoMode, GeneratorCommand, LatencyCapture, LatencyRequest, SweepCommand } from '../worker/messages.ts';
 import generatorWorkletUrl from '../worklets/generator.worklet.ts?worker&url';
 import captureWorkletUrl from '../worklets/capture.worklet.ts?worker&url';
 import latencyWorkletUrl from '../worklets/latency.worklet.ts?worker&url';
@@ -93,6 +94,8 @@ export class BenchAudio {
   /** The pending latency capture of the demo bench (answered by the worker's `demo-captured`). */
   private demoCapture: { resolve(samples: Float32Array): void; reject(error: Error): void } | null = null;
   private generatorCommand: GeneratorCommand = { frequencyHz: 1000, levelDbfs: -20, on: false };
+  /** The sweep being played and captured (answered by the worker's `recorded`). */
+  private sweepCapture: { resolve(samples: Float32Array): void; reject(error: Error): void; progress(captured: number, frames: number): void; started: boolean; spec: LogSweepSpec } | null = null;
 
   readonly capturePath: CapturePath;
   readonly sampleRateHz: number;
@@ -220,6 +223,23 @@ export class BenchAudio {
       const message = event.data;
       if (message.type === 'reading') this.events.onReading(message.reading, message.spectrumHz, message.spectrumDbfs);
       else if (message.type === 'second-reading') this.events.onSecondReading(message.reading);
+      else if (message.type === 'record-progress') {
+        const pending = this.sweepCapture;
+        if (!pending) return;
+        // The capture runs: only now the sweep starts, so the capture holds it from its first sample.
+        if (!pending.started) {
+          pending.started = true;
+          this.playSweep(pending.spec);
+        }
+        pending.progress(message.captured, message.frames);
+      } else if (message.type === 'recorded') {
+        const pending = this.sweepCapture;
+        this.sweepCapture = null;
+        // The sweep is over (or stopped): like any stimulus change, no reading spans it.
+        this.worker.postMessage({ type: 'stimulus-changed' } satisfies ToWorker);
+        if (message.samples) pending?.resolve(message.samples);
+        else pending?.reject(new AudioProblem(message.refusal ?? 'Nothing was captured.'));
+      }
       else if (message.type === 'demo-captured') {
         const pending = this.demoCapture;
         this.demoCapture = null;
@@ -260,6 +280,8 @@ export class BenchAudio {
   /** Sets the stimulus; the analysis starts a fresh stretch so no reading spans the change. */
   setGenerator(command: GeneratorCommand): void {
     if (this.stopped) return;
+    // A tone turned on during a sweep would be captured with it: the sweep stops, and nothing is recorded.
+    if (command.on) this.stopSweep();
     const changed =
       command.on !== this.generatorCommand.on ||
       command.frequencyHz !== this.generatorCommand.frequencyHz ||
@@ -346,7 +368,43 @@ export class BenchAudio {
     return captured;
   }
 
+  /**
+   * Plays the sweep once (logSweep(spec), the samples `sweep --write` writes) and resolves with
+   * `frames` samples of the unit's channel 1, captured from just before the sweep's first sample.
+   * The tone is muted first; mute() stops the sweep at once and rejects.
+   */
+  recordSweep(spec: LogSweepSpec, frames: number, progress: (captured: number, frames: number) => void): Promise<Float32Array> {
+    if (this.stopped) return Promise.reject(new AudioProblem('Capture has stopped; press Start capture, then run the sweep again.'));
+    if (this.sweepCapture) return Promise.reject(new AudioProblem('A sweep is already playing.'));
+    this.setGenerator({ ...this.generatorCommand, on: false });
+    return new Promise<Float32Array>((resolve, reject) => {
+      this.sweepCapture = { resolve, reject, progress, started: false, spec };
+      this.worker.postMessage({ type: 'stimulus-changed' } satisfies ToWorker);
+      this.worker.postMessage({ type: 'record-start', frames } satisfies ToWorker);
+    });
+  }
+
+  private playSweep(spec: LogSweepSpec | null): void {
+    if (!this.device) {
+      this.worker.postMessage({ type: 'demo-sweep', spec } satisfies ToWorker);
+      return;
+    }
+    const sweep = spec ? logSweep(spec) : null;
+    this.device.generator.port.postMessage({ sweep } satisfies SweepCommand, sweep ? [sweep.buffer] : []);
+  }
+
+  /** Stops a sweep at once and drops its capture; nothing is recorded. */
+  stopSweep(): void {
+    if (!this.sweepCapture) return;
+    // A progress message already on its way must not start the sweep after this.
+    this.sweepCapture.started = true;
+    this.playSweep(null);
+    this.worker.postMessage({ type: 'record-cancel' } satisfies ToWorker);
+  }
+
+  /** Silence from the generator: the tone off, and a sweep stopped at once. */
   mute(): void {
+    this.stopSweep();
     this.setGenerator({ ...this.generatorCommand, on: false });
   }
 
@@ -358,6 +416,9 @@ export class BenchAudio {
     if (this.stopped) return;
     this.demoCapture?.reject(new AudioProblem('Capture stopped before the latency capture came back.'));
     this.demoCapture = null;
+    this.sweepCapture?.reject(new AudioProblem('Capture stopped during the sweep.'));
+    this.sweepCapture = null;
+    this.device?.generator.port.postMessage({ sweep: null } satisfies SweepCommand);
     this.device?.generator.port.postMessage({ ...this.generatorCommand, on: false });
     this.stopped = true;
     navigator.mediaDevices?.removeEventListener('devicechange', this.checkOutputStillThere);

@@ -34,6 +34,8 @@ export function App() {
   const [trimmerTurns, setTrimmerTurns] = useState(0);
 
   const audioRef = useRef<BenchAudio | null>(null);
+  /** A response step's sweep is playing: the header's mute stops it, like Esc. */
+  const [sweeping, setSweeping] = useState(false);
   // Focus leaves the button that turned the generator on (whose next Enter would mute it) for the
   // field whose Enter is the next step: record a point, record a check, or open a unit.
   const afterTurnedOn = useCallback(() => {
@@ -191,8 +193,14 @@ export function App() {
             Station…
           </button>
         )}
-        <button type="button" className={generator.generator.on ? 'mute live' : 'mute'} onClick={generator.mute} data-testid="mute" disabled={!generator.generator.on}>
-          {generator.generator.on ? 'Mute generator (Esc)' : 'Generator muted'}
+        <button
+          type="button"
+          className={generator.generator.on || sweeping ? 'mute live' : 'mute'}
+          onClick={generator.mute}
+          data-testid="mute"
+          disabled={!generator.generator.on && !sweeping}
+        >
+          {sweeping ? 'Stop the sweep (Esc)' : generator.generator.on ? 'Mute generator (Esc)' : 'Generator muted'}
         </button>
       </header>
       <SafetyNotice />
@@ -263,6 +271,8 @@ export function App() {
                 secondReading={capture.secondReading}
                 generator={generator.generator}
                 generatorAvailable={audio !== null}
+                audio={audio}
+                onSweeping={setSweeping}
                 onToggleGenerator={generator.toggle}
                 applyGenerator={generator.apply}
                 mute={generator.mute}

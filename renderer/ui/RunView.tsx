@@ -7,6 +7,8 @@ import type { PlannedStep } from '../../shared/procedures/run-plan.ts';
 import type { GeneratorCommand } from '../worker/messages.ts';
 import { CheckStepPanel, type ChannelLive } from './CheckStepPanel.tsx';
 import { MaxLevelPanel } from './MaxLevelPanel.tsx';
+import { ResponseStepPanel } from './ResponseStepPanel.tsx';
+import type { BenchAudio } from '../audio/bench-audio.ts';
 import { NoticePanel } from './NoticePanel.tsx';
 import { RingingPanel } from './RingingPanel.tsx';
 import { StepWalk } from './StepWalk.tsx';
@@ -25,6 +27,8 @@ export function RunView({
   secondReading,
   generator,
   generatorAvailable,
+  audio,
+  onSweeping,
   onToggleGenerator,
   applyGenerator,
   mute,
@@ -49,6 +53,9 @@ export function RunView({
   secondReading: ChannelLive | null;
   generator: GeneratorCommand;
   generatorAvailable: boolean;
+  /** The running capture: a response step plays and captures its sweep through it. */
+  audio: BenchAudio | null;
+  onSweeping(playing: boolean): void;
   onToggleGenerator(): void;
   /** Sets the generator (a max-level step raises its level), and mutes it. */
   applyGenerator(command: GeneratorCommand): void;
@@ -127,6 +134,25 @@ export function RunView({
           pending={run.pending}
           primaryRef={primaryRef}
           onRecord={(points) => run.recordMaxLevel(step.id, points)}
+        />
+      );
+    } else if (step.kind === 'response') {
+      panel = (
+        <ResponseStepPanel
+          key={`${detail.run.id}/${step.id}`}
+          step={step}
+          planned={planned}
+          audio={audio}
+          onSweeping={onSweeping}
+          levels={levels}
+          outputCalibration={outputCalibration}
+          pending={run.pending}
+          primaryRef={primaryRef}
+          onRecord={async (samples, sampleRateHz) => {
+            // The plot and the verdict are the step's stored result: shown at once, before going on.
+            walk.showAfterRecording(step.id);
+            return run.recordResponse(step.id, samples, sampleRateHz);
+          }}
         />
       );
     } else if (isCheckStep(step)) {

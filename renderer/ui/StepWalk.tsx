@@ -89,18 +89,31 @@ export function StepWalk({
             children
           ) : (
             <>
-              {result ? <StepResultView result={result} /> : <p className="hint">Not run yet.</p>}
+              {result ? <StepResultView result={result} mask={step.kind === 'response' ? step.mask : undefined} /> : <p className="hint">Not run yet.</p>}
               {/* The trim's points stay readable here, even when nothing more can be recorded. */}
               {step.kind === 'trim' && detail.trimPoints.length > 0 && (
                 <TrimPointsTable points={detail.trimPoints} harmonicOrder={detail.procedure.trim.harmonicOrder} inputCalibration={null} busy onInclude={() => undefined} />
               )}
               <div className="row">
-                {result && mayRepeat(procedureFile, detail.stepResults, step.id) && (
-                  <button type="button" ref={primaryRef} autoFocus onClick={() => walk.repeat(step.id)} disabled={pending} data-testid="repeat-step">
-                    Repeat step (Enter)
+                {/* Just recorded: Enter goes on (a repeat would play the step again). */}
+                {walk.justRecorded === step.id && !stopped && (
+                  <button type="button" className="primary" ref={primaryRef} autoFocus onClick={walk.back} data-testid="go-on">
+                    {judgement.nextStepId ? 'Go on to the next step (Enter)' : 'Go on (Enter)'}
                   </button>
                 )}
-                {!stopped && (
+                {result && mayRepeat(procedureFile, detail.stepResults, step.id) && (
+                  <button
+                    type="button"
+                    ref={walk.justRecorded === step.id && !stopped ? undefined : primaryRef}
+                    autoFocus={!(walk.justRecorded === step.id && !stopped)}
+                    onClick={() => walk.repeat(step.id)}
+                    disabled={pending}
+                    data-testid="repeat-step"
+                  >
+                    {walk.justRecorded === step.id && !stopped ? 'Repeat step' : 'Repeat step (Enter)'}
+                  </button>
+                )}
+                {!stopped && walk.justRecorded !== step.id && (
                   <button type="button" onClick={walk.back} data-testid="back-to-current">
                     Back to the current step
                   </button>

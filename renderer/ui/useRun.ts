@@ -116,6 +116,13 @@ export function useRun(setup: AudioSetup | null) {
     [once],
   );
 
+  /** A response step's capture: plain numbers, which cross any bridge to main. */
+  const recordResponse = useCallback(
+    (stepId: string, samples: Float32Array, sampleRateHz: number) =>
+      once(async () => keep(await call('recordResponse', { runId: runId(), stepId, sampleRateHz, samples: Array.from(samples), setup: setupRef.current }))),
+    [once],
+  );
+
   /** Refused with the reasons when the run has not earned a PASS, unless it is finished as a FAIL. */
   const finish = useCallback(
     (asFailure: boolean) =>
@@ -129,5 +136,5 @@ export function useRun(setup: AudioSetup | null) {
 
   const close = useCallback(() => setDetail(null), []);
 
-  return { detail, pending, open, recordPoint, includePoint, logWarningChanges, recordWarmCheck, acknowledgeNotice, completeTrim, recordCheckStep, recordMaxLevel, attachScopeCapture, finish, close };
+  return { detail, pending, open, recordPoint, includePoint, logWarningChanges, recordWarmCheck, acknowledgeNotice, completeTrim, recordCheckStep, recordMaxLevel, recordResponse, attachScopeCapture, finish, close };
 }

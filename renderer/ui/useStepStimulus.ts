@@ -35,13 +35,13 @@ export function useStepStimulus({
   const [note, setNote] = useState<string | null>(null);
   const needs = step?.needs ?? null;
   // The step's setting is part of its key: a calibration that comes to hold (or lapses) changes it.
-  const setting = needs && needs.kind !== 'acknowledge' ? (needs.generator?.on ? `${needs.kind === 'scope' ? 'square' : 'sine'}:${needs.generator.frequencyHz}@${needs.generator.levelDbfs}` : 'off') : 'none';
+  const setting = needs && needs.kind !== 'acknowledge' && needs.kind !== 'sweep' ? (needs.generator?.on ? `${needs.kind === 'scope' ? 'square' : 'sine'}:${needs.generator.frequencyHz}@${needs.generator.levelDbfs}` : 'off') : 'none';
   const stepKey = step ? `${runId}/${step.stepId}/${setting}` : null;
 
   // A new step: its setting, off.
   useEffect(() => {
     if (!needs) return;
-    if (needs.kind === 'acknowledge' || generatorWanted(step) !== true) {
+    if (needs.kind === 'acknowledge' || needs.kind === 'sweep' || generatorWanted(step) !== true) {
       setNote(null);
       return mute();
     }
@@ -53,7 +53,7 @@ export function useStepStimulus({
   // On one interface clock the stimulus is planned to whole cycles per frame, clear of mains;
   // planned again whenever the rate, the mains or the clocking changes.
   useEffect(() => {
-    if (!needs || needs.kind === 'acknowledge') return;
+    if (!needs || needs.kind === 'acknowledge' || needs.kind === 'sweep') return;
     const request = needs.generator;
     if (!request || !request.on) return;
     const move = (frequencyHz: number) => {

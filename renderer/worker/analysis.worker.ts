@@ -5,6 +5,7 @@ import { TimestampContinuity } from '../../shared/capture/timestamp-continuity.t
 import { MeterSession } from '../../shared/measurement/meter-session.ts';
 import { DemoChain } from '../../shared/sim/demo-chain.ts';
 import { DemoUnit } from '../../shared/sim/demo-unit.ts';
+import { logSweep } from '../../shared/dsp/log-sweep.ts';
 import type { AudioDataLike, DemoMode, FromWorker, MeterSettings, ToWorker, WorkletBlock } from './messages.ts';
 
 declare const self: DedicatedWorkerGlobalScope;
@@ -33,6 +34,31 @@ let lastStatusAt = 0;
 
 const post = (message: FromWorker) => self.postMessage(message);
 
+/** A sweep's capture being kept: channel 1's samples, allocated once per recording. */
+let recording: { samples: Float32Array; captured: number; lastProgressAt: number } | null = null;
+
+function keep(samples: Float32Array, length: number): void {
+  const r = recording;
+  if (!r) return;
+  const n = Math.min(length, r.samples.length - r.captured);
+  r.samples.set(samples.subarray(0, n), r.captured);
+  r.captured += n;
+  const now = performance.now();
+  if (r.captured >= r.samples.length) {
+    recording = null;
+    self.postMessage({ type: 'recorded', samples: r.samples, refusal: null } satisfies FromWorker, [r.samples.buffer]);
+  } else if (now - r.lastProgressAt > 200 || r.captured === n) {
+    r.lastProgressAt = now;
+    post({ type: 'record-progress', captured: r.captured, frames: r.samples.length });
+  }
+}
+
+function dropRecording(refusal: string): void {
+  if (!recording) return;
+  recording = null;
+  post({ type: 'recorded', samples: null, refusal });
+}
+
 function sessionFor(sampleRateHz: number): MeterSession {
   // The demo unit cannot drop blocks: looking for breaks in its samples would only mistake an
   // oscillating, clipping stage for capture trouble.
@@ -47,6 +73,7 @@ function sessionFor(sampleRateHz: number): MeterSession {
 }
 
 function analyse(samples: Float32Array, length: number, sampleRateHz: number, channelCount: number): void {
+  keep(samples, length);
   const current = sessionFor(sampleRateHz);
   const live = current.push(samples, length, sampleRateHz);
   if (live) {
@@ -103,6 +130,8 @@ async function readTrack(readable: ReadableStream<AudioDataLike>): Promise<void>
         else block.fill(0, 0, frames);
         const gap = continuity.isGap(audio.timestamp, frames, audio.sampleRate);
         if (gap) sessionFor(audio.sampleRate).captureGap(audio.sampleRate);
+        // A block lost in the middle of a sweep shifts everything after it: that capture is no sweep's.
+        if (gap) dropRecording('The capture lost a block of samples during the sweep. Run the sweep again.');
         analyse(block, frames, audio.sampleRate, audio.numberOfChannels);
         analyseSecond(audio, frames, gap);
       } finally {
@@ -207,7 +236,19 @@ self.onmessage = (event: MessageEvent<ToWorker>) => {
       secondSession?.trimmerMoved(moveSeconds);
       break;
     }
+    case 'record-start':
+      recording = { samples: new Float32Array(message.frames), captured: 0, lastProgressAt: 0 };
+      break;
+    case 'record-cancel':
+      dropRecording('The sweep was stopped.');
+      demo?.unit.playOnce(null);
+      break;
+    case 'demo-sweep':
+      if (demoMode !== 'unit') demo?.unit.playOnce(null);
+      else demo?.unit.playOnce(message.spec ? logSweep(message.spec) : null);
+      break;
     case 'stop':
+      dropRecording('Capture stopped during the sweep.');
       stopRequested = true;
       if (demo) clearInterval(demo.timer);
       break;

@@ -1,5 +1,6 @@
 // Messages between the page, the analysis worker and the audio worklets.
 
+import type { LogSweepSpec } from '../../shared/dsp/log-sweep.ts';
 import type { StimulusSetting } from '../../shared/dsp/sine-source.ts';
 import type { MeterSessionSettings } from '../../shared/measurement/meter-session.ts';
 import type { Reading } from '../../shared/measurement/reading.ts';
@@ -34,6 +35,12 @@ export type ToWorker =
    * the demo unit's virtual trimmer turns there.
    */
   | { type: 'trimmer-moved'; turns: number }
+  /** Keep the next `frames` samples of the unit's channel 1 (a sweep's capture), answered by `recorded`. */
+  | { type: 'record-start'; frames: number }
+  /** Stop keeping them (Esc, or the sweep was stopped): answered by `recorded` with no samples. */
+  | { type: 'record-cancel' }
+  /** The demo bench plays the sweep once through the simulated unit, or stops it at once (spec null). */
+  | { type: 'demo-sweep'; spec: LogSweepSpec | null }
   | { type: 'stop' };
 
 export type FromWorker =
@@ -45,6 +52,10 @@ export type FromWorker =
   | { type: 'capture-ended' }
   /** The answer to `demo-play-once`: the capture, or why there is none. */
   | { type: 'demo-captured'; samples: Float32Array | null; refusal: string | null }
+  /** How much of a recording is kept so far, about five times a second. */
+  | { type: 'record-progress'; captured: number; frames: number }
+  /** The recording, or why there is none. */
+  | { type: 'recorded'; samples: Float32Array | null; refusal: string | null }
   | { type: 'error'; message: string };
 
 /** A captured block from the worklet: samples of the chosen channel, handed back after use. */
@@ -79,3 +90,12 @@ export interface LatencyCapture {
 
 /** What the page tells the generator worklet (or the demo unit). */
 export type GeneratorCommand = StimulusSetting;
+
+/**
+ * Page → generator worklet: play these samples once (logSweep(spec), computed on the page once per
+ * sweep and transferred, so the audio thread never stalls on them), or stop a sweep at once (null).
+ * A message of its own beside the tone's settings.
+ */
+export interface SweepCommand {
+  sweep: Float32Array | null;
+}

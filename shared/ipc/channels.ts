@@ -15,6 +15,7 @@ export const IPC_CHANNELS = [
   'recordCheckStep',
   'attachScopeCapture',
   'recordMaxLevel',
+  'recordResponse',
   'finishRun',
   'saveSheetPdf',
   'printSheet',

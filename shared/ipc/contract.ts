@@ -7,6 +7,8 @@ import type { TrimAssessment } from '../trim/assessment.ts';
 import { procedureSchema } from '../procedures/procedure.ts';
 import { MAX_LEVEL_RANGES, procedureFileSchema, STEP_KINDS } from '../procedures/procedure-file.ts';
 import type { Measurement } from '../procedures/check-steps.ts';
+import type { ResponseCurve } from '../procedures/response.ts';
+import { SWEEP_CAPTURE_MAX_SAMPLES } from '../measurement/sweep-response.ts';
 import type { UnitJudgement } from '../procedures/unit-verdict.ts';
 import { EDGE_PLOT_MAX_POINTS, type ScopeRecordSummary } from '../procedures/ringing.ts';
 import { RINGING_FLAGS } from '../scope/ringing.ts';
@@ -390,6 +392,8 @@ export const stepResultSchema = z.object({
   stimulus: stimulusSettingSchema.nullable(),
   /** For a ringing step: the scope record it was judged from; absent or null otherwise. */
   scopeRecord: scopeRecordSchema.nullable().optional(),
+  /** A response step's analysed response, as stored with it, for its plot; absent for other kinds. */
+  curve: z.lazy(() => responseCurveSchema).optional(),
 });
 
 export const unitJudgementSchema = z.object({
@@ -425,6 +429,20 @@ export const runDetailSchema = z.object({
   /** The unit's verdict over the steps as main judges it now from the stored results (judgeUnit). */
   judgement: unitJudgementSchema,
 });
+
+/** A response step's curve as stored (shared/procedures/response.ts ResponseCurve). */
+export const responseCurveSchema = z
+  .object({
+    referenceHz: finite.positive(),
+    latencySamples: z.number().int().min(0),
+    sampleRateHz: z.number().int().positive(),
+    corrected: z.boolean(),
+    uncorrectedReason: z.string().nullable(),
+    response: z.array(z.tuple([finite.positive(), finite])).max(400),
+    harmonics: z.array(z.object({ order: z.number().int().min(2).max(5), points: z.array(z.tuple([finite.positive(), finite])).max(400) }).strict()).max(4),
+  })
+  .strict();
+responseCurveSchema satisfies z.ZodType<ResponseCurve>;
 
 const runRef = z.object({ runId: rowId }).strict();
 /** A step of the run's procedure, by its id (procedure-file.ts allows at most 40 characters). */
@@ -573,6 +591,24 @@ export const contract = {
           .min(1)
           .max(MAX_LEVEL_RANGES.steps.max),
         /** The audio setup in use: main checks it against the run's calibration. */
+        setup: audioSetupSchema.nullable().default(null),
+      })
+      .strict(),
+    response: runDetailSchema,
+  },
+  /**
+   * A response step's capture of its sweep: main analyses it (analyzeSweepResponse) with the sweep of
+   * the stored revision's step, never one the page describes, and judges the mask and harmonics.
+   */
+  recordResponse: {
+    request: z
+      .object({
+        runId: rowId,
+        stepId: z.string().min(1).max(40),
+        /** The rate the capture ran at; the sweep was played at the same rate. */
+        sampleRateHz: z.number().int().min(8000).max(384000),
+        /** The unit's channel 1 over the whole sweep, from before it starts (plain numbers: they cross any bridge). */
+        samples: z.array(z.number()).min(1).max(SWEEP_CAPTURE_MAX_SAMPLES),
         setup: audioSetupSchema.nullable().default(null),
       })
       .strict(),

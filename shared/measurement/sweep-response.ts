@@ -60,6 +60,15 @@ const MIN_PEAK_TO_MEDIAN = 100;
  */
 const MIN_FOLLOWED_FRACTION = 0.5;
 
+/**
+ * The shortest sweep from startHz to endHz whose linear window holds SWEEP_WINDOW_MIN_CYCLES of
+ * fromHz, seconds. The room before H2's response is L·ln 2 with L = T/ln(f2/f1), so T must be at
+ * least cycles/fromHz/ln 2 · ln(f2/f1). Procedures check their sweeps with it.
+ */
+export function sweepDurationToResolve(startHz: number, endHz: number, fromHz: number = startHz): number {
+  return (SWEEP_WINDOW_MIN_CYCLES / fromHz / Math.LN2) * Math.log(endHz / startHz);
+}
+
 /** Points at most 1/12 octave apart. */
 const POINTS_PER_OCTAVE = 12;
 
@@ -303,8 +312,7 @@ export function analyzeSweepResponse(capture: ArrayLike<number>, spec: LogSweepS
   const plans = windowPlans(layout, fs);
   const linear = plans[0];
   if (linear.lead + linear.tail < (SWEEP_WINDOW_MIN_CYCLES / fromHz) * fs) {
-    // The room grows with L = T/ln(f2/f1): T must be at least cycles/from/ln 2 · ln(f2/f1).
-    const neededS = (SWEEP_WINDOW_MIN_CYCLES / fromHz / Math.LN2) * Math.log(spec.endHz / spec.startHz);
+    const neededS = sweepDurationToResolve(spec.startHz, spec.endHz, fromHz);
     return refuse(
       `A ${spec.durationS} s sweep from ${spec.startHz} Hz to ${spec.endHz} Hz cannot resolve ${fromHz} Hz: its harmonics' impulse responses lie too close to the linear one. Sweep for at least ${Math.ceil(neededS * 10) / 10} s.`,
     );

@@ -164,7 +164,7 @@ export type GeneratorRequest =
 export type GeneratorOutcome = { ok: true; request: GeneratorRequest } | { ok: false; refusal: string };
 
 /** The check kinds that play a tone. */
-export type StimulusStep = Exclude<CheckStep, { kind: 'noise' | 'hum' }>;
+export type StimulusStep = Exclude<CheckStep, { kind: 'noise' | 'hum' | 'response' }>;
 
 /**
  * What the step asks of the generator: off for noise and hum; otherwise its frequency and its level
@@ -172,7 +172,8 @@ export type StimulusStep = Exclude<CheckStep, { kind: 'noise' | 'hum' }>;
  * scale). A dBu level on an uncalibrated station, or one the output cannot reach, is refused.
  */
 export function generatorFor(step: CheckStep, levels: StationLevels | null): GeneratorOutcome {
-  if (step.kind === 'noise' || step.kind === 'hum') return { ok: true, request: { on: false } };
+  // A response step plays its sweep (shared/procedures/response.ts), not the tone generator.
+  if (step.kind === 'noise' || step.kind === 'hum' || step.kind === 'response') return { ok: true, request: { on: false } };
   // A max-level step starts at its start level (shared/procedures/max-level.ts plans the rise).
   const played = playedLevel(step.id, step.kind === 'max-level' ? step.startLevel : step.level, levels, 0);
   if (!played.ok) return played;
@@ -209,6 +210,10 @@ export function playedLevel(
 
 /** Why the step cannot be run on this station at all, or null when it can. */
 export function whyStepCannotRun(step: CheckStep, levels: StationLevels | null): string | null {
+  if (step.kind === 'response') {
+    const level = playedLevel(step.id, step.level, levels, 0);
+    return level.ok ? null : level.refusal;
+  }
   const generator = generatorFor(step, levels);
   if (!generator.ok) return generator.refusal;
   if (step.kind === 'balance' || step.kind === 'crosstalk') return whyChannelsNotComparable(step, levels?.inputDbuAtFullScale ?? null, levels?.secondInputDbuAtFullScale ?? null);
@@ -348,6 +353,7 @@ const powerSumDb = (levelsDb: readonly number[]) => 10 * Math.log10(levelsDb.red
 
 /** Judges a check step from its settled reading(s). Refuses readings that are not of the step's stimulus. */
 export function measureCheckStep(step: CheckStep, input: CheckInput): CheckOutcome {
+  if (step.kind === 'response') return { ok: false, refusal: `Step “${step.id}” measures a response from its sweep: it is recorded from the sweep's capture, not from readings.` };
   const generator = generatorFor(step, input.levels);
   if (!generator.ok) return { ok: false, refusal: generator.refusal };
   // Two-channel steps are judged on the figures given with each reading (checked below), not the plan's.

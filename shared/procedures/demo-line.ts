@@ -15,6 +15,8 @@ import { nextMove } from '../trim/scripted-technician.ts';
 import { measureCheckStep, noiseBandFor, type StationLevels } from './check-steps.ts';
 import type { ProcedureFile } from './procedure-file.ts';
 import { plannedStimulus, runPlan, type PlannedStep } from './run-plan.ts';
+import { RESPONSE_CAPTURE_MARGIN_S, sweepSpecFor } from './response.ts';
+import { logSweepLayout } from '../dsp/log-sweep.ts';
 import type { StimulusSetting } from '../dsp/sine-source.ts';
 import type { AudioSetup } from '../calibration/station-calibration.ts';
 import { vRmsFromDbu } from '../levels.ts';
@@ -22,7 +24,7 @@ import { LiveMeter } from '../measurement/live-meter.ts';
 import { DEMO_INTERFACE_DBU_AT_FULL_SCALE, DemoChain } from '../sim/demo-chain.ts';
 
 /** The calls the demo line makes, exactly as the page makes them; the caller turns a refusal into an error. */
-export type LineCalls = <C extends 'acknowledgeNotice' | 'recordTrimPoint' | 'completeTrim' | 'recordCheckStep' | 'finishRun'>(
+export type LineCalls = <C extends 'acknowledgeNotice' | 'recordTrimPoint' | 'completeTrim' | 'recordCheckStep' | 'recordResponse' | 'finishRun'>(
   channel: C,
   request: IpcRequest<C>,
 ) => Promise<IpcResponse<C>>;
@@ -104,7 +106,8 @@ export async function walkUnit(unit: BatchUnit, opened: RunDetail, call: LineCal
       // the run is finished as FAIL with main's reasons, as the technician does.
       if (trimmed === null) break;
       detail = trimmed;
-    } else detail = await checkStep(bench, planned, procedure, runId, call, station);
+    } else if (needs.kind === 'sweep') detail = await responseStep(bench, planned, procedure, runId, call, station);
+    else detail = await checkStep(bench, planned, procedure, runId, call, station);
     if (detail.judgement.stoppedAt !== null) break;
   }
   // A unit that cannot pass is finished as FAIL with main's reasons, as the technician would after Finish is refused.
@@ -172,6 +175,17 @@ async function checkStep(bench: HeadlessBench, planned: PlannedStep, procedure: 
     waited += again.seconds;
   }
   return call('recordCheckStep', { runId, stepId: planned.stepId, stimulus, readings: [{ channel: 1, reading: taken.reading }], setup: station.setup });
+}
+
+/** A response step: the sweep played once through the unit and its whole answer sent to main, as the page does. */
+async function responseStep(bench: HeadlessBench, planned: PlannedStep, procedure: ProcedureFile, runId: number, call: LineCalls, station: LineStation): Promise<RunDetail> {
+  const step = procedure.steps[planned.index];
+  if (step.kind !== 'response') throw new Error(`step ${planned.stepId} is not a response step`);
+  const plan = sweepSpecFor(step, station.sampleRateHz, station.levels);
+  if (!plan.ok) throw new LineCallRefused('recordResponse', plan.refusal);
+  // The stimulus and half a second more: within the margin main allows.
+  const samples = bench.sweep(plan.spec, logSweepLayout(plan.spec).totalLength + Math.round(0.5 * RESPONSE_CAPTURE_MARGIN_S * station.sampleRateHz));
+  return call('recordResponse', { runId, stepId: planned.stepId, sampleRateHz: station.sampleRateHz, samples: Array.from(samples), setup: station.setup });
 }
 
 /** The settled reading, or the latest one when it never settled (main then refuses or marks it). */

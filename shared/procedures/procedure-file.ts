@@ -10,6 +10,7 @@ import { z } from 'zod';
 import { PROCEDURE_SCHEMA_VERSION as SCHEMA_1, procedureSchema as schema1, type Procedure as ProcedureV1 } from './procedure.ts';
 import { joinPath, readJsonText } from './json-text.ts';
 import { SQUARE_MAX_LEVEL_DBFS } from '../dsp/square-wave.ts';
+import { sweepDurationToResolve } from '../measurement/sweep-response.ts';
 
 export const PROCEDURE_FILE_SCHEMA_VERSION = 2;
 
@@ -38,11 +39,15 @@ export const PROCEDURE_RANGES = {
   // A scope exports a handful of channels; the voltage columns are counted from 0.
   scopeChannel: { min: 0, max: 15 },
   channels: { min: 1, max: 16 },
+  // A sweep's length from start to end frequency: the analysis holds at most 2^21 samples (43 s at 48 kHz).
+  sweepDurationS: { min: 0.5, max: 30 },
+  // A response mask's bounds relative to the reference frequency.
+  maskDb: { min: -60, max: 20 },
 } as const;
 
-export const STEP_KINDS = ['notice', 'trim', 'distortion', 'gain', 'noise', 'hum', 'balance', 'crosstalk', 'max-level', 'ringing'] as const;
+export const STEP_KINDS = ['notice', 'trim', 'distortion', 'gain', 'noise', 'hum', 'balance', 'crosstalk', 'max-level', 'response', 'ringing'] as const;
 export type StepKind = (typeof STEP_KINDS)[number];
-export const CHECK_KINDS = ['distortion', 'gain', 'noise', 'hum', 'balance', 'crosstalk', 'max-level'] as const satisfies readonly StepKind[];
+export const CHECK_KINDS = ['distortion', 'gain', 'noise', 'hum', 'balance', 'crosstalk', 'max-level', 'response'] as const satisfies readonly StepKind[];
 /** Kinds that compare two of the unit's channels. */
 export const TWO_CHANNEL_KINDS = ['balance', 'crosstalk'] as const satisfies readonly StepKind[];
 export const HARMONIC_NAMES = ['H2', 'H3', 'H4', 'H5', 'H6', 'H7', 'H8', 'H9', 'H10'] as const;
@@ -270,6 +275,60 @@ export const maxLevelStepSchema = z
     }
   });
 
+/** Sweep harmonics a response step may limit: the analysis reads H2 to H5 (shared/measurement/sweep-response.ts). */
+export const SWEEP_HARMONIC_NAMES = ['H2', 'H3', 'H4', 'H5'] as const;
+
+export const responseStepSchema = z
+  .strictObject({
+    ...stepBase,
+    kind: z.literal('response'),
+    /** The exponential sweep's start and end, Hz: the band the response is read over. */
+    fromHz: frequencyHz,
+    toHz: frequencyHz,
+    /** From fromHz to toHz at full level, seconds; fades and silences come on top. */
+    durationS: inRange(PROCEDURE_RANGES.sweepDurationS, 's'),
+    level,
+    /** The response is 0 dB here; inside the band. */
+    referenceHz: frequencyHz,
+    mask: z
+      .array(
+        z.strictObject({
+          frequencyHz,
+          lowDb: inRange(PROCEDURE_RANGES.maskDb, 'dB').optional(),
+          highDb: inRange(PROCEDURE_RANGES.maskDb, 'dB').optional(),
+        }),
+      )
+      .min(2, 'needs at least two points: the mask runs from its first point to its last')
+      .max(64, 'must have at most 64 points'),
+    limits: z
+      .strictObject({
+        harmonicsDbc: z.strictObject(Object.fromEntries(SWEEP_HARMONIC_NAMES.map((h) => [h, limit('dBc', PROCEDURE_RANGES.ratioDb).optional()])) as Record<(typeof SWEEP_HARMONIC_NAMES)[number], z.ZodOptional<ReturnType<typeof limit<'dBc'>>>>),
+      })
+      .optional(),
+    onFail,
+  })
+  .superRefine((s, ctx) => {
+    if (!(s.fromHz < s.toHz)) {
+      ctx.addIssue({ code: 'custom', message: 'must be above fromHz', path: ['toHz'] });
+      return;
+    }
+    const neededS = sweepDurationToResolve(s.fromHz, s.toHz);
+    if (s.durationS < neededS) {
+      ctx.addIssue({ code: 'custom', message: `must be at least ${Math.ceil(neededS * 10) / 10} s: a shorter sweep from ${s.fromHz} Hz to ${s.toHz} Hz cannot resolve ${s.fromHz} Hz`, path: ['durationS'] });
+    }
+    if (!(s.referenceHz >= s.fromHz && s.referenceHz <= s.toHz)) ctx.addIssue({ code: 'custom', message: `must lie inside the band, ${s.fromHz} to ${s.toHz} Hz`, path: ['referenceHz'] });
+    const hasLow = s.mask.map((p) => p.lowDb !== undefined);
+    const hasHigh = s.mask.map((p) => p.highDb !== undefined);
+    if (!hasLow.every((h) => h === hasLow[0]) || !hasHigh.every((h) => h === hasHigh[0])) {
+      ctx.addIssue({ code: 'custom', message: 'every point needs the same bounds: all with lowDb or none, all with highDb or none', path: ['mask'] });
+    } else if (!hasLow[0] && !hasHigh[0]) ctx.addIssue({ code: 'custom', message: 'the points need lowDb, highDb or both', path: ['mask'] });
+    s.mask.forEach((p, i) => {
+      if (!(p.frequencyHz >= s.fromHz && p.frequencyHz <= s.toHz)) ctx.addIssue({ code: 'custom', message: `must lie inside the band, ${s.fromHz} to ${s.toHz} Hz`, path: ['mask', i, 'frequencyHz'] });
+      if (i > 0 && !(p.frequencyHz > s.mask[i - 1].frequencyHz)) ctx.addIssue({ code: 'custom', message: 'the points must go up in frequency', path: ['mask', i, 'frequencyHz'] });
+      if (p.lowDb !== undefined && p.highDb !== undefined && !(p.lowDb < p.highDb)) ctx.addIssue({ code: 'custom', message: 'must be above lowDb', path: ['mask', i, 'highDb'] });
+    });
+  });
+
 const stepSchemas = {
   notice: noticeStepSchema,
   trim: trimStepSchema,
@@ -281,6 +340,7 @@ const stepSchemas = {
   crosstalk: crosstalkStepSchema,
   ringing: ringingStepSchema,
   'max-level': maxLevelStepSchema,
+  response: responseStepSchema,
 } as const;
 
 export const procedureStepSchema = z.discriminatedUnion('kind', [
@@ -294,6 +354,7 @@ export const procedureStepSchema = z.discriminatedUnion('kind', [
   crosstalkStepSchema,
   ringingStepSchema,
   maxLevelStepSchema,
+  responseStepSchema,
 ]);
 
 export const procedureFileSchema = z.strictObject({

@@ -5,7 +5,7 @@
 
 import type { StimulusSetting } from '../dsp/sine-source.ts';
 import { NoCoherentFrequency, planTestFrequency } from '../measurement/frequency-planner.ts';
-import { generatorFor, whyStepCannotRun, type GeneratorRequest, type StationLevels } from './check-steps.ts';
+import { generatorFor, playedLevel, whyStepCannotRun, type GeneratorRequest, type StationLevels } from './check-steps.ts';
 import type { ProcedureFile, ProcedureStep } from './procedure-file.ts';
 import { ringingStimulus } from './ringing.ts';
 
@@ -34,6 +34,12 @@ export type StepNeeds =
       generator: StimulusSetting | null;
       /** The scope's voltage column the step reads, counted from 0. */
       channel: number;
+    }
+  | {
+      kind: 'sweep';
+      /** The sweep's band, length and level (dBFS at the generator; dBu when calibrated); null when the level cannot be played here (see `blocked`). */
+      sweep: { fromHz: number; toHz: number; durationS: number; levelDbfs: number; levelDbu: number | null } | null;
+      referenceHz: number;
     };
 
 export interface PlannedStep {
@@ -71,6 +77,11 @@ export function runPlan(procedure: Pick<ProcedureFile, 'steps'>, levels: Station
           needs: { kind: 'scope', generator: square.ok ? square.stimulus : null, channel: step.channel },
           blocked: square.ok ? null : square.refusal,
         };
+      }
+      case 'response': {
+        const level = playedLevel(step.id, step.level, levels, 0);
+        const sweep = level.ok ? { fromHz: step.fromHz, toHz: step.toHz, durationS: step.durationS, levelDbfs: level.levelDbfs, levelDbu: level.levelDbu } : null;
+        return { ...base, onFail: step.onFail, needs: { kind: 'sweep', sweep, referenceHz: step.referenceHz }, blocked: whyStepCannotRun(step, levels) };
       }
       default: {
         const generator = generatorFor(step, levels);
@@ -115,6 +126,9 @@ export function generatorWanted(step: Pick<PlannedStep, 'needs'> | null): boolea
     case 'measure':
     case 'scope':
       return step.needs.generator ? step.needs.generator.on : null;
+    case 'sweep':
+      // The tone generator stays off: the sweep is played on its own, once, when the technician starts it.
+      return false;
   }
 }
 

@@ -19,6 +19,7 @@ const QUANTITY_LABELS: Record<string, string> = {
   overshootPercent: 'Overshoot',
   settlingTimeS: 'Settling time',
   maxLevelDbu: 'Max level',
+  maskMarginDb: 'Mask margin',
 };
 
 /** A measured quantity's name on the page: "thdDb" → "THD", "harmonicsDbc.H3" → "H3". */
@@ -27,8 +28,8 @@ export function quantityLabel(quantity: string): string {
   return QUANTITY_LABELS[quantity] ?? quantity;
 }
 
-/** Gain and balance limits are fractions of a dB wide, a damping ratio a fraction of 1: they need the hundredths. */
-export const quantityDecimals = (quantity: string): number => (quantity === 'gainDb' || quantity === 'balanceDb' || quantity === 'dampingRatio' ? 2 : 1);
+/** Gain and balance limits and a response's margin inside its mask are fractions of a dB, a damping ratio a fraction of 1: they need the hundredths. */
+export const quantityDecimals = (quantity: string): number => (quantity === 'gainDb' || quantity === 'balanceDb' || quantity === 'maskMarginDb' || quantity === 'dampingRatio' ? 2 : 1);
 
 /** Units whose values span decades (µs to ms, kHz to MHz): written with an SI prefix, not a sign. */
 const PREFIXED_UNITS = new Set(['s', 'Hz']);
@@ -80,7 +81,17 @@ export function stepConditions(step: ProcedureStep): string {
       return `square wave ${hzText(step.squareHz)} at ${signedFixed(step.level.value, 1)} ${step.level.unit}; oscilloscope record, voltage column ${step.channel}`;
     case 'max-level':
       return `${hzText(step.frequencyHz)} rising from ${signedFixed(step.startLevel.value, 1)} to at most ${signedFixed(step.ceiling.value, 1)} ${step.ceiling.unit} in ${compactNumber(step.stepDb)} dB steps, until THD+N reaches ${compactNumber(step.thdnThresholdPercent)} %`;
+    case 'response':
+      return `sweep ${hzText(step.fromHz)} to ${hzText(step.toHz)} in ${fixed(step.durationS, 1)} s at ${signedFixed(step.level.value, 1)} ${step.level.unit}; 0 dB at ${hzText(step.referenceHz)}`;
   }
+}
+
+/** A response mask in words: "20 Hz −0.5/+0.5 dB, 1 kHz …". */
+function maskText(mask: Extract<ProcedureStep, { kind: 'response' }>['mask']): string {
+  const f = (v: number) => signedFixed(v, 1);
+  const bounds = (low: number | undefined, high: number | undefined) =>
+    low !== undefined && high !== undefined ? `${f(low)} to ${f(high)} dB` : low !== undefined ? `≥ ${f(low)} dB` : `≤ ${f(high as number)} dB`;
+  return mask.map((p) => `${hzText(p.frequencyHz)} ${bounds(p.lowDb, p.highDb)}`).join(', ');
 }
 
 /** Everything else the step sets, for the procedures view: the trim's parameters, a check's termination. */
@@ -99,6 +110,8 @@ export function stepDetails(step: ProcedureStep): string[] {
       return [step.inputTermination];
     case 'max-level':
       return ['loud: stops at once if the station\'s input clips; Esc stops it and mutes the generator'];
+    case 'response':
+      return [`mask ${maskText(step.mask)}, linear in log frequency between its points`];
     default:
       return [];
   }
@@ -124,6 +137,11 @@ export function stepLimits(step: ProcedureStep): { quantity: string; label: stri
         ...Object.entries(harmonicsDbc ?? {}).flatMap(([name, limit]) => (limit ? [entry(`harmonicsDbc.${name}`, limit)] : [])),
       ];
     }
+    case 'response':
+      return [
+        { quantity: 'maskMarginDb', label: quantityLabel('maskMarginDb'), text: `${limitText({ low: 0, high: null, unit: 'dB' }, quantityDecimals('maskMarginDb'))} inside the mask over its span` },
+        ...Object.entries(step.limits?.harmonicsDbc ?? {}).flatMap(([name, limit]) => (limit ? [{ ...entry(`harmonicsDbc.${name}`, limit), text: `${entry(`harmonicsDbc.${name}`, limit).text} over the band` }] : [])),
+      ];
     default:
       return Object.entries(step.limits).map(([quantity, limit]) => entry(quantity, limit as Limit));
   }

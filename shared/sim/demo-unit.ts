@@ -141,11 +141,28 @@ export class DemoUnit {
     this.stimulus.set(setting);
   }
 
+  /** A stimulus played once on top of the tone (a sweep): the stage answers it as it answers any drive. */
+  private once: Float32Array | null = null;
+  private onceAt = 0;
+
+  /** Plays `samples` once from the next sample on; null stops what is playing at once. */
+  playOnce(samples: Float32Array | null): void {
+    this.once = samples;
+    this.onceAt = 0;
+  }
+
   /** Fills out[0..frames) with the captured output (full scale = the drive for a full-scale input). */
   render(out: Float32Array, frames = out.length): void {
     for (let done = 0; done < frames; ) {
       const chunk = Math.min(this.stimulusBlock.length, frames - done);
       this.stimulus.fill(this.stimulusBlock, chunk);
+      const once = this.once;
+      if (once) {
+        const n = Math.min(chunk, once.length - this.onceAt);
+        for (let i = 0; i < n; i++) this.stimulusBlock[i] += once[this.onceAt + i];
+        this.onceAt += n;
+        if (this.onceAt >= once.length) this.once = null;
+      }
       for (let i = 0; i < chunk; i++) out[done + i] = this.step(this.stimulusBlock[i]);
       done += chunk;
     }

@@ -7,6 +7,7 @@ import type { Reading } from '../measurement/reading.ts';
 import { MeterSession, type MeterSessionSettings } from '../measurement/meter-session.ts';
 import type { LiveSeries } from '../trim/trim-assistant.ts';
 import { DemoUnit, type DemoUnitParameters } from './demo-unit.ts';
+import { logSweep, type LogSweepSpec } from '../dsp/log-sweep.ts';
 
 /** Samples rendered and analysed at a time: about 43 ms at 48 kHz, a capture block's order. */
 const BLOCK = 2048;
@@ -51,6 +52,20 @@ export class HeadlessBench {
   moveTrimmer(turns: number): void {
     this.session.trimmerMoved(this.unit.setTrimmer(turns));
     this.restartSeries();
+  }
+
+  /**
+   * Plays the sweep once through the unit with the tone off and returns `frames` samples of its
+   * output from the sweep's first sample on, as a capture of it would hold (the meter is not fed:
+   * no reading spans a sweep).
+   */
+  sweep(spec: LogSweepSpec, frames: number): Float32Array {
+    this.unit.setStimulus({ on: false, frequencyHz: 1000, levelDbfs: -120 });
+    this.unit.playOnce(logSweep(spec));
+    const out = new Float32Array(frames);
+    this.unit.render(out);
+    this.rendered += frames;
+    return out;
   }
 
   /**

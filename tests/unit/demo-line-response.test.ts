@@ -1,0 +1,96 @@
+// The headless demo line walks a response step as the page does: the sweep played once through the
+// simulated stage, its whole answer sent to main. The stage's response is its small-signal circuit
+// by Kirchhoff's voltage law (any circuits textbook): H = Zp / (R0 + Zc + Zp), Zc = Rd ∥ 1/(jωC),
+// Zp = jωL ∥ RL, from the demo unit's invented parameters, with the trimmer at its safe end (0 turns).
+
+import { readFileSync, writeFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { afterEach, beforeEach, expect, it } from 'vitest';
+import { openStation } from '../../electron/services/station.ts';
+import type { RunDetail } from '../../shared/ipc/contract.ts';
+import { walkUnit, LineCallRefused, type LineCalls } from '../../shared/procedures/demo-line.ts';
+import { DEMO_UNIT_PARAMETERS as P } from '../../shared/sim/demo-unit.ts';
+import { dispatch } from '../../electron/services/handlers.ts';
+import { accepted, noCaller, tempDir, TEST_SETUP } from '../support/station.ts';
+
+function stageDb(f: number): number {
+  const w = 2 * Math.PI * f;
+  type C = [number, number];
+  const div = (a: C, b: C): C => {
+    const d = b[0] * b[0] + b[1] * b[1];
+    return [(a[0] * b[0] + a[1] * b[1]) / d, (a[1] * b[0] - a[0] * b[1]) / d];
+  };
+  const mul = (a: C, b: C): C => [a[0] * b[0] - a[1] * b[1], a[0] * b[1] + a[1] * b[0]];
+  const parallel = (a: C, b: C) => div(mul(a, b), [a[0] + b[0], a[1] + b[1]]);
+  const zc = parallel([P.couplingDampingOhms, 0], div([1, 0], [0, w * P.couplingFarads]));
+  const zp = parallel([0, w * P.magnetizingHenries], [P.reflectedLoadOhms, 0]);
+  const h = div(zp, [P.windingOhms + P.sourceOhms + zc[0] + zp[0], zc[1] + zp[1]]);
+  return 20 * Math.log10(Math.hypot(h[0], h[1]));
+}
+
+const trimStep = JSON.parse(readFileSync(fileURLToPath(new URL('../../resources/procedures/mg20-lf-trim.json', import.meta.url)), 'utf8')).steps.find((s: { kind: string }) => s.kind === 'trim');
+const PROCEDURE = {
+  schemaVersion: 2,
+  code: 'RESP-LINE',
+  revision: 'A',
+  title: 'Response on the demo line (invented)',
+  invented: true,
+  model: { code: 'MG-20', name: 'Invented stage', maker: 'Invented', channels: 1 },
+  serial: { pattern: '^MG20-\\d{4}-\\d{4}$', example: 'MG20-2611-0001' },
+  requiresCalibration: false,
+  steps: [
+    { id: 'safety', title: 'Safety', kind: 'notice', instructions: ['Mute monitors.'], acknowledgement: 'Monitors are muted.' },
+    {
+      id: 'response',
+      title: 'Frequency response',
+      kind: 'response',
+      instructions: ['The sweep plays once.'],
+      fromHz: 10,
+      toHz: 20000,
+      durationS: 5,
+      level: { value: -20, unit: 'dBFS' },
+      referenceHz: 1000,
+      // Tighter than the stage at 10 Hz (−0.31 dB there): the step fails and stops the walk.
+      mask: [
+        { frequencyHz: 10, lowDb: -0.2 },
+        { frequencyHz: 20000, lowDb: -0.2 },
+      ],
+      onFail: 'stop',
+    },
+    trimStep,
+  ],
+};
+
+let dir: ReturnType<typeof tempDir>;
+let station: ReturnType<typeof openStation>;
+beforeEach(() => {
+  dir = tempDir('trimbench-line-response-');
+  station = openStation({ dataDir: dir.path, stationName: 'line-1', log: { record: () => '' } });
+});
+afterEach(() => {
+  station.close();
+  dir.remove();
+});
+
+it('plays the sweep through the simulated stage and main finds the response the circuit gives', async () => {
+  const path = join(dir.path, 'line.json');
+  writeFileSync(path, JSON.stringify(PROCEDURE));
+  const { id } = await accepted<{ id: number }>(station.handlers, 'importProcedure', {}, { ...noCaller, chooseProcedureFile: async () => path });
+  const opened = await accepted<RunDetail>(station.handlers, 'openRun', { serial: 'MG20-2611-0400', procedureId: id, operator: 'Line', setup: TEST_SETUP });
+  const call: LineCalls = async (channel, request) => {
+    const result = await dispatch(station.handlers, channel, request, noCaller);
+    if (!result.ok) throw new LineCallRefused(channel, result.error.message);
+    return result.value as never;
+  };
+  const unit = { index: 0, parameters: P, noiseSeed: 3, trueNullTurns: 5, fault: null } as unknown as Parameters<typeof walkUnit>[0];
+  const finished = await walkUnit(unit, opened, call, { sampleRateHz: 48000, mainsHz: 50, levels: { outputDbuAtFullScale: 18, inputDbuAtFullScale: 18 }, setup: TEST_SETUP });
+  expect(finished.run.verdict).toBe('fail');
+  const result = finished.stepResults.find((r) => r.stepId === 'response')!;
+  for (const f of [10, 20, 100, 5000]) {
+    const [fHz, db] = result.curve!.response.reduce((a, b) => (Math.abs(Math.log(b[0] / f)) < Math.abs(Math.log(a[0] / f)) ? b : a));
+    expect(Math.abs(db - (stageDb(fHz) - stageDb(1000)))).toBeLessThan(0.1);
+  }
+  const margin = result.measurements.find((m) => m.quantity === 'maskMarginDb')!;
+  expect(Math.abs(margin.value! - (stageDb(10) - stageDb(1000) + 0.2))).toBeLessThan(0.05);
+}, 120_000);
