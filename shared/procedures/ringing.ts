@@ -58,6 +58,9 @@ export function requiredEdgeBandwidthHz(step: Pick<RingingStep, 'limits'>): numb
   return Math.max(MIN_EDGE_BANDWIDTH_HZ, low !== undefined ? 2 * low : 0);
 }
 
+/** The longest 10–90 % rise time the record's edges may have for this step. */
+export const maxRiseTimeS = (step: Pick<RingingStep, 'limits'>) => RISE_TIME_BANDWIDTH_PRODUCT / requiredEdgeBandwidthHz(step);
+
 /**
  * Flags after which the record's figures cannot be trusted at all: the record is refused with the
  * flag's text, and the technician captures again. 'noisy' refuses only when the settling time is
@@ -127,12 +130,12 @@ function cut(text: string, max: number): string {
 }
 
 const kHzText = (hz: number) => `${(hz / 1000).toPrecision(3)} kHz`;
-const usText = (s: number) => `${(s * 1e6).toPrecision(3)} µs`;
+export const usText = (s: number) => `${(s * 1e6).toPrecision(3)} µs`;
 
 /** Why the record's edges are too slow for this step, or null when they are fast enough. */
 function edgeTooSlow(step: RingingStep, analysis: RingingAnalysis, fileName: string): string | null {
   const required = requiredEdgeBandwidthHz(step);
-  const fastEnough = RISE_TIME_BANDWIDTH_PRODUCT / required;
+  const fastEnough = maxRiseTimeS(step);
   const remedy = `Drive the unit from a function generator with a fast edge (rise time under ${usText(fastEnough)}) at the step's frequency and capture again; the station's own square wave is too slow at usual sample rates. If the generator's edge is already that fast, the unit's own output is this slow, and ringing above ${kHzText(required)} cannot be judged from it.`;
   if (analysis.riseTimeS === null) return `${fileName}: an edge in the record does not reach 90 % of the step before the next edge, far too slow to excite ringing. ${remedy}`;
   if (analysis.riseTimeS <= fastEnough) return null;
