@@ -137,7 +137,7 @@ function edgeTooSlow(step: RingingStep, analysis: RingingAnalysis, fileName: str
   const required = requiredEdgeBandwidthHz(step);
   const fastEnough = maxRiseTimeS(step);
   const remedy = `Drive the unit from a function generator with a fast edge (rise time under ${usText(fastEnough)}) at the step's frequency and capture again; the station's own square wave is too slow at usual sample rates. If the generator's edge is already that fast, the unit's own output is this slow, and ringing above ${kHzText(required)} cannot be judged from it.`;
-  if (analysis.riseTimeS === null) return `${fileName}: an edge in the record does not reach 90 % of the step before the next edge, far too slow to excite ringing. ${remedy}`;
+  if (analysis.riseTimeS === null) return `${fileName}: no edge's rise time could be measured (the record begins inside every edge), so whether the edge excites ringing is unknown. Capture from a little before an edge. ${remedy}`;
   if (analysis.riseTimeS <= fastEnough) return null;
   const bandwidth = RISE_TIME_BANDWIDTH_PRODUCT / analysis.riseTimeS;
   return `${fileName}: the slowest edge in the record rises in ${usText(analysis.riseTimeS)} (10–90 %), about ${kHzText(bandwidth)} of bandwidth: the edge is too slow to excite ringing above ${kHzText(bandwidth)}, and this step needs ${kHzText(required)} at least. ${remedy}`;

@@ -87,7 +87,7 @@ export interface EdgeRinging {
    * the edge rings (dampingRatio has the value).
    */
   dampingRatioAtLeast: number | null;
-  /** Between the edge's 10 % and 90 % points, seconds; null when the record never reaches 90 % before the next edge. */
+  /** Between the edge's 10 % and 90 % points, seconds (to the edge's end when it never reaches 90 %); null when the record begins after its 10 % point. */
   riseTimeS: number | null;
   flags: EdgeFlag[];
 }
@@ -110,7 +110,7 @@ export interface RingingAnalysis {
   dampingRatio: number | null;
   /** When no edge rings: the smallest of the edges' lower bounds on ζ (the surest); else null. */
   dampingRatioAtLeast: number | null;
-  /** The longest 10–90 % rise time over the edges (the slowest edge bounds what the record can show); null when one never reaches 90 %. */
+  /** The longest 10–90 % rise time over the edges (the slowest edge bounds what the record can show); null when no edge's could be measured. */
   riseTimeS: number | null;
   /** Median over all edges. */
   overshootPercent: number;
@@ -469,7 +469,10 @@ function analyzeEdge(x: ArrayLike<number>, dt: number, t: Transition, end: numbe
   let j90 = i50;
   while (j90 < end && s * (x[j90] - level(0.9)) < 0) j90++;
   const crossingAt = (i: number, value: number) => (x[i + 1] === x[i] ? i : i + (value - x[i]) / (x[i + 1] - x[i]));
-  const riseTimeS = j90 < end && j90 > 0 && s * (x[j10] - level(0.1)) <= 0 ? (crossingAt(j90 - 1, level(0.9)) - crossingAt(j10, level(0.1))) * dt : null;
+  // An edge the record begins in has no 10 % point; one that never reaches 90 % is at least as slow
+  // as the span it was given.
+  const t10 = s * (x[j10] - level(0.1)) <= 0 ? crossingAt(j10, level(0.1)) : null;
+  const riseTimeS = t10 === null ? null : ((j90 < end ? crossingAt(j90 - 1, level(0.9)) : end) - t10) * dt;
 
   // Settling: the last smoothed sample outside the band, and where |deviation| crosses into it.
   let settlingTimeS: number | null = null;
@@ -596,7 +599,7 @@ export function analyzeRinging(samples: ArrayLike<number>, sampleIntervalS: numb
     logDecrement: ringing.length > 0 ? medianOf(ringing, (edge) => edge.logDecrement!) : null,
     dampingRatio: ringing.length > 0 ? medianOf(ringing, (edge) => edge.dampingRatio!) : null,
     dampingRatioAtLeast: ringing.length > 0 ? null : Math.min(...edges.map((edge) => edge.dampingRatioAtLeast!)),
-    riseTimeS: edges.some((edge) => edge.riseTimeS === null) ? null : Math.max(...edges.map((edge) => edge.riseTimeS!)),
+    riseTimeS: edges.some((edge) => edge.riseTimeS !== null) ? Math.max(...edges.flatMap((edge) => (edge.riseTimeS === null ? [] : [edge.riseTimeS]))) : null,
     overshootPercent: medianOf(edges, (edge) => edge.overshootPercent),
     settlingTimeS: Number.isFinite(settling) ? settling : null,
     flags: [...flags],

@@ -167,6 +167,19 @@ describe('no ringing', () => {
     }
   });
 
+  it('a record that begins inside an edge, past its 10 % point: that edge’s rise time is unknown, the others give the record’s', () => {
+    const system = { zeta: 0.3, naturalHz: 1e6 };
+    const dt = 1 / (100 * system.naturalHz);
+    // ωn·t = 0.6 after the step, y = 1 − e^{−ζωn t}(cos ωd t + ζ/√(1−ζ²) sin ωd t) ≈ 0.16 (Ogata): between 10 % and 25 %.
+    const firstEdgeS = -0.6 / (2 * Math.PI * system.naturalHz);
+    expect(stepResponse(system, -firstEdgeS)).toBeGreaterThan(0.1);
+    expect(stepResponse(system, -firstEdgeS)).toBeLessThan(0.25);
+    const clean = squareWaveResponse({ system, squareHz: 20e3, sampleIntervalS: dt, samples: Math.round(2.2 / 20e3 / dt), lowV: -0.5, highV: 0.5, firstEdgeS });
+    const result = analyzeRinging(captured(clean, 3), dt);
+    expect(result.edges[0].riseTimeS).toBeNull();
+    expect(relative(result.riseTimeS, timeToReach(system, 0.9) - timeToReach(system, 0.1))).toBeLessThan(0.05);
+  });
+
   it('ζ from the overshoot alone inverts Ogata’s M = exp(−ζπ/√(1−ζ²))', () => {
     for (const zeta of [0.05, 0.3, 0.6, 0.9]) expect(dampingRatioOfOvershoot(textbookOvershoot(zeta))).toBeCloseTo(zeta, 9);
   });
