@@ -457,10 +457,11 @@ function analyzeEdge(x: ArrayLike<number>, dt: number, t: Transition, end: numbe
     flags.push('no-ringing');
   }
   // One lobe: its overshoot. None: the overshoot is under what would have counted as a lobe (the
-  // threshold, or the largest deviation seen when that is higher), with two standard deviations
-  // more for the noise on the peak itself; any larger overshoot would have stood out.
-  const dampingRatioAtLeast =
-    lobes.length === 1 ? dampingRatioOfOvershoot(Math.min(1, lobes[0].peak)) : lobes.length === 0 ? dampingRatioOfOvershoot(Math.min(1, Math.max(threshold, overshoot) + 2 * sigma)) : null;
+  // threshold, or the largest deviation seen when that is higher); any larger one would have stood
+  // out. Either with two standard deviations more for the noise on the peak, so that noise reading
+  // a peak low does not raise the bound.
+  const overshootAtMost = lobes.length === 1 ? lobes[0].peak : Math.max(threshold, overshoot);
+  const dampingRatioAtLeast = lobes.length < 2 ? dampingRatioOfOvershoot(Math.min(1, overshootAtMost + 2 * sigma)) : null;
 
   // 10 % and 90 % of the step, by linear interpolation, found outwards from the 50 % point.
   const level = (fraction: number) => previousLevel + fraction * step;
