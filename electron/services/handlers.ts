@@ -2,7 +2,7 @@
 // dispatcher that validates every payload against the contract before a handler sees it.
 // Electron registers these with ipcMain.handle; the test harness calls the same object.
 
-import { readFileSync, statSync } from 'node:fs';
+import { closeSync, constants, fstatSync, openSync, readSync } from 'node:fs';
 import { basename } from 'node:path';
 import { z } from 'zod';
 import { IPC_CHANNELS, type IpcChannel } from '../../shared/ipc/channels.ts';
@@ -106,21 +106,43 @@ export function createHandlers({ records, sheets, calibrations, settings, statio
 /** A procedure file is a few kilobytes; anything far larger is not one, and is not read whole. */
 const PROCEDURE_FILE_MAX_BYTES = 512 * 1024;
 
-/** A file the technician chose, read as text only when it is no larger than `maxBytes`. */
+/**
+ * A file the technician chose, read as text only when it is a regular file (after following a link)
+ * no larger than `maxBytes`. Opened without blocking and checked on the open descriptor, so a FIFO
+ * cannot stall main waiting for a writer, nor a device such as /dev/zero feed it without end; and
+ * read at most one byte past its size then, so a file that changes meanwhile is refused.
+ */
 function readBoundedText(path: string, maxBytes: number, what: string, whatToDo: string): string {
-  let size: number;
+  const unreadable = (error: unknown) =>
+    new ExpectedFailure(`${path} cannot be read (${(error as NodeJS.ErrnoException).code ?? 'unknown error'}). Choose the file again.`);
+  const tooLarge = (size: number) =>
+    new ExpectedFailure(`${basename(path)} is ${(size / 1024).toFixed(0)} KiB, too large for ${what} (at most ${(maxBytes / 1024).toFixed(0)} KiB). ${whatToDo}`);
+  let fd: number;
   try {
-    size = statSync(path).size;
+    fd = openSync(path, constants.O_RDONLY | (constants.O_NONBLOCK ?? 0));
   } catch (error) {
-    throw new ExpectedFailure(`${path} cannot be read (${(error as NodeJS.ErrnoException).code ?? 'unknown error'}). Choose the file again.`);
-  }
-  if (size > maxBytes) {
-    throw new ExpectedFailure(`${basename(path)} is ${(size / 1024).toFixed(0)} KiB, too large for ${what} (at most ${(maxBytes / 1024).toFixed(0)} KiB). ${whatToDo}`);
+    throw unreadable(error);
   }
   try {
-    return readFileSync(path, 'utf8');
-  } catch (error) {
-    throw new ExpectedFailure(`${path} cannot be read (${(error as NodeJS.ErrnoException).code ?? 'unknown error'}). Choose the file again.`);
+    let stats;
+    try {
+      stats = fstatSync(fd);
+    } catch (error) {
+      throw unreadable(error);
+    }
+    if (!stats.isFile()) throw new ExpectedFailure(`${basename(path)} is not a regular file (a device, a pipe or a folder), so it is not ${what}. Choose the file itself.`);
+    if (stats.size > maxBytes) throw tooLarge(stats.size);
+    const buffer = Buffer.alloc(Math.min(stats.size, maxBytes) + 1);
+    let length = 0;
+    try {
+      for (let got = -1; got !== 0 && length < buffer.length; length += got) got = readSync(fd, buffer, length, buffer.length - length, null);
+    } catch (error) {
+      throw unreadable(error);
+    }
+    if (length !== stats.size) throw new ExpectedFailure(`${basename(path)} changed while it was read. Wait until the file is written in full, then choose it again.`);
+    return buffer.toString('utf8', 0, length);
+  } finally {
+    closeSync(fd);
   }
 }
 

@@ -1290,7 +1290,15 @@ export function createRecords(
         if (step.kind !== 'ringing') throw new ExpectedFailure(`Step “${step.id}” is not a ringing step.`);
         const outcome = judgeScopeRecord(step, request.text, request.fileName);
         if (!outcome.ok) throw new ExpectedFailure(`Step “${step.id}” was not recorded. ${outcome.refusal}`);
-        storeStepResult(row.id, step, { verdict: outcome.verdict, reasons: outcome.reasons, measurements: outcome.measurements, stimulus: null, readings: outcome.record });
+        // Checked before it is written, as it is read back: a record the contract refuses would leave
+        // the run unreadable from then on.
+        const record = scopeRecordSchema.safeParse(outcome.record);
+        const measurements = z.array(measurementSchema).safeParse(outcome.measurements);
+        if (!record.success || !measurements.success) {
+          const where = record.success ? 'its figures' : record.error.issues.map((issue) => issue.path.join('.') || 'the record').join(', ');
+          throw new ExpectedFailure(`Step “${step.id}” was not recorded: ${outcome.record.fileName} gives a record that cannot be stored (${where}). Export the record again as CSV and attach it.`);
+        }
+        storeStepResult(row.id, step, { verdict: outcome.verdict, reasons: outcome.reasons, measurements: measurements.data, stimulus: null, readings: record.data });
         return runDetail(row.id);
       }).immediate();
     },

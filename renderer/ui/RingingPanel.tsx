@@ -6,6 +6,7 @@ import { useState, type RefObject } from 'react';
 import type { StepResult } from '../../shared/ipc/contract.ts';
 import { squareTerms } from '../../shared/dsp/square-wave.ts';
 import type { RingingStep } from '../../shared/procedures/procedure-file.ts';
+import { maxRiseTimeS, usText } from '../../shared/procedures/ringing.ts';
 import type { PlannedStep } from '../../shared/procedures/run-plan.ts';
 import { hzText } from '../../shared/procedures/step-text.ts';
 import { fixed } from '../../shared/format.ts';
@@ -73,10 +74,14 @@ export function RingingPanel({
         {square && (
           <span className="hint">
             {' '}
-            — at {fixed(sampleRateHz / 1000, 1)} kHz the generator holds {harmonics === 1 ? 'only its fundamental' : `its first ${harmonics} odd harmonics`}; a function generator with a faster edge
-            may be used instead, at the same frequency.
+            — a quick look and a setup aid only (scope triggering, levels): at {fixed(sampleRateHz / 1000, 1)} kHz it holds{' '}
+            {harmonics === 1 ? 'only its fundamental' : `only its first ${harmonics} odd harmonics`}, an edge too slow to excite the ringing.
           </span>
         )}
+      </p>
+      <p className="hint" data-testid="ringing-generator-needed">
+        The measurement needs a function generator with a fast edge (rise time under {usText(maxRiseTimeS(step))}) playing a square wave at {hzText(step.squareHz)}: a record whose edges
+        are slower is refused.
       </p>
       {planned.blocked && <p className="problem">{planned.blocked}</p>}
       <p className="hint">Capture a few periods on the scope’s voltage column {step.channel} (counted from 0), export the record as CSV, then attach it here.</p>

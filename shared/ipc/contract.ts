@@ -10,7 +10,7 @@ import type { Measurement } from '../procedures/check-steps.ts';
 import type { ResponseCurve } from '../procedures/response.ts';
 import { SWEEP_CAPTURE_MAX_SAMPLES } from '../measurement/sweep-response.ts';
 import type { UnitJudgement } from '../procedures/unit-verdict.ts';
-import { EDGE_PLOT_MAX_POINTS, type ScopeRecordSummary } from '../procedures/ringing.ts';
+import { EDGE_PLOT_MAX_POINTS, SCOPE_TEXT_MAX, type ScopeRecordSummary } from '../procedures/ringing.ts';
 import { RINGING_FLAGS } from '../scope/ringing.ts';
 import type { IpcChannel } from './channels.ts';
 import { plainText } from './plain-text.ts';
@@ -352,9 +352,9 @@ const stimulusSettingSchema = z
  * with its fitted envelope for the plot (shared/procedures/ringing.ts). Bounded as stored by main.
  */
 export const scopeRecordSchema = z.object({
-  fileName: z.string().max(260),
+  fileName: z.string().max(SCOPE_TEXT_MAX.fileName),
   channel: z.number().int().nonnegative(),
-  channelName: z.string().max(200),
+  channelName: z.string().max(SCOPE_TEXT_MAX.channelName),
   edges: z.number().int().nonnegative(),
   squareHz: finite.positive(),
   sampleIntervalS: finite.positive(),
@@ -363,7 +363,7 @@ export const scopeRecordSchema = z.object({
     polarity: z.enum(['rising', 'falling']),
     timeS: z.array(finite).max(EDGE_PLOT_MAX_POINTS),
     values: z.array(finite).max(EDGE_PLOT_MAX_POINTS),
-    unit: z.string().max(40),
+    unit: z.string().max(SCOPE_TEXT_MAX.unit),
     finalLevelV: finite,
     stepV: finite,
     envelope: z.object({ amplitudePercent: finite, decayPerS: finite }).nullable(),

@@ -32,6 +32,36 @@ export const SCOPE_FILE_MAX_BYTES = 32 * 1024 * 1024;
 export const EDGE_PLOT_MAX_POINTS = 600;
 
 /**
+ * The longest texts a stored record keeps, in UTF-16 units (the contract's bounds): a file name as
+ * long as most file systems allow, a column header, a unit. A scope file may carry anything in its
+ * header; longer texts are cut where the summary is made.
+ */
+export const SCOPE_TEXT_MAX = { fileName: 260, channelName: 200, unit: 40 } as const;
+
+/**
+ * The slowest edge a record may show, as the bandwidth 0.35/t_r of its 10–90 % rise time t_r (the
+ * usual rule of thumb relating rise time and bandwidth, common practice; exact for one pole, where
+ * t_r = 2.2·τ = 0.35/f_3dB). An edge excites little above its bandwidth, so a unit resonating far
+ * above it hardly rings, and the record shows the edge's own overshoot instead: an audio
+ * interface's band-limited square (no harmonic above half its sample rate) would pass a badly
+ * ringing unit on its overshoot. The floor, 100 kHz, is where an audio interface cannot see
+ * (a transformer stage's leakage resonance typically lies above it, common practice); with a
+ * ringing-frequency low limit the edge must reach twice that limit, where a first-order edge's
+ * spectrum is down only 1 dB (1/√(1 + 0.5²)), so ringing at the limit is excited nearly in full.
+ */
+export const MIN_EDGE_BANDWIDTH_HZ = 100_000;
+export const RISE_TIME_BANDWIDTH_PRODUCT = 0.35;
+
+/** The bandwidth the record's slowest edge must reach for this step: see MIN_EDGE_BANDWIDTH_HZ. */
+export function requiredEdgeBandwidthHz(step: Pick<RingingStep, 'limits'>): number {
+  const low = step.limits.ringFrequencyHz?.low;
+  return Math.max(MIN_EDGE_BANDWIDTH_HZ, low !== undefined ? 2 * low : 0);
+}
+
+/** The longest 10–90 % rise time the record's edges may have for this step. */
+export const maxRiseTimeS = (step: Pick<RingingStep, 'limits'>) => RISE_TIME_BANDWIDTH_PRODUCT / requiredEdgeBandwidthHz(step);
+
+/**
  * Flags after which the record's figures cannot be trusted at all: the record is refused with the
  * flag's text, and the technician captures again. 'noisy' refuses only when the settling time is
  * judged (it is the only figure the noise withholds).
@@ -94,12 +124,34 @@ export function envelopeAt(plot: Pick<EdgePlot, 'finalLevelV' | 'stepV' | 'envel
 
 const NO_RINGING_NOTE = 'no ringing above the noise in the record, so this could not be measured; an unmeasured limit is not a met one';
 
+/** Cut to `max` UTF-16 units, an ellipsis marking the cut. */
+function cut(text: string, max: number): string {
+  return text.length <= max ? text : `${text.slice(0, max - 1)}…`;
+}
+
+const kHzText = (hz: number) => `${(hz / 1000).toPrecision(3)} kHz`;
+export const usText = (s: number) => `${(s * 1e6).toPrecision(3)} µs`;
+
+/** Why the record's edges are too slow for this step, or null when they are fast enough. */
+function edgeTooSlow(step: RingingStep, analysis: RingingAnalysis, fileName: string): string | null {
+  const required = requiredEdgeBandwidthHz(step);
+  const fastEnough = maxRiseTimeS(step);
+  const remedy = `Drive the unit from a function generator with a fast edge (rise time under ${usText(fastEnough)}) at the step's frequency and capture again; the station's own square wave is too slow at usual sample rates. If the generator's edge is already that fast, the unit's own output is this slow, and ringing above ${kHzText(required)} cannot be judged from it.`;
+  if (analysis.riseTimeS === null) return `${fileName}: no edge's rise time could be measured (the record begins inside every edge), so whether the edge excites ringing is unknown. Capture from a little before an edge. ${remedy}`;
+  if (analysis.riseTimeS <= fastEnough) return null;
+  const bandwidth = RISE_TIME_BANDWIDTH_PRODUCT / analysis.riseTimeS;
+  return `${fileName}: the slowest edge in the record rises in ${usText(analysis.riseTimeS)} (10–90 %), about ${kHzText(bandwidth)} of bandwidth: the edge is too slow to excite ringing above ${kHzText(bandwidth)}, and this step needs ${kHzText(required)} at least. ${remedy}`;
+}
+
+const overshootText = (zeta: number) => `${(100 * Math.exp((-zeta * Math.PI) / Math.sqrt(1 - zeta * zeta))).toPrecision(2)} %`;
+
 /**
  * The step judged from the scope file's text. Refused (nothing to store) when the file cannot be
  * read, the channel is missing, the record is not a square-wave response fit to judge, or it is a
  * record of another square wave.
  */
-export function judgeScopeRecord(step: RingingStep, text: string, fileName: string): RingingOutcome {
+export function judgeScopeRecord(step: RingingStep, text: string, fullFileName: string): RingingOutcome {
+  const fileName = cut(fullFileName, SCOPE_TEXT_MAX.fileName);
   let record;
   try {
     record = readScopeCsv(text);
@@ -107,9 +159,10 @@ export function judgeScopeRecord(step: RingingStep, text: string, fileName: stri
     if (error instanceof ScopeCsvError) return { ok: false, refusal: `${fileName} cannot be read: ${error.message}. Export the record again as CSV and attach it.` };
     throw error;
   }
-  const channel = record.channels[step.channel];
+  const found = record.channels[step.channel];
+  const channel = found && { ...found, name: cut(found.name, SCOPE_TEXT_MAX.channelName), unit: cut(found.unit, SCOPE_TEXT_MAX.unit) };
   if (!channel) {
-    const names = record.channels.map((c) => `“${c.name}”`).join(', ');
+    const names = record.channels.map((c) => `“${cut(c.name, SCOPE_TEXT_MAX.channelName)}”`).join(', ');
     return {
       ok: false,
       refusal: `${fileName} has ${record.channels.length} voltage column${record.channels.length === 1 ? '' : 's'} (${names}), and step “${step.id}” reads column ${step.channel} (counted from 0): export the channel on the unit's output.`,
@@ -126,6 +179,8 @@ export function judgeScopeRecord(step: RingingStep, text: string, fileName: stri
   if (refusing.length > 0) {
     return { ok: false, refusal: `${fileName}: the record cannot be judged: ${refusing.map((flag) => RINGING_FLAG_TEXT[flag]).join('; ')}.` };
   }
+  const slow = edgeTooSlow(step, analysis, fileName);
+  if (slow) return { ok: false, refusal: slow };
   const squareHz = squareHzOfEdges(analysis.edges);
   const offPercent = squareHz === null ? Infinity : (100 * Math.abs(squareHz - step.squareHz)) / step.squareHz;
   if (squareHz === null || !(offPercent <= RECORD_FREQUENCY_TOLERANCE_PERCENT)) {
@@ -142,7 +197,23 @@ export function judgeScopeRecord(step: RingingStep, text: string, fileName: stri
     if (limit) measured.push({ m: measurement(quantity, value, limit, note), label: quantityLabel(quantity) });
   };
   add('ringFrequencyHz', analysis.ringFrequencyHz, limits.ringFrequencyHz, ringing ? 'median over the edges that ring' : NO_RINGING_NOTE);
-  add('dampingRatio', analysis.dampingRatio, limits.dampingRatio, ringing ? 'from the logarithmic decrement, median over the edges that ring' : NO_RINGING_NOTE);
+  if (ringing || analysis.dampingRatioAtLeast === null || !limits.dampingRatio) {
+    add('dampingRatio', analysis.dampingRatio, limits.dampingRatio, ringing ? 'from the logarithmic decrement, median over the edges that ring' : NO_RINGING_NOTE);
+  } else {
+    // Without a second peak ζ is known only from below (shared/scope/ringing.ts): enough to meet a
+    // low limit, never a high one, as a lower bound of the maximum level is judged.
+    const atLeast = analysis.dampingRatioAtLeast;
+    const surest = analysis.edges.find((edge) => edge.dampingRatioAtLeast === atLeast);
+    const note =
+      surest && surest.peaks.length === 1
+        ? 'a lower bound, from the overshoot M alone (one peak above the noise, no second): ζ = −ln M/√(π² + ln² M); the noise may hide later peaks, so ζ is at least this'
+        : `a lower bound: the record shows no overshoot above the noise, so any overshoot M is under ${overshootText(atLeast)} of the step, and ζ is at least −ln M/√(π² + ln² M) at that M`;
+    if (limits.dampingRatio.high !== undefined) {
+      add('dampingRatio', null, limits.dampingRatio, `${note} (${atLeast.toFixed(2)}), which cannot show ζ is under a high limit; an unmeasured limit is not a met one`);
+    } else {
+      measured.push({ m: measurement('dampingRatio', atLeast, limits.dampingRatio, note), label: `${quantityLabel('dampingRatio')} (lower bound)` });
+    }
+  }
   add('overshootPercent', analysis.overshootPercent, limits.overshootPercent, 'first peak beyond the final level, percent of the step, median over the edges');
   add(
     'settlingTimeS',

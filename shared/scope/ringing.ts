@@ -21,6 +21,13 @@
 //   band (Ogata gives 2 % or 5 %; 2 % is the common practice for a step response), timed from the
 //   edge's 50 % instant as IEEE 181 times its transition settling duration (from memory): the
 //   record shows the unit's output, not the generator's edge.
+// - Damping ratio from the overshoot alone, when only the first peak stands above the noise:
+//   M = exp(−ζπ/√(1−ζ²)) solved for ζ, ζ = −ln M/√(π² + ln² M) (Ogata). Kept as a lower bound only:
+//   the noise may hide later lobes, and a larger overshoot than the true one gives a smaller ζ. With
+//   no overshoot above the noise at all, the overshoot is below the level that would have counted,
+//   so ζ is at least the value that overshoot would give.
+// - Rise time between 10 % and 90 % of the step (IEEE 181's reference levels, from memory), which
+//   says how fast an edge the unit was driven with: see shared/procedures/ringing.ts.
 
 import { median } from '../dsp/median.ts';
 
@@ -74,6 +81,14 @@ export interface EdgeRinging {
   envelope: { amplitudePercent: number; decayPerS: number } | null;
   /** From the 50 % instant until the deviation stays within the band; null when not settled or too noisy. */
   settlingTimeS: number | null;
+  /**
+   * Without ringing (fewer than two peaks): ζ is at least this, from the one overshoot above the
+   * noise, or from the overshoot that would just have stood above it when there is none. Null when
+   * the edge rings (dampingRatio has the value).
+   */
+  dampingRatioAtLeast: number | null;
+  /** Between the edge's 10 % and 90 % points, seconds (to the edge's end when it never reaches 90 %); null when the record begins after its 10 % point. */
+  riseTimeS: number | null;
   flags: EdgeFlag[];
 }
 
@@ -93,11 +108,24 @@ export interface RingingAnalysis {
   ringFrequencyHz: number | null;
   logDecrement: number | null;
   dampingRatio: number | null;
+  /** When no edge rings: the smallest of the edges' lower bounds on ζ (the surest); else null. */
+  dampingRatioAtLeast: number | null;
+  /** The longest 10–90 % rise time over the edges (the slowest edge bounds what the record can show); null when no edge's could be measured. */
+  riseTimeS: number | null;
   /** Median over all edges. */
   overshootPercent: number;
   /** Median over the edges whose settling could be judged, an unsettled edge counting as longest; null when that is unsettled. */
   settlingTimeS: number | null;
   flags: RingingFlag[];
+}
+
+/**
+ * ζ of the second-order system whose step response overshoots by `overshoot` (a fraction of the
+ * step, between 0 and 1): M = exp(−ζπ/√(1−ζ²)) solved for ζ (Ogata).
+ */
+export function dampingRatioOfOvershoot(overshoot: number): number {
+  const lnM = Math.log(overshoot);
+  return -lnM / Math.sqrt(Math.PI ** 2 + lnM ** 2);
 }
 
 /** A record the analysis cannot be run on, said in words a technician can act on. */
@@ -375,7 +403,7 @@ function analyzeEdge(x: ArrayLike<number>, dt: number, t: Transition, end: numbe
         k = e;
       }
     }
-    return { ds, sigma, lobes };
+    return { ds, sigma, threshold, lobes };
   };
 
   // First pass with a window a quarter of the 25–75 % transition, which for a second-order response
@@ -386,7 +414,7 @@ function analyzeEdge(x: ArrayLike<number>, dt: number, t: Transition, end: numbe
     const periodSamples = (2 * (pass.lobes.at(-1)!.end - pass.lobes[0].start)) / pass.lobes.length;
     pass = measure(Math.max(1, Math.floor(periodSamples / 16)));
   }
-  const { ds, sigma, lobes } = pass;
+  const { ds, sigma, threshold, lobes } = pass;
   const flags: EdgeFlag[] = [];
 
   let overshoot = 0;
@@ -428,6 +456,24 @@ function analyzeEdge(x: ArrayLike<number>, dt: number, t: Transition, end: numbe
   } else {
     flags.push('no-ringing');
   }
+  // One lobe: its overshoot. None: the overshoot is under what would have counted as a lobe (the
+  // threshold, or the largest deviation seen when that is higher); any larger one would have stood
+  // out. Either with two standard deviations more for the noise on the peak, so that noise reading
+  // a peak low does not raise the bound.
+  const overshootAtMost = lobes.length === 1 ? lobes[0].peak : Math.max(threshold, overshoot);
+  const dampingRatioAtLeast = lobes.length < 2 ? dampingRatioOfOvershoot(Math.min(1, overshootAtMost + 2 * sigma)) : null;
+
+  // 10 % and 90 % of the step, by linear interpolation, found outwards from the 50 % point.
+  const level = (fraction: number) => previousLevel + fraction * step;
+  let j10 = Math.min(i50, x.length - 1);
+  while (j10 > 0 && s * (x[j10] - level(0.1)) > 0) j10--;
+  let j90 = i50;
+  while (j90 < end && s * (x[j90] - level(0.9)) < 0) j90++;
+  const crossingAt = (i: number, value: number) => (x[i + 1] === x[i] ? i : i + (value - x[i]) / (x[i + 1] - x[i]));
+  // An edge the record begins in has no 10 % point; one that never reaches 90 % is at least as slow
+  // as the span it was given.
+  const t10 = s * (x[j10] - level(0.1)) <= 0 ? crossingAt(j10, level(0.1)) : null;
+  const riseTimeS = t10 === null ? null : ((j90 < end ? crossingAt(j90 - 1, level(0.9)) : end) - t10) * dt;
 
   // Settling: the last smoothed sample outside the band, and where |deviation| crosses into it.
   let settlingTimeS: number | null = null;
@@ -457,6 +503,8 @@ function analyzeEdge(x: ArrayLike<number>, dt: number, t: Transition, end: numbe
     peaks: lobes.map((lobe, k) => ({ timeS: lobe.peakAt * dt, deviationPercent: (k % 2 === 0 ? 100 : -100) * lobe.peak })),
     envelope,
     settlingTimeS,
+    dampingRatioAtLeast,
+    riseTimeS,
     noiseV: tailNoise * size,
     flags,
   };
@@ -551,6 +599,8 @@ export function analyzeRinging(samples: ArrayLike<number>, sampleIntervalS: numb
     ringFrequencyHz: ringing.length > 0 ? medianOf(ringing, (edge) => edge.ringFrequencyHz!) : null,
     logDecrement: ringing.length > 0 ? medianOf(ringing, (edge) => edge.logDecrement!) : null,
     dampingRatio: ringing.length > 0 ? medianOf(ringing, (edge) => edge.dampingRatio!) : null,
+    dampingRatioAtLeast: ringing.length > 0 ? null : Math.min(...edges.map((edge) => edge.dampingRatioAtLeast!)),
+    riseTimeS: edges.some((edge) => edge.riseTimeS !== null) ? Math.max(...edges.flatMap((edge) => (edge.riseTimeS === null ? [] : [edge.riseTimeS]))) : null,
     overshootPercent: medianOf(edges, (edge) => edge.overshootPercent),
     settlingTimeS: Number.isFinite(settling) ? settling : null,
     flags: [...flags],

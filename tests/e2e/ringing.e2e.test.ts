@@ -50,6 +50,10 @@ describe('the ringing step', () => {
     await expect.poll(() => currentStep(page), POLL).toBe('ringing-20k');
     const panel = page.getByTestId('ringing-panel');
     await expect.poll(() => panel.getByTestId('ringing-caution').textContent(), POLL).toMatch(/dummy load.*cannot see ringing at 100 kHz and above/s);
+    // The station's square is a quick look only; the measurement asks for a fast generator: twice the
+    // step's 100 kHz ring-frequency limit, 0.35/200 kHz = 1.75 µs (rise time and bandwidth, common practice).
+    expect(await page.getByTestId('ringing-square').textContent()).toMatch(/quick look and a setup aid only.*too slow to excite the ringing/);
+    expect(await page.getByTestId('ringing-generator-needed').textContent()).toMatch(/function generator with a fast edge \(rise time under 1\.75 µs\)/);
     await expect.poll(() => page.getByTestId('generator-waveform').inputValue(), POLL).toBe('square');
     expect(await page.getByTestId('ringing-generator-state').textContent()).toBe('not playing');
     await page.getByTestId('ringing-play').click();

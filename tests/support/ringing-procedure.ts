@@ -6,7 +6,7 @@ import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import type { RingingStep } from '../../shared/procedures/procedure-file.ts';
 import { scopeCsvText } from './scope-csv-text.ts';
-import { scopeView, squareWaveResponse, type SecondOrder } from './step-response.ts';
+import { bandLimitedSquareResponse, scopeView, squareWaveResponse, type SecondOrder } from './step-response.ts';
 
 const DEMO = fileURLToPath(new URL('../../resources/procedures/mg20-lf-trim.json', import.meta.url));
 
@@ -49,8 +49,16 @@ export function ringingProcedureFile(dir: string, step: RingingStep = RINGING_ST
  * preamble as many exports write.
  */
 export function scopeRecordText(system: SecondOrder, squareHz: number, samplesPerRing = 100): string {
+  return drivenRecordText(system, squareHz, null, samplesPerRing);
+}
+
+/**
+ * As scopeRecordText, for the unit driven by a square wave holding only its harmonics below `topHz`
+ * (an audio interface's square: nothing above half its sample rate), or by ideal edges without it.
+ */
+export function drivenRecordText(system: SecondOrder, squareHz: number, topHz: number | null, samplesPerRing = 100): string {
   const dt = 1 / (samplesPerRing * system.naturalHz);
-  const clean = squareWaveResponse({ system, squareHz, sampleIntervalS: dt, samples: Math.round(2.2 / squareHz / dt), lowV: -0.5, highV: 0.5, firstEdgeS: 0.1 / squareHz });
-  const captured = scopeView(clean, 7);
+  const r = { system, squareHz, sampleIntervalS: dt, samples: Math.round(2.2 / squareHz / dt), lowV: -0.5, highV: 0.5, firstEdgeS: 0.1 / squareHz };
+  const captured = scopeView(topHz === null ? squareWaveResponse(r) : bandLimitedSquareResponse(r, topHz), 7);
   return scopeCsvText(0, dt, [captured], { preamble: [['Record Length', String(captured.length)], ['Sample Interval', dt.toExponential(6)]], header: ['TIME', 'CH1'] });
 }

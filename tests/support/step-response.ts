@@ -139,3 +139,30 @@ export function scopeView(clean: Float64Array, seed = 1, noiseCodes = 0.5): Floa
   const pad = 0.08 * (max - min);
   return scopeCapture(clean, { screenV: [min - pad, max + pad], bits: 8, noiseV: (noiseCodes * (max - min + 2 * pad)) / 256, seed });
 }
+
+/**
+ * The system's steady response to a square wave that holds only its odd harmonics below `topHz`, as
+ * an audio interface plays it (nothing above half its sample rate): the square's Fourier series
+ * (4/π)·Σ sin(kωt)/k over odd k, each term through the system's frequency response
+ * H(jω) = ωn²/(ωn² − ω² + j2ζωnω) (Ogata), in gain and phase. Rising edges at firstEdgeS and every
+ * period after it.
+ */
+export function bandLimitedSquareResponse(r: SquareWaveRecord, topHz: number): Float64Array {
+  const terms: { k: number; gain: number; phase: number }[] = [];
+  for (let k = 1; k * r.squareHz < topHz; k += 2) {
+    const u = (k * r.squareHz) / r.system.naturalHz;
+    const re = 1 - u * u;
+    const im = 2 * r.system.zeta * u;
+    terms.push({ k, gain: 4 / Math.PI / k / Math.hypot(re, im), phase: -Math.atan2(im, re) });
+  }
+  const mid = (r.highV + r.lowV) / 2;
+  const half = (r.highV - r.lowV) / 2;
+  const out = new Float64Array(r.samples);
+  for (let i = 0; i < r.samples; i++) {
+    const theta = 2 * Math.PI * r.squareHz * (i * r.sampleIntervalS - r.firstEdgeS);
+    let y = 0;
+    for (const { k, gain, phase } of terms) y += gain * Math.sin(k * theta + phase);
+    out[i] = mid + half * y;
+  }
+  return out;
+}

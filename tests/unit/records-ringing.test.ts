@@ -4,7 +4,8 @@
 // cannot read or judge is refused with one plain message naming the file, and nothing is stored.
 // Records are the textbook second-order system's square-wave response (Ogata; tests/support).
 
-import { writeFileSync } from 'node:fs';
+import { execFileSync } from 'node:child_process';
+import { symlinkSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { dispatch, type CallerContext } from '../../electron/services/handlers.ts';
@@ -83,13 +84,42 @@ describe('attachScopeCapture', () => {
   });
 
   it('stores an overdamped record (no ringing) as a result: its ring-frequency and damping limits are not met', async () => {
-    const result = await attach(write('flat.csv', scopeRecordText({ zeta: 1.5, naturalHz: 300e3 }, 20e3)));
+    // fn = 1 MHz: the unit's own edge is fast enough for the step (shared/procedures/ringing.ts).
+    const result = await attach(write('flat.csv', scopeRecordText({ zeta: 1.5, naturalHz: 1e6 }, 20e3)));
     expect(result.ok).toBe(true);
     const [stored] = ringingResults();
     expect(stored.verdict).toBe('fail');
     expect(stored.scopeRecord!.flags).toContain('no-ringing');
     expect(stored.measurements.find((m) => m.quantity === 'ringFrequencyHz')).toMatchObject({ value: null, verdict: 'fail' });
     expect(stored.reasons.join(' ')).toMatch(/Ringing frequency was not measured/);
+  });
+
+  it('stores a record whose channel name is longer than a stored record keeps, cut, and the run reads back', async () => {
+    const text = scopeRecordText({ zeta: 0.45, naturalHz: 300e3 }, 20e3).replace('TIME,CH1', `TIME,CH1 ${'x'.repeat(250)}`);
+    const result = await attach(write('long.csv', text));
+    expect(result.ok && (result.value as { outcome: string }).outcome).toBe('recorded');
+    const [stored] = ringingResults();
+    expect(stored.scopeRecord!.channelName).toMatch(/^CH1 x+…$/);
+    expect(stored.scopeRecord!.channelName.length).toBeLessThanOrEqual(200);
+    expect((await dispatch(station.handlers, 'finishRun', { runId, asFailure: true }, noCaller)).ok).toBe(true);
+  });
+
+  it('refuses a symbolic link to /dev/zero (a device, endless) without reading it', { timeout: 10_000 }, async (context) => {
+    if (process.platform === 'win32') return context.skip();
+    const path = join(dir.path, 'zero.csv');
+    symlinkSync('/dev/zero', path);
+    const result = await attach(path);
+    expect(!result.ok && result.error.message).toMatch(/zero\.csv is not a regular file/);
+    expect(ringingResults()).toEqual([]);
+  });
+
+  it('refuses a named pipe (FIFO) without waiting for a writer', { timeout: 10_000 }, async (context) => {
+    if (process.platform === 'win32') return context.skip();
+    const path = join(dir.path, 'pipe.csv');
+    execFileSync('mkfifo', [path]);
+    const result = await attach(path);
+    expect(!result.ok && result.error.message).toMatch(/pipe\.csv is not a regular file/);
+    expect(ringingResults()).toEqual([]);
   });
 
   it('a cancelled dialog records nothing; a caller with no dialog is refused in words', async () => {

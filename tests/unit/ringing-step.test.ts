@@ -5,10 +5,10 @@
 // δ = 2πζ/√(1−ζ²) (ζ = δ/√(4π² + δ²)), and no overshoot at all for ζ ≥ 1.
 
 import { describe, expect, it } from 'vitest';
-import { envelopeAt, judgeScopeRecord, ringingStimulus, RECORD_FREQUENCY_TOLERANCE_PERCENT, squareHzOfEdges } from '../../shared/procedures/ringing.ts';
+import { envelopeAt, judgeScopeRecord, ringingStimulus, RECORD_FREQUENCY_TOLERANCE_PERCENT, SCOPE_TEXT_MAX, squareHzOfEdges } from '../../shared/procedures/ringing.ts';
 import { checkProcedureFile, type RingingStep } from '../../shared/procedures/procedure-file.ts';
 import { SQUARE_MAX_LEVEL_DBFS } from '../../shared/dsp/square-wave.ts';
-import { RINGING_STEP, scopeRecordText } from '../support/ringing-procedure.ts';
+import { drivenRecordText, RINGING_STEP, scopeRecordText } from '../support/ringing-procedure.ts';
 import { textbookLogDecrement, textbookOvershoot, textbookRingHz } from '../support/step-response.ts';
 import { readFileSync } from 'node:fs';
 import { fileURLToPath } from 'node:url';
@@ -60,17 +60,84 @@ describe('judging a ringing step from a scope record', () => {
     expect(Math.log(a / b)).toBeCloseTo(textbookLogDecrement(system.zeta) / 2, 1);
   });
 
-  it('an overdamped unit (ζ = 1.5: no overshoot, Ogata) is a result: no ring frequency or damping ratio, and those limits are not met', () => {
-    const o = judged(RINGING_STEP, scopeRecordText({ zeta: 1.5, naturalHz: 300e3 }, 20e3));
+  it('an overdamped unit (ζ = 1.5: no overshoot, Ogata) is a result: no ring frequency (that limit is not met), ζ only from below', () => {
+    // fn = 1 MHz: the unit's own edge (10–90 % in 0.9 µs) is fast enough for the step's 200 kHz.
+    const o = judged(RINGING_STEP, scopeRecordText({ zeta: 1.5, naturalHz: 1e6 }, 20e3));
     expect(o.record.flags).toContain('no-ringing');
     expect(value(o, 'ringFrequencyHz')).toMatchObject({ value: null, verdict: 'fail' });
-    expect(value(o, 'dampingRatio')).toMatchObject({ value: null, verdict: 'fail' });
+    // No overshoot, so ζ is at least that of an overshoot at the noise level: below 1 (any overshoot
+    // at all means ζ < 1, Ogata), above the 0.3 limit, and said to be a lower bound.
+    expect(value(o, 'dampingRatio')).toMatchObject({ verdict: 'pass' });
+    expect(value(o, 'dampingRatio').value!).toBeGreaterThan(0.3);
+    expect(value(o, 'dampingRatio').value!).toBeLessThan(1);
+    expect(value(o, 'dampingRatio').note).toMatch(/lower bound.*no overshoot above the noise/);
     expect(value(o, 'overshootPercent').value!).toBeLessThan(1);
     expect(o.verdict).toBe('fail');
     expect(o.reasons.join(' ')).toMatch(/Ringing frequency was not measured: no ringing above the noise/);
     // A procedure that limits only overshoot and settling passes the same unit.
-    const plain = judged({ ...RINGING_STEP, limits: { overshootPercent: { high: 30, unit: '%' }, settlingTimeS: { high: 20e-6, unit: 's' } } }, scopeRecordText({ zeta: 1.5, naturalHz: 300e3 }, 20e3));
+    const plain = judged({ ...RINGING_STEP, limits: { overshootPercent: { high: 30, unit: '%' }, settlingTimeS: { high: 20e-6, unit: 's' } } }, scopeRecordText({ zeta: 1.5, naturalHz: 1e6 }, 20e3));
     expect(plain.verdict).toBe('pass');
+  });
+
+  // Well damped: only the first overshoot stands above the noise (the second peak, M², is under it).
+  const DAMPING_ONLY: RingingStep = { ...RINGING_STEP, limits: { dampingRatio: { low: 0.3, unit: 'ratio' }, overshootPercent: { high: 30, unit: '%' } } };
+  it.each([0.6, 0.7, 0.8])('a well-damped unit (ζ = %s, one peak above the noise) meets a ζ ≥ 0.3 limit: ζ from its overshoot, a lower bound', (zeta) => {
+    const o = judged(DAMPING_ONLY, scopeRecordText({ zeta, naturalHz: 1e6 }, 20e3));
+    expect(o.record.flags).toContain('no-ringing');
+    expect(o.verdict).toBe('pass');
+    // Ogata: M = exp(−ζπ/√(1−ζ²)) inverts to ζ = −ln M/√(π² + ln² M), so the overshoot gives ζ back.
+    expect(value(o, 'dampingRatio').value!).toBeCloseTo(zeta, 1);
+    expect(value(o, 'dampingRatio').value!).toBeLessThanOrEqual(zeta + 0.01);
+    expect(value(o, 'dampingRatio').note).toMatch(/a lower bound, from the overshoot M alone/);
+    // Against a high limit a lower bound shows nothing: not measured, so not met.
+    const bounded = judged({ ...DAMPING_ONLY, limits: { dampingRatio: { low: 0.3, high: 0.95, unit: 'ratio' } } }, scopeRecordText({ zeta, naturalHz: 1e6 }, 20e3));
+    expect(value(bounded, 'dampingRatio')).toMatchObject({ value: null, verdict: 'fail' });
+    expect(bounded.reasons.join(' ')).toMatch(/Damping ratio was not measured: a lower bound/);
+    // The ring frequency stays unmeasured: a limit on it is not met.
+    expect(value(judged({ ...DAMPING_ONLY, limits: { ringFrequencyHz: { low: 100e3, unit: 'Hz' } } }, scopeRecordText({ zeta, naturalHz: 1e6 }, 20e3)), 'ringFrequencyHz')).toMatchObject({ value: null, verdict: 'fail' });
+  });
+
+  it('a unit with ζ = 1.2 (no overshoot, Ogata) meets a ζ ≥ 0.3 limit as a lower bound from the noise', () => {
+    const o = judged(DAMPING_ONLY, scopeRecordText({ zeta: 1.2, naturalHz: 1e6 }, 20e3));
+    expect(o.verdict).toBe('pass');
+    expect(value(o, 'dampingRatio').value!).toBeGreaterThan(0.3);
+    expect(value(o, 'dampingRatio').value!).toBeLessThan(1.2);
+  });
+
+  // A lightly damped leakage resonance (ζ = 0.05 at 200 kHz) overshoots exp(−0.05π/√(1−0.0025)) = 85 %
+  // of the step (Ogata) when a fast edge excites it. A 48 kHz interface's square holds nothing above
+  // 24 kHz: the resonance is hardly excited and the record shows the square's own band-limit
+  // overshoot, about 9 % (the Gibbs phenomenon), which a 15 % limit would pass.
+  const OVERSHOOT_ONLY: RingingStep = { ...RINGING_STEP, squareHz: 1000, limits: { overshootPercent: { high: 15, unit: '%' } } };
+  const LEAKY = { zeta: 0.05, naturalHz: 200e3 };
+  it('refuses a record driven by an edge too slow to excite the ringing (a 48 kHz interface’s square), naming the file', () => {
+    const slow = judgeScopeRecord(OVERSHOOT_ONLY, drivenRecordText(LEAKY, 1000, 24e3), 'interface.csv');
+    expect(slow.ok).toBe(false);
+    // 0.35/t_r of a square band-limited at 24 kHz lies near 24 kHz (rise time and bandwidth, common practice).
+    expect(!slow.ok && slow.refusal).toMatch(/^interface\.csv: .*too slow to excite ringing above [12]\d\.\d kHz.*generator with a fast edge \(rise time under 3\.50 µs\)/);
+    // The same unit driven by fast edges is judged, and fails on its overshoot.
+    const fast = judged(OVERSHOOT_ONLY, drivenRecordText(LEAKY, 1000, null));
+    expect(fast.verdict).toBe('fail');
+    expect(Math.abs(value(fast, 'overshootPercent').value! - 100 * textbookOvershoot(LEAKY.zeta))).toBeLessThan(2);
+  });
+
+  it('with a ring-frequency low limit the edge must reach twice it: a 150 kHz limit wants a rise time under 1.17 µs', () => {
+    // ζ = 1 at 200 kHz rises 10–90 % in 3.36/ωn = 2.7 µs (Ogata's step response, on the formula):
+    // about 130 kHz, enough alone (100 kHz) but not for 2 × 150 kHz.
+    const damped = { zeta: 1, naturalHz: 200e3 };
+    expect(judgeScopeRecord({ ...OVERSHOOT_ONLY, squareHz: 20e3 }, drivenRecordText(damped, 20e3, null), 'd.csv').ok).toBe(true);
+    const refused = judgeScopeRecord({ ...OVERSHOOT_ONLY, squareHz: 20e3, limits: { ringFrequencyHz: { low: 150e3, unit: 'Hz' } } }, drivenRecordText(damped, 20e3, null), 'd.csv');
+    expect(!refused.ok && refused.refusal).toMatch(/needs 300 kHz at least.*rise time under 1\.17 µs/);
+  });
+
+  it('cuts a long file name, channel name and unit to what a stored record keeps', () => {
+    const text = scopeRecordText({ zeta: 0.45, naturalHz: 300e3 }, 20e3).replace('TIME,CH1', `TIME,CH1 ${'x'.repeat(250)} (${'V'.repeat(60)})`);
+    const o = judgeScopeRecord(RINGING_STEP, text, `${'n'.repeat(300)}.csv`);
+    if (!o.ok) throw new Error(o.refusal);
+    expect(o.record.fileName.length).toBe(SCOPE_TEXT_MAX.fileName);
+    expect(o.record.channelName.length).toBe(SCOPE_TEXT_MAX.channelName);
+    expect(o.record.channelName.startsWith('CH1 xxx')).toBe(true);
+    expect(o.record.plot.unit.length).toBe(SCOPE_TEXT_MAX.unit);
   });
 
   it(`refuses a record of another square wave (10 kHz for 20 kHz; more than ${RECORD_FREQUENCY_TOLERANCE_PERCENT} % off)`, () => {

@@ -8,7 +8,7 @@
 // added Gaussian noise and an 8-bit ADC over the screen.
 
 import { describe, expect, it } from 'vitest';
-import { analyzeRinging, DEFAULT_RINGING_OPTIONS, RingingError, type RingingAnalysis } from '../../shared/scope/ringing.ts';
+import { analyzeRinging, dampingRatioOfOvershoot, DEFAULT_RINGING_OPTIONS, RingingError, type RingingAnalysis } from '../../shared/scope/ringing.ts';
 import {
   scopeCapture,
   scopeView,
@@ -78,6 +78,9 @@ describe('ringing of a second-order square-wave response (Ogata)', () => {
       // The crossing into the band interpolated between samples, on a record smoothed by a
       // sixteenth of the ringing period: within two samples.
       expect(Math.abs(result.settlingTimeS! - settlingS)).toBeLessThan(2 * dt);
+      // Rise time from the first 10 % to the first 90 % crossing of the formula, within a sample.
+      expect(Math.abs(result.riseTimeS! - (timeToReach(system, 0.9) - timeToReach(system, 0.1)))).toBeLessThan(dt);
+      expect(result.dampingRatioAtLeast).toBeNull();
     });
 
     it('8 bits and noise as a scope adds: the same figures within what those allow', () => {
@@ -156,7 +159,29 @@ describe('no ringing', () => {
       // What is left is the noise's largest excursion after smoothing: well under 1 % of the step.
       expect(result.overshootPercent).toBeLessThan(what === 'computed' ? 1e-6 : 1);
       expect(relative(result.settlingTimeS, settlingFromFormula(system, 0.02))).toBeLessThan(0.02);
+      // No overshoot above the noise: ζ only from below, under 1 (any overshoot at all means ζ < 1, Ogata).
+      expect(result.dampingRatioAtLeast!, what).toBeGreaterThan(0.5);
+      expect(result.dampingRatioAtLeast!, what).toBeLessThan(1);
+      // The 10–90 % rise time found on the step-response formula itself.
+      expect(relative(result.riseTimeS, timeToReach(system, 0.9) - timeToReach(system, 0.1)), what).toBeLessThan(0.02);
     }
+  });
+
+  it('a record that begins inside an edge, past its 10 % point: that edge’s rise time is unknown, the others give the record’s', () => {
+    const system = { zeta: 0.3, naturalHz: 1e6 };
+    const dt = 1 / (100 * system.naturalHz);
+    // ωn·t = 0.6 after the step, y = 1 − e^{−ζωn t}(cos ωd t + ζ/√(1−ζ²) sin ωd t) ≈ 0.16 (Ogata): between 10 % and 25 %.
+    const firstEdgeS = -0.6 / (2 * Math.PI * system.naturalHz);
+    expect(stepResponse(system, -firstEdgeS)).toBeGreaterThan(0.1);
+    expect(stepResponse(system, -firstEdgeS)).toBeLessThan(0.25);
+    const clean = squareWaveResponse({ system, squareHz: 20e3, sampleIntervalS: dt, samples: Math.round(2.2 / 20e3 / dt), lowV: -0.5, highV: 0.5, firstEdgeS });
+    const result = analyzeRinging(captured(clean, 3), dt);
+    expect(result.edges[0].riseTimeS).toBeNull();
+    expect(relative(result.riseTimeS, timeToReach(system, 0.9) - timeToReach(system, 0.1))).toBeLessThan(0.05);
+  });
+
+  it('ζ from the overshoot alone inverts Ogata’s M = exp(−ζπ/√(1−ζ²))', () => {
+    for (const zeta of [0.05, 0.3, 0.6, 0.9]) expect(dampingRatioOfOvershoot(textbookOvershoot(zeta))).toBeCloseTo(zeta, 9);
   });
 
   it('ζ = 0.7: one overshoot of 4.6 % and a swing back of 0.2 %, under an 8-bit scope’s noise, is no oscillation', () => {
@@ -167,10 +192,14 @@ describe('no ringing', () => {
     const result = analyzeRinging(captured(clean, 5), dt);
     expect(result.flags).toEqual(['no-ringing']);
     expect(Math.abs(result.overshootPercent - 100 * textbookOvershoot(0.7))).toBeLessThan(0.5);
+    // One peak only: ζ from it, a lower bound that lands on the textbook ζ (the overshoot is Ogata's).
+    expect(result.dampingRatio).toBeNull();
+    expect(Math.abs(result.dampingRatioAtLeast! - 0.7)).toBeLessThan(0.02);
     // Computed, without noise, the swing back counts and the figures are the textbook ones.
     const exact = analyzeRinging(clean, dt);
     expect(exact.flags).toEqual([]);
     expect(relative(exact.dampingRatio, 0.7)).toBeLessThan(5e-3);
+    expect(exact.dampingRatioAtLeast).toBeNull();
   });
 });
 
