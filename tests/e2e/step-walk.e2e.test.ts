@@ -96,7 +96,7 @@ describe('the demo procedure walked whole', () => {
     await expect.poll(() => page.getByTestId('input-select').inputValue(), POLL).toBe('demo-bench');
     await page.getByRole('button', { name: 'Start capture' }).click();
     await page.getByLabel('Operator').fill('A. Tester');
-    await page.getByLabel('Procedure').selectOption({ label: 'MG20-LF-TRIM rev D' });
+    await page.getByLabel('Procedure').selectOption({ label: 'MG20-LF-TRIM rev E' });
     await page.getByTestId('lot-input').fill(LOT);
     await page.getByTestId('serial-input').fill(SERIAL);
     await page.screenshot({ path: '/tmp/walk-unit-entry.png' });
