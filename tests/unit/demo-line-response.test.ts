@@ -84,7 +84,7 @@ it('plays the sweep through the simulated stage and main finds the response the 
     return result.value as never;
   };
   const unit = { index: 0, parameters: P, noiseSeed: 3, trueNullTurns: 5, fault: null } as unknown as Parameters<typeof walkUnit>[0];
-  const finished = await walkUnit(unit, opened, call, { sampleRateHz: 48000, mainsHz: 50, levels: { outputDbuAtFullScale: 18, inputDbuAtFullScale: 18 }, setup: TEST_SETUP });
+  const finished = await walkUnit(unit, opened, call, { sampleRateHz: 48000, mainsHz: 50, levels: { outputDbuAtFullScale: 18, inputDbuAtFullScale: 18 }, setup: TEST_SETUP, scopeFile: null });
   expect(finished.run.verdict).toBe('fail');
   const result = finished.stepResults.find((r) => r.stepId === 'response')!;
   for (const f of [10, 20, 100, 5000]) {
