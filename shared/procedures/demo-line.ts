@@ -24,7 +24,7 @@ import { LiveMeter } from '../measurement/live-meter.ts';
 import { DEMO_INTERFACE_DBU_AT_FULL_SCALE, DemoChain } from '../sim/demo-chain.ts';
 import { maxLevelNext, maxLevelPlan, type MaxLevelPoint } from './max-level.ts';
 import { demoScopeRecordText } from '../sim/demo-scope.ts';
-import { CHAIN_CHECK_SCHEMA_VERSION, type ChainCheckResult } from '../calibration/chain-check.ts';
+import { CHAIN_CHECK_SCHEMA_VERSION, chainNoiseFloor, type ChainCheckResult } from '../calibration/chain-check.ts';
 import { chainResponse, planSteppedSine, type ResponseStep } from '../calibration/chain-response.ts';
 import { estimateLatency, latencyStimulus } from '../calibration/latency.ts';
 import type { Reading } from '../measurement/reading.ts';
@@ -295,6 +295,8 @@ function loopReading(chain: DemoChain, tone: StimulusSetting, sampleRateHz: numb
 
 /** The stepped sine's level, as the Station view's chain check plays it. */
 const CHAIN_RESPONSE_LEVEL_DBFS = -12;
+/** Settled readings the noise floor is averaged over (as the Station view's). */
+const CHAIN_NOISE_READINGS = 6;
 /** Longest round trip the latency capture covers, seconds (as the Station view's). */
 const CHAIN_MAX_LATENCY_S = 0.5;
 
@@ -302,8 +304,8 @@ const CHAIN_MAX_LATENCY_S = 0.5;
  * The chain check a technician runs on the demo loopback after calibrating, for the response
  * step's correction: its residual distortion at 1 kHz, the stepped sine at the third-octave
  * frequencies (planned to whole cycles on the one clock the demo bench plays and captures on), and
- * the round trip from a noise burst. Main derives the response again from the raw steps and judges
- * the check against the station's limits; the noise floor is left to the Station view.
+ * the floor with the generator off, and the round trip from a noise burst. Main derives the
+ * response and the floor's dBu again and judges the check against the station's limits.
  */
 export function demoChainCheckRequest(setup: AudioSetup, calibrationId: number, operator: string, mainsHz: 50 | 60, now: Date): IpcRequest<'recordChainCheck'> {
   const rate = setup.sampleRateHz;
@@ -315,11 +317,37 @@ export function demoChainCheckRequest(setup: AudioSetup, calibrationId: number, 
     steps.push({ frequencyHz: planned.frequencyHz, generatorDbfs: CHAIN_RESPONSE_LEVEL_DBFS, capturedDbfs: reading.fundamental.levelDbfs });
     if (planned.nominalHz === 1000) residual = { frequencyHz: planned.frequencyHz, generatorDbfs: CHAIN_RESPONSE_LEVEL_DBFS, thdDb: reading.thdDb, thdnDb: reading.thdnDb };
   }
+  // The floor with the generator off: the mean power of a few settled no-signal readings, as the Station view takes it.
   chain.setStimulus({ on: false, frequencyHz: 1000, levelDbfs: -120 });
+  const quiet = new LiveMeter({ sampleRateHz: rate, expectedFundamentalHz: null, stimulusLocked: true, sampleGuard: false });
+  const block = new Float32Array(2048);
+  let power = 0;
+  let weighted = 0;
+  let readings = 0;
+  for (let rendered = 0, last = -1; readings < CHAIN_NOISE_READINGS; rendered += block.length) {
+    if (rendered > MAX_SETTLE_S * rate) throw new Error('the demo loopback gave no settled reading with the generator off');
+    chain.render(block);
+    quiet.push(block);
+    const r = quiet.reading;
+    if (r.settled && r.sequence !== last && r.flags.includes('no-signal')) {
+      last = r.sequence;
+      power += 10 ** (r.noiseDbfs / 10);
+      weighted += 10 ** (r.noiseAWeightedDbfs / 10);
+      readings++;
+    }
+  }
+  const noiseFloor = chainNoiseFloor(
+    {
+      bandLowHz: DEFAULT_ANALYZER_OPTIONS.bandLowHz,
+      bandHighHz: Math.min(DEFAULT_ANALYZER_OPTIONS.bandHighHz, rate / 2),
+      unweightedDbfs: 10 * Math.log10(power / readings),
+      aWeightedDbfs: 10 * Math.log10(weighted / readings),
+    },
+    null,
+  );
   const burst = latencyStimulus({ sampleRateHz: rate });
   const frames = burst.length + Math.round(CHAIN_MAX_LATENCY_S * rate);
   chain.playOnce(burst, frames);
-  const block = new Float32Array(2048);
   let captured: Float32Array | null = null;
   for (let rendered = 0; !captured; rendered += block.length) {
     if (rendered > 2 * frames) throw new Error('the demo loopback gave back no capture of the latency burst');
@@ -334,7 +362,7 @@ export function demoChainCheckRequest(setup: AudioSetup, calibrationId: number, 
     sampleRateHz: rate,
     inputDbuAtFullScale: null,
     residuals: residual ? [residual] : [],
-    noiseFloor: null,
+    noiseFloor,
     response: response.ok ? response.response : null,
     responseRefusal: response.ok ? null : response.reason,
     latency: latency.estimate,

@@ -14,6 +14,7 @@ import { demoBatch } from '../../shared/sim/demo-batch.ts';
 import { DEMO_INTERFACE_DBU_AT_FULL_SCALE } from '../../shared/sim/demo-chain.ts';
 import type { DemoUnitParameters } from '../../shared/sim/demo-unit.ts';
 import { aWeightedWhiteNoiseDb } from '../support/signals.ts';
+import { expectedMaskMarginDb, expectedMaxLevelDbu, expectedRinging } from '../support/demo-physics.ts';
 import { tempDir } from '../support/station.ts';
 
 const CLI = fileURLToPath(new URL('../../cli/trimbench.ts', import.meta.url));
@@ -105,109 +106,6 @@ function expectedValues(p: DemoUnitParameters) {
   };
 }
 
-type Complex = [number, number];
-const cdiv = (a: Complex, b: Complex): Complex => {
-  const d = b[0] * b[0] + b[1] * b[1];
-  return [(a[0] * b[0] + a[1] * b[1]) / d, (a[1] * b[0] - a[0] * b[1]) / d];
-};
-const cmul = (a: Complex, b: Complex): Complex => [a[0] * b[0] - a[1] * b[1], a[0] * b[1] + a[1] * b[0]];
-const cparallel = (a: Complex, b: Complex) => cdiv(cmul(a, b), [a[0] + b[0], a[1] + b[1]]);
-
-/**
- * The stage's small-signal response in dB at f with a net series resistance R left after the trim,
- * by Kirchhoff's voltage law round the loop (any circuits textbook): H = Zp / (R + Zc + Zp), with
- * Zc = R_d ∥ 1/(jωC) (the coupling capacitor and its damping resistor) and Zp = jωL ∥ R_L (the
- * magnetising inductance and the reflected load). The station's chain is taken out by main, so this
- * is what the response step must find.
- */
-function stageDb(p: DemoUnitParameters, netOhms: number, f: number): number {
-  const w = 2 * Math.PI * f;
-  const zc = cparallel([p.couplingDampingOhms, 0], cdiv([1, 0], [0, w * p.couplingFarads]));
-  const zp = cparallel([0, w * p.magnetizingHenries], [p.reflectedLoadOhms, 0]);
-  const h = cdiv(zp, [netOhms + zc[0] + zp[0], zc[1] + zp[1]]);
-  return 20 * Math.log10(Math.hypot(h[0], h[1]));
-}
-
-/**
- * The response's smallest distance inside the file's mask, from the circuit: the mask's bounds
- * straight lines in log frequency between its points (docs/procedures.md), the response relative
- * to `referenceHz`, over a fine grid (1/96 octave) of the mask's span.
- */
-function expectedMaskMarginDb(p: DemoUnitParameters, netOhms: number): number {
-  const step = PROCEDURE.steps.find((s: { kind: string }) => s.kind === 'response');
-  const mask: { frequencyHz: number; lowDb: number; highDb: number }[] = step.mask;
-  const reference = stageDb(p, netOhms, step.referenceHz);
-  let margin = Infinity;
-  const from = mask[0].frequencyHz;
-  const to = mask[mask.length - 1].frequencyHz;
-  for (let f = from; f <= to * 1.0001; f *= 2 ** (1 / 96)) {
-    const k = Math.max(0, mask.findIndex((m, i) => i > 0 && f <= m.frequencyHz * 1.0001) - 1);
-    const a = mask[k];
-    const b = mask[k + 1];
-    const t = Math.log(f / a.frequencyHz) / Math.log(b.frequencyHz / a.frequencyHz);
-    const level = stageDb(p, netOhms, Math.min(f, to)) - reference;
-    margin = Math.min(margin, level - (a.lowDb + t * (b.lowDb - a.lowDb)), a.highDb + t * (b.highDb - a.highDb) - level);
-  }
-  return margin;
-}
-
-/**
- * The output level in dBu where the driver's THD+N reaches the max-level step's threshold at its
- * frequency. The driver (demo-unit.ts, as its parameters document it): G·V·(x − d₃x³ + d₂x²) for an
- * input x in full-scale units, then linear to the knee and knee + span·tanh((|v| − knee)/span)
- * beyond it (span = swing − knee). Its harmonics come from the Fourier series of one period of that
- * transfer driven by a sine, summed by hand here (a 4096-point DFT, exact for a periodic signal
- * band-limited below 2048 harmonics; the tanh's series dies off long before). THD+N is all but the
- * fundamental relative to it (the noise is 80 dB below). At 1 kHz the trimmed transformer passes
- * the driver's voltage to the 10 kΩ load within a few thousandths of a dB, so the output in dBu is
- * the fundamental's peak in full-scale units (AES17: a sine's dBFS is its peak) plus the station's
- * +18 dBu at full scale.
- */
-function expectedMaxLevelDbu(p: DemoUnitParameters): number {
-  const step = PROCEDURE.steps.find((s: { kind: string }) => s.kind === 'max-level');
-  const transfer = (v: number) => {
-    const m = Math.abs(v);
-    if (m <= p.driverKneeVolts) return v;
-    const span = p.driverSwingVolts - p.driverKneeVolts;
-    return Math.sign(v) * (p.driverKneeVolts + span * Math.tanh((m - p.driverKneeVolts) / span));
-  };
-  const n = 4096;
-  const analyse = (peak: number) => {
-    let re = 0;
-    let im = 0;
-    let mean = 0;
-    const y = new Float64Array(n);
-    for (let i = 0; i < n; i++) {
-      const x = peak * Math.sin((2 * Math.PI * i) / n);
-      y[i] = transfer(p.driverGain * p.driveVoltsPerFullScale * (x + p.driverSquare * x * x - p.driverCubic * x * x * x));
-      mean += y[i] / n;
-    }
-    let total = 0;
-    for (let i = 0; i < n; i++) {
-      re += (2 / n) * y[i] * Math.sin((2 * Math.PI * i) / n);
-      im += (2 / n) * y[i] * Math.cos((2 * Math.PI * i) / n);
-      total += (y[i] - mean) ** 2 / n;
-    }
-    const fundamental = Math.hypot(re, im);
-    return { thdn: Math.sqrt(Math.max(0, total - fundamental ** 2 / 2)) / (fundamental / Math.SQRT2), fundamentalFs: fundamental / p.driveVoltsPerFullScale };
-  };
-  let lo = 0.01;
-  let hi = 1.5;
-  for (let k = 0; k < 60; k++) {
-    const mid = (lo + hi) / 2;
-    if (analyse(mid).thdn * 100 < step.thdnThresholdPercent) lo = mid;
-    else hi = mid;
-  }
-  return 20 * Math.log10(analyse(lo).fundamentalFs) + FULL_SCALE_DBU;
-}
-
-/** The ringing a scope shows of a second-order system (Ogata): ωd = ωn√(1−ζ²), overshoot exp(−ζπ/√(1−ζ²)). */
-const expectedRinging = (p: DemoUnitParameters) => ({
-  ringFrequencyHz: p.hfNaturalHz * Math.sqrt(1 - p.hfDampingRatio ** 2),
-  dampingRatio: p.hfDampingRatio,
-  overshootPercent: 100 * Math.exp((-p.hfDampingRatio * Math.PI) / Math.sqrt(1 - p.hfDampingRatio ** 2)),
-});
-
 /**
  * The steps whose limits a unit's parameters break for certain, in the file's order, each with why.
  * The core's own distortion after the trim (at 14, 20 and 50 Hz) depends on where the assistant
@@ -233,10 +131,10 @@ function predictedBreaks(p: DemoUnitParameters): { stepId: string; why: string }
     // Past the trim's null the net resistance is between 0 and one trimmer step's worth: both ends
     // must leave the mask (by more than the sweep's reading of it scatters) for a certain break.
     if (step.kind === 'response') {
-      const worst = Math.max(expectedMaskMarginDb(p, 0), expectedMaskMarginDb(p, p.compensationOhmsPerTurn * stepOf('lf-trim').positionStep));
+      const worst = Math.max(expectedMaskMarginDb(p, 0, stepOf('response')), expectedMaskMarginDb(p, p.compensationOhmsPerTurn * stepOf('lf-trim').positionStep, stepOf('response')));
       if (worst < -0.05) breaks.push({ stepId: step.id, why: `its response leaves the mask by ${(-worst).toFixed(2)} dB` });
     }
-    if (step.kind === 'max-level' && expectedMaxLevelDbu(p) < step.limits.maxLevelDbu.low - 0.3) breaks.push({ stepId: step.id, why: `its maximum level is ${expectedMaxLevelDbu(p).toFixed(1)} dBu` });
+    if (step.kind === 'max-level' && expectedMaxLevelDbu(p, step.thdnThresholdPercent, FULL_SCALE_DBU) < step.limits.maxLevelDbu.low - 0.3) breaks.push({ stepId: step.id, why: 'its maximum level is under the limit' });
     if (step.kind === 'ringing') {
       const r = expectedRinging(p);
       // Clear of the limits by more than an 8-bit scope record reads them to.
@@ -343,10 +241,10 @@ describe('demo-line --json', () => {
       // technician left it (the net resistance R0 − k·p): to 0.05 dB, the sweep's reading of a
       // smooth response (the response step's own tests recover analytic filters to 0.05 dB).
       const final = report.trim.finalPosition;
-      if (final !== null) near('response', 'maskMarginDb', expectedMaskMarginDb(unit.parameters, unit.parameters.windingOhms + unit.parameters.sourceOhms - unit.parameters.compensationOhmsPerTurn * final), 0.05);
+      if (final !== null) near('response', 'maskMarginDb', expectedMaskMarginDb(unit.parameters, unit.parameters.windingOhms + unit.parameters.sourceOhms - unit.parameters.compensationOhmsPerTurn * final, stepOf('response')), 0.05);
       // The soft clip's crossing: to 0.2 dB, the straight line between 1 dB steps in dB of THD+N
       // against the steeply bending curve (a gain-defect unit reaches the ceiling first: a lower bound).
-      if (unit.parameters.driverGain > 10 ** (-0.5 / 20)) near('max-level-1khz', 'maxLevelDbu', expectedMaxLevelDbu(unit.parameters), 0.2);
+      if (unit.parameters.driverGain > 10 ** (-0.5 / 20)) near('max-level-1khz', 'maxLevelDbu', expectedMaxLevelDbu(unit.parameters, stepOf('max-level-1khz').thdnThresholdPercent, FULL_SCALE_DBU), 0.2);
       // Ringing to what an 8-bit record with half a code of noise reads (the ringing analysis's tests).
       const ring = expectedRinging(unit.parameters);
       near('ringing-20k', 'ringFrequencyHz', ring.ringFrequencyHz, 0.03 * ring.ringFrequencyHz);
