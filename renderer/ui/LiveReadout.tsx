@@ -53,9 +53,10 @@ export function LiveReadout({
   const quietByDesign = !generatorOn && (noSignal || stimulusCheck !== null);
   const notTheStimulus = stimulusCheck && !stimulusCheck.ok && stimulusCheck.problem !== 'generator-off' ? stimulusCheck.message : null;
   const lastOrder = reading.harmonics.at(-1)?.order ?? harmonicCount;
+  const noHarmonics = !noSignal && reading.harmonics.length === 0;
   // Against the limit only when the reading is the unit's answer to the stimulus: a green "within"
   // beside a foreign tone would read as a pass.
-  const thdVerdict = !noSignal && limitThdDb !== null && stimulusCheck?.ok ? judgeThd(reading.thdDb, limitThdDb) : null;
+  const thdVerdict = !noSignal && !noHarmonics && limitThdDb !== null && stimulusCheck?.ok ? judgeThd(reading.thdDb, limitThdDb) : null;
   return (
     <section className="panel readout" aria-label="Live reading">
       <h2>
@@ -87,11 +88,10 @@ export function LiveReadout({
           </div>
         )}
         <div>
-          <Big value={noSignal ? null : fixed(reading.thdDb, 1)} testId="thd-db" />
+          {/* A tone whose harmonics all lie at or above Nyquist has no THD to show, not a THD of −300 dB. */}
+          <Big value={noSignal ? null : noHarmonics ? '—' : fixed(reading.thdDb, 1)} testId="thd-db" />
           {!noSignal && <span className="unit">dB THD</span>}
-          <div className="caption">
-            {noSignal ? '' : `${percent(reading.thdPercent)} · `}H2–H{lastOrder}
-          </div>
+          <div className="caption">{noHarmonics ? 'no harmonic below Nyquist' : `${noSignal ? '' : `${percent(reading.thdPercent)} · `}H2–H${lastOrder}`}</div>
           {thdVerdict && limitThdDb !== null && (
             <div className={`limit ${thdVerdict}`} data-testid="thd-limit">
               limit ≤ {fixed(limitThdDb, 1)} dB: {thdVerdict === 'pass' ? 'within' : 'above the limit'}

@@ -1,7 +1,7 @@
 // A response step: the caution, the sweep played once with its progress, then main's judgement.
 // The result itself (plot and verdict) shows as the step's stored result once main has recorded it.
 
-import { useCallback, useState, type RefObject } from 'react';
+import { useCallback, useRef, useState, type RefObject } from 'react';
 import { formatLevel, type LevelCalibration } from '../../shared/levels.ts';
 import type { PlannedStep } from '../../shared/procedures/run-plan.ts';
 import type { ResponseStep } from '../../shared/procedures/response.ts';
@@ -10,6 +10,7 @@ import type { StationLevels } from '../../shared/procedures/check-steps.ts';
 import { hzText } from '../../shared/procedures/step-text.ts';
 import type { BenchAudio } from '../audio/bench-audio.ts';
 import { fixed } from './format.ts';
+import { DOUBLE_PRESS_MS, secondPressTooSoon } from './primary-press.ts';
 import { useResponseSweep } from './useResponseSweep.ts';
 
 export function ResponseStepPanel({
@@ -37,6 +38,8 @@ export function ResponseStepPanel({
   const send = useCallback((samples: Float32Array, rate: number) => onRecord(samples, rate), [onRecord]);
   const { state, start } = useResponseSweep(audio, send, onSweeping);
   const [message, setMessage] = useState<string | null>(null);
+  // An Enter that arrives with the panel (the notice's, pressed twice) must not start a loud sweep.
+  const shownAt = useRef(performance.now());
   const needs = planned.needs.kind === 'sweep' ? planned.needs : null;
   if (planned.blocked || !needs?.sweep) {
     return (
@@ -50,7 +53,7 @@ export function ResponseStepPanel({
   const busy = playing || state.phase === 'analysing' || pending;
 
   function primary() {
-    if (busy) return;
+    if (busy || secondPressTooSoon() || performance.now() - shownAt.current < DOUBLE_PRESS_MS) return;
     if (!audio || !plan) return setMessage('Start capture (Audio interface) first: the sweep plays through it and its answer is captured.');
     if (!plan.ok) return setMessage(plan.refusal);
     setMessage(null);
@@ -61,8 +64,8 @@ export function ResponseStepPanel({
   return (
     <div className="check-step response-step" data-testid="response-step" data-phase={state.phase}>
       <p className="caution" data-testid="sweep-caution">
-        Sweeps {hzText(step.fromHz)} to {hzText(step.toHz)} in {fixed(step.durationS, 1)} s at {level}, starting at the lowest frequency
-        {step.fromHz < 100 ? ': a loud low-frequency tone at first' : ''}. Keep monitor speakers and headphones muted; <kbd>Esc</kbd> stops it at once.
+        Sweeps {hzText(plan?.ok ? plan.spec.startHz : step.fromHz)} to {hzText(step.toHz)} in {fixed(plan?.ok ? plan.spec.durationS : step.durationS, 1)} s at {level}, starting
+        at the lowest frequency, an octave below the band judged{step.fromHz < 100 ? ': a loud low-frequency tone at first' : ''}. Keep monitor speakers and headphones muted; <kbd>Esc</kbd> stops it at once.
       </p>
       <p className="hint">
         The response is read relative to {hzText(step.referenceHz)} and judged against the step's mask; the unit's channel 1 is captured for the whole

@@ -19,7 +19,7 @@ export function RingingPlot({ plot, fileName }: { plot: EdgePlot; fileName: stri
       legend: { show: false },
       cursor: { drag: { x: false, y: false } },
       scales: { x: { time: false } },
-      axes: [{ label: 'µs from the edge’s 50 % point' }, { label: plot.unit, size: 60 }],
+      axes: [{ label: 'µs from the edge’s 50 % point' }, { label: `Output, ${plot.unit}`, size: 60 }],
       series: [
         {},
         { label: 'Record', stroke: '#1f5fa8', width: 1.5, points: { show: false } },

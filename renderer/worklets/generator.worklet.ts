@@ -2,7 +2,7 @@
 // every output channel; plays an exponential sweep once on request (the same samples the offline
 // `sweep --write` writes).
 
-import { SineSource, type StimulusSetting } from '../../shared/dsp/sine-source.ts';
+import { SineSource, STIMULUS_RAMP_S, type StimulusSetting } from '../../shared/dsp/sine-source.ts';
 import type { SweepCommand } from '../worker/messages.ts';
 
 class SineGenerator extends AudioWorkletProcessor {
@@ -10,14 +10,23 @@ class SineGenerator extends AudioWorkletProcessor {
   /** The sweep playing and where it is; handed over once per sweep, dropped when done or stopped. */
   private sweep: Float32Array | null = null;
   private sweepAt = 0;
+  /** Samples left of the fade-out of a sweep stopped mid-way; 0 while it plays on. */
+  private fadeLeft = 0;
+  /** A stopped sweep fades out over the tone's own ramp time: stopped at once, without a step into the unit. */
+  private readonly fadeSamples = Math.max(1, Math.round(STIMULUS_RAMP_S * sampleRate));
 
   constructor(options?: unknown) {
     super(options);
     this.port.onmessage = (event: MessageEvent<StimulusSetting | SweepCommand>) => {
       const data = event.data;
       if ('sweep' in data) {
-        this.sweep = data.sweep;
-        this.sweepAt = 0;
+        if (data.sweep === null) {
+          if (this.sweep && this.fadeLeft === 0) this.fadeLeft = this.fadeSamples;
+        } else {
+          this.sweep = data.sweep;
+          this.sweepAt = 0;
+          this.fadeLeft = 0;
+        }
       } else this.source.set(data);
     };
   }
@@ -29,10 +38,18 @@ class SineGenerator extends AudioWorkletProcessor {
     const sweep = this.sweep;
     if (sweep) {
       const out = channels[0];
-      const n = Math.min(out.length, sweep.length - this.sweepAt);
-      for (let i = 0; i < n; i++) out[i] += sweep[this.sweepAt + i];
+      const fading = this.fadeLeft > 0;
+      const n = Math.min(out.length, sweep.length - this.sweepAt, fading ? this.fadeLeft : Number.POSITIVE_INFINITY);
+      for (let i = 0; i < n; i++) {
+        const gain = fading ? (this.fadeLeft - i) / this.fadeSamples : 1;
+        out[i] += gain * sweep[this.sweepAt + i];
+      }
       this.sweepAt += n;
-      if (this.sweepAt >= sweep.length) this.sweep = null;
+      if (fading) this.fadeLeft -= n;
+      if (this.sweepAt >= sweep.length || (fading && this.fadeLeft <= 0)) {
+        this.sweep = null;
+        this.fadeLeft = 0;
+      }
     }
     for (let ch = 1; ch < channels.length; ch++) channels[ch].set(channels[0]);
     return true;

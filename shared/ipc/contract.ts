@@ -608,7 +608,13 @@ export const contract = {
         /** The rate the capture ran at; the sweep was played at the same rate. */
         sampleRateHz: z.number().int().min(8000).max(384000),
         /** The unit's channel 1 over the whole sweep, from before it starts (plain numbers: they cross any bridge). */
-        samples: z.array(z.number()).min(1).max(SWEEP_CAPTURE_MAX_SAMPLES),
+        // One pass over the samples, stopping at the first bad one: element schemas would build an
+        // issue for each of millions of NaNs and hold main for seconds.
+        samples: z
+          .array(z.unknown())
+          .min(1)
+          .max(SWEEP_CAPTURE_MAX_SAMPLES)
+          .refine((a): a is number[] => a.every((v) => typeof v === 'number' && Number.isFinite(v)), 'every sample must be a finite number'),
         setup: audioSetupSchema.nullable().default(null),
       })
       .strict(),

@@ -61,12 +61,12 @@ const MIN_PEAK_TO_MEDIAN = 100;
 const MIN_FOLLOWED_FRACTION = 0.5;
 
 /**
- * The shortest sweep from startHz to endHz whose linear window holds SWEEP_WINDOW_MIN_CYCLES of
+ * The shortest sweep from startHz to endHz whose linear window holds `cycles` (SWEEP_WINDOW_MIN_CYCLES unless given) of
  * fromHz, seconds. The room before H2's response is L·ln 2 with L = T/ln(f2/f1), so T must be at
  * least cycles/fromHz/ln 2 · ln(f2/f1). Procedures check their sweeps with it.
  */
-export function sweepDurationToResolve(startHz: number, endHz: number, fromHz: number = startHz): number {
-  return (SWEEP_WINDOW_MIN_CYCLES / fromHz / Math.LN2) * Math.log(endHz / startHz);
+export function sweepDurationToResolve(startHz: number, endHz: number, fromHz: number = startHz, cycles: number = SWEEP_WINDOW_MIN_CYCLES): number {
+  return (cycles / fromHz / Math.LN2) * Math.log(endHz / startHz);
 }
 
 /** Points at most 1/12 octave apart. */

@@ -275,6 +275,15 @@ export const maxLevelStepSchema = z
     }
   });
 
+/**
+ * Cycles of fromHz a response step's sweep must fit before its H2 response (Farina's spacing L·ln 2,
+ * L = T/ln(toHz/fromHz)). The analysis resolves 4, but its reading at the band's start is then
+ * smoothed: a 20 Hz second-order Butterworth corner (−3.01 dB) read 0.13 dB off with 4 cycles,
+ * 0.07 dB with 8 and 0.013 dB with 12 (tests/unit/response-step.test.ts checks 0.05 dB on the
+ * shortest sweep allowed). A mask a few tenths of a dB wide needs the last.
+ */
+export const RESPONSE_WINDOW_CYCLES = 12;
+
 /** Sweep harmonics a response step may limit: the analysis reads H2 to H5 (shared/measurement/sweep-response.ts). */
 export const SWEEP_HARMONIC_NAMES = ['H2', 'H3', 'H4', 'H5'] as const;
 
@@ -312,9 +321,9 @@ export const responseStepSchema = z
       ctx.addIssue({ code: 'custom', message: 'must be above fromHz', path: ['toHz'] });
       return;
     }
-    const neededS = sweepDurationToResolve(s.fromHz, s.toHz);
+    const neededS = sweepDurationToResolve(s.fromHz, s.toHz, s.fromHz, RESPONSE_WINDOW_CYCLES);
     if (s.durationS < neededS) {
-      ctx.addIssue({ code: 'custom', message: `must be at least ${Math.ceil(neededS * 10) / 10} s: a shorter sweep from ${s.fromHz} Hz to ${s.toHz} Hz cannot resolve ${s.fromHz} Hz`, path: ['durationS'] });
+      ctx.addIssue({ code: 'custom', message: `must be at least ${Math.ceil(neededS * 10) / 10} s: a shorter sweep from ${s.fromHz} Hz to ${s.toHz} Hz reads ${s.fromHz} Hz, where the band starts, less closely than a limit needs`, path: ['durationS'] });
     }
     if (!(s.referenceHz >= s.fromHz && s.referenceHz <= s.toHz)) ctx.addIssue({ code: 'custom', message: `must lie inside the band, ${s.fromHz} to ${s.toHz} Hz`, path: ['referenceHz'] });
     const hasLow = s.mask.map((p) => p.lowDb !== undefined);

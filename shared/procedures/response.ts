@@ -31,11 +31,26 @@ export const RESPONSE_CLIP_LEVEL = 0.999;
 /** The sweep a step plays at this rate, or why it cannot be played on this station. */
 export type SweepPlan = { ok: true; spec: LogSweepSpec; levelDbu: number | null; totalS: number } | { ok: false; refusal: string };
 
-/** The step's sweep at `sampleRateHz`: its level converted from dBu with the output calibration as a tone's would be. */
+/**
+ * How far below the step's band the sweep starts, octaves. The analysis reads the response near the
+ * sweep's start too flat (its window there holds few cycles) and cannot resolve the harmonics there
+ * at all; a transformer stage distorts most and rolls off at exactly that end. Started an octave
+ * lower, the band's lowest frequency is read as well as any other.
+ */
+export const SWEEP_LEAD_IN_OCTAVES = 1;
+
+/**
+ * The step's sweep at `sampleRateHz`: from SWEEP_LEAD_IN_OCTAVES below `fromHz` to `toHz`, at the
+ * sweep rate `durationS` sets for the band (so the lead-in adds its share of time, and the band's
+ * resolution is what the procedure's author chose); the level converted from dBu with the output
+ * calibration as a tone's would be.
+ */
 export function sweepSpecFor(step: ResponseStep, sampleRateHz: number, levels: StationLevels | null): SweepPlan {
   const level = playedLevel(step.id, step.level, levels, 0);
   if (!level.ok) return level;
-  const spec: LogSweepSpec = { startHz: step.fromHz, endHz: step.toHz, durationS: step.durationS, sampleRateHz, levelDbfs: level.levelDbfs };
+  const startHz = step.fromHz / 2 ** SWEEP_LEAD_IN_OCTAVES;
+  const durationS = (step.durationS * Math.log(step.toHz / startHz)) / Math.log(step.toHz / step.fromHz);
+  const spec: LogSweepSpec = { startHz, endHz: step.toHz, durationS, sampleRateHz, levelDbfs: level.levelDbfs };
   try {
     const layout = logSweepLayout(spec);
     return { ok: true, spec, levelDbu: level.levelDbu, totalS: layout.totalLength / sampleRateHz };
@@ -195,6 +210,9 @@ export function maskMargin(mask: ResponseStep['mask'], response: readonly { freq
   return worst;
 }
 
+/** How far above the band's start (1/12 octave, the response's own spacing) a harmonic's first readable point may lie and still stand for it. */
+const HARMONIC_START_TOLERANCE = 2 ** (1 / 12);
+
 /** The mask margin's limit: the response must stay inside the mask (a margin of 0 dB is on a bound, which passes: limits are inclusive). */
 export const MASK_MARGIN_LIMIT = { low: 0, unit: 'dB' } as const;
 
@@ -223,8 +241,14 @@ export function judgeResponse(step: ResponseStep, response: SweepResponse, corre
       measured.push({ m: measurement(quantity, null, limit, why), label: name });
       continue;
     }
-    const top = series.points.reduce((a, b) => (b.levelDbc > a.levelDbc ? b : a));
     const span = `${hz(series.points[0].frequencyHz)}–${hz(series.points[series.points.length - 1].frequencyHz)}`;
+    // The bottom of the band is where a transformer stage distorts most: a worst level read only
+    // above it would pass a unit over its limit there. The top ends by itself at toHz / n.
+    if (series.points[0].frequencyHz > step.fromHz * HARMONIC_START_TOLERANCE) {
+      measured.push({ m: measurement(quantity, null, limit, `${name} could be read only over ${span}, not from ${hz(step.fromHz)} where the band starts; make the sweep longer`), label: name });
+      continue;
+    }
+    const top = series.points.reduce((a, b) => (b.levelDbc > a.levelDbc ? b : a));
     measured.push({ m: measurement(quantity, round(top.levelDbc, 0.01), limit, `worst over ${span} (by the fundamental's frequency), at ${hz(top.frequencyHz)}`), label: name });
   }
   const reasons = measured

@@ -213,9 +213,5 @@ describe('max-level on the demo bench', () => {
     expect(result.verdict).toBe('fail');
     expect(result.measurements[0].value).toBeNull();
     expect(result.reasons[0]).toMatch(/input clipped/);
-    // The stage's output at the station input reaches full scale (0 dBFS peak) with 6 dB more gain
-    // only past the swing's knee, where THD is still under the 10 % threshold: the stop was the clip.
-    const clippedAt = bench.station.records.getRun(runOf('ML-0002').id).stepResults.length;
-    expect(clippedAt).toBeGreaterThan(0);
   });
 });

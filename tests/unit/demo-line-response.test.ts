@@ -37,7 +37,7 @@ const PROCEDURE = {
       instructions: ['The sweep plays once.'],
       fromHz: 10,
       toHz: 20000,
-      durationS: 5,
+      durationS: 13.2, // 12 cycles of 10 Hz before H2 (docs/procedures.md): 12/10/ln 2 × ln 2000 = 13.16 s
       level: { value: -20, unit: 'dBFS' },
       referenceHz: 1000,
       // Tighter than the stage at 10 Hz (−0.31 dB there): the step fails and stops the walk.

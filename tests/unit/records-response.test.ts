@@ -51,7 +51,8 @@ const procedure = (revision: string, durationS: number, requiresCalibration = fa
   requiresCalibration,
   steps: [{ id: 'safety', title: 'Safety', kind: 'notice', instructions: ['Mute monitors.'], acknowledgement: 'Monitors are muted.' }, responseStep(durationS), TRIM_STEP],
 });
-const specOf = (durationS: number, rate = RATE): LogSweepSpec => ({ startHz: 20, endHz: 20000, durationS, sampleRateHz: rate, levelDbfs: -10 });
+// The station sweeps from an octave below the band (20 Hz) at the band's own sweep rate (docs/procedures.md, `response`).
+const specOf = (durationS: number, rate = RATE): LogSweepSpec => ({ startHz: 10, endHz: 20000, durationS: (durationS * Math.log(2000)) / Math.log(1000), sampleRateHz: rate, levelDbfs: -10 });
 
 let dir: ReturnType<typeof tempDir>;
 let station: ReturnType<typeof openStation>;
@@ -84,10 +85,10 @@ afterEach(() => {
 
 describe('recordResponse', () => {
   it('passes a stage that stays inside the mask and fails one that leaves it, at the frequency the formula says; the curve is kept', async () => {
-    const id = await importFile(procedure('A', 3));
+    const id = await importFile(procedure('A', 6));
     // Corner at 5 Hz: |H(20 Hz)|² = 256/257, −0.017 dB. Corner at 40 Hz: x = 0.5, −12.3 dB at 20 Hz.
     const good = await atResponseStep(id, 'X1-0001');
-    const passed = await call('recordResponse', record(good, unit(specOf(3), 5)));
+    const passed = await call('recordResponse', record(good, unit(specOf(6), 5)));
     const result = passed.stepResults.at(-1)!;
     expect(result).toMatchObject({ stepId: 'response', kind: 'response', verdict: 'pass' });
     expect(result.measurements.map((m) => [m.quantity, m.low, m.high, m.verdict])).toEqual([
@@ -102,7 +103,7 @@ describe('recordResponse', () => {
     expect(passed.judgement.steps.map((st) => st.status)).toEqual(['pass', 'pass', 'not-run']);
 
     const bad = await atResponseStep(id, 'X1-0002');
-    const failed = (await call('recordResponse', record(bad, unit(specOf(3), 40)))).stepResults.at(-1)!;
+    const failed = (await call('recordResponse', record(bad, unit(specOf(6), 40)))).stepResults.at(-1)!;
     expect(failed.verdict).toBe('fail');
     // −0.5 dB where x⁴/(1 + x⁴) = 10^(−0.05): x = 1.69, 67.7 Hz; below it the stage is outside the mask.
     const x = ((10 ** -0.05) / (1 - 10 ** -0.05)) ** 0.25;
@@ -119,31 +120,32 @@ describe('recordResponse', () => {
   }, 120_000);
 
   it('refuses a capture of another sweep, at another rate, clipped or silent, and stores nothing', async () => {
-    const id = await importFile(procedure('A', 3));
+    const id = await importFile(procedure('A', 6));
     const runId = await atResponseStep(id, 'X1-0003');
     const padded = (samples: number[], to: number) => [...samples, ...Array<number>(Math.max(0, to - samples.length)).fill(0)];
-    const length = unit(specOf(3), 5).length;
+    const length = unit(specOf(6), 5).length;
     // Another sweep: 3.05 s instead of 3 s.
-    expect(await refusal('recordResponse', record(runId, unit(specOf(3.05), 5).slice(0, length)))).toMatch(/does not follow this sweep/);
+    expect(await refusal('recordResponse', record(runId, unit(specOf(6.05), 5).slice(0, length)))).toMatch(/does not follow this sweep/);
     // Played at 44.1 kHz, said to be 48 kHz: every frequency lies 8 % off.
-    expect(await refusal('recordResponse', record(runId, padded(unit(specOf(3, 44100), 5), length)))).toMatch(/does not (follow|hold) (this|the) sweep/);
+    expect(await refusal('recordResponse', record(runId, padded(unit(specOf(6, 44100), 5), length)))).toMatch(/does not (follow|hold) (this|the) sweep/);
     // Clipped: the same stage driven 20 dB harder into an input that stops at full scale.
-    expect(await refusal('recordResponse', record(runId, unit(specOf(3), 5).map((v) => Math.max(-1, Math.min(1, 10 * v)))))).toMatch(/input clipped/);
+    expect(await refusal('recordResponse', record(runId, unit(specOf(6), 5).map((v) => Math.max(-1, Math.min(1, 10 * v)))))).toMatch(/input clipped/);
     expect(await refusal('recordResponse', record(runId, Array<number>(length).fill(0)))).toMatch(/does not reach the input/);
     // A setup at another rate than the capture says.
-    expect(await refusal('recordResponse', { ...record(runId, unit(specOf(3), 5)), setup: { ...TEST_SETUP, sampleRateHz: 44100 } })).toMatch(/audio setup runs at 44100 Hz/);
-    expect(await refusal('recordResponse', record(runId, [...unit(specOf(3), 5), Number.NaN]))).toMatch(/request to record the frequency response/);
+    expect(await refusal('recordResponse', { ...record(runId, unit(specOf(6), 5)), setup: { ...TEST_SETUP, sampleRateHz: 44100 } })).toMatch(/audio setup runs at 44100 Hz/);
+    expect(await refusal('recordResponse', record(runId, [...unit(specOf(6), 5), Number.NaN]))).toMatch(/request to record the frequency response/);
     expect(station.records.getRun(runId).stepResults.filter((r) => r.stepId === 'response')).toEqual([]);
   }, 120_000);
 
   it('analyses with the sweep of the revision the run follows, never a newer one', async () => {
-    const a = await importFile(procedure('A', 3));
+    const a = await importFile(procedure('A', 6));
     const runId = await atResponseStep(a, 'X1-0004');
-    await importFile(procedure('B', 4));
-    // Revision B sweeps for 4 s; the run follows A (3 s).
-    const ofB = unit(specOf(4), 5);
-    expect(await refusal('recordResponse', record(runId, ofB.slice(0, unit(specOf(3), 5).length + RATE / 2)))).toMatch(/does not follow this sweep/);
-    expect((await call('recordResponse', record(runId, unit(specOf(3), 5)))).stepResults.at(-1)!.verdict).toBe('pass');
+    await importFile(procedure('B', 7));
+    // Revision B sweeps for 7 s; the run follows A (6 s). A's analysis either finds B's sweep not its
+    // own or finds it so late that the capture ends before A's sweep would have: refused either way.
+    const ofB = unit(specOf(7), 5);
+    expect(await refusal('recordResponse', record(runId, ofB.slice(0, unit(specOf(6), 5).length + RATE / 2)))).toMatch(/does not follow this sweep|capture ends .* before the sweep did/);
+    expect((await call('recordResponse', record(runId, unit(specOf(6), 5)))).stepResults.at(-1)!.verdict).toBe('pass');
   }, 120_000);
 
   it('refuses an uncorrected response when the procedure requires calibration and the run has no chain response', async () => {
@@ -153,9 +155,9 @@ describe('recordResponse', () => {
       output: { referenceHz: 1000, referenceDbfs: -20, meterEntry: '0.7746 V' },
       input: { method: 'loopback', generatorDbfs: -20, capturedDbfs: -20, capturedHz: 1000.2 },
     });
-    const id = await importFile(procedure('A', 3, true));
+    const id = await importFile(procedure('A', 6, true));
     const runId = await atResponseStep(id, 'X1-0005');
-    expect(await refusal('recordResponse', record(runId, unit(specOf(3), 5)))).toMatch(/requires a calibrated station.*no chain check with a frequency response.*Run the chain check/);
+    expect(await refusal('recordResponse', record(runId, unit(specOf(6), 5)))).toMatch(/requires a calibrated station.*no chain check with a frequency response.*Run the chain check/);
   }, 120_000);
 
   it('takes the station’s chain out of the response when the run’s chain check measured it: a 4 Hz first-order coupling in the interface leaves the unit’s own response', async () => {
@@ -186,7 +188,7 @@ describe('recordResponse', () => {
         latencyRefusal: null,
       },
     });
-    const id = await importFile(procedure('A', 3, true));
+    const id = await importFile(procedure('A', 6, true));
     const runId = await atResponseStep(id, 'X1-0006');
     const both: AnalogueResponse = (f) => {
       const a = butterworthHighPass2(5)(f);
@@ -194,7 +196,7 @@ describe('recordResponse', () => {
       const c = { re: (x * x) / (1 + x * x), im: x / (1 + x * x) }; // jx/(1 + jx)
       return { re: a.re * c.re - a.im * c.im, im: a.re * c.im + a.im * c.re };
     };
-    const spec = specOf(3);
+    const spec = specOf(6);
     const result = (await call('recordResponse', record(runId, Array.from(filtered(logSweep(spec), RATE, both, 480))))).stepResults.at(-1)!;
     expect(result.curve).toMatchObject({ corrected: true, uncorrectedReason: null });
     expect(result.measurements[0].note).toMatch(/corrected by the station's chain response \(chain check of \d{4}-\d\d-\d\d\)$/);

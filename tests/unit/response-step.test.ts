@@ -14,9 +14,9 @@ const STEP: ResponseStep = {
   title: 'Frequency response',
   instructions: ['Leave the unit connected as for the checks.'],
   kind: 'response',
-  fromHz: 10,
+  fromHz: 20,
   toHz: 22000,
-  durationS: 10,
+  durationS: 7,
   level: { value: -6, unit: 'dBFS' },
   referenceHz: 1000,
   mask: [
@@ -159,7 +159,7 @@ describe('what a response step refuses', () => {
     expect(sweepSpecFor(inDbu, RATE, { outputDbuAtFullScale: 18, inputDbuAtFullScale: 18 })).toMatchObject({ ok: true, spec: { levelDbfs: -14 }, levelDbu: 4 });
   });
 
-  it('a sweep that cannot resolve its own start: 4 cycles of fromHz in the room L·ln 2 before H2 (Farina 2000 spacing)', () => {
+  it('a sweep too short to read its band’s start closely: 12 cycles of fromHz in the room L·ln 2 before H2 (Farina 2000 spacing; the count is the station’s own rule, docs/procedures.md)', () => {
     const file = (durationS: number): ProcedureFile => ({
       schemaVersion: 2,
       code: 'T-1',
@@ -174,13 +174,13 @@ describe('what a response step refuses', () => {
         { ...STEP, durationS },
       ],
     });
-    // T ≥ 4/f1/ln 2 · ln(f2/f1): 10 Hz to 22 kHz needs 0.577 · 7.696 = 4.44 s.
-    const needed = (4 / 10 / Math.LN2) * Math.log(22000 / 10);
-    expect(needed).toBeCloseTo(4.44, 2);
-    expect(checkProcedureFile(JSON.stringify(file(4.5))).ok).toBe(true);
-    const short = checkProcedureFile(JSON.stringify(file(4.4)));
+    // T ≥ 12/f1/ln 2 · ln(f2/f1): 20 Hz to 22 kHz needs 0.8656 · 7.003 = 6.06 s.
+    const needed = (12 / 20 / Math.LN2) * Math.log(22000 / 20);
+    expect(needed).toBeCloseTo(6.06, 2);
+    expect(checkProcedureFile(JSON.stringify(file(6.1))).ok).toBe(true);
+    const short = checkProcedureFile(JSON.stringify(file(6.0)));
     expect(short.ok).toBe(false);
-    if (!short.ok) expect(short.problems).toContainEqual({ path: 'steps[1].durationS', message: expect.stringMatching(/at least 4\.5 s/) });
+    if (!short.ok) expect(short.problems).toContainEqual({ path: 'steps[1].durationS', message: expect.stringMatching(/at least 6\.1 s/) });
   });
 
   it('a mask outside the band, out of order, or with its bounds given at some points only', () => {
@@ -228,8 +228,47 @@ describe('correction by the chain response', () => {
 });
 
 it('layout: the step plays the same samples as the offline sweep writer for its parameters', () => {
-  // sweep --write uses logSweep with the same spec: one function, one array.
+  // sweep --write uses logSweep with the same spec: one function, one array. The station starts the
+  // sweep an octave below the band at the band's own sweep rate (docs/procedures.md, `response`):
+  // 7 s for 20 Hz–22 kHz (ln 1100) becomes 7·ln 2200/ln 1100 s from 10 Hz.
   const layout = logSweepLayout(SPEC);
-  expect(SPEC).toEqual({ startHz: 10, endHz: 22000, durationS: 10, sampleRateHz: RATE, levelDbfs: -6 });
+  expect(SPEC.startHz).toBe(10);
+  expect(SPEC.durationS).toBeCloseTo((7 * Math.log(2200)) / Math.log(1100), 12);
+  expect(SPEC).toMatchObject({ endHz: 22000, sampleRateHz: RATE, levelDbfs: -6 });
   expect(logSweep(SPEC).length).toBe(layout.totalLength);
+});
+
+describe('the bottom of the band, where a transformer stage rolls off and distorts most', () => {
+  // The shortest sweep the schema allows for 20 Hz–20 kHz (docs/procedures.md: 12/fromHz/ln 2 × ln(toHz/fromHz) = 5.98 s).
+  const band: ResponseStep = { ...STEP, fromHz: 20, toHz: 20000, durationS: 6, mask: flatLowMask(20, 20000, -3.2) };
+  const spec = specOf(band);
+  const read = (capture: ArrayLike<number>) => {
+    const outcome = analyzeSweepResponse(capture, spec, { fromHz: band.fromHz, toHz: band.toHz, referenceHz: band.referenceHz });
+    if (!outcome.ok) throw new Error(outcome.reason);
+    return outcome.result;
+  };
+
+  it('reads a second-order Butterworth high-pass at its corner as −3.01 dB (|H|² = 1/2 at fc) within 0.05 dB, even on the shortest sweep', () => {
+    const response = read(filtered(logSweep(spec), RATE, butterworthHighPass2(20), 200));
+    const at20 = response.response.find((p) => Math.abs(p.frequencyHz - 20) < 1e-6)!;
+    expect(Math.abs(at20.levelDb - 10 * Math.log10(0.5))).toBeLessThan(0.05);
+    // A mask 0.2 dB looser than the corner's level passes; one 0.2 dB tighter must fail.
+    expect(judgeResponse({ ...band, mask: flatLowMask(20, 20000, -3.21) }, response, { corrected: false, note: 'test' }).verdict).toBe('pass');
+    expect(judgeResponse({ ...band, mask: flatLowMask(20, 20000, -2.81) }, response, { corrected: false, note: 'test' }).verdict).toBe('fail');
+  }, 60_000);
+
+  it('fails a harmonic limit that the sweep could read only above the band’s start, rather than judging the worst of what is left', () => {
+    const response = read(logSweep(spec));
+    // The same analysis with H3 readable only from 30 Hz up: half an octave of the band unread.
+    const cut: SweepResponse = { ...response, harmonics: response.harmonics.map((h) => (h.order === 3 ? { ...h, points: h.points.filter((p) => p.frequencyHz >= 30) } : h)) };
+    const step = { ...band, limits: { harmonicsDbc: { H3: { high: -40, unit: 'dBc' as const } } } };
+    const judgedCut = judgeResponse(step, cut, { corrected: false, note: 'test' });
+    expect(judgedCut.verdict).toBe('fail');
+    const h3 = judgedCut.measurements.find((m) => m.quantity === 'harmonicsDbc.H3')!;
+    expect(h3.value).toBeNull();
+    expect(h3.note).toMatch(/not from 20\.0 Hz/);
+    // Read from the band's start (the sweep began an octave lower), a clean sweep's H3 is far under −40 dBc: a pass.
+    expect(response.harmonics.find((h) => h.order === 3)!.points[0].frequencyHz).toBeLessThanOrEqual(20 * 2 ** (1 / 12));
+    expect(judgeResponse(step, response, { corrected: false, note: 'test' }).verdict).toBe('pass');
+  }, 60_000);
 });
