@@ -173,7 +173,7 @@ describe('the demo procedure walked whole', () => {
     // The response: Enter after the caution plays the sweep once; main analyses it and the walk moves on.
     await expect.poll(() => currentStep(page), POLL).toBe('response');
     const sweep = page.getByTestId('response-step');
-    expect(await page.getByTestId('sweep-caution').textContent()).toMatch(/Sweeps 20 Hz to 20 kHz in 3\.0 s.*Esc/);
+    expect(await page.getByTestId('sweep-caution').textContent()).toMatch(/Sweeps 10 Hz to 20 kHz in 6\.6 s.*Esc/);
     await page.getByTestId('sweep-primary').press('Enter');
     await expect.poll(() => sweep.getAttribute('data-phase'), POLL).toBe('playing');
     await page.screenshot({ path: '/tmp/walk-response-during.png' });
