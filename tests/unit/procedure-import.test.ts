@@ -11,7 +11,7 @@ import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { dispatch, type CallerContext } from '../../electron/services/handlers.ts';
 import { openStation } from '../../electron/services/station.ts';
 import type { ProcedureRevision } from '../../shared/ipc/contract.ts';
-import { noCaller, tempDir, startUnit } from '../support/station.ts';
+import { noCaller, tempDir, startUnit, TEST_SETUP } from '../support/station.ts';
 import { sealRow } from '../../electron/services/stored-record.ts';
 import { DEMO_PROCEDURE } from '../../shared/procedures/demo-procedure.ts';
 
@@ -162,6 +162,39 @@ describe('a run and its revision', () => {
     expect(resumed.run.id).toBe(open.run.id);
     expect(resumed.procedure.revision).toBe(builtIn.definition.revision);
     expect(station.records.listProcedures().map((p) => p.definition.revision)).toEqual(['D']);
+  });
+});
+
+describe('the demo file’s revision E after D', () => {
+  it('a run opened under revision D (the checks without the sweep, max-level and ringing steps) keeps D and its steps; new runs use E with the three new steps (docs/procedures.md, Revisions)', async () => {
+    // Revision D as it was: the file's steps up to the hum check. Both require a calibrated station.
+    const calibrated = await dispatch(station.handlers, 'recordCalibration', {
+      operator: 'A. Tester',
+      setup: TEST_SETUP,
+      output: { referenceHz: 1000, referenceDbfs: -20, meterEntry: '0.7746 V' },
+      input: { method: 'loopback', generatorDbfs: -20, capturedDbfs: -20, capturedHz: 1000 },
+    }, noCaller);
+    if (!calibrated.ok) throw new Error(calibrated.error.message);
+    const d = join(dir.path, 'rev-d.json');
+    const file = JSON.parse(readFileSync(RESOURCE, 'utf8'));
+    const newKinds = ['response', 'max-level', 'ringing'];
+    writeFileSync(d, JSON.stringify({ ...file, revision: 'D', steps: file.steps.filter((s: { kind: string }) => !newKinds.includes(s.kind)) }));
+    expect(await importFile(d)).toMatchObject({ ok: true, value: { outcome: 'stored', revision: 'D' } });
+    const underD = station.records.listProcedures().find((p) => p.definition.code === 'MG20-LF-TRIM')!;
+    const open = startUnit(station.records, { serial: 'MG20-2611-0042', procedureId: underD.id, operator: 'A. Tester', setup: TEST_SETUP });
+    expect(await importFile(RESOURCE)).toMatchObject({ ok: true, value: { outcome: 'stored', revision: 'E' } });
+    const newest = station.records.listProcedures().find((p) => p.definition.code === 'MG20-LF-TRIM')!;
+    expect(newest.definition.revision).toBe('E');
+    // The open run resumes on D, and walks D's steps: none of the new ones.
+    const resumed = startUnit(station.records, { serial: 'MG20-2611-0042', procedureId: newest.id, operator: 'A. Tester', setup: TEST_SETUP });
+    expect(resumed.run.id).toBe(open.run.id);
+    expect(resumed.procedure.revision).toBe('D');
+    expect(resumed.procedureFile.steps.map((s) => s.kind).filter((k) => newKinds.includes(k))).toEqual([]);
+    const answer = await dispatch(station.handlers, 'listProcedureRevisions', {}, noCaller);
+    if (!answer.ok) throw new Error(answer.error.message);
+    const e = (answer.value as ProcedureRevision[]).find((r) => r.revision === 'E')!;
+    expect(e.current).toBe(true);
+    expect(e.file.steps.slice(-3).map((s) => s.kind)).toEqual(newKinds);
   });
 });
 
