@@ -1,15 +1,20 @@
 // The demo line's station side: opens the station in the data folder exactly as the app does,
 // imports the demo procedure file, calibrates the demo bench if it has no calibration that holds,
-// gives each simulated unit a free serial, and sends every call through main's own dispatcher
-// (the same validation the page's calls get). The walk itself is shared/procedures/demo-line.ts.
+// runs the chain check on the demo loopback when a response step needs the station's own response
+// taken out, gives each simulated unit a free serial, and sends every call through main's own
+// dispatcher (the same validation the page's calls get). A ringing step's scope record is saved as
+// DIR/scope/<serial>.csv and chosen in main's file dialog, as a technician saves and picks it. The
+// walk itself is shared/procedures/demo-line.ts.
 
+import { mkdirSync, writeFileSync } from 'node:fs';
+import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { dispatch, type CallerContext } from '../electron/services/handlers.ts';
 import { openStation } from '../electron/services/station.ts';
 import { calibrationStatus, type AudioSetup } from '../shared/calibration/station-calibration.ts';
 import type { IpcChannel } from '../shared/ipc/channels.ts';
 import type { IpcRequest, IpcResponse } from '../shared/ipc/contract.ts';
-import { demoCalibrationRequest, LineCallRefused, lineUnitReport, walkUnit, type LineUnitReport } from '../shared/procedures/demo-line.ts';
+import { demoCalibrationRequest, demoChainCheckRequest, LineCallRefused, lineUnitReport, walkUnit, type LineUnitReport } from '../shared/procedures/demo-line.ts';
 import { demoBatch } from '../shared/sim/demo-batch.ts';
 
 export const DEMO_PROCEDURE_FILE = fileURLToPath(new URL('../resources/procedures/mg20-lf-trim.json', import.meta.url));
@@ -48,12 +53,21 @@ export async function runDemoLine(options: {
   try {
     const problem = station.recordsProblem();
     if (problem !== null) throw new DemoLineProblem(problem);
+    // The scope record saved last: what the technician picks in main's dialog for the ringing step.
+    let scopePath: string | null = null;
     const caller: CallerContext = {
       printToPdf: async () => {
         throw new DemoLineProblem('The demo line prints no sheets.');
       },
       print: async () => false,
       chooseProcedureFile: async () => DEMO_PROCEDURE_FILE,
+      chooseScopeCapture: async () => scopePath,
+    };
+    const scopeDir = join(options.dataDir, 'scope');
+    const scopeFile = (serial: string, text: string) => {
+      mkdirSync(scopeDir, { recursive: true });
+      scopePath = join(scopeDir, `${serial}.csv`);
+      writeFileSync(scopePath, text);
     };
     const call = async <C extends IpcChannel>(channel: C, request: IpcRequest<C>): Promise<IpcResponse<C>> => {
       const result = await dispatch(station.handlers, channel, request, caller, station.errorLog);
@@ -65,15 +79,26 @@ export async function runDemoLine(options: {
     const procedure = (await call('listProcedures', {})).find((p) => p.definition.code === DEMO_PROCEDURE_CODE);
     if (!procedure) throw new DemoLineProblem(`${DEMO_PROCEDURE_CODE} is not in the station's procedures after importing ${DEMO_PROCEDURE_FILE}.`);
 
-    let { calibration, settings } = await call('getStationCalibration', {});
+    let { calibration, settings, chainCheck } = await call('getStationCalibration', {});
     const holds = calibration && calibrationStatus(calibration, SETUP, options.now?.() ?? new Date(), settings.calibrationExpiryDays).state === 'valid';
-    if (!holds) calibration = (await call('recordCalibration', demoCalibrationRequest(SETUP, OPERATOR))).calibration;
+    if (!holds) {
+      calibration = (await call('recordCalibration', demoCalibrationRequest(SETUP, OPERATOR))).calibration;
+      chainCheck = null;
+    }
     if (!calibration) throw new DemoLineProblem('The demo bench could not be calibrated.');
+    // A response step is corrected by the chain's own response, and refused without it where the
+    // procedure requires calibration: the technician runs the chain check with its stepped sine first.
+    const current = (await call('listProcedureRevisions', {})).find((r) => r.id === procedure.id);
+    const sweeps = current?.file.steps.some((s) => s.kind === 'response') ?? false;
+    if (sweeps && !chainCheck?.result.response) {
+      await call('recordChainCheck', demoChainCheckRequest(SETUP, calibration.id, OPERATOR, settings.mainsHz, options.now?.() ?? new Date()));
+    }
     const stationLine = {
       sampleRateHz: SETUP.sampleRateHz,
       mainsHz: settings.mainsHz,
       levels: { outputDbuAtFullScale: calibration.output.dbuAtFullScale, inputDbuAtFullScale: calibration.input.dbuAtFullScale },
       setup: SETUP,
+      scopeFile,
     };
 
     const serials = await freeSerials(options.units, (options.now?.() ?? new Date()), (serial) => call('lookUpUnit', { serial }), options.dataDir);

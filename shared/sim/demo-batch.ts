@@ -8,6 +8,8 @@
 // tracks ±20 %, winding resistance ±10 %. A part's value is taken as normal about nominal with
 // the tolerance at three standard deviations, cut off at the tolerance (a part outside it is
 // rejected at goods-in). Driver distortion, noise and hum vary as ratios: log-normal spreads.
+// Every sixth defective unit (the defects taken in turn) is the one caught only by the ringing
+// step, so a batch of 30 meets each defect once.
 
 import { GaussianNoise, mulberry32 } from '../dsp/seeded-noise.ts';
 import { DEMO_UNIT_PARAMETERS, nullTurnsOf, type DemoUnitParameters } from './demo-unit.ts';
@@ -66,6 +68,12 @@ export const BATCH_DEFECTS: readonly { defect: BatchDefect; apply: (p: DemoUnitP
     defect: { stepId: 'hum', what: 'mains hum 15 dB above its design (a badly dressed mains lead)' },
     apply: (p) => ({ ...p, humDbfs: p.humDbfs + 15 }),
   },
+  {
+    // The damping network across the secondary left off: the leakage resonance rings with a damping
+    // ratio of 0.15, an overshoot of exp(−ζπ/√(1−ζ²)) ≈ 62 % (the textbook second-order result).
+    defect: { stepId: 'ringing-20k', what: 'damping network across the secondary missing: the output rings far too long after an edge' },
+    apply: (p) => ({ ...p, hfDampingRatio: 0.15 }),
+  },
 ];
 
 /** Every this-many-th unit of a batch is built wrong, the defects taken in turn (unit 4, 9, 14, …). */
@@ -78,6 +86,10 @@ export function demoBatch(count: number, seed: number): BatchUnit[] {
   const part = (nominal: number, tolerance: number) => nominal * (1 + Math.max(-1, Math.min(1, normal.next() / 3)) * tolerance);
   /** A ratio spread log-normally: `spreadDb` is one standard deviation, in dB. */
   const spreadDb = (nominal: number, spread: number) => nominal * 10 ** ((spread * normal.next()) / 20);
+  // The high-frequency parts draw from their own sequence, so every other value of a seed's batch
+  // stays what it was before they were added.
+  const hfNormal = new GaussianNoise(mulberry32(seed ^ 0x2c1b3c6d));
+  const hfPart = (nominal: number, tolerance: number) => nominal * (1 + Math.max(-1, Math.min(1, hfNormal.next() / 3)) * tolerance);
   const n = DEMO_UNIT_PARAMETERS;
   const units: BatchUnit[] = [];
   for (let index = 0; index < count; index++) {
@@ -96,6 +108,10 @@ export function demoBatch(count: number, seed: number): BatchUnit[] {
       couplingDampingOhms: part(n.couplingDampingOhms, 0.05),
       reflectedLoadOhms: part(n.reflectedLoadOhms, 0.05),
       humDbfs: n.humDbfs + 1.5 * normal.next(),
+      // Invented spreads: the leakage inductance and winding capacitance set the natural frequency
+      // (±15 % between windings), the damping network and the load's tolerance its damping (±10 %).
+      hfNaturalHz: hfPart(n.hfNaturalHz, 0.15),
+      hfDampingRatio: hfPart(n.hfDampingRatio, 0.1),
     };
     const wrong = index % DEFECT_EVERY === DEFECT_EVERY - 1 ? BATCH_DEFECTS[Math.floor(index / DEFECT_EVERY) % BATCH_DEFECTS.length] : null;
     const parameters = wrong ? wrong.apply(built) : built;

@@ -52,6 +52,15 @@ export interface DemoUnitParameters {
   /** Mains hum at the output, dBFS, and its frequency. */
   humDbfs: number;
   mainsHz: number;
+  /**
+   * The output stage far above the audio band: the transformer's leakage inductance with its
+   * winding capacitance and the damping network across the secondary make a second-order low-pass
+   * (natural frequency and damping ratio), the ringing a scope shows after a square wave's edge.
+   * It moves 20 kHz by a few hundredths of a dB, so the audio path (render) leaves it out; the scope records
+   * (demo-scope.ts) show it.
+   */
+  hfNaturalHz: number;
+  hfDampingRatio: number;
 }
 
 /** Invented values for the invented "MG-20" (design §9). */
@@ -75,6 +84,8 @@ export const DEMO_UNIT_PARAMETERS: DemoUnitParameters = {
   inputNoiseFullScale: 2e-7,
   humDbfs: -105,
   mainsHz: 50,
+  hfNaturalHz: 300_000,
+  hfDampingRatio: 0.5,
 };
 
 /** The trimmer position where the net resistance R0 − R_c(p) is zero, from the parameters alone. */

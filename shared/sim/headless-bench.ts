@@ -70,9 +70,11 @@ export class HeadlessBench {
 
   /**
    * Runs the unit until the meter reports a settled reading, or for `maxSeconds` of the unit's
-   * time, whichever comes first; the latest reading either way (null when none came at all).
+   * time, whichever comes first; the latest reading either way (null when none came at all). With
+   * `stopOnClipping`, a fresh reading flagged as clipping is taken at once, settled or not (the
+   * max-level sequence ends on it).
    */
-  settle(maxSeconds: number): SettledReading | null {
+  settle(maxSeconds: number, options: { stopOnClipping?: boolean } = {}): SettledReading | null {
     const start = this.rendered;
     const limit = start + Math.round(maxSeconds * this.sampleRateHz);
     let latest: Reading | null = null;
@@ -89,7 +91,7 @@ export class HeadlessBench {
         if (!reading.flags.includes('no-signal')) this.addToSeries(reading);
       }
       latest = reading;
-      if (reading.settled) break;
+      if (reading.settled || (options.stopOnClipping && reading.flags.includes('clipping'))) break;
     }
     if (!latest) return null;
     return {

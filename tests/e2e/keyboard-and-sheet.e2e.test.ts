@@ -239,7 +239,7 @@ describe('the unit sheet’s pages', () => {
   it('prints the demo procedure — every step with its values and limits, and a ten-point trim — on one A4 page (ISO 216: 210 × 297 mm)', { timeout: 60_000 }, async () => {
     // This checks the layout, not the step walk (tests/unit/records-steps.test.ts walks it): the
     // finished run comes back with the demo file's revision and one result per step, shaped as main
-    // stores them, without measuring all ten steps here.
+    // stores them, without measuring all thirteen steps here.
     const file = procedureFileSchema.parse(JSON.parse(readFileSync(new URL('../../resources/procedures/mg20-lf-trim.json', import.meta.url), 'utf8')));
     const m = (quantity: string, value: number, unit: string, low: number | null, high: number | null, note: string | null = null) => ({
       quantity, value, unit, low, high, note,
@@ -256,6 +256,20 @@ describe('the unit sheet’s pages', () => {
       'gain-1khz': [m('gainDb', 0.08, 'dB', -0.5, 0.5, '+4.08 dBu out for +4.00 dBu in')],
       'noise-a': [m('noiseDbu', -90.6, 'dBu', null, -85, 'A-weighted (IEC 61672), in the meter’s band; tones (mains hum, any stray tone) are taken out of it')],
       hum: [m('humDbu', -78.2, 'dBu', null, -80, '50.00 Hz mains; the power sum of the fundamental, harmonic 2, harmonic 3')],
+      // The notes main writes for the response, max-level and ringing steps, at their usual length.
+      response: [m('maskMarginDb', 0.21, 'dB', 0, null, '0.04 dB at 40.0 Hz, closest to its high bound of 0.25 dB; corrected by the station\'s chain response (chain check of 2026-12-03)')],
+      'max-level-1khz': [m('maxLevelDbu', 16.6, 'dBu', 14, null, 'THD+N reached 1 % at 1000 Hz between +15.9 dBu (0.47 %) and +16.9 dBu out (1.28 %); interpolated in dB of THD+N')],
+      'ringing-20k': [
+        m('ringFrequencyHz', 258_100, 'Hz', 100_000, null, 'median over the edges that ring'),
+        m('dampingRatio', 0.49, 'ratio', 0.35, null, 'from the logarithmic decrement, median over the edges that ring'),
+        m('overshootPercent', 16.4, '%', null, 30, 'first peak beyond the final level, percent of the step, median over the edges'),
+        m('settlingTimeS', 3.6e-6, 's', null, 1e-5, 'to ±2 % of the step from the edge\'s 50 % point, median over the edges'),
+      ],
+    };
+    // The ringing step names the scope record it was judged from (the sheet's conditions say so).
+    const scopeRecord = {
+      fileName: 'mg20-demo-scope-20khz.csv', channel: 0, channelName: 'CH1', edges: 4, squareHz: 20_000, sampleIntervalS: 2e-8, flags: [],
+      plot: { polarity: 'rising' as const, timeS: [0], values: [0], unit: 'V', finalLevelV: 1.1, stepV: 2.2, envelope: null, envelopeFromS: null },
     };
     const results: StepResult[] = file.steps.map((step, i) => {
       const measurements = measured[step.id] ?? [];
@@ -265,6 +279,7 @@ describe('the unit sheet’s pages', () => {
         verdict: failed.length > 0 ? 'fail' : 'pass',
         reasons: failed.map((x) => `${x.quantity} ${x.value} ${x.unit} is outside its limit.`),
         measurements, stimulus: null,
+        ...(step.kind === 'ringing' && { scopeRecord }),
       };
     });
     // Main stores the judgement over the steps as the run's verdict: here FAIL, on the hum alone.
@@ -277,6 +292,7 @@ describe('the unit sheet’s pages', () => {
       judgement,
     });
     const { pages, pdfPath } = await sheetPdf('MG20-2611-0112', [0, 0.5, 1, 1.5, 2, 2.5, 3, 3.5, 4, 4.5], withSteps);
+    execFileSync('pdftoppm', ['-png', '-r', '80', pdfPath, '/tmp/demo-procedure-sheet']);
     expect(pages).toHaveLength(1);
     // A4 is 210 × 297 mm (ISO 216); a PostScript point is 1/72 inch and an inch 25.4 mm.
     const size = /Page size:\s+([\d.]+) x ([\d.]+) pts/.exec(execFileSync('pdfinfo', [pdfPath], { encoding: 'utf8' }))!;
@@ -291,5 +307,6 @@ describe('the unit sheet’s pages', () => {
     expect([...at].sort((a, b) => a - b)).toEqual(at);
     expect(text).toContain('≤ −52.0 dBc');
     expect(text).toContain('−0.50 to +0.50 dB');
+    expect(text).toContain('mg20-demo-scope-20khz.csv');
   });
 });

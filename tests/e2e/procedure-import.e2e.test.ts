@@ -17,7 +17,7 @@ afterAll(async () => {
 });
 
 describe('importing a procedure in the app', () => {
-  it('imports the demo file with its checks as revision D once, names problems of a broken file, and the bench offers the new revision', async () => {
+  it('imports the demo file with its checks as revision E once, names problems of a broken file, and the bench offers the new revision', async () => {
     bench = await openBench({ captureWav: null });
     const page = await bench.openApp();
     await page.getByTestId('open-station').click();
@@ -28,8 +28,8 @@ describe('importing a procedure in the app', () => {
     bench.procedureFileChoice.path = RESOURCE;
     await page.getByTestId('import-procedure').click();
     await page.getByTestId('import-procedure').click({ force: true }).catch(() => {});
-    await expect.poll(() => message.textContent(), POLL).toMatch(/Imported MG20-LF-TRIM revision D|already stored exactly/);
-    await expect.poll(() => page.getByTestId('procedure-revisions').textContent(), POLL).toMatch(/MG20-LF-TRIM rev D\s*new runs use it · 0 runs/);
+    await expect.poll(() => message.textContent(), POLL).toMatch(/Imported MG20-LF-TRIM revision E|already stored exactly/);
+    await expect.poll(() => page.getByTestId('procedure-revisions').textContent(), POLL).toMatch(/MG20-LF-TRIM rev E\s*new runs use it · 0 runs/);
     // The view lists both revisions; from the keyboard, the arrow keys move between them and Enter
     // shows one's steps with their limits (the trim's limit from the file: THD ≤ −60 dB).
     await page.locator('button[data-revision]').last().focus();
@@ -38,14 +38,14 @@ describe('importing a procedure in the app', () => {
     await expect.poll(() => page.getByTestId('procedure-steps').locator('h3').textContent(), POLL).toMatch(/^MG20-LF-TRIM revision B/);
     await page.keyboard.press('ArrowDown');
     await page.keyboard.press('Enter');
-    await expect.poll(() => page.getByTestId('procedure-steps').locator('h3').textContent(), POLL).toMatch(/^MG20-LF-TRIM revision D/);
+    await expect.poll(() => page.getByTestId('procedure-steps').locator('h3').textContent(), POLL).toMatch(/^MG20-LF-TRIM revision E/);
     expect(await page.getByTestId('procedure-steps').locator('tbody tr').count()).toBe(demoFile.steps.length);
     expect(await page.getByTestId('procedure-steps').textContent()).toContain('THD ≤ −60.0 dB at the final trim point');
     const rows = (bench.station.db.prepare("SELECT COUNT(*) AS n FROM procedures WHERE code = 'MG20-LF-TRIM'").get() as { n: number }).n;
     expect(rows).toBe(2); // the built-in revision B and the imported C
 
     const broken = structuredClone(demoFile);
-    broken.revision = 'E';
+    broken.revision = 'F';
     broken.steps[1].limitThdDb = 'low';
     const brokenPath = join(tmpdir(), 'trimbench-broken-procedure.json');
     writeFileSync(brokenPath, JSON.stringify(broken));
@@ -55,6 +55,6 @@ describe('importing a procedure in the app', () => {
     await page.screenshot({ path: join(tmpdir(), 'trimbench-procedures.png'), fullPage: true });
 
     await page.getByTestId('station-back').click();
-    await expect.poll(() => page.getByLabel('Procedure').locator('option').allTextContents(), POLL).toEqual(['MG20-LF-TRIM rev D']);
+    await expect.poll(() => page.getByLabel('Procedure').locator('option').allTextContents(), POLL).toEqual(['MG20-LF-TRIM rev E']);
   }, 120_000);
 });

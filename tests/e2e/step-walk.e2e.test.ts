@@ -12,15 +12,23 @@ import { DEMO_UNIT_PARAMETERS } from '../../shared/sim/demo-unit.ts';
 import { openBench, type Bench, POLL } from '../harness/bench-harness.ts';
 import { aWeightedWhiteNoiseDb } from '../support/signals.ts';
 import { readingWithThd } from '../support/station.ts';
+import { demoChainCheckRequest } from '../../shared/procedures/demo-line.ts';
+import { expectedMaskMarginDb, expectedMaxLevelDbu, expectedRinging } from '../support/demo-physics.ts';
+import { execFileSync } from 'node:child_process';
+import { readFileSync } from 'node:fs';
 
 const RESOURCE = fileURLToPath(new URL('../../resources/procedures/mg20-lf-trim.json', import.meta.url));
+const FILE = JSON.parse(readFileSync(RESOURCE, 'utf8'));
+/** The invented example record the README's tour attaches on the demo bench: the nominal unit's. */
+const SCOPE_RECORD = fileURLToPath(new URL('../../resources/demo/mg20-demo-scope-20khz.csv', import.meta.url));
 const SERIAL = 'MG20-2611-0200';
 const LOT = 'WO-4471';
 
-// Output: −20 dBFS reads 0.7746 V, which is 0 dBu (0 dBu = √0.6 V = 0.7746 V RMS), so 0 dBFS is +20 dBu.
-// Input by loopback: that tone is captured at −20 dBFS, so the input is +20 dBu at full scale too.
-// Each check step plays +4 dBu, so −16 dBFS.
-const STEP_LEVEL_DBFS = 4 - 20;
+// Output: −20 dBFS reads 0.6153 V, which is −2.0 dBu (0 dBu = √0.6 V = 0.7746 V RMS), so 0 dBFS is
+// +18 dBu, the invented demo interface's (shared/sim/demo-chain.ts). Input by loopback: that tone is
+// captured at −20 dBFS, so the input is +18 dBu at full scale too. Each check step plays +4 dBu, so −14 dBFS.
+const FS_DBU = 20 + 20 * Math.log10(0.6153 / Math.sqrt(0.6));
+const STEP_LEVEL_DBFS = 4 - FS_DBU;
 const SETUP = { inputDeviceId: 'demo-bench', inputDeviceLabel: 'Demo bench', inputChannel: 0, outputDeviceId: '', outputDeviceLabel: 'Default output', sampleRateHz: 48000 };
 const caller = (path: string | null): CallerContext => ({ printToPdf: async () => new Uint8Array(), print: async () => false, chooseProcedureFile: async () => path });
 
@@ -33,12 +41,18 @@ beforeAll(async () => {
     {
       operator: 'C. Calibrator',
       setup: SETUP,
-      output: { referenceHz: 1000, referenceDbfs: -20, meterEntry: '0.7746 V' },
+      output: { referenceHz: 1000, referenceDbfs: -20, meterEntry: '0.6153 V' },
       input: { method: 'loopback', generatorDbfs: -20, capturedDbfs: -20, capturedHz: 1000 },
     },
     caller(null),
   );
   if (!calibrated.ok) throw new Error(calibrated.error.message);
+  // The chain check with its stepped sine on the demo loopback, as the technician runs it after
+  // calibrating: the response step takes the station's own response out with it (and is refused
+  // without it, the procedure requiring calibration).
+  const { calibration } = calibrated.value as { calibration: { id: number } };
+  const checked = await dispatch(bench.station.handlers, 'recordChainCheck', demoChainCheckRequest(SETUP, calibration.id, 'C. Calibrator', 50, new Date()), caller(null));
+  if (!checked.ok) throw new Error(checked.error.message);
   const imported = await dispatch(bench.station.handlers, 'importProcedure', {}, caller(RESOURCE));
   if (!imported.ok) throw new Error(imported.error.message);
 });
@@ -96,7 +110,7 @@ describe('the demo procedure walked whole', () => {
     await expect.poll(() => page.getByTestId('input-select').inputValue(), POLL).toBe('demo-bench');
     await page.getByRole('button', { name: 'Start capture' }).click();
     await page.getByLabel('Operator').fill('A. Tester');
-    await page.getByLabel('Procedure').selectOption({ label: 'MG20-LF-TRIM rev D' });
+    await page.getByLabel('Procedure').selectOption({ label: 'MG20-LF-TRIM rev E' });
     await page.getByTestId('lot-input').fill(LOT);
     await page.getByTestId('serial-input').fill(SERIAL);
     await page.screenshot({ path: '/tmp/walk-unit-entry.png' });
@@ -156,6 +170,44 @@ describe('the demo procedure walked whole', () => {
       await page.waitForTimeout(600);
     }
 
+    // The response: Enter after the caution plays the sweep once; main analyses it and the walk moves on.
+    await expect.poll(() => currentStep(page), POLL).toBe('response');
+    const sweep = page.getByTestId('response-step');
+    expect(await page.getByTestId('sweep-caution').textContent()).toMatch(/Sweeps 10 Hz to 20 kHz in 6\.6 s.*Esc/);
+    await page.getByTestId('sweep-primary').press('Enter');
+    await expect.poll(() => sweep.getAttribute('data-phase'), POLL).toBe('playing');
+    await page.screenshot({ path: '/tmp/walk-response-during.png' });
+    await expect.poll(() => stepStatus(page, 'response'), { timeout: 30_000, interval: 250 }).toBe('pass');
+    await expect.poll(() => page.getByTestId('response-plot').isVisible(), POLL).toBe(true);
+    await expect.poll(() => focusedTestId(page), POLL).toBe('go-on');
+    await page.screenshot({ path: '/tmp/walk-response.png', fullPage: true });
+    await page.keyboard.press('Enter');
+
+    // The maximum level: a deliberate Enter after the caution starts the rising level; Enter records it.
+    await expect.poll(() => currentStep(page), POLL).toBe('max-level-1khz');
+    const rise = page.getByTestId('max-level');
+    expect(await page.getByTestId('max-level-caution').textContent()).toMatch(/hearing protection.*Esc/s);
+    await page.waitForTimeout(600);
+    await page.keyboard.press('Enter');
+    await expect.poll(() => rise.getAttribute('data-phase'), POLL).toBe('running');
+    await expect.poll(() => rise.getAttribute('data-phase'), { timeout: 120_000 }).toBe('ended');
+    await expect.poll(() => page.getByTestId('mute').textContent(), POLL).toBe('Generator muted');
+    await rise.scrollIntoViewIfNeeded();
+    await page.screenshot({ path: '/tmp/walk-max-level.png', fullPage: true });
+    await page.getByTestId('check-primary').press('Enter');
+    await expect.poll(() => stepStatus(page, 'max-level-1khz'), POLL).not.toBe('not-run');
+
+    // Ringing: the square plays while the scope captures; the scope's export is attached in main's dialog.
+    await expect.poll(() => currentStep(page), POLL).toBe('ringing-20k');
+    await expect.poll(() => page.getByTestId('generator-waveform').inputValue(), POLL).toBe('square');
+    await page.getByTestId('ringing-play').click();
+    await expect.poll(() => page.getByTestId('ringing-generator-state').textContent(), POLL).toBe('playing');
+    bench.scopeFileChoice.path = SCOPE_RECORD;
+    await page.getByTestId('attach-scope-capture').focus();
+    await page.keyboard.press('Enter');
+    await expect.poll(() => stepStatus(page, 'ringing-20k'), POLL).not.toBe('not-run');
+    await page.keyboard.press('Escape');
+
     // A judged step can be repeated before the run is finished, by keyboard: its newest result counts.
     await page.locator('[data-testid=step-list] li[data-step="gain-1khz"] button').click();
     await expect.poll(() => focusedTestId(page), POLL).toBe('repeat-step');
@@ -202,31 +254,58 @@ describe('the demo procedure walked whole', () => {
     expect(Math.abs(stored(detail, 'gain-1khz', 'gainDb'))).toBeLessThan(0.1);
     // Noise: the driver's invented 30 µV RMS over 10 V full scale, white to Nyquist (24 kHz), stated in
     // dBFS against a full-scale sine's RMS (AES17), in the 22 Hz–22 kHz band, A-weighted by
-    // IEC 61672-1, in dBu (+20 dBu at full scale).
+    // IEC 61672-1, in dBu (+18 dBu at full scale).
     const noiseFs = Math.hypot(DEMO_UNIT_PARAMETERS.driverNoiseVolts / DEMO_UNIT_PARAMETERS.driveVoltsPerFullScale, DEMO_UNIT_PARAMETERS.inputNoiseFullScale);
-    const expectedNoiseDbu = db(noiseFs * Math.SQRT2) + 10 * Math.log10((22000 - 22) / 24000) + aWeightedWhiteNoiseDb(22, 22000) + 20;
+    const expectedNoiseDbu = db(noiseFs * Math.SQRT2) + 10 * Math.log10((22000 - 22) / 24000) + aWeightedWhiteNoiseDb(22, 22000) + FS_DBU;
     expect(Math.abs(stored(detail, 'noise-a', 'noiseDbu') - expectedNoiseDbu)).toBeLessThan(1.5);
-    // Hum: the demo's invented −105 dBFS of 50 Hz is −85 dBu. Read as the hum; or, when the meter
+    // Hum: the demo's invented −105 dBFS of 50 Hz is −87 dBu. Read as the hum; or, when the meter
     // reports no hum standing apart, as the step's upper bound: 10 dB over the noise in the
     // window's few-hertz bandwidth at each order, far under the unweighted noise in 20 Hz–20 kHz,
     // so that noise with the hum added in power (uncorrelated) is a ceiling for it either way.
-    const humDbu = DEMO_UNIT_PARAMETERS.humDbfs + 20;
-    const unweightedNoiseDbu = db(noiseFs * Math.SQRT2) + 10 * Math.log10((20000 - 20) / 24000) + 20;
+    const humDbu = DEMO_UNIT_PARAMETERS.humDbfs + FS_DBU;
+    const unweightedNoiseDbu = db(noiseFs * Math.SQRT2) + 10 * Math.log10((20000 - 20) / 24000) + FS_DBU;
     const humBoundDbu = 10 * Math.log10(10 ** (humDbu / 10) + 10 ** (unweightedNoiseDbu / 10));
     const hum = stored(detail, 'hum', 'humDbu');
     expect(hum).toBeGreaterThan(humDbu - 1);
     expect(hum).toBeLessThan(humBoundDbu + 1);
 
+    // The new steps, each against what the unit's invented parameters give by hand (tests/support/demo-physics.ts).
+    // Response: Kirchhoff's law round the loop with the trimmer where it was left (net R0 − k·p);
+    // 0.06 dB: the sweep's reading of a smooth response (0.05 dB) and the demo loopback's 2 Hz corner
+    // taken out by the chain check though the demo bench's capture does not pass it (0.01 dB at 40 Hz).
+    const p = DEMO_UNIT_PARAMETERS;
+    const net = p.windingOhms + p.sourceOhms - p.compensationOhmsPerTurn * trimFinal.position;
+    const responseStep = FILE.steps.find((s: { id: string }) => s.id === 'response');
+    expect(Math.abs(stored(detail, 'response', 'maskMarginDb') - expectedMaskMarginDb(p, net, responseStep))).toBeLessThan(0.06);
+    const responseResult = detail.stepResults.find((r) => r.stepId === 'response')!;
+    expect(responseResult.curve).toMatchObject({ corrected: true });
+    // Max level: the driver's soft clip crossing 1 % THD+N by its Fourier series, to 0.2 dB (1 dB steps interpolated).
+    const maxStep = FILE.steps.find((s: { id: string }) => s.id === 'max-level-1khz');
+    expect(Math.abs(stored(detail, 'max-level-1khz', 'maxLevelDbu') - expectedMaxLevelDbu(p, maxStep.thdnThresholdPercent, FS_DBU))).toBeLessThan(0.2);
+    expect(detail.stepResults.find((r) => r.stepId === 'max-level-1khz')!.verdict).toBe('pass');
+    // Ringing: the textbook second-order figures (Ogata) of the unit's invented 300 kHz, ζ = 0.5.
+    const ring = expectedRinging(p);
+    expect(Math.abs(stored(detail, 'ringing-20k', 'ringFrequencyHz') / ring.ringFrequencyHz - 1)).toBeLessThan(0.03);
+    expect(Math.abs(stored(detail, 'ringing-20k', 'dampingRatio') - ring.dampingRatio)).toBeLessThan(0.03);
+    expect(Math.abs(stored(detail, 'ringing-20k', 'overshootPercent') - ring.overshootPercent)).toBeLessThan(1.5);
+    expect(detail.stepResults.find((r) => r.stepId === 'ringing-20k')!.scopeRecord?.fileName).toBe('mg20-demo-scope-20khz.csv');
+
     // Finish by Enter: the sheet says the same verdict.
     await page.keyboard.press('Enter');
     await expect.poll(() => page.getByTestId('sheet-verdict').isVisible(), POLL).toBe(true);
     expect(await page.getByTestId('sheet-verdict').textContent()).toBe(detail.judgement.verdict === 'pass' ? 'PASS' : 'FAIL');
+    // The sheet carries the new steps' rows: the mask margin, the maximum level, the ringing figures and the record's name.
+    const sheetText = (await page.getByTestId('sheet-steps').textContent())!;
+    for (const step of FILE.steps.slice(-3)) expect(sheetText).toContain(step.title.slice(0, 24));
+    expect(sheetText).toContain('mg20-demo-scope-20khz.csv');
+    await page.pdf({ path: '/tmp/walk-sheet.pdf', format: 'A4', printBackground: true });
+    execFileSync('pdftoppm', ['-png', '-r', '80', '/tmp/walk-sheet.pdf', '/tmp/walk-sheet']);
   });
 
   it('takes "trim done" only for a trim that passes; finished as FAIL there, the trim is stored as the failed step that stopped the run', { timeout: 60_000 }, async () => {
     // The demo procedure's trim says "stop" on failure.
     const serial = 'MG20-2611-0201';
-    const procedure = (await bench.station.records.listProcedures()).find((p) => p.definition.revision === 'D')!;
+    const procedure = (await bench.station.records.listProcedures()).find((p) => p.definition.revision === 'E')!;
     const { run } = await bench.station.records.openRun({ serial, procedureId: procedure.id, operator: 'A. Tester', setup: SETUP });
     await bench.station.records.acknowledgeNotice({ runId: run.id, stepId: 'safety' });
     // One point at −40 dB THD, far above the trim's −60 dB limit.

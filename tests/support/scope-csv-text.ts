@@ -1,35 +1,4 @@
-// Scope exports written as text for the reader's and the command's tests. Every layout here is
-// invented for these tests: a preamble of key/value lines, a header, time in seconds in scientific
-// notation, any of the three separators, and a decimal comma where the separator allows it.
+// Scope exports written as text for the reader's and the command's tests: the writer the demo bench
+// uses (shared/scope/scope-csv-text.ts), which writes every layout the reader takes.
 
-export interface ScopeCsvLayout {
-  separator?: ',' | ';' | '\t';
-  /** Key/value lines before the header. */
-  preamble?: Array<[string, string]>;
-  /** Header cells, time first when there is a time column; null for no header. */
-  header?: string[] | null;
-  /** Write no time column (the preamble must then give the interval). */
-  withoutTime?: boolean;
-  decimalComma?: boolean;
-  /** Significant digits of the times written. */
-  timeDigits?: number;
-  lineEnd?: string;
-}
-
-export function scopeCsvText(startS: number, intervalS: number, channels: ArrayLike<number>[], layout: ScopeCsvLayout = {}): string {
-  const sep = layout.separator ?? ',';
-  const number = (value: number, digits: number) => {
-    const text = value.toExponential(digits - 1);
-    return layout.decimalComma ? text.replace('.', ',') : text;
-  };
-  const lines: string[] = [];
-  for (const [key, value] of layout.preamble ?? []) lines.push(`${key}${sep}${value}`);
-  const header = layout.header === undefined ? [...(layout.withoutTime ? [] : ['Time']), ...channels.map((_, k) => `CH${k + 1}`)] : layout.header;
-  if (header) lines.push(header.join(sep));
-  for (let i = 0; i < channels[0].length; i++) {
-    const cells = channels.map((values) => number(values[i], 6));
-    if (!layout.withoutTime) cells.unshift(number(startS + i * intervalS, layout.timeDigits ?? 8));
-    lines.push(cells.join(sep));
-  }
-  return lines.join(layout.lineEnd ?? '\n') + (layout.lineEnd ?? '\n');
-}
+export { scopeCsvText, type ScopeCsvLayout } from '../../shared/scope/scope-csv-text.ts';

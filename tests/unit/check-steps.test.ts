@@ -548,7 +548,7 @@ describe('a step needing dBu on an uncalibrated station is refused (docs/procedu
     expect(outcome.ok).toBe(false);
     const blocked = runPlan(DEMO, null).filter((s) => s.blocked !== null).map((s) => s.stepId);
     // Every step of the demo that plays or reads a dBu level, or measures gain.
-    expect(blocked).toEqual(['thd-14hz', 'thd-20hz', 'thd-50hz', 'thd-1khz', 'thd-10khz', 'gain-1khz', 'noise-a', 'hum']);
+    expect(blocked).toEqual(['thd-14hz', 'thd-20hz', 'thd-50hz', 'thd-1khz', 'thd-10khz', 'gain-1khz', 'noise-a', 'hum', 'response', 'max-level-1khz', 'ringing-20k']);
   });
   it('refuses a dBu level above what the calibrated output reaches at full scale', () => {
     // +4 dBu asked of an output whose full scale is 0.5 V RMS (about −3.8 dBu).
@@ -629,6 +629,10 @@ describe('generatorWanted: what the live readout and the step walk expect of the
       ['gain-1khz', true],
       ['noise-a', false],
       ['hum', false],
+      // The sweep is played once on its own with the tone off; max-level plays its tone, ringing its square.
+      ['response', false],
+      ['max-level-1khz', true],
+      ['ringing-20k', true],
     ]);
     expect(generatorWanted(null)).toBeNull();
     // Uncalibrated, a dBu step cannot run: nothing is claimed of the generator for it.
@@ -640,7 +644,7 @@ describe('runPlan: the ordered steps and what each needs', () => {
   it('walks the demo notice → trim → checks in file order, the generator off for noise and hum', () => {
     const plan = runPlan(DEMO, { outputDbuAtFullScale: 18, inputDbuAtFullScale: 18 });
     expect(plan.map((s) => s.stepId)).toEqual(DEMO.steps.map((s) => s.id));
-    expect(plan.map((s) => s.needs.kind)).toEqual(['acknowledge', 'trim', 'measure', 'measure', 'measure', 'measure', 'measure', 'measure', 'measure', 'measure']);
+    expect(plan.map((s) => s.needs.kind)).toEqual(['acknowledge', 'trim', 'measure', 'measure', 'measure', 'measure', 'measure', 'measure', 'measure', 'measure', 'sweep', 'measure', 'scope']);
     const noise = plan.find((s) => s.stepId === 'noise-a')!.needs;
     expect(noise).toMatchObject({ kind: 'measure', generator: { on: false }, band: { lowHz: 22, highHz: 22000, weighting: 'A' } });
     // +4 dBu on an output whose full scale is +18 dBu: −14 dBFS (dBu and dBFS differ by a constant).

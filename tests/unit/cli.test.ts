@@ -371,7 +371,7 @@ describe('procedure check', () => {
     const result = run('procedure', 'check', fileURLToPath(new URL('../../resources/procedures/mg20-lf-trim.json', import.meta.url)));
     expect(result.stderr).toBe('');
     expect(result.status).toBe(0);
-    expect(result.stdout).toMatch(/MG20-LF-TRIM revision D/);
+    expect(result.stdout).toMatch(/MG20-LF-TRIM revision E/);
   });
 
   it('a bad file prints every problem on its own line, path first, and exits non-zero', () => {

@@ -13,21 +13,10 @@ import { walkUnit, LineCallRefused, type LineCalls } from '../../shared/procedur
 import { DEMO_UNIT_PARAMETERS as P } from '../../shared/sim/demo-unit.ts';
 import { dispatch } from '../../electron/services/handlers.ts';
 import { accepted, noCaller, tempDir, TEST_SETUP } from '../support/station.ts';
+import { stageDb as circuitDb } from '../support/demo-physics.ts';
 
-function stageDb(f: number): number {
-  const w = 2 * Math.PI * f;
-  type C = [number, number];
-  const div = (a: C, b: C): C => {
-    const d = b[0] * b[0] + b[1] * b[1];
-    return [(a[0] * b[0] + a[1] * b[1]) / d, (a[1] * b[0] - a[0] * b[1]) / d];
-  };
-  const mul = (a: C, b: C): C => [a[0] * b[0] - a[1] * b[1], a[0] * b[1] + a[1] * b[0]];
-  const parallel = (a: C, b: C) => div(mul(a, b), [a[0] + b[0], a[1] + b[1]]);
-  const zc = parallel([P.couplingDampingOhms, 0], div([1, 0], [0, w * P.couplingFarads]));
-  const zp = parallel([0, w * P.magnetizingHenries], [P.reflectedLoadOhms, 0]);
-  const h = div(zp, [P.windingOhms + P.sourceOhms + zc[0] + zp[0], zc[1] + zp[1]]);
-  return 20 * Math.log10(Math.hypot(h[0], h[1]));
-}
+/** The stage at the trimmer's safe end: the whole series resistance R_w + R_s in the loop. */
+const stageDb = (f: number) => circuitDb(P, P.windingOhms + P.sourceOhms, f);
 
 const trimStep = JSON.parse(readFileSync(fileURLToPath(new URL('../../resources/procedures/mg20-lf-trim.json', import.meta.url)), 'utf8')).steps.find((s: { kind: string }) => s.kind === 'trim');
 const PROCEDURE = {
@@ -84,7 +73,7 @@ it('plays the sweep through the simulated stage and main finds the response the 
     return result.value as never;
   };
   const unit = { index: 0, parameters: P, noiseSeed: 3, trueNullTurns: 5, fault: null } as unknown as Parameters<typeof walkUnit>[0];
-  const finished = await walkUnit(unit, opened, call, { sampleRateHz: 48000, mainsHz: 50, levels: { outputDbuAtFullScale: 18, inputDbuAtFullScale: 18 }, setup: TEST_SETUP });
+  const finished = await walkUnit(unit, opened, call, { sampleRateHz: 48000, mainsHz: 50, levels: { outputDbuAtFullScale: 18, inputDbuAtFullScale: 18 }, setup: TEST_SETUP, scopeFile: null });
   expect(finished.run.verdict).toBe('fail');
   const result = finished.stepResults.find((r) => r.stepId === 'response')!;
   for (const f of [10, 20, 100, 5000]) {

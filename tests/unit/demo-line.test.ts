@@ -14,14 +14,15 @@ import { demoBatch } from '../../shared/sim/demo-batch.ts';
 import { DEMO_INTERFACE_DBU_AT_FULL_SCALE } from '../../shared/sim/demo-chain.ts';
 import type { DemoUnitParameters } from '../../shared/sim/demo-unit.ts';
 import { aWeightedWhiteNoiseDb } from '../support/signals.ts';
+import { expectedMaskMarginDb, expectedMaxLevelDbu, expectedRinging } from '../support/demo-physics.ts';
 import { tempDir } from '../support/station.ts';
 
 const CLI = fileURLToPath(new URL('../../cli/trimbench.ts', import.meta.url));
 const PROCEDURE = JSON.parse(readFileSync(fileURLToPath(new URL('../../resources/procedures/mg20-lf-trim.json', import.meta.url)), 'utf8'));
-const run = (...args: string[]) => spawnSync(process.execPath, [CLI, ...args], { encoding: 'utf8', timeout: 120_000 });
+const run = (...args: string[]) => spawnSync(process.execPath, [CLI, ...args], { encoding: 'utf8', timeout: 240_000 });
 
-// Five defects in turn on every fifth unit (units 4, 9, 14, 19, 24): 25 units meet each once.
-const UNITS = 25;
+// Six defects in turn on every fifth unit (units 4, 9, 14, 19, 24, 29): 30 units meet each once.
+const UNITS = 30;
 const SEED = 20611;
 
 interface LineJson {
@@ -43,7 +44,7 @@ beforeAll(() => {
   folder = tempDir('trimbench-line-');
   first = run('demo-line', '--units', String(UNITS), '--data', folder.path, '--seed', String(SEED), '--json');
   line = JSON.parse(first.stdout);
-}, 120_000);
+}, 240_000);
 afterAll(() => folder.remove());
 
 /** The step as the procedure file states it. */
@@ -55,6 +56,8 @@ const stepOf = (id: string) => PROCEDURE.steps.find((s: { id: string }) => s.id 
 function limitOf(stepId: string, quantity: string): { low?: number; high?: number; unit: string } | undefined {
   const step = stepOf(stepId);
   if (step.kind === 'trim') return quantity === 'thdDb' ? { high: step.limitThdDb, unit: 'dB' } : undefined;
+  // docs/procedures.md, `response`: the mask's margin is judged against low 0 dB (inside the mask).
+  if (step.kind === 'response' && quantity === 'maskMarginDb') return { low: 0, unit: 'dB' };
   return quantity.split('.').reduce((at: Record<string, unknown> | undefined, key) => at?.[key] as Record<string, unknown> | undefined, step.limits) as
     | { low?: number; high?: number; unit: string }
     | undefined;
@@ -63,6 +66,7 @@ function limitOf(stepId: string, quantity: string): { low?: number; high?: numbe
 /** Every quantity the file states a limit for in a step, as measurements name them. */
 function statedQuantities(step: { kind: string; limits?: Record<string, object> }): string[] {
   if (step.kind === 'trim') return ['thdDb'];
+  if (step.kind === 'response') return ['maskMarginDb', ...Object.keys(step.limits?.harmonicsDbc ?? {}).map((h) => `harmonicsDbc.${h}`)];
   return Object.entries(step.limits ?? {}).flatMap(([key, value]) => ('unit' in value ? [key] : Object.keys(value).map((h) => `${key}.${h}`)));
 }
 
@@ -124,6 +128,19 @@ function predictedBreaks(p: DemoUnitParameters): { stepId: string; why: string }
     if (step.kind === 'gain' && (v.gainDb < step.limits.gainDb.low - 0.1 || v.gainDb > step.limits.gainDb.high + 0.1)) breaks.push({ stepId: step.id, why: `its gain is ${v.gainDb.toFixed(2)} dB` });
     if (step.kind === 'noise' && v.noiseADbu > high('noiseDbu')! + 1) breaks.push({ stepId: step.id, why: `its noise is ${v.noiseADbu.toFixed(1)} dBu` });
     if (step.kind === 'hum' && v.humDbu > high('humDbu')! + 1) breaks.push({ stepId: step.id, why: `its hum is ${v.humDbu.toFixed(1)} dBu` });
+    // Past the trim's null the net resistance is between 0 and one trimmer step's worth: both ends
+    // must leave the mask (by more than the sweep's reading of it scatters) for a certain break.
+    if (step.kind === 'response') {
+      const worst = Math.max(expectedMaskMarginDb(p, 0, stepOf('response')), expectedMaskMarginDb(p, p.compensationOhmsPerTurn * stepOf('lf-trim').positionStep, stepOf('response')));
+      if (worst < -0.05) breaks.push({ stepId: step.id, why: `its response leaves the mask by ${(-worst).toFixed(2)} dB` });
+    }
+    if (step.kind === 'max-level' && expectedMaxLevelDbu(p, step.thdnThresholdPercent, FULL_SCALE_DBU) < step.limits.maxLevelDbu.low - 0.3) breaks.push({ stepId: step.id, why: 'its maximum level is under the limit' });
+    if (step.kind === 'ringing') {
+      const r = expectedRinging(p);
+      // Clear of the limits by more than an 8-bit scope record reads them to.
+      if (r.dampingRatio < step.limits.dampingRatio.low - 0.05) breaks.push({ stepId: step.id, why: `its damping ratio is ${r.dampingRatio.toFixed(2)}` });
+      else if (r.overshootPercent > step.limits.overshootPercent.high + 2) breaks.push({ stepId: step.id, why: `its overshoot is ${r.overshootPercent.toFixed(0)} %` });
+    }
   }
   return breaks;
 }
@@ -198,8 +215,8 @@ describe('demo-line --json', () => {
         expect(after.every((s) => s.verdict === 'not-run')).toBe(true);
       }
     }
-    // Every fifth unit is built wrong (units 4, 9, 14, 19, 24), each way once in 25 units.
-    expect(firstBreaks.sort()).toEqual(['gain-1khz', 'hum', 'lf-trim', 'noise-a', 'thd-1khz']);
+    // Every fifth unit is built wrong (units 4, 9, 14, 19, 24, 29), each way once in 30 units.
+    expect(firstBreaks.sort()).toEqual(['gain-1khz', 'hum', 'lf-trim', 'noise-a', 'ringing-20k', 'thd-1khz']);
   });
 
   it('measures what each unit’s invented parameters give, where the stage’s physics gives it by hand', () => {
@@ -220,6 +237,19 @@ describe('demo-line --json', () => {
       near('gain-1khz', 'gainDb', expected.gainDb, 0.1);
       near('noise-a', 'noiseDbu', expected.noiseADbu, 1);
       near('hum', 'humDbu', expected.humDbu, 1);
+      // The response's margin inside the mask, from the circuit with the trimmer where the
+      // technician left it (the net resistance R0 − k·p): to 0.05 dB, the sweep's reading of a
+      // smooth response (the response step's own tests recover analytic filters to 0.05 dB).
+      const final = report.trim.finalPosition;
+      if (final !== null) near('response', 'maskMarginDb', expectedMaskMarginDb(unit.parameters, unit.parameters.windingOhms + unit.parameters.sourceOhms - unit.parameters.compensationOhmsPerTurn * final, stepOf('response')), 0.05);
+      // The soft clip's crossing: to 0.2 dB, the straight line between 1 dB steps in dB of THD+N
+      // against the steeply bending curve (a gain-defect unit reaches the ceiling first: a lower bound).
+      if (unit.parameters.driverGain > 10 ** (-0.5 / 20)) near('max-level-1khz', 'maxLevelDbu', expectedMaxLevelDbu(unit.parameters, stepOf('max-level-1khz').thdnThresholdPercent, FULL_SCALE_DBU), 0.2);
+      // Ringing to what an 8-bit record with half a code of noise reads (the ringing analysis's tests).
+      const ring = expectedRinging(unit.parameters);
+      near('ringing-20k', 'ringFrequencyHz', ring.ringFrequencyHz, 0.03 * ring.ringFrequencyHz);
+      near('ringing-20k', 'dampingRatio', ring.dampingRatio, 0.03);
+      near('ringing-20k', 'overshootPercent', ring.overshootPercent, 1.5);
       // Where the driver's even-order term sets the distortion, 1 kHz THD is its H2 (0.5 dB); at
       // the lower frequencies the core's own odd harmonics add to it, so THD is at least that H2.
       if (unit.parameters.driverSquare !== 0) {
@@ -230,7 +260,7 @@ describe('demo-line --json', () => {
         }
       }
     }
-    expect(compared).toBeGreaterThan(UNITS * 2);
+    expect(compared).toBeGreaterThan(UNITS * 6);
   });
 
   it('passes no unit whose stored measurements break a limit of the procedure file', () => {

@@ -76,7 +76,7 @@ describe('a good procedure file', () => {
     expect(p.invented).toBe(true);
     expect(p.model.maker).toBe('Marrowgate Audio Works (invented)');
     expect(p.title).toMatch(/invented/);
-    expect(p.revision).toBe('D');
+    expect(p.revision).toBe('E');
     expect(p.steps[0].kind).toBe('notice');
     // The low-frequency distortion profile the issue names: 14, 20, 50 Hz, 1 kHz, 10 kHz.
     const distortion = p.steps.flatMap((s) => (s.kind === 'distortion' ? [s.frequencyHz] : []));

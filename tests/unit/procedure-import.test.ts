@@ -11,7 +11,7 @@ import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { dispatch, type CallerContext } from '../../electron/services/handlers.ts';
 import { openStation } from '../../electron/services/station.ts';
 import type { ProcedureRevision } from '../../shared/ipc/contract.ts';
-import { noCaller, tempDir, startUnit } from '../support/station.ts';
+import { noCaller, tempDir, startUnit, TEST_SETUP } from '../support/station.ts';
 import { sealRow } from '../../electron/services/stored-record.ts';
 import { DEMO_PROCEDURE } from '../../shared/procedures/demo-procedure.ts';
 
@@ -69,8 +69,8 @@ describe('the built-in procedure', () => {
 describe('importing a procedure file', () => {
   it('stores the demo file with its check steps whole: the run walks them (issue 10: "a run walks the procedure\'s steps in order")', async () => {
     const imported = await importFile(RESOURCE);
-    expect(imported).toMatchObject({ ok: true, value: { outcome: 'stored', code: 'MG20-LF-TRIM', revision: 'D' } });
-    const stored = station.db.prepare("SELECT definition_json FROM procedures WHERE code = 'MG20-LF-TRIM' AND revision = 'D'").get() as { definition_json: string };
+    expect(imported).toMatchObject({ ok: true, value: { outcome: 'stored', code: 'MG20-LF-TRIM', revision: 'E' } });
+    const stored = station.db.prepare("SELECT definition_json FROM procedures WHERE code = 'MG20-LF-TRIM' AND revision = 'E'").get() as { definition_json: string };
     // Every step of the file, in its order, check steps included (the file itself is the expectation).
     const file = JSON.parse(readFileSync(RESOURCE, 'utf8'));
     expect(JSON.parse(stored.definition_json).value.steps.map((s: { id: string; kind: string }) => [s.id, s.kind])).toEqual(
@@ -80,9 +80,9 @@ describe('importing a procedure file', () => {
 
   it('stores the demo file (notices and trim) as its revision, which new runs then use and name', async () => {
     const imported = await importFile(variant('trim-only.json', () => {}));
-    expect(imported).toMatchObject({ ok: true, value: { outcome: 'stored', code: 'MG20-LF-TRIM', revision: 'D' } });
+    expect(imported).toMatchObject({ ok: true, value: { outcome: 'stored', code: 'MG20-LF-TRIM', revision: 'E' } });
     const newest = station.records.listProcedures().find((p) => p.definition.code === 'MG20-LF-TRIM')!;
-    expect(newest.definition.revision).toBe('D');
+    expect(newest.definition.revision).toBe('E');
     // The trim view: the file's trim step, safety notice first among the instructions.
     const file = JSON.parse(readFileSync(RESOURCE, 'utf8'));
     const trimStep = file.steps.find((s: { kind: string }) => s.kind === 'trim');
@@ -90,7 +90,7 @@ describe('importing a procedure file', () => {
     expect(newest.definition.trim.stimulusHz).toBe(trimStep.stimulusHz);
     expect(newest.definition.trim.limitThdDb).toBe(trimStep.limitThdDb);
     expect(newest.definition.trim.instructions[0]).toBe(notice.instructions[0]);
-    // The file requires a calibrated station (its dBu checks); with one it starts and names revision D.
+    // The file requires a calibrated station (its dBu checks); with one it starts and names revision E.
     const open = await dispatch(station.handlers, 'openRun', { serial: 'MG20-2611-0042', procedureId: newest.id, operator: 'A. Tester' }, noCaller);
     expect(!open.ok && open.error.message).toMatch(/requires a calibrated station/);
   });
@@ -99,22 +99,22 @@ describe('importing a procedure file', () => {
     const same = variant('trim-only.json', () => {});
     await importFile(same);
     const rows = procedureRows();
-    expect(await importFile(same)).toMatchObject({ ok: true, value: { outcome: 'unchanged', revision: 'D' } });
+    expect(await importFile(same)).toMatchObject({ ok: true, value: { outcome: 'unchanged', revision: 'E' } });
     const changed = variant('changed.json', (file) => {
       file.steps.find((s: { kind: string }) => s.kind === 'trim').limitThdDb = -55;
     });
     const refused = await importFile(changed);
-    expect(!refused.ok && refused.error.message).toMatch(/MG20-LF-TRIM revision D is already stored with other content.*new revision/);
+    expect(!refused.ok && refused.error.message).toMatch(/MG20-LF-TRIM revision E is already stored with other content.*new revision/);
     expect(procedureRows()).toBe(rows);
     // Given its own revision, the changed file is stored beside the old one, which stays as it was.
     const revised = variant('revised.json', (file) => {
-      file.revision = 'E';
+      file.revision = 'F';
       file.steps.find((s: { kind: string }) => s.kind === 'trim').limitThdDb = -55;
     });
-    expect(await importFile(revised)).toMatchObject({ ok: true, value: { outcome: 'stored', revision: 'E' } });
+    expect(await importFile(revised)).toMatchObject({ ok: true, value: { outcome: 'stored', revision: 'F' } });
     expect(procedureRows()).toBe(rows + 1);
     const list = station.records.listProcedures().filter((p) => p.definition.code === 'MG20-LF-TRIM');
-    expect(list.map((p) => [p.definition.revision, p.definition.trim.limitThdDb])).toEqual([['E', -55]]);
+    expect(list.map((p) => [p.definition.revision, p.definition.trim.limitThdDb])).toEqual([['F', -55]]);
   });
 
   it('refuses a file with problems, naming each with its place in the file, and stores nothing', async () => {
@@ -162,6 +162,39 @@ describe('a run and its revision', () => {
     expect(resumed.run.id).toBe(open.run.id);
     expect(resumed.procedure.revision).toBe(builtIn.definition.revision);
     expect(station.records.listProcedures().map((p) => p.definition.revision)).toEqual(['D']);
+  });
+});
+
+describe('the demo file’s revision E after D', () => {
+  it('a run opened under revision D (the checks without the sweep, max-level and ringing steps) keeps D and its steps; new runs use E with the three new steps (docs/procedures.md, Revisions)', async () => {
+    // Revision D as it was: the file's steps up to the hum check. Both require a calibrated station.
+    const calibrated = await dispatch(station.handlers, 'recordCalibration', {
+      operator: 'A. Tester',
+      setup: TEST_SETUP,
+      output: { referenceHz: 1000, referenceDbfs: -20, meterEntry: '0.7746 V' },
+      input: { method: 'loopback', generatorDbfs: -20, capturedDbfs: -20, capturedHz: 1000 },
+    }, noCaller);
+    if (!calibrated.ok) throw new Error(calibrated.error.message);
+    const d = join(dir.path, 'rev-d.json');
+    const file = JSON.parse(readFileSync(RESOURCE, 'utf8'));
+    const newKinds = ['response', 'max-level', 'ringing'];
+    writeFileSync(d, JSON.stringify({ ...file, revision: 'D', steps: file.steps.filter((s: { kind: string }) => !newKinds.includes(s.kind)) }));
+    expect(await importFile(d)).toMatchObject({ ok: true, value: { outcome: 'stored', revision: 'D' } });
+    const underD = station.records.listProcedures().find((p) => p.definition.code === 'MG20-LF-TRIM')!;
+    const open = startUnit(station.records, { serial: 'MG20-2611-0042', procedureId: underD.id, operator: 'A. Tester', setup: TEST_SETUP });
+    expect(await importFile(RESOURCE)).toMatchObject({ ok: true, value: { outcome: 'stored', revision: 'E' } });
+    const newest = station.records.listProcedures().find((p) => p.definition.code === 'MG20-LF-TRIM')!;
+    expect(newest.definition.revision).toBe('E');
+    // The open run resumes on D, and walks D's steps: none of the new ones.
+    const resumed = startUnit(station.records, { serial: 'MG20-2611-0042', procedureId: newest.id, operator: 'A. Tester', setup: TEST_SETUP });
+    expect(resumed.run.id).toBe(open.run.id);
+    expect(resumed.procedure.revision).toBe('D');
+    expect(resumed.procedureFile.steps.map((s) => s.kind).filter((k) => newKinds.includes(k))).toEqual([]);
+    const answer = await dispatch(station.handlers, 'listProcedureRevisions', {}, noCaller);
+    if (!answer.ok) throw new Error(answer.error.message);
+    const e = (answer.value as ProcedureRevision[]).find((r) => r.revision === 'E')!;
+    expect(e.current).toBe(true);
+    expect(e.file.steps.slice(-3).map((s) => s.kind)).toEqual(newKinds);
   });
 });
 

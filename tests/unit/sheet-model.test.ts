@@ -98,6 +98,14 @@ function allPassing(): StepResult[] {
     result('gain-1khz', 'pass', [m('gainDb', 0.12, 'dB', -0.5, 0.5, 'pass', '+4.12 dBu out for +4.00 dBu in')]),
     result('noise-a', 'pass', [m('noiseDbu', -91.3, 'dBu', null, -85, 'pass')]),
     result('hum', 'pass', [m('humDbu', -88.0, 'dBu', null, -80, 'pass')]),
+    result('response', 'pass', [m('maskMarginDb', 0.36, 'dB', 0, null, 'pass')]),
+    result('max-level-1khz', 'pass', [m('maxLevelDbu', 16.6, 'dBu', 14, null, 'pass')]),
+    result('ringing-20k', 'pass', [
+      m('ringFrequencyHz', 258000, 'Hz', 100000, null, 'pass'),
+      m('dampingRatio', 0.49, 'ratio', 0.35, null, 'pass'),
+      m('overshootPercent', 16.3, '%', null, 30, 'pass'),
+      m('settlingTimeS', 3.6e-6, 's', null, 1e-5, 'pass'),
+    ]),
   ];
 }
 
@@ -208,7 +216,7 @@ describe('the sheet model', () => {
   it('carries the unit, lot, procedure, retest link and reason, and the invented label', () => {
     const sheet = buildSheetModel(detail({ stepResults: allPassing(), verdict: 'pass' }));
     expect(sheet.unit).toEqual({ serial: 'MG20-2611-0042', modelCode: 'MG-20', modelName: 'MG-20 transformer line amplifier', maker: 'Marrowgate Audio Works (invented)', lot: 'WO-1187' });
-    expect(sheet.procedure).toMatchObject({ code: 'MG20-LF-TRIM', revision: 'D', invented: true });
+    expect(sheet.procedure).toMatchObject({ code: 'MG20-LF-TRIM', revision: 'E', invented: true });
     expect(sheet.procedure.inventedLabel).toMatch(/invented/);
     expect(sheet.retest).toMatchObject({ ofRunId: 5, reason: 'Replaced C12 after the first test.' });
     expect(sheet.retest.text).toContain('retest of run 5');
