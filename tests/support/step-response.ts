@@ -4,7 +4,7 @@
 // the code under test.
 
 import { gaussian, seededRandom } from './random.ts';
-import { scopeCapture as sharedScopeCapture, scopeView as sharedScopeView, stepResponse, type ScopeCapture as SharedScopeCapture, type SecondOrder } from '../../shared/sim/second-order.ts';
+import { scopeCapture as sharedScopeCapture, scopeView as sharedScopeView, stepResponse, type ScopeCapture as SharedScopeCapture, type SecondOrder, type SquareWaveRecord } from '../../shared/sim/second-order.ts';
 
 // The step response and the square-wave superposition are the shared ones (shared/sim/second-order.ts,
 // the textbook formulas as written there); the figures below are the textbook's closed forms.
