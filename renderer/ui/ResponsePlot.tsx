@@ -18,9 +18,11 @@ export function ResponsePlot({ curve, mask }: { curve: ResponseCurve; mask: Resp
   const responseData = useMemo<uPlot.AlignedData>(() => {
     const xs = [...new Set([...hz, ...mask.map((p) => p.frequencyHz)])].sort((a, b) => a - b);
     const level = new Map(curve.response.map(([f, db]) => [f, db]));
+    const phase = new Map(curve.response.map(([f, , deg]) => [f, deg]));
     return [
       xs,
       xs.map((f) => level.get(f) ?? null),
+      xs.map((f) => phase.get(f) ?? null),
       xs.map((f) => maskBoundsAt(mask, f)?.high ?? null),
       xs.map((f) => maskBoundsAt(mask, f)?.low ?? null),
     ];
@@ -33,11 +35,12 @@ export function ResponsePlot({ curve, mask }: { curve: ResponseCurve; mask: Resp
       height: 200,
       legend: { show: true, live: false },
       cursor: { drag: { x: false, y: false } },
-      scales: { x: logX, y: { range: [bottom, top] } },
-      axes: [{ label: 'Hz' }, { label: `dB re ${curve.referenceHz} Hz`, size: 60 }],
+      scales: { x: logX, y: { range: [bottom, top] }, deg: { range: [-180, 180] } },
+      axes: [{ label: 'Hz' }, { label: `dB re ${curve.referenceHz} Hz`, size: 60 }, { scale: 'deg', side: 1, label: 'Phase, °', size: 50, grid: { show: false } }],
       series: [
         {},
         { label: 'Response', stroke: '#1f5fa8', width: 2, spanGaps: true },
+        { label: 'Phase', scale: 'deg', stroke: '#8a8a8a', width: 1, spanGaps: true, points: { show: false } },
         { label: 'Mask high', stroke: '#b04a2f', width: 1, dash: [6, 4], points: { show: false } },
         { label: 'Mask low', stroke: '#b04a2f', width: 1, dash: [6, 4], points: { show: false } },
       ],
@@ -70,7 +73,7 @@ export function ResponsePlot({ curve, mask }: { curve: ResponseCurve; mask: Resp
 
   return (
     <div className="response-plots" data-testid="response-plot">
-      <UPlotChart options={responseOptions} data={responseData} label={`Frequency response relative to ${curve.referenceHz} Hz with the step's mask`} />
+      <UPlotChart options={responseOptions} data={responseData} label={`Frequency response relative to ${curve.referenceHz} Hz with the step's mask, and its phase with the latency removed`} />
       {curve.harmonics.length > 0 ? (
         <UPlotChart options={harmonicOptions} data={harmonicData} label="Harmonic distortion H2 to H5 relative to the fundamental, by the fundamental's frequency" />
       ) : (

@@ -438,7 +438,7 @@ export const responseCurveSchema = z
     sampleRateHz: z.number().int().positive(),
     corrected: z.boolean(),
     uncorrectedReason: z.string().nullable(),
-    response: z.array(z.tuple([finite.positive(), finite])).max(400),
+    response: z.array(z.tuple([finite.positive(), finite, finite.min(-180).max(180)])).max(400),
     harmonics: z.array(z.object({ order: z.number().int().min(2).max(5), points: z.array(z.tuple([finite.positive(), finite])).max(400) }).strict()).max(4),
   })
   .strict();

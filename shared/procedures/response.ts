@@ -165,8 +165,8 @@ export interface ResponseCurve {
   /** Whether the station's chain response was taken out, and if not, why. */
   corrected: boolean;
   uncorrectedReason: string | null;
-  /** [frequency Hz, level dB relative to the reference]. */
-  response: [number, number][];
+  /** [frequency Hz, level dB relative to the reference, phase ° with the latency removed (not corrected by the chain)]. */
+  response: [number, number, number][];
   /** [fundamental's frequency Hz, product level dBc]. */
   harmonics: { order: number; points: [number, number][] }[];
 }
@@ -182,7 +182,7 @@ export function responseCurve(response: SweepResponse, sampleRateHz: number, cor
     sampleRateHz,
     corrected,
     uncorrectedReason,
-    response: response.response.map((p) => [round(p.frequencyHz, 0.001), round(p.levelDb, 0.0001)]),
+    response: response.response.map((p) => [round(p.frequencyHz, 0.001), round(p.levelDb, 0.0001), round(p.phaseDeg, 0.1)]),
     harmonics: response.harmonics.map((h) => ({ order: h.order, points: h.points.map((p) => [round(p.frequencyHz, 0.001), round(p.levelDbc, 0.01)]) })),
   };
 }

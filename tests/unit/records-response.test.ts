@@ -100,6 +100,11 @@ describe('recordResponse', () => {
     const at20 = result.curve!.response[0];
     expect(at20[0]).toBeCloseTo(20, 6);
     expect(Math.abs(at20[1] - 10 * Math.log10(256 / 257))).toBeLessThan(0.05);
+    // Its phase, the 480-sample delay removed: H(s) = s²/(s² + √2·s + 1) at x = f/fc gives
+    // 180° − atan2(√2·x, 1 − x²): +20.7° at 20 Hz for a 5 Hz corner (Butterworth, any filter handbook).
+    const butterPhase = (f: number) => 180 - (Math.atan2(Math.SQRT2 * (f / 5), 1 - (f / 5) ** 2) * 180) / Math.PI;
+    expect(butterPhase(20)).toBeCloseTo(20.7, 1);
+    expect(Math.abs(at20[2] - butterPhase(20))).toBeLessThan(1);
     expect(passed.judgement.steps.map((st) => st.status)).toEqual(['pass', 'pass', 'not-run']);
 
     const bad = await atResponseStep(id, 'X1-0002');
