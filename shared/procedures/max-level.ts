@@ -153,6 +153,11 @@ export function judgeMaxLevel(step: MaxLevelStep, levels: StationLevels | null, 
   for (let i = 0; i < points.length; i++) {
     const next = maxLevelNext(step, plan, station, points.slice(0, i + 1));
     if (next.next === 'refuse') return { ok: false, refusal: `Reading ${i + 1} of the sequence: ${next.message}` };
+    // Each level has a reading of its own, taken after the last: one reading sent for two levels
+    // would stand for a level that was never read.
+    if (i > 0 && !(points[i].reading.sequence > points[i - 1].reading.sequence)) {
+      return { ok: false, refusal: `Reading ${i + 1} of the sequence is not a newer reading than reading ${i}: every level needs its own settled reading. Run the sequence again.` };
+    }
     const last = i === points.length - 1;
     if (!last && next.next !== 'go-on') {
       return { ok: false, refusal: `The sequence ended at reading ${i + 1} (${next.next === 'crossed' ? 'THD+N reached the threshold' : next.message}), and ${points.length - i - 1} more came after it: it is not the step's sequence.` };

@@ -35,7 +35,7 @@ function runSequence(s: MaxLevelStep, readingAt: (generatorDbfs: number, index: 
   const points: MaxLevelPoint[] = [];
   for (let i = 0; i < planned.plan.levelsDbfs.length; i++) {
     const levelDbfs = planned.plan.levelsDbfs[i];
-    points.push({ stimulus: { on: true, frequencyHz: s.frequencyHz, levelDbfs }, reading: readingAt(levelDbfs, i) });
+    points.push({ stimulus: { on: true, frequencyHz: s.frequencyHz, levelDbfs }, reading: { ...readingAt(levelDbfs, i), sequence: i + 1 } });
     const end = maxLevelNext(s, planned.plan, LEVELS, points);
     if (end.next !== 'go-on') return { points, end };
   }
@@ -182,6 +182,9 @@ describe('what main refuses (nothing is judged from it)', () => {
     const reversed = [points[1], points[0], ...points.slice(2)];
     expect(judgeMaxLevel(s, LEVELS, reversed).ok).toBe(false);
     expect(judgeMaxLevel(s, LEVELS, [])).toMatchObject({ ok: false });
+    // One reading sent for two levels (1 dB apart, inside every level window): level 3 was never read.
+    const reused = points.map((p, i) => (i === 2 ? { ...p, reading: points[1].reading } : p));
+    expect(judgeMaxLevel(s, LEVELS, reused)).toMatchObject({ ok: false, refusal: expect.stringMatching(/^Reading 3 of the sequence is not a newer reading than reading 2/) });
     // Sixteen levels where the plan has fifteen (+4 to +18 dBu): the sixteenth would be above the ceiling.
     const gentle = runSequence(s, cubic(0.01)).points;
     const beyond = { stimulus: { on: true, frequencyHz: 1000, levelDbfs: 1 }, reading: cubic(0.01)(0) };

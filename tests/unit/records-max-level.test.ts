@@ -75,7 +75,7 @@ const levelDbfs = (k: number) => 4 + k - OUT_FS;
 type Point = { stimulus: { on: boolean; frequencyHz: number; levelDbfs: number }; reading: Reading };
 /** The sequence up to and including level `last` (0-based), each reading from `readingAt`. */
 const sequence = (last: number, readingAt: (dbfs: number, k: number) => Reading = (dbfs) => cubicReading(A, dbfs, STATION)): Point[] =>
-  Array.from({ length: last + 1 }, (_, k) => ({ stimulus: { on: true, frequencyHz: 1000, levelDbfs: levelDbfs(k) }, reading: readingAt(levelDbfs(k), k) }));
+  Array.from({ length: last + 1 }, (_, k) => ({ stimulus: { on: true, frequencyHz: 1000, levelDbfs: levelDbfs(k) }, reading: { ...readingAt(levelDbfs(k), k), sequence: k + 1 } }));
 /** The level at which the cubic stage's THD+N first reaches 1 %: the closed form's crossing lies below it. */
 const crossingIndex = () => Math.ceil(cubicCrossingDbu(A, 1, OUT_FS) - 4 + 1e-9);
 const record = (runId: number, points: Point[]) => call('recordMaxLevel', { runId, stepId: 'max-level', points, setup: SETUP });
