@@ -213,6 +213,7 @@ describe('the demo procedure walked whole', () => {
     await expect.poll(() => focusedTestId(page), POLL).toBe('repeat-step');
     await page.keyboard.press('Enter');
     await expect.poll(() => page.getByTestId('check-primary').textContent(), POLL).toMatch(/^Turn on/);
+    await page.waitForTimeout(600); // a deliberate press, not the Repeat's Enter again
     await page.keyboard.press('Enter');
     await expect.poll(() => page.getByTestId('check-primary').textContent(), POLL).toMatch(/^Record/);
     await settledSoon(page, 2);
