@@ -228,7 +228,7 @@ export function judgeResponse(step: ResponseStep, response: SweepResponse, corre
   if (worst) {
     const boundDb = worst.bound === 'low' ? worst.levelDb - worst.marginDb : worst.levelDb + worst.marginDb;
     const side = worst.marginDb >= 0 ? `closest to its ${worst.bound} bound` : worst.bound === 'low' ? 'below its low bound' : 'above its high bound';
-    where = `the response is ${signedFixed(worst.levelDb, 2)} dB at ${hz(worst.atHz)}, ${side} of ${signedFixed(boundDb, 2)} dB`;
+    where = `response ${signedFixed(worst.levelDb, 2)} dB at ${hz(worst.atHz)}, ${side} of ${signedFixed(boundDb, 2)} dB`;
   }
   measured.push({ m: measurement('maskMarginDb', worst ? round(worst.marginDb, 0.0001) : null, MASK_MARGIN_LIMIT, `${where}; ${correction.note}`), label: 'Mask margin' });
   for (const [name, limit] of Object.entries(step.limits?.harmonicsDbc ?? {})) {

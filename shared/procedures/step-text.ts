@@ -4,7 +4,6 @@
 
 import { compactNumber, fixed, withPrefix } from '../format.ts';
 import { signedFixed } from '../levels.ts';
-import { SWEEP_LEAD_IN_OCTAVES } from './response.ts';
 import type { Limit, ProcedureStep } from './procedure-file.ts';
 
 const QUANTITY_LABELS: Record<string, string> = {
@@ -83,7 +82,7 @@ export function stepConditions(step: ProcedureStep): string {
     case 'max-level':
       return `${hzText(step.frequencyHz)} rising from ${signedFixed(step.startLevel.value, 1)} to at most ${signedFixed(step.ceiling.value, 1)} ${step.ceiling.unit} in ${compactNumber(step.stepDb)} dB steps, until THD+N reaches ${compactNumber(step.thdnThresholdPercent)} %`;
     case 'response':
-      return `${hzText(step.fromHz)} to ${hzText(step.toHz)} (swept from ${hzText(step.fromHz / 2 ** SWEEP_LEAD_IN_OCTAVES)}, ${fixed(step.durationS, 1)} s over the band) at ${signedFixed(step.level.value, 1)} ${step.level.unit}; 0 dB at ${hzText(step.referenceHz)}`;
+      return `sweep ${hzText(step.fromHz)} to ${hzText(step.toHz)} in ${fixed(step.durationS, 1)} s at ${signedFixed(step.level.value, 1)} ${step.level.unit}; 0 dB at ${hzText(step.referenceHz)}`;
   }
 }
 

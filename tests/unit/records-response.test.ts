@@ -116,7 +116,7 @@ describe('recordResponse', () => {
     const below = failed.curve!.response.filter(([, db]) => db < -0.5).map(([f]) => f);
     expect(Math.max(...below)).toBeLessThan(x * 40);
     expect(Math.max(...below)).toBeGreaterThan((x * 40) / 2 ** (1 / 12));
-    expect(failed.reasons[0]).toMatch(/leaves its mask by 1[12]\.\d\d dB: the response is −1[12]\.\d\d dB at 20\.0 Hz, below its low bound of −0\.50 dB\.$/);
+    expect(failed.reasons[0]).toMatch(/leaves its mask by 1[12]\.\d\d dB: response −1[12]\.\d\d dB at 20\.0 Hz, below its low bound of −0\.50 dB\.$/);
 
     // Read back after a restart, as stored.
     station.close();
