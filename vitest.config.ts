@@ -1,9 +1,13 @@
+import { availableParallelism } from 'node:os';
 import { defineConfig } from 'vitest/config';
 
 const shared = { testTimeout: 30_000, hookTimeout: 60_000 };
 
 export default defineConfig({
   test: {
+    // Vitest's default in a run is one worker fewer than the cores: on a two-core machine that is one,
+    // and the Node tests ran one file at a time. Browser tests stay one at a time (their project says so).
+    maxWorkers: Math.max(2, availableParallelism() - 1),
     reporters: ['default', 'json'],
     outputFile: { json: 'out/test-results.json' },
     projects: [
