@@ -2,11 +2,15 @@ import { resolve } from 'node:path';
 import { defineConfig } from 'electron-vite';
 import type { Plugin } from 'vite';
 
-/** In development only, the page may open the dev server's live-reload socket. */
-const allowDevServerSocket: Plugin = {
+/**
+ * In development only, the page may open the dev server's live-reload socket and take the inline
+ * styles Vite's dev server injects for CSS modules; a build serves stylesheets as files.
+ */
+const allowDevServer: Plugin = {
   name: 'trimbench-dev-csp',
   apply: 'serve',
-  transformIndexHtml: (html) => html.replace("connect-src 'self';", "connect-src 'self' ws://localhost:*;"),
+  transformIndexHtml: (html) =>
+    html.replace("connect-src 'self';", "connect-src 'self' ws://localhost:*;").replace("style-src 'self';", "style-src 'self' 'unsafe-inline';"),
 };
 
 export default defineConfig({
@@ -30,6 +34,6 @@ export default defineConfig({
       rollupOptions: { input: { index: resolve('renderer/index.html') } },
     },
     worker: { format: 'es' },
-    plugins: [allowDevServerSocket],
+    plugins: [allowDevServer],
   },
 });

@@ -1,4 +1,5 @@
 import { availableParallelism } from 'node:os';
+import { fileURLToPath } from 'node:url';
 import { defineConfig } from 'vitest/config';
 
 const shared = { testTimeout: 30_000, hookTimeout: 60_000 };
@@ -14,6 +15,11 @@ export default defineConfig({
       {
         // Node tests share nothing but the machine: two at a time use both cores.
         test: { ...shared, name: 'unit', include: ['tests/unit/**/*.test.ts'], sequence: { groupOrder: 1 } },
+      },
+      {
+        // The built main bundle (out/main/index.js) run in Node against a stand-in for Electron.
+        resolve: { alias: { electron: fileURLToPath(new URL('./tests/main/electron-stand-in.ts', import.meta.url)) } },
+        test: { ...shared, name: 'main', include: ['tests/main/**/*.main.test.ts'], sequence: { groupOrder: 1 } },
       },
       {
         // Browser tests start Chromium and feed it audio in real time: one file at a time, after the

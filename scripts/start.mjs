@@ -29,7 +29,9 @@ if (!electronBinaryPresent()) {
   });
   if (install.status !== 0 || !electronBinaryPresent()) {
     const lines = String(install.stderr ?? '').split('\n').map((line) => line.trim());
-    const cause = lines.find((line) => /error/i.test(line) && !line.startsWith('at ')) ?? lines.find(Boolean) ?? 'no reason given';
+    const said = lines.find((line) => /error/i.test(line) && !line.startsWith('at ')) ?? lines.find(Boolean) ?? 'no reason given';
+    // Undici says only "fetch failed" when no connection could be made at all.
+    const cause = /fetch failed|ENOTFOUND|EAI_AGAIN|ECONNREFUSED|ETIMEDOUT|ENETUNREACH/i.test(said) ? `no connection to the download server: ${said}` : said;
     console.error(
       `Trimbench cannot start: the Electron runtime is not installed and could not be downloaded (${cause.slice(0, 200)}). ` +
         'Run `npm start` again with internet access; `npm run build` and `npm test` work without it.',

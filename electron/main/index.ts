@@ -3,6 +3,7 @@
 
 import { app, BrowserWindow, dialog, ipcMain, net, protocol, session, type IpcMainInvokeEvent, type WebContents } from 'electron';
 import { hostname } from 'node:os';
+import { statSync } from 'node:fs';
 import { join, normalize, sep } from 'node:path';
 import { fileURLToPath, pathToFileURL } from 'node:url';
 import { IPC_CHANNELS, ipcChannelName } from '../../shared/ipc/channels.ts';
@@ -10,6 +11,7 @@ import { openErrorLog, type ErrorLog } from '../services/error-log.ts';
 import { ExpectedFailure } from '../services/expected-failure.ts';
 import { dispatch, type CallerContext } from '../services/handlers.ts';
 import { openStation } from '../services/station.ts';
+import { CONTENT_SECURITY_POLICY } from './content-security-policy.ts';
 import { securityPolicy } from './security-policy.ts';
 import { MM_PER_INCH, SHEET_PDF } from './sheet-pdf.ts';
 
@@ -21,24 +23,47 @@ const rendererDir = join(here, '../renderer');
 const devServerUrl = process.env['ELECTRON_RENDERER_URL'];
 const policy = securityPolicy(devServerUrl ? new URL(devServerUrl).origin : APP_ORIGIN);
 
-protocol.registerSchemesAsPrivileged([
-  { scheme: APP_SCHEME, privileges: { standard: true, secure: true, supportFetchAPI: true } },
-]);
+/** Every response of the app's scheme, a refusal too, carries the policy. */
+function withPolicy(response: Response): Response {
+  const headers = new Headers(response.headers);
+  headers.set('Content-Security-Policy', CONTENT_SECURITY_POLICY);
+  return new Response(response.body, { status: response.status, headers });
+}
 
-// The same policy as the page's meta tag, sent as a header too so it also covers the worker and worklets.
-const CONTENT_SECURITY_POLICY =
-  "default-src 'self'; script-src 'self'; style-src 'self' 'unsafe-inline'; img-src 'self' data:; font-src 'self'; " +
-  "connect-src 'self'; worker-src 'self'; media-src 'self' mediastream:; object-src 'none'; base-uri 'none'; form-action 'none'";
+const notFound = () => withPolicy(new Response('Not found', { status: 404 }));
+
+/**
+ * The renderer file a request names, or null: another host, escapes that do not decode, a path that
+ * leaves the renderer folder once decoded (an encoded slash or dot-dot), or anything but a regular file.
+ */
+function rendererFileFor(requestUrl: string): string | null {
+  let url: URL;
+  let pathname: string;
+  try {
+    url = new URL(requestUrl);
+    pathname = decodeURIComponent(url.pathname);
+  } catch {
+    return null;
+  }
+  if (url.host !== 'app' || pathname.includes('\0')) return null;
+  const file = normalize(join(rendererDir, pathname === '/' ? 'index.html' : pathname));
+  if (!file.startsWith(rendererDir + sep)) return null;
+  try {
+    return statSync(file).isFile() ? file : null;
+  } catch {
+    return null;
+  }
+}
 
 function serveRenderer(): void {
   protocol.handle(APP_SCHEME, async (request) => {
-    const url = new URL(request.url);
-    const file = normalize(join(rendererDir, decodeURIComponent(url.pathname === '/' ? '/index.html' : url.pathname)));
-    if (url.host !== 'app' || !file.startsWith(rendererDir + sep)) return new Response('Not found', { status: 404 });
-    const response = await net.fetch(pathToFileURL(file).toString());
-    const headers = new Headers(response.headers);
-    headers.set('Content-Security-Policy', CONTENT_SECURITY_POLICY);
-    return new Response(response.body, { status: response.status, headers });
+    const file = rendererFileFor(request.url);
+    if (file === null) return notFound();
+    try {
+      return withPolicy(await net.fetch(pathToFileURL(file).toString()));
+    } catch {
+      return notFound();
+    }
   });
 }
 
@@ -122,43 +147,50 @@ function createWindow(): BrowserWindow {
   return window;
 }
 
-// One Trimbench per station: a second one would write the same database.
-if (!app.requestSingleInstanceLock()) app.quit();
-app.on('second-instance', () => {
-  const window = BrowserWindow.getAllWindows()[0];
-  if (window?.isMinimized()) window.restore();
-  window?.focus();
-});
-
-// The error log lives in the data folder; opened here too for a start that fails before the station is open.
-const dataDir = app.getPath('userData');
-const startupLog = openErrorLog(dataDir);
-
-app
-  .whenReady()
-  .then(() => {
-    const station = openStation({ dataDir, stationName: hostname() });
-    app.on('will-quit', () => station.close());
-    serveRenderer();
-    lockDownSessions();
-    registerIpc(station.handlers, station.errorLog);
-    createWindow();
-    app.on('activate', () => {
-      if (BrowserWindow.getAllWindows().length === 0) createWindow();
-    });
-  })
-  .catch((error: unknown) => {
-    // Nothing runs without the records (a newer or locked database, a failed migration): say why and
-    // stop. An expected failure already tells the technician what to do; anything else is a bug whose
-    // raw text goes to the log.
-    const message =
-      error instanceof ExpectedFailure
-        ? error.message
-        : `Trimbench met an unexpected problem while starting and has stopped. Start it again; if it stops again, report it. Details are in ${startupLog.path} (reference ${startupLog.record('startup failed', error)}).`;
-    dialog.showErrorBox('Trimbench cannot start', message);
-    app.quit();
+function start(): void {
+  protocol.registerSchemesAsPrivileged([
+    { scheme: APP_SCHEME, privileges: { standard: true, secure: true, supportFetchAPI: true } },
+  ]);
+  app.on('second-instance', () => {
+    const window = BrowserWindow.getAllWindows()[0];
+    if (window?.isMinimized()) window.restore();
+    window?.focus();
+  });
+  app.on('window-all-closed', () => {
+    if (process.platform !== 'darwin') app.quit();
   });
 
-app.on('window-all-closed', () => {
-  if (process.platform !== 'darwin') app.quit();
-});
+  // The error log lives in the data folder; opened here too for a start that fails before the station is open.
+  const dataDir = app.getPath('userData');
+  const startupLog = openErrorLog(dataDir);
+
+  app
+    .whenReady()
+    .then(() => {
+      const station = openStation({ dataDir, stationName: hostname() });
+      app.on('will-quit', () => station.close());
+      serveRenderer();
+      lockDownSessions();
+      registerIpc(station.handlers, station.errorLog);
+      createWindow();
+      app.on('activate', () => {
+        if (BrowserWindow.getAllWindows().length === 0) createWindow();
+      });
+    })
+    .catch((error: unknown) => {
+      // Nothing runs without the records (a data folder that cannot be made, a newer or locked
+      // database, damaged station settings): say why and stop. An expected failure already tells the
+      // technician what to do; anything else is a bug whose raw text goes to the log.
+      const message =
+        error instanceof ExpectedFailure
+          ? error.message
+          : `Trimbench met an unexpected problem while starting and has stopped. Start it again; if it stops again, report it. Details are in ${startupLog.path} (reference ${startupLog.record('startup failed', error)}).`;
+      dialog.showErrorBox('Trimbench cannot start', message);
+      app.quit();
+    });
+}
+
+// One Trimbench per station: a second one would write the same database. It hands over to the first
+// (which comes to the front) and quits before it registers or opens anything.
+if (app.requestSingleInstanceLock()) start();
+else app.quit();

@@ -14,6 +14,7 @@ import { IPC_CHANNELS } from '../../shared/ipc/channels.ts';
 import { dispatch, type CallerContext } from '../../electron/services/handlers.ts';
 import { openStation } from '../../electron/services/station.ts';
 import { SHEET_PDF } from '../../electron/main/sheet-pdf.ts';
+import { CONTENT_SECURITY_POLICY } from '../../electron/main/content-security-policy.ts';
 
 export const RENDERER_DIR = fileURLToPath(new URL('../../out/renderer/', import.meta.url));
 /** How long a browser test waits for the page to show something: generous, as Chromium shares the machine. */
@@ -30,22 +31,29 @@ const MIME: Record<string, string> = {
   '.woff2': 'font/woff2',
 };
 
-/** Serves a folder on 127.0.0.1 (never localhost: nothing may resolve past this machine). */
+/**
+ * Serves a folder on 127.0.0.1 (never localhost: nothing may resolve past this machine), with the
+ * app's Content-Security-Policy header on every response, as main's scheme sends it.
+ */
 export async function serveFolder(root: string): Promise<{ origin: string; close(): Promise<void> }> {
   const base = resolve(root);
   const server: Server = createServer(async (request, response) => {
     const pathname = decodeURIComponent(new URL(request.url ?? '/', 'http://127.0.0.1').pathname);
     const file = normalize(join(base, pathname === '/' ? 'index.html' : pathname));
     if (!file.startsWith(base + sep)) {
-      response.writeHead(404).end();
+      response.writeHead(404, { 'content-security-policy': CONTENT_SECURITY_POLICY }).end();
       return;
     }
     try {
       const body = await readFile(file);
-      response.writeHead(200, { 'content-type': MIME[extname(file)] ?? 'application/octet-stream', 'cache-control': 'no-store' });
+      response.writeHead(200, {
+        'content-type': MIME[extname(file)] ?? 'application/octet-stream',
+        'cache-control': 'no-store',
+        'content-security-policy': CONTENT_SECURITY_POLICY,
+      });
       response.end(body);
     } catch {
-      response.writeHead(404).end();
+      response.writeHead(404, { 'content-security-policy': CONTENT_SECURITY_POLICY }).end();
     }
   });
   await new Promise<void>((done) => server.listen(0, '127.0.0.1', done));
@@ -143,6 +151,19 @@ export async function openBench({ captureWav, dataDir, microphone = 'granted' }:
   await context.exposeBinding('__trimbenchCall', (_source, channel: string, payload: unknown) =>
     dispatch(station.handlers, channel, payload, caller, errorLog),
   );
+  // Anything the policy blocks (an inline style, a script, a worker from elsewhere) fails the file at
+  // close: a blocked style or script is a broken screen in the app, whose main sends the same policy.
+  const cspViolations: string[] = [];
+  await context.exposeBinding('__trimbenchCspViolation', (_source, text: string) => void cspViolations.push(text));
+  await context.addInitScript(() => {
+    document.addEventListener('securitypolicyviolation', (event) => {
+      const report = (window as unknown as { __trimbenchCspViolation: (text: string) => void }).__trimbenchCspViolation;
+      report(`${event.effectiveDirective} blocked ${event.blockedURI || 'inline'} at ${event.sourceFile}:${event.lineNumber}`);
+    });
+  });
+  context.on('console', (message) => {
+    if (/Content Security Policy/i.test(message.text())) cspViolations.push(message.text());
+  });
   await context.addInitScript((channels: readonly string[]) => {
     const call = (window as unknown as { __trimbenchCall: (c: string, p: unknown) => Promise<unknown> }).__trimbenchCall;
     (window as unknown as { trimbench: unknown }).trimbench = Object.fromEntries(
@@ -172,6 +193,7 @@ export async function openBench({ captureWav, dataDir, microphone = 'granted' }:
       station.close();
       rmSync(profile, { recursive: true, force: true });
       if (ownDataDir) rmSync(data, { recursive: true, force: true });
+      if (cspViolations.length > 0) throw new Error(`The page broke the Content-Security-Policy: ${[...new Set(cspViolations)].join('; ')}`);
     },
   };
   return bench;

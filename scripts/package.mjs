@@ -1,0 +1,50 @@
+// npm run package: builds Trimbench and makes its installable packages with electron-builder, as
+// electron-builder.json says (AppImage and deb on Linux, NSIS on Windows, dmg on macOS; the host's
+// own by default, or the platforms given: `npm run package -- --linux`). electron-builder
+// downloads the Electron build for each target and the native modules' prebuilt binaries: without
+// a network that cannot happen, and the answer is one line naming why, never a stack.
+import { spawn, spawnSync } from 'node:child_process';
+import { createRequire } from 'node:module';
+import { dirname, join } from 'node:path';
+
+import { packagingFailure } from './packaging-failure.mjs';
+
+const require = createRequire(import.meta.url);
+
+const [major, minor] = process.versions.node.split('.').map(Number);
+if (major < 22 || (major === 22 && minor < 12)) {
+  console.error(`Trimbench needs Node 22.12 or newer to be packaged (this is ${process.version}); see DEVELOPERS.md for a one-line way to get it.`);
+  process.exit(1);
+}
+
+const build = spawnSync(process.execPath, [join(dirname(require.resolve('electron-vite/package.json')), 'bin', 'electron-vite.js'), 'build'], { stdio: 'inherit' });
+if (build.status !== 0) process.exit(build.status ?? 1);
+
+const electronVersion = require('electron/package.json').version;
+const builderCli = join(dirname(require.resolve('electron-builder/package.json')), 'cli.js');
+const builder = spawn(process.execPath, [builderCli, '--config', 'electron-builder.json', '--publish', 'never', ...process.argv.slice(2)], {
+  stdio: ['ignore', 'pipe', 'pipe'],
+});
+// Its progress goes to the terminal as it comes (packaging takes minutes); its errors are kept, to
+// be said in one line when they are a failed download or shown whole otherwise.
+let output = '';
+builder.stdout.on('data', (chunk) => {
+  process.stdout.write(chunk);
+  output = (output + chunk).slice(-500_000);
+});
+builder.stderr.on('data', (chunk) => {
+  output = (output + chunk).slice(-500_000);
+});
+builder.on('exit', (code) => {
+  if (code === 0) {
+    console.log('Packages are in dist/.');
+    process.exit(0);
+  }
+  const oneLine = packagingFailure(output, electronVersion);
+  if (oneLine) console.error(oneLine);
+  else {
+    process.stderr.write(output);
+    console.error(`electron-builder stopped (exit status ${code}); what it said is above.`);
+  }
+  process.exit(code || 1);
+});

@@ -1,0 +1,223 @@
+// A stand-in for the `electron` module, for running the built main bundle (out/main/index.js) in
+// Node where the Electron binary cannot be had. It does what the app asks and records it, so a test
+// can read which handlers were registered, call them as Electron would, and see the dialogs shown.
+//
+// Each export is typed from Electron's own definitions (Pick<Electron.App, …> and so on): a name the
+// stand-in offers that Electron does not have fails to compile, and an API the app calls that the
+// stand-in lacks fails the test that reaches it. Test files import it again after vi.resetModules(),
+// so every start of the bundle gets a fresh Electron.
+
+import type * as Electron from 'electron';
+import { readFile } from 'node:fs/promises';
+import { fileURLToPath } from 'node:url';
+
+// Electron's listener signatures differ per event; the stand-in stores them untyped and the tests
+// call them with the arguments Electron documents for each event.
+type Listener = (...args: any[]) => unknown;
+
+class Events {
+  private readonly listeners = new Map<string, Listener[]>();
+  add(event: string, listener: Listener): void {
+    this.listeners.set(event, [...(this.listeners.get(event) ?? []), listener]);
+  }
+  emit(event: string, ...args: unknown[]): void {
+    for (const listener of this.listeners.get(event) ?? []) listener(...args);
+  }
+  count(event: string): number {
+    return this.listeners.get(event)?.length ?? 0;
+  }
+}
+
+export interface StandInOptions {
+  /** What app.getPath('userData') answers: the station's data folder. */
+  userData: string;
+  /** What app.requestSingleInstanceLock() answers: false when another Trimbench holds the lock. */
+  singleInstanceLock?: boolean;
+}
+
+let options: StandInOptions = { userData: '/nonexistent' };
+let markReady: () => void = () => undefined;
+const ready = new Promise<void>((resolve) => (markReady = resolve));
+const appEvents = new Events();
+
+/** A frame of a page: the app's top frame, or one inside it. */
+export interface FrameStandIn {
+  readonly url: string;
+}
+
+export class WebContentsStandIn {
+  readonly events = new Events();
+  readonly mainFrame: FrameStandIn;
+  windowOpenHandler: ((details: Electron.HandlerDetails) => Electron.WindowOpenHandlerResponse) | null = null;
+  readonly printToPdfCalls: Electron.PrintToPDFOptions[] = [];
+  readonly printCalls: Electron.WebContentsPrintOptions[] = [];
+
+  constructor(url: string) {
+    this.mainFrame = { url };
+  }
+  on(event: string, listener: Listener): this {
+    this.events.add(event, listener);
+    return this;
+  }
+  setWindowOpenHandler(handler: (details: Electron.HandlerDetails) => Electron.WindowOpenHandlerResponse): void {
+    this.windowOpenHandler = handler;
+  }
+  printToPDF(pdfOptions: Electron.PrintToPDFOptions): Promise<Buffer> {
+    this.printToPdfCalls.push(pdfOptions);
+    return Promise.resolve(Buffer.from('%PDF-1.7 stand-in'));
+  }
+  print(printOptions: Electron.WebContentsPrintOptions, callback: (success: boolean, failureReason: string) => void): void {
+    this.printCalls.push(printOptions);
+    callback(false, 'cancelled');
+  }
+  /** A navigation the page starts, as Electron emits it: true when the app lets it happen. */
+  navigate(url: string): boolean {
+    let prevented = false;
+    this.events.emit('will-navigate', { preventDefault: () => (prevented = true), url }, url);
+    return !prevented;
+  }
+  /** A <webview> the page tries to attach: true when the app lets it. */
+  attachWebview(): boolean {
+    let prevented = false;
+    this.events.emit('will-attach-webview', { preventDefault: () => (prevented = true) }, {}, {});
+    return !prevented;
+  }
+}
+
+// Compile-time check only: the window and contents stand-ins offer Electron's names with Electron's signatures.
+type WindowApi = Pick<Electron.BrowserWindow, 'loadURL' | 'isMinimized' | 'restore' | 'focus'>;
+type ContentsApi = Pick<Electron.WebContents, 'setWindowOpenHandler' | 'printToPDF' | 'print'>;
+
+export class BrowserWindow implements WindowApi {
+  static readonly created: BrowserWindow[] = [];
+  static getAllWindows(): BrowserWindow[] {
+    return [...BrowserWindow.created];
+  }
+  static fromWebContents(contents: unknown): BrowserWindow | null {
+    return BrowserWindow.created.find((window) => window.webContents === contents) ?? null;
+  }
+
+  readonly webContents: WebContentsStandIn & ContentsApi;
+  readonly loadedUrls: string[] = [];
+  focusCount = 0;
+  readonly options: Electron.BrowserWindowConstructorOptions;
+
+  constructor(options: Electron.BrowserWindowConstructorOptions = {}) {
+    this.options = options;
+    this.webContents = new WebContentsStandIn('about:blank');
+    BrowserWindow.created.push(this);
+    // Electron announces every new web contents, a window's too, before anything loads in it.
+    appEvents.emit('web-contents-created', {}, this.webContents);
+  }
+  loadURL(url: string): Promise<void> {
+    this.loadedUrls.push(url);
+    return Promise.resolve();
+  }
+  isMinimized(): boolean {
+    return false;
+  }
+  restore(): void {}
+  focus(): void {
+    this.focusCount += 1;
+  }
+}
+
+export const app: Pick<Electron.App, 'requestSingleInstanceLock' | 'quit' | 'on' | 'whenReady' | 'getPath'> = {
+  requestSingleInstanceLock: () => options.singleInstanceLock ?? true,
+  quit: () => {
+    recorded.quitCalls += 1;
+  },
+  on: ((event: string, listener: Listener) => {
+    appEvents.add(event, listener);
+    return app;
+  }) as Electron.App['on'],
+  whenReady: () => ready,
+  getPath: (name) => {
+    if (name !== 'userData') throw new Error(`stand-in: app.getPath('${name}') is not expected of Trimbench`);
+    return options.userData;
+  },
+};
+
+type PermissionRequestHandler = Parameters<Electron.Session['setPermissionRequestHandler']>[0];
+type PermissionCheckHandler = Parameters<Electron.Session['setPermissionCheckHandler']>[0];
+
+/** What the app asked of Electron. */
+export const recorded = {
+  quitCalls: 0,
+  privilegedSchemes: [] as Electron.CustomScheme[],
+  protocolHandlers: new Map<string, (request: Request) => Response | Promise<Response>>(),
+  ipcHandlers: new Map<string, (event: Electron.IpcMainInvokeEvent, ...args: unknown[]) => unknown>(),
+  errorBoxes: [] as { title: string; content: string }[],
+  openDialogs: [] as Electron.OpenDialogOptions[],
+  permissionRequestHandler: null as PermissionRequestHandler,
+  permissionCheckHandler: null as PermissionCheckHandler,
+};
+
+export const protocol: Pick<Electron.Protocol, 'registerSchemesAsPrivileged' | 'handle'> = {
+  registerSchemesAsPrivileged: (schemes) => {
+    recorded.privilegedSchemes.push(...schemes);
+  },
+  handle: (scheme, handler) => {
+    if (recorded.protocolHandlers.has(scheme)) throw new Error(`stand-in: a second handler for ${scheme}: (Electron refuses it too)`);
+    recorded.protocolHandlers.set(scheme, handler as (request: Request) => Response | Promise<Response>);
+  },
+};
+
+export const ipcMain: Pick<Electron.IpcMain, 'handle'> = {
+  handle: (channel, listener) => {
+    // Electron throws on a second handler for a channel: so does the stand-in.
+    if (recorded.ipcHandlers.has(channel)) throw new Error(`Attempted to register a second handler for '${channel}'`);
+    recorded.ipcHandlers.set(channel, listener);
+  },
+};
+
+export const dialog: Pick<Electron.Dialog, 'showErrorBox' | 'showOpenDialog'> = {
+  showErrorBox: (title, content) => {
+    recorded.errorBoxes.push({ title, content });
+  },
+  showOpenDialog: ((...args: unknown[]) => {
+    recorded.openDialogs.push(args.at(-1) as Electron.OpenDialogOptions);
+    return Promise.resolve({ canceled: true, filePaths: [] });
+  }) as Electron.Dialog['showOpenDialog'],
+};
+
+export const net: Pick<Electron.Net, 'fetch'> = {
+  // The app fetches only its own files; anything else would be the network, which a test never reaches.
+  fetch: async (input) => {
+    const url = typeof input === 'string' ? input : input.url;
+    if (!url.startsWith('file:')) throw new Error(`stand-in: net.fetch(${url}) would leave this machine`);
+    return new Response(await readFile(fileURLToPath(url)), { status: 200 });
+  },
+};
+
+export const session: { defaultSession: Pick<Electron.Session, 'setPermissionRequestHandler' | 'setPermissionCheckHandler'> } = {
+  defaultSession: {
+    setPermissionRequestHandler: (handler) => {
+      recorded.permissionRequestHandler = handler;
+    },
+    setPermissionCheckHandler: (handler) => {
+      recorded.permissionCheckHandler = handler;
+    },
+  },
+};
+
+/** How a test drives the stand-in: its answers before the bundle starts, then Electron's events. */
+export const control = {
+  configure(given: StandInOptions): void {
+    options = given;
+  },
+  /** Electron is ready: resolves app.whenReady() and lets what the app chained on it run. */
+  async ready(): Promise<void> {
+    markReady();
+    for (let i = 0; i < 5; i++) await new Promise((resolve) => setImmediate(resolve));
+  },
+  emitApp(event: string, ...args: unknown[]): void {
+    appEvents.emit(event, ...args);
+  },
+  appListenerCount(event: string): number {
+    return appEvents.count(event);
+  },
+  windows(): BrowserWindow[] {
+    return BrowserWindow.getAllWindows();
+  },
+};

@@ -1,0 +1,303 @@
+// The main process as shipped: the built bundle out/main/index.js (as electron-vite emits it) run in
+// Node against the Electron stand-in (vitest.config.ts maps `electron` to it for this project). Each
+// test starts the bundle afresh, plays Electron's part (ready, a frame calling, a page navigating)
+// and reads what the app asked of Electron. The rules checked are those of Electron's security
+// checklist (electronjs.org/docs/latest/tutorial/security: context isolation, sandbox, no Node in the
+// page, a CSP, no navigation, no new windows, permission requests handled, IPC senders validated,
+// a custom protocol instead of file://) and its single-instance lock (app.requestSingleInstanceLock).
+
+import { afterEach, describe, expect, it, vi } from 'vitest';
+import { existsSync, mkdtempSync, readdirSync, readFileSync, rmSync, writeFileSync, mkdirSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import type * as Electron from 'electron';
+import { IPC_CHANNELS, ipcChannelName } from '../../shared/ipc/channels.ts';
+
+const BUNDLE = fileURLToPath(new URL('../../out/main/index.js', import.meta.url));
+const RENDERER = fileURLToPath(new URL('../../out/renderer/', import.meta.url));
+const PRELOAD = fileURLToPath(new URL('../../out/preload/index.cjs', import.meta.url));
+const APP_PAGE = 'trimbench://app/index.html';
+
+type StandIn = typeof import('./electron-stand-in.ts');
+
+const folders: string[] = [];
+let started: StandIn | null = null;
+
+function freshFolder(): string {
+  const folder = mkdtempSync(join(tmpdir(), 'trimbench-main-'));
+  folders.push(folder);
+  return folder;
+}
+
+/** Loads the built bundle as Electron would at launch, with a fresh stand-in answering `options`. */
+async function launch(options: { userData: string; singleInstanceLock?: boolean }): Promise<StandIn> {
+  if (!existsSync(BUNDLE)) throw new Error('out/main/index.js is missing: run `npm run build` first (npm test does).');
+  vi.resetModules();
+  const electron: StandIn = await import('./electron-stand-in.ts');
+  electron.control.configure(options);
+  await import(/* @vite-ignore */ BUNDLE);
+  started = electron;
+  return electron;
+}
+
+/** Launches with a fresh data folder and lets Electron become ready. */
+async function startedApp(): Promise<{ electron: StandIn; userData: string }> {
+  const userData = join(freshFolder(), 'trimbench');
+  const electron = await launch({ userData });
+  await electron.control.ready();
+  return { electron, userData };
+}
+
+afterEach(() => {
+  // Quitting closes the station (its database and the data folder's lock) before the folder goes.
+  started?.control.emitApp('will-quit', { preventDefault: () => undefined });
+  started = null;
+  for (const folder of folders.splice(0)) rmSync(folder, { recursive: true, force: true });
+});
+
+/** An IPC call as Electron delivers it: from the page's top frame unless another frame is named. */
+function invoke(electron: StandIn, channel: string, payload: unknown, from: { frameUrl?: string; topFrame?: boolean } = {}) {
+  const handler = electron.recorded.ipcHandlers.get(channel);
+  if (!handler) throw new Error(`no handler for ${channel}`);
+  const window = electron.control.windows()[0]!;
+  const sender = window.webContents;
+  const topFrame = { url: from.frameUrl ?? APP_PAGE };
+  const senderFrame = from.topFrame === false ? { url: from.frameUrl ?? APP_PAGE } : topFrame;
+  (sender as { mainFrame: unknown }).mainFrame = topFrame;
+  return handler({ sender, senderFrame } as unknown as Electron.IpcMainInvokeEvent, payload) as Promise<{ ok: boolean; value?: unknown; error?: { name: string; message: string } }>;
+}
+
+function serve(electron: StandIn, url: string): Promise<Response> {
+  const handler = electron.recorded.protocolHandlers.get('trimbench');
+  if (!handler) throw new Error('the trimbench: scheme has no handler');
+  return Promise.resolve(handler(new Request(url)));
+}
+
+describe('the main process at start', () => {
+  it('opens one sandboxed window on the app page, with the preload and no Node in the page', async () => {
+    const { electron } = await startedApp();
+    const windows = electron.control.windows();
+    expect(windows).toHaveLength(1);
+    const prefs = windows[0]!.options.webPreferences!;
+    // Checklist: context isolation on, the renderer sandboxed, no Node integration, web security kept.
+    expect(prefs.contextIsolation).toBe(true);
+    expect(prefs.sandbox).toBe(true);
+    expect(prefs.nodeIntegration).toBe(false);
+    expect(prefs.webSecurity).not.toBe(false);
+    expect(prefs.preload).toBe(PRELOAD);
+    expect(existsSync(prefs.preload!)).toBe(true);
+    // Checklist: the app is loaded from its own privileged scheme, never from file://.
+    expect(windows[0]!.loadedUrls).toEqual([APP_PAGE]);
+    expect(electron.recorded.privilegedSchemes.map((s) => s.scheme)).toEqual(['trimbench']);
+    expect(electron.recorded.errorBoxes).toEqual([]);
+  });
+
+  it('opens the station in the data folder with the demo procedure ready, as a first start does', async () => {
+    const { electron, userData } = await startedApp();
+    const station = await invoke(electron, ipcChannelName('describeStation'), {});
+    expect(station.ok).toBe(true);
+    expect((station.value as { databasePath: string; recordsProblem: string | null }).databasePath).toBe(join(userData, 'trimbench.sqlite'));
+    expect((station.value as { recordsProblem: string | null }).recordsProblem).toBeNull();
+    const procedures = await invoke(electron, ipcChannelName('listProcedures'), {});
+    const codes = (procedures.value as { definition: { model: { code: string } } }[]).map((p) => p.definition.model.code);
+    expect(codes).toContain('MG-20');
+  });
+
+  it('a second instance hands over to the first and quits before it opens the station database', async () => {
+    const userData = join(freshFolder(), 'trimbench');
+    const electron = await launch({ userData, singleInstanceLock: false });
+    await electron.control.ready();
+    expect(electron.recorded.quitCalls).toBe(1);
+    // Nothing was set up: no scheme, no handlers, no window, and no file in (or folder for) the data.
+    expect(electron.recorded.protocolHandlers.size).toBe(0);
+    expect(electron.recorded.ipcHandlers.size).toBe(0);
+    expect(electron.control.windows()).toHaveLength(0);
+    expect(existsSync(userData) ? readdirSync(userData) : []).toEqual([]);
+  });
+
+  it('the first instance comes to the front when a second one is started', async () => {
+    const { electron } = await startedApp();
+    electron.control.emitApp('second-instance', {}, [], '/');
+    expect(electron.control.windows()[0]!.focusCount).toBe(1);
+  });
+});
+
+describe('IPC', () => {
+  it('registers every contract channel once, and each reaches the contract’s dispatcher', async () => {
+    const { electron } = await startedApp();
+    expect([...electron.recorded.ipcHandlers.keys()].sort()).toEqual(IPC_CHANNELS.map(ipcChannelName).sort());
+    for (const channel of IPC_CHANNELS) {
+      // A payload no request of the contract accepts: the dispatcher's refusal, in its words, proves the route.
+      const result = await invoke(electron, ipcChannelName(channel), 42);
+      expect(result.ok, channel).toBe(false);
+      expect(result.error?.name, channel).toBe('InvalidRequest');
+      expect(result.error?.message, channel).toMatch(/^The request to .+ was refused: /);
+    }
+  });
+
+  it('refuses a call from a frame inside the page, or from a page that is not the app’s, before it is read', async () => {
+    const { electron } = await startedApp();
+    const read = async () => ((await invoke(electron, ipcChannelName('getStationCalibration'), {})).value as { settings: { stationName: string } }).settings;
+    const before = await read();
+    // A request main would accept from the app's top frame: only its sender is wrong.
+    const takeOver = { ...before, stationName: 'taken over' };
+    for (const from of [
+      { frameUrl: APP_PAGE, topFrame: false },
+      { frameUrl: 'https://example.com/', topFrame: true },
+      { frameUrl: 'file:///etc/passwd', topFrame: true },
+    ]) {
+      const result = await invoke(electron, ipcChannelName('saveStationSettings'), takeOver, from);
+      expect(result.ok).toBe(false);
+      expect(result.error?.name).toBe('Forbidden');
+    }
+    expect(await read()).toEqual(before);
+    // The same request from the app's top frame is taken.
+    expect((await invoke(electron, ipcChannelName('saveStationSettings'), takeOver)).ok).toBe(true);
+    expect((await read()).stationName).toBe('taken over');
+  });
+});
+
+describe('the app’s scheme', () => {
+  it('serves the built renderer’s files, the page at the root', async () => {
+    const { electron } = await startedApp();
+    const page = await serve(electron, APP_PAGE);
+    expect(page.status).toBe(200);
+    expect(await page.text()).toBe(readFileSync(join(RENDERER, 'index.html'), 'utf8'));
+    expect(await (await serve(electron, 'trimbench://app/')).text()).toBe(readFileSync(join(RENDERER, 'index.html'), 'utf8'));
+    const asset = readdirSync(join(RENDERER, 'assets')).find((name) => name.endsWith('.js'))!;
+    expect((await serve(electron, `trimbench://app/assets/${asset}`)).status).toBe(200);
+  });
+
+  it('refuses every path outside the renderer folder, malformed escapes and other hosts, without throwing', async () => {
+    const { electron } = await startedApp();
+    // Each names a file that exists outside out/renderer (the repository's package.json) or is not a file.
+    expect(existsSync(join(RENDERER, '..', '..', 'package.json'))).toBe(true);
+    const refused = [
+      'trimbench://app/..%2F..%2Fpackage.json',
+      'trimbench://app/%2e%2e%2f%2e%2e%2fpackage.json',
+      'trimbench://app/assets/..%2F..%2F..%2Fpackage.json',
+      'trimbench://app/%2F..%2F..%2Fpackage.json',
+      'trimbench://app/%252e%252e/%252e%252e/package.json',
+      'trimbench://app/..%5C..%5Cpackage.json',
+      'trimbench://app/index.html%00.png',
+      'trimbench://app/%',
+      'trimbench://app/%E0%A4%A',
+      'trimbench://app/%zz',
+      'trimbench://app/assets',
+      'trimbench://app/no-such-file.js',
+      'trimbench://other/index.html',
+      'trimbench://app.example.com/index.html',
+    ];
+    for (const url of refused) {
+      const response = await serve(electron, url);
+      expect(response.status, url).toBe(404);
+      expect(await response.text(), url).toBe('Not found');
+    }
+  });
+
+  it('sends the Content-Security-Policy on every response, refusals too, with no inline script or style', async () => {
+    const { electron } = await startedApp();
+    const meta = /http-equiv="Content-Security-Policy"\s+content="([^"]+)"/.exec(readFileSync(join(RENDERER, 'index.html'), 'utf8'))?.[1];
+    for (const url of [APP_PAGE, 'trimbench://app/%', 'trimbench://app/..%2Fx', 'trimbench://other/']) {
+      const policy = (await serve(electron, url)).headers.get('content-security-policy');
+      expect(policy, url).toBe(meta);
+    }
+    // CSP Level 3 (W3C): only the app's own scripts and styles; no inline code, no eval, no plugins.
+    expect(meta).toMatch(/(^|; )script-src 'self'(;|$)/);
+    expect(meta).toMatch(/(^|; )style-src 'self'(;|$)/);
+    expect(meta).toMatch(/(^|; )object-src 'none'(;|$)/);
+    expect(meta).not.toMatch(/unsafe-inline|unsafe-eval/);
+  });
+});
+
+describe('what the page may do', () => {
+  it('refuses navigation away from the app, every new window and every webview', async () => {
+    const { electron } = await startedApp();
+    const contents = electron.control.windows()[0]!.webContents;
+    expect(contents.navigate('https://example.com/')).toBe(false);
+    expect(contents.navigate('file:///etc/passwd')).toBe(false);
+    expect(contents.navigate('trimbench://other/index.html')).toBe(false);
+    expect(contents.navigate(APP_PAGE)).toBe(true);
+    const open = contents.windowOpenHandler!;
+    for (const url of ['https://example.com/', APP_PAGE]) {
+      expect(open({ url, frameName: '', features: '', disposition: 'new-window', referrer: { url: '', policy: 'default' } } as Electron.HandlerDetails)).toEqual({ action: 'deny' });
+    }
+    expect(contents.attachWebview()).toBe(false);
+    // Contents made later (a devtools or print view) are held to the same rules.
+    const later = new electron.BrowserWindow({}).webContents;
+    expect(later.navigate('https://example.com/')).toBe(false);
+  });
+
+  it('grants the microphone for audio only, and only to the app page; nothing else', async () => {
+    const { electron } = await startedApp();
+    const request = electron.recorded.permissionRequestHandler!;
+    const ask = (permission: string, requestingUrl: string, mediaTypes?: string[]) =>
+      new Promise<boolean>((resolve) =>
+        request({} as Electron.WebContents, permission as 'media', resolve, { requestingUrl, isMainFrame: true, mediaTypes } as unknown as Electron.MediaAccessPermissionRequest),
+      );
+    expect(await ask('media', APP_PAGE, ['audio'])).toBe(true);
+    expect(await ask('media', APP_PAGE, ['video'])).toBe(false);
+    expect(await ask('media', APP_PAGE, ['audio', 'video'])).toBe(false);
+    expect(await ask('media', APP_PAGE, [])).toBe(false);
+    expect(await ask('media', APP_PAGE)).toBe(false);
+    expect(await ask('media', 'https://example.com/', ['audio'])).toBe(false);
+    for (const permission of ['geolocation', 'notifications', 'clipboard-read', 'openExternal', 'fullscreen', 'hid', 'serial', 'usb']) {
+      expect(await ask(permission, APP_PAGE, ['audio']), permission).toBe(false);
+    }
+    const check = electron.recorded.permissionCheckHandler!;
+    expect(check(null, 'media', 'trimbench://app', {} as Electron.PermissionCheckHandlerHandlerDetails)).toBe(true);
+    expect(check(null, 'media', 'https://example.com', {} as Electron.PermissionCheckHandlerHandlerDetails)).toBe(false);
+    expect(check(null, 'geolocation', 'trimbench://app', {} as Electron.PermissionCheckHandlerHandlerDetails)).toBe(false);
+  });
+});
+
+describe('a start that cannot go on', () => {
+  it('a data folder that cannot be made: one dialog naming it and what to do, then the app quits without a window', async () => {
+    const blocker = join(freshFolder(), 'not-a-folder');
+    writeFileSync(blocker, 'a file where the data folder’s parent should be');
+    const userData = join(blocker, 'trimbench');
+    const electron = await launch({ userData });
+    await electron.control.ready();
+    expect(electron.recorded.errorBoxes).toHaveLength(1);
+    const [box] = electron.recorded.errorBoxes;
+    expect(box!.title).toBe('Trimbench cannot start');
+    expect(box!.content).toContain(userData);
+    expect(box!.content).toMatch(/writable.*start Trimbench again/);
+    expect(electron.recorded.quitCalls).toBe(1);
+    expect(electron.control.windows()).toHaveLength(0);
+    expect(electron.recorded.ipcHandlers.size).toBe(0);
+  });
+
+  it('damaged station settings: one dialog naming the file and what to do, then the app quits', async () => {
+    const userData = join(freshFolder(), 'trimbench');
+    mkdirSync(userData);
+    const settings = join(userData, 'station-settings.json');
+    writeFileSync(settings, '{"format": "trimbench-station-settings", "version": 1, "settings": {');
+    const electron = await launch({ userData });
+    await electron.control.ready();
+    expect(electron.recorded.errorBoxes).toHaveLength(1);
+    expect(electron.recorded.errorBoxes[0]!.content).toContain(settings);
+    expect(electron.recorded.errorBoxes[0]!.content).toMatch(/Restore it from the backups folder/);
+    expect(electron.recorded.quitCalls).toBe(1);
+    expect(electron.control.windows()).toHaveLength(0);
+    // The damaged file is left as it was, for whoever restores it.
+    expect(readFileSync(settings, 'utf8')).toBe('{"format": "trimbench-station-settings", "version": 1, "settings": {');
+  });
+
+  it('a damaged database: the window opens to read what is there, and names the file and what to do', async () => {
+    const userData = join(freshFolder(), 'trimbench');
+    mkdirSync(userData);
+    const database = join(userData, 'trimbench.sqlite');
+    // Not an SQLite file (its header is the 16 bytes "SQLite format 3\0": sqlite.org/fileformat.html).
+    writeFileSync(database, Buffer.alloc(8192, 0x5a));
+    const electron = await launch({ userData });
+    await electron.control.ready();
+    expect(electron.recorded.errorBoxes).toEqual([]);
+    const station = await invoke(electron, ipcChannelName('describeStation'), {});
+    const problem = (station.value as { recordsProblem: string | null }).recordsProblem;
+    expect(problem).toContain(database);
+    expect(problem).toMatch(/Close Trimbench|restore|backup/i);
+    expect(readFileSync(database)).toEqual(Buffer.alloc(8192, 0x5a));
+  });
+});
