@@ -64,7 +64,8 @@ export class WebContentsStandIn {
   }
   printToPDF(pdfOptions: Electron.PrintToPDFOptions): Promise<Buffer> {
     this.printToPdfCalls.push(pdfOptions);
-    return Promise.resolve(Buffer.from('%PDF-1.7 stand-in'));
+    // What Chromium's output starts and ends with (ISO 32000-1, 7.5.2 and 7.5.5); main checks both.
+    return Promise.resolve(Buffer.from('%PDF-1.7\n% stand-in for the page as Chromium prints it\n%%EOF\n'));
   }
   print(printOptions: Electron.WebContentsPrintOptions, callback: (success: boolean, failureReason: string) => void): void {
     this.printCalls.push(printOptions);
@@ -148,7 +149,8 @@ export const recorded = {
   protocolHandlers: new Map<string, (request: Request) => Response | Promise<Response>>(),
   ipcHandlers: new Map<string, (event: Electron.IpcMainInvokeEvent, ...args: unknown[]) => unknown>(),
   errorBoxes: [] as { title: string; content: string }[],
-  openDialogs: [] as Electron.OpenDialogOptions[],
+  /** Each open dialog with the window it was shown over (null: none). */
+  openDialogs: [] as { window: unknown; options: Electron.OpenDialogOptions }[],
   permissionRequestHandler: null as PermissionRequestHandler,
   permissionCheckHandler: null as PermissionCheckHandler,
 };
@@ -176,8 +178,10 @@ export const dialog: Pick<Electron.Dialog, 'showErrorBox' | 'showOpenDialog'> = 
     recorded.errorBoxes.push({ title, content });
   },
   showOpenDialog: ((...args: unknown[]) => {
-    recorded.openDialogs.push(args.at(-1) as Electron.OpenDialogOptions);
-    return Promise.resolve({ canceled: true, filePaths: [] });
+    recorded.openDialogs.push({ window: args.length > 1 ? args[0] : null, options: args.at(-1) as Electron.OpenDialogOptions });
+    const chosen = control.nextChosenFile;
+    control.nextChosenFile = null;
+    return Promise.resolve(chosen === null ? { canceled: true, filePaths: [] } : { canceled: false, filePaths: [chosen] });
   }) as Electron.Dialog['showOpenDialog'],
 };
 
@@ -203,6 +207,8 @@ export const session: { defaultSession: Pick<Electron.Session, 'setPermissionReq
 
 /** How a test drives the stand-in: its answers before the bundle starts, then Electron's events. */
 export const control = {
+  /** The file the technician picks in the next open dialog; null cancels it. */
+  nextChosenFile: null as string | null,
   configure(given: StandInOptions): void {
     options = given;
   },

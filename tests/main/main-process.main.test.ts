@@ -301,3 +301,52 @@ describe('a start that cannot go on', () => {
     expect(readFileSync(database)).toEqual(Buffer.alloc(8192, 0x5a));
   });
 });
+
+describe('what main does for the page with Electron', () => {
+  it('imports a procedure through its own file dialog, shown over the app’s window', async () => {
+    const { electron } = await startedApp();
+    const procedureFile = fileURLToPath(new URL('../../resources/procedures/mg20-lf-trim.json', import.meta.url));
+    // Cancelled: nothing imported.
+    expect(await invoke(electron, ipcChannelName('importProcedure'), {})).toMatchObject({ ok: true, value: { outcome: 'cancelled' } });
+    electron.control.nextChosenFile = procedureFile;
+    const imported = await invoke(electron, ipcChannelName('importProcedure'), {});
+    expect(imported, JSON.stringify(imported.error)).toMatchObject({ ok: true, value: { outcome: 'stored' } });
+    expect(electron.recorded.openDialogs).toHaveLength(2);
+    const [dialog] = electron.recorded.openDialogs;
+    expect(dialog!.window).toBe(electron.control.windows()[0]);
+    expect(dialog!.options.properties).toEqual(['openFile']);
+    expect(dialog!.options.filters).toEqual([{ name: 'Procedure (JSON)', extensions: ['json'] }]);
+    const revisions = (await invoke(electron, ipcChannelName('listProcedureRevisions'), {})).value as { revision: string; current: boolean }[];
+    expect(revisions.filter((r) => r.current).map((r) => r.revision)).toEqual(['E']);
+  });
+
+  it('saves the unit sheet through printToPDF on A4 with the margins in inches, and prints through the system dialog', async () => {
+    const { electron, userData } = await startedApp();
+    const [procedure] = (await invoke(electron, ipcChannelName('listProcedures'), {})).value as { id: number }[];
+    const opened = await invoke(electron, ipcChannelName('openRun'), { serial: 'MG20-2611-0042', procedureId: procedure!.id, operator: 'A. Tester' });
+    expect(opened.ok, JSON.stringify(opened.error)).toBe(true);
+    const runId = (opened.value as { run: { id: number } }).run.id;
+    const finished = await invoke(electron, ipcChannelName('finishRun'), { runId, asFailure: true });
+    expect(finished.ok, JSON.stringify(finished.error)).toBe(true);
+
+    const saved = await invoke(electron, ipcChannelName('saveSheetPdf'), { runId });
+    expect(saved.ok, JSON.stringify(saved.error)).toBe(true);
+    const contents = electron.control.windows()[0]!.webContents;
+    expect(contents.printToPdfCalls).toHaveLength(1);
+    const pdf = contents.printToPdfCalls[0]!;
+    expect(pdf.pageSize).toBe('A4');
+    expect(pdf.printBackground).toBe(true);
+    expect(pdf.displayHeaderFooter).toBe(true);
+    // printToPDF takes inches (Electron's API); 1 inch is 25.4 mm exactly (international yard and pound, 1959).
+    const margins = pdf.margins as { top: number; bottom: number; left: number; right: number };
+    for (const side of ['top', 'bottom', 'left', 'right'] as const) expect(margins[side] * 25.4).toBeGreaterThanOrEqual(10);
+    expect(margins.left * 25.4).toBeCloseTo(15, 9);
+    const path = (saved.value as { path: string }).path;
+    expect(path.startsWith(join(userData, 'sheets'))).toBe(true);
+    expect(readFileSync(path, 'latin1').startsWith('%PDF-')).toBe(true);
+
+    const printed = await invoke(electron, ipcChannelName('printSheet'), { runId });
+    expect(printed).toEqual({ ok: true, value: { printed: false } });
+    expect(contents.printCalls).toEqual([{ silent: false, printBackground: true }]);
+  });
+});
