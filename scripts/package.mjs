@@ -25,12 +25,16 @@ const builderCli = join(dirname(require.resolve('electron-builder/package.json')
 const builder = spawn(process.execPath, [builderCli, '--config', 'electron-builder.json', '--publish', 'never', ...process.argv.slice(2)], {
   stdio: ['ignore', 'pipe', 'pipe'],
 });
-// Its progress goes to the terminal as it comes (packaging takes minutes); its errors are kept, to
-// be said in one line when they are a failed download or shown whole otherwise.
+// Its progress lines ("  • …") go to the terminal as they come (packaging takes minutes); anything
+// else (an error and its stack) is held back, to be said in one line when it is a failed download or
+// shown whole otherwise.
 let output = '';
+let pending = '';
 builder.stdout.on('data', (chunk) => {
-  process.stdout.write(chunk);
   output = (output + chunk).slice(-500_000);
+  const lines = (pending + chunk).split('\n');
+  pending = lines.pop() ?? '';
+  for (const line of lines) if (/^\s*•/.test(line)) process.stdout.write(`${line}\n`);
 });
 builder.stderr.on('data', (chunk) => {
   output = (output + chunk).slice(-500_000);

@@ -17,6 +17,7 @@ import { MM_PER_INCH, SHEET_PDF } from './sheet-pdf.ts';
 
 const APP_SCHEME = 'trimbench';
 const APP_ORIGIN = `${APP_SCHEME}://app`;
+const DATA_FOLDER_NAME = 'trimbench';
 const here = fileURLToPath(new URL('.', import.meta.url));
 const rendererDir = join(here, '../renderer');
 // Set by `electron-vite dev` to its dev server; absent in a built app.
@@ -45,7 +46,8 @@ function rendererFileFor(requestUrl: string): string | null {
   } catch {
     return null;
   }
-  if (url.host !== 'app' || pathname.includes('\0')) return null;
+  // No file of the build has a backslash or NUL in its name; on Windows a backslash would be a separator.
+  if (url.host !== 'app' || pathname.includes('\0') || pathname.includes('\\')) return null;
   const file = normalize(join(rendererDir, pathname === '/' ? 'index.html' : pathname));
   if (!file.startsWith(rendererDir + sep)) return null;
   try {
@@ -128,7 +130,37 @@ function registerIpc(handlers: ReturnType<typeof openStation>['handlers'], error
   }
 }
 
-function createWindow(): BrowserWindow {
+/** The window's page stopped or never loaded: say so with the log's reference, never leave a blank window. */
+function watchWindow(window: BrowserWindow, errorLog: ErrorLog): void {
+  window.webContents.on('render-process-gone', (_event, details) => {
+    if (details.reason === 'clean-exit') return;
+    const reference = errorLog.record('the window stopped', new Error(`renderer process gone: ${details.reason} (exit code ${details.exitCode})`));
+    const choice = dialog.showMessageBoxSync(window, {
+      type: 'error',
+      title: 'Trimbench window stopped',
+      message: 'The Trimbench window stopped working.',
+      detail: `Everything confirmed before it stopped is saved. Reload to go on, or quit and start Trimbench again; if it happens again, report it with ${errorLog.path} (reference ${reference}).`,
+      buttons: ['Reload', 'Quit'],
+      defaultId: 0,
+      cancelId: 1,
+      noLink: true,
+    });
+    if (choice === 0) window.reload();
+    else app.quit();
+  });
+  window.webContents.on('did-fail-load', (_event, errorCode, errorDescription, validatedUrl, isMainFrame) => {
+    // ERR_ABORTED (-3) is a navigation the app itself refused or replaced, not a failure to load.
+    if (!isMainFrame || errorCode === -3) return;
+    const reference = errorLog.record('loading the window', new Error(`${errorDescription} (${errorCode}) loading ${validatedUrl}`));
+    dialog.showErrorBox(
+      'Trimbench cannot start',
+      `The Trimbench window could not be loaded (${errorDescription}). Install Trimbench again; if it happens again, report it with ${errorLog.path} (reference ${reference}).`,
+    );
+    app.quit();
+  });
+}
+
+function createWindow(errorLog: ErrorLog): BrowserWindow {
   const window = new BrowserWindow({
     width: 1400,
     height: 900,
@@ -143,6 +175,7 @@ function createWindow(): BrowserWindow {
       spellcheck: false,
     },
   });
+  watchWindow(window, errorLog);
   void window.loadURL(devServerUrl ?? `${APP_ORIGIN}/index.html`);
   return window;
 }
@@ -160,6 +193,9 @@ function start(): void {
     if (process.platform !== 'darwin') app.quit();
   });
 
+  // The data folder is named after the package, as Electron names it for `npm start`: a product
+  // name a packager sets must not move a station's records to another folder.
+  app.setPath('userData', join(app.getPath('appData'), DATA_FOLDER_NAME));
   // The error log lives in the data folder; opened here too for a start that fails before the station is open.
   const dataDir = app.getPath('userData');
   const startupLog = openErrorLog(dataDir);
@@ -169,12 +205,32 @@ function start(): void {
     .then(() => {
       const station = openStation({ dataDir, stationName: hostname() });
       app.on('will-quit', () => station.close());
+      // Records that cannot be written (a damaged database, a read-only folder or disk): said before
+      // anything else, with the file and what to do. Quitting is the default; opening to read what is
+      // recorded stays possible, and the window then says the same at its top.
+      const problem = station.recordsProblem();
+      if (problem !== null) {
+        const choice = dialog.showMessageBoxSync({
+          type: 'error',
+          title: 'Trimbench cannot record',
+          message: 'Nothing can be recorded at this station.',
+          detail: problem,
+          buttons: ['Quit', 'Open to read only'],
+          defaultId: 0,
+          cancelId: 0,
+          noLink: true,
+        });
+        if (choice !== 1) {
+          app.quit();
+          return;
+        }
+      }
       serveRenderer();
       lockDownSessions();
       registerIpc(station.handlers, station.errorLog);
-      createWindow();
+      createWindow(station.errorLog);
       app.on('activate', () => {
-        if (BrowserWindow.getAllWindows().length === 0) createWindow();
+        if (BrowserWindow.getAllWindows().length === 0) createWindow(station.errorLog);
       });
     })
     .catch((error: unknown) => {

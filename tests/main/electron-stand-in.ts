@@ -29,13 +29,15 @@ class Events {
 }
 
 export interface StandInOptions {
-  /** What app.getPath('userData') answers: the station's data folder. */
-  userData: string;
+  /** What app.getPath('appData') answers; userData is under it, named as the app sets it. */
+  appData: string;
   /** What app.requestSingleInstanceLock() answers: false when another Trimbench holds the lock. */
   singleInstanceLock?: boolean;
 }
 
-let options: StandInOptions = { userData: '/nonexistent' };
+let options: StandInOptions = { appData: '/nonexistent' };
+/** Paths the app set with app.setPath. */
+const setPaths = new Map<string, string>();
 let markReady: () => void = () => undefined;
 const ready = new Promise<void>((resolve) => (markReady = resolve));
 const appEvents = new Events();
@@ -71,6 +73,10 @@ export class WebContentsStandIn {
     this.printCalls.push(printOptions);
     callback(false, 'cancelled');
   }
+  /** An event of these contents as Electron emits it (the first argument is Electron's event object). */
+  emit(event: string, ...args: unknown[]): void {
+    this.events.emit(event, { preventDefault: () => undefined }, ...args);
+  }
   /** A navigation the page starts, as Electron emits it: true when the app lets it happen. */
   navigate(url: string): boolean {
     let prevented = false;
@@ -86,7 +92,7 @@ export class WebContentsStandIn {
 }
 
 // Compile-time check only: the window and contents stand-ins offer Electron's names with Electron's signatures.
-type WindowApi = Pick<Electron.BrowserWindow, 'loadURL' | 'isMinimized' | 'restore' | 'focus'>;
+type WindowApi = Pick<Electron.BrowserWindow, 'loadURL' | 'isMinimized' | 'restore' | 'focus' | 'reload'>;
 type ContentsApi = Pick<Electron.WebContents, 'setWindowOpenHandler' | 'printToPDF' | 'print'>;
 
 export class BrowserWindow implements WindowApi {
@@ -101,6 +107,7 @@ export class BrowserWindow implements WindowApi {
   readonly webContents: WebContentsStandIn & ContentsApi;
   readonly loadedUrls: string[] = [];
   focusCount = 0;
+  reloadCount = 0;
   readonly options: Electron.BrowserWindowConstructorOptions;
 
   constructor(options: Electron.BrowserWindowConstructorOptions = {}) {
@@ -121,9 +128,12 @@ export class BrowserWindow implements WindowApi {
   focus(): void {
     this.focusCount += 1;
   }
+  reload(): void {
+    this.reloadCount += 1;
+  }
 }
 
-export const app: Pick<Electron.App, 'requestSingleInstanceLock' | 'quit' | 'on' | 'whenReady' | 'getPath'> = {
+export const app: Pick<Electron.App, 'requestSingleInstanceLock' | 'quit' | 'on' | 'whenReady' | 'getPath' | 'setPath'> = {
   requestSingleInstanceLock: () => options.singleInstanceLock ?? true,
   quit: () => {
     recorded.quitCalls += 1;
@@ -134,8 +144,15 @@ export const app: Pick<Electron.App, 'requestSingleInstanceLock' | 'quit' | 'on'
   }) as Electron.App['on'],
   whenReady: () => ready,
   getPath: (name) => {
-    if (name !== 'userData') throw new Error(`stand-in: app.getPath('${name}') is not expected of Trimbench`);
-    return options.userData;
+    const set = setPaths.get(name);
+    if (set !== undefined) return set;
+    if (name === 'appData') return options.appData;
+    // Electron names userData after the app's productName when a packager sets one.
+    if (name === 'userData') return `${options.appData}/Trimbench`;
+    throw new Error(`stand-in: app.getPath('${name}') is not expected of Trimbench`);
+  },
+  setPath: (name, path) => {
+    setPaths.set(name, path);
   },
 };
 
@@ -149,6 +166,7 @@ export const recorded = {
   protocolHandlers: new Map<string, (request: Request) => Response | Promise<Response>>(),
   ipcHandlers: new Map<string, (event: Electron.IpcMainInvokeEvent, ...args: unknown[]) => unknown>(),
   errorBoxes: [] as { title: string; content: string }[],
+  messageBoxes: [] as Electron.MessageBoxSyncOptions[],
   /** Each open dialog with the window it was shown over (null: none). */
   openDialogs: [] as { window: unknown; options: Electron.OpenDialogOptions }[],
   permissionRequestHandler: null as PermissionRequestHandler,
@@ -173,10 +191,18 @@ export const ipcMain: Pick<Electron.IpcMain, 'handle'> = {
   },
 };
 
-export const dialog: Pick<Electron.Dialog, 'showErrorBox' | 'showOpenDialog'> = {
+export const dialog: Pick<Electron.Dialog, 'showErrorBox' | 'showOpenDialog' | 'showMessageBoxSync'> = {
   showErrorBox: (title, content) => {
     recorded.errorBoxes.push({ title, content });
   },
+  showMessageBoxSync: ((...args: unknown[]) => {
+    const box = args.at(-1) as Electron.MessageBoxSyncOptions;
+    recorded.messageBoxes.push(box);
+    // The technician's answer, or Enter on the box's default button.
+    const answer = control.nextMessageBoxButton ?? box.defaultId ?? 0;
+    control.nextMessageBoxButton = null;
+    return answer;
+  }) as Electron.Dialog['showMessageBoxSync'],
   showOpenDialog: ((...args: unknown[]) => {
     recorded.openDialogs.push({ window: args.length > 1 ? args[0] : null, options: args.at(-1) as Electron.OpenDialogOptions });
     const chosen = control.nextChosenFile;
@@ -209,6 +235,8 @@ export const session: { defaultSession: Pick<Electron.Session, 'setPermissionReq
 export const control = {
   /** The file the technician picks in the next open dialog; null cancels it. */
   nextChosenFile: null as string | null,
+  /** The button the technician presses in the next message box (its index); null presses its default. */
+  nextMessageBoxButton: null as number | null,
   configure(given: StandInOptions): void {
     options = given;
   },

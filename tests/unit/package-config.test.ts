@@ -24,7 +24,11 @@ function filesUnder(folder: string): string[] {
     .map((entry) => relative(ROOT, join(entry.parentPath, entry.name)).split(sep).join('/'));
 }
 
-/** electron-builder's "files" rule: a file is taken when the last pattern that matches it is not a negation. */
+/**
+ * A model of electron-builder's "files" rule, not electron-builder itself: a file is taken when the
+ * last pattern that matches it is not a negation (electron.build, "File Patterns"). electron-builder
+ * also adds package.json and the production node_modules on its own, which the next test covers.
+ */
 function packed(file: string): boolean {
   let taken = false;
   for (const pattern of config.files as string[]) {
@@ -84,13 +88,15 @@ describe('electron-builder.json', () => {
   });
 
   it('sets the fuses the security checklist advises', () => {
+    // Embedded asar integrity validation is left off until a signed Windows and macOS build has been
+    // tried with it: a package whose archive hash does not match exits at launch without a word.
+    expect(config.electronFuses.enableEmbeddedAsarIntegrityValidation).not.toBe(true);
     expect(config.electronFuses).toMatchObject({
       runAsNode: false,
       enableNodeOptionsEnvironmentVariable: false,
       enableNodeCliInspectArguments: false,
       enableCookieEncryption: true,
       onlyLoadAppFromAsar: true,
-      enableEmbeddedAsarIntegrityValidation: true,
       grantFileProtocolExtraPrivileges: false,
     });
   });
