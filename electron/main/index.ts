@@ -122,7 +122,9 @@ function registerIpc(handlers: ReturnType<typeof openStation>['handlers'], error
   for (const channel of IPC_CHANNELS) {
     ipcMain.handle(ipcChannelName(channel), (event: IpcMainInvokeEvent, payload: unknown) => {
       // Only our own page's top frame may call; an injected frame or foreign page may not.
-      if (!policy.allowIpcSender(event.senderFrame?.url, event.senderFrame === event.sender.mainFrame)) {
+      // The top frame is the one without a parent (WebFrameMain.parent), whichever object Electron hands over.
+      const frame = event.senderFrame;
+      if (!frame || !policy.allowIpcSender(frame.url, frame.parent === null)) {
         return { ok: false, error: { name: 'Forbidden', message: 'Request from outside the Trimbench page refused.' } };
       }
       return dispatch(handlers, channel, payload, callerContext(event.sender), errorLog);

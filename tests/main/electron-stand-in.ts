@@ -45,6 +45,8 @@ const appEvents = new Events();
 /** A frame of a page: the app's top frame, or one inside it. */
 export interface FrameStandIn {
   readonly url: string;
+  /** The frame this one is inside; null for a page's top frame (as WebFrameMain.parent). */
+  readonly parent: FrameStandIn | null;
 }
 
 export class WebContentsStandIn {
@@ -55,7 +57,7 @@ export class WebContentsStandIn {
   readonly printCalls: Electron.WebContentsPrintOptions[] = [];
 
   constructor(url: string) {
-    this.mainFrame = { url };
+    this.mainFrame = { url, parent: null };
   }
   on(event: string, listener: Listener): this {
     this.events.add(event, listener);

@@ -64,8 +64,8 @@ function invoke(electron: StandIn, channel: string, payload: unknown, from: { fr
   if (!handler) throw new Error(`no handler for ${channel}`);
   const window = electron.control.windows()[0]!;
   const sender = window.webContents;
-  const topFrame = { url: from.frameUrl ?? APP_PAGE };
-  const senderFrame = from.topFrame === false ? { url: from.frameUrl ?? APP_PAGE } : topFrame;
+  const topFrame = { url: from.topFrame === false ? APP_PAGE : (from.frameUrl ?? APP_PAGE), parent: null };
+  const senderFrame = from.topFrame === false ? { url: from.frameUrl ?? APP_PAGE, parent: topFrame } : topFrame;
   (sender as { mainFrame: unknown }).mainFrame = topFrame;
   return handler({ sender, senderFrame } as unknown as Electron.IpcMainInvokeEvent, payload) as Promise<{ ok: boolean; value?: unknown; error?: { name: string; message: string } }>;
 }
