@@ -299,6 +299,9 @@ describe('the demo procedure walked whole', () => {
     const sheetText = (await page.getByTestId('sheet-steps').textContent())!;
     for (const step of FILE.steps.slice(-3)) expect(sheetText).toContain(step.title.slice(0, 24));
     expect(sheetText).toContain('mg20-demo-scope-20khz.csv');
+    // The app saves the sheet through the page's own PDF print first; a second print of the same page
+    // while that one runs can stall Chromium, so the picture for a look is taken after it.
+    await expect.poll(() => page.getByTestId('sheet-pdf-path').textContent(), { timeout: 30_000 }).toMatch(/^Saved as /);
     await page.pdf({ path: '/tmp/walk-sheet.pdf', format: 'A4', printBackground: true });
     execFileSync('pdftoppm', ['-png', '-r', '80', '/tmp/walk-sheet.pdf', '/tmp/walk-sheet']);
   });
