@@ -107,7 +107,8 @@ function SteppedSine({ command, onChange, disabled }: { command: GeneratorComman
       }
       setProgress({ hz: steps.hz, index });
       onChange({ ...latest.current, frequencyHz: steps.hz[index], waveform: 'sine', on: true });
-      timer.current = setTimeout(() => play(index + 1), dwell * 1000);
+      // A mute that lands just before the dwell ends must not be undone by the next step.
+      timer.current = setTimeout(() => (latest.current.on ? play(index + 1) : stop()), dwell * 1000);
     };
     play(0);
   }

@@ -103,7 +103,7 @@ describe('the ringing step', () => {
     await expect.poll(() => page.getByTestId('stepped-progress').textContent(), POLL).toMatch(/^Step 2 of 3: 200 Hz/);
     await page.keyboard.press('Escape');
     await expect.poll(() => page.getByTestId('mute').isEnabled(), POLL).toBe(false);
-    expect(await page.getByTestId('stepped-progress').count()).toBe(0);
+    await expect.poll(() => page.getByTestId('stepped-progress').count(), POLL).toBe(0);
     await page.waitForTimeout(700);
     expect(await page.getByTestId('mute').isEnabled()).toBe(false);
 
