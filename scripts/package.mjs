@@ -6,18 +6,14 @@
 import { spawn, spawnSync } from 'node:child_process';
 import { createRequire } from 'node:module';
 import { dirname, join } from 'node:path';
-
+import { electronViteCli, exitUnlessSupportedNode } from './launch-tools.mjs';
 import { packagingFailure } from './packaging-failure.mjs';
 
 const require = createRequire(import.meta.url);
 
-const [major, minor] = process.versions.node.split('.').map(Number);
-if (major < 22 || (major === 22 && minor < 12)) {
-  console.error(`Trimbench needs Node 22.12 or newer to be packaged (this is ${process.version}); see DEVELOPERS.md for a one-line way to get it.`);
-  process.exit(1);
-}
+exitUnlessSupportedNode('to be packaged');
 
-const build = spawnSync(process.execPath, [join(dirname(require.resolve('electron-vite/package.json')), 'bin', 'electron-vite.js'), 'build'], { stdio: 'inherit' });
+const build = spawnSync(process.execPath, [electronViteCli(), 'build'], { stdio: 'inherit' });
 if (build.status !== 0) process.exit(build.status ?? 1);
 
 const electronVersion = require('electron/package.json').version;

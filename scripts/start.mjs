@@ -5,6 +5,7 @@ import { spawn, spawnSync } from 'node:child_process';
 import { existsSync, readFileSync } from 'node:fs';
 import { createRequire } from 'node:module';
 import { dirname, join } from 'node:path';
+import { electronViteCli, exitUnlessSupportedNode } from './launch-tools.mjs';
 
 const require = createRequire(import.meta.url);
 const electronDir = dirname(require.resolve('electron/package.json'));
@@ -15,11 +16,7 @@ function electronBinaryPresent() {
   return existsSync(join(electronDir, 'dist', readFileSync(pathFile, 'utf8').trim()));
 }
 
-const [major, minor] = process.versions.node.split('.').map(Number);
-if (major < 22 || (major === 22 && minor < 12)) {
-  console.error(`Trimbench needs Node 22.12 or newer (this is ${process.version}); see DEVELOPERS.md for a one-line way to get it.`);
-  process.exit(1);
-}
+exitUnlessSupportedNode('to run');
 
 if (!electronBinaryPresent()) {
   console.log('Fetching the Electron runtime (first start only)…');
@@ -40,7 +37,5 @@ if (!electronBinaryPresent()) {
   }
 }
 
-// electron-vite's package exports do not list its bin script; find it beside its package.json.
-const cli = join(dirname(require.resolve('electron-vite/package.json')), 'bin', 'electron-vite.js');
-const preview = spawn(process.execPath, [cli, 'preview'], { stdio: 'inherit' });
+const preview = spawn(process.execPath, [electronViteCli(), 'preview'], { stdio: 'inherit' });
 preview.on('exit', (code) => process.exit(code ?? 1));

@@ -23,9 +23,6 @@ class Events {
   emit(event: string, ...args: unknown[]): void {
     for (const listener of this.listeners.get(event) ?? []) listener(...args);
   }
-  count(event: string): number {
-    return this.listeners.get(event)?.length ?? 0;
-  }
 }
 
 export interface StandInOptions {
@@ -249,9 +246,6 @@ export const control = {
   },
   emitApp(event: string, ...args: unknown[]): void {
     appEvents.emit(event, ...args);
-  },
-  appListenerCount(event: string): number {
-    return appEvents.count(event);
   },
   windows(): BrowserWindow[] {
     return BrowserWindow.getAllWindows();

@@ -70,7 +70,7 @@ function projectLayout(): string {
   const root = mkdtempSync(join(ROOT, 'out', 'start-test-'));
   layouts.push(root);
   mkdirSync(join(root, 'scripts'));
-  copyFileSync(join(ROOT, 'scripts', 'start.mjs'), join(root, 'scripts', 'start.mjs'));
+  for (const file of ['start.mjs', 'launch-tools.mjs']) copyFileSync(join(ROOT, 'scripts', file), join(root, 'scripts', file));
   const electron = join(root, 'node_modules', 'electron');
   mkdirSync(electron, { recursive: true });
   for (const file of ['package.json', 'install.js', 'index.js', 'checksums.json']) copyFileSync(join(ELECTRON_PACKAGE, file), join(electron, file));
